@@ -1,0 +1,115 @@
+# pacemap - build, test, install.  See README.md for the two set-up commands.
+
+# ---- settings ---------------------------------------------------------------
+CC       ?= cc
+CXX      ?= g++
+PREFIX   ?= /usr/local
+BUILD    ?= build
+OPT      ?= -O2 -g
+WERROR   ?=
+SAN      ?=
+# -Wsign-conversion (implied by -Wconversion in C) is turned off: index
+# arithmetic mixes size_t and uint32_t everywhere and the warning would be
+# noise; -Wconversion still reports every narrowing.
+WARN     = -std=c11 -Wall -Wextra -Wshadow -Wconversion -Wno-sign-conversion \
+           -Wmissing-prototypes $(WERROR)
+CPPFLAGS += -Iinclude -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE
+CFLAGS   += $(OPT) $(WARN) $(SAN) -MMD -MP
+CXXFLAGS += -O2 -g -std=c++17 $(SAN)
+LDFLAGS  += $(SAN)
+LDLIBS   += -lhwloc -lpthread -lm
+DEBIAN_PACKAGES = build-essential pkg-config libcmocka-dev libhwloc-dev hwloc \
+           libboost-graph-dev glpk-utils python3 python3-networkx libfftw3-dev \
+           clang libclang-rt-dev graphviz
+
+# ---- sources ----------------------------------------------------------------
+CLI_SRC  := $(wildcard sim/main.c sim/cli*.c sim/cmd_*.c)
+LIB_SRC  := $(wildcard sched/*.c) $(filter-out $(CLI_SRC),$(wildcard sim/*.c))
+LIB_OBJ  := $(LIB_SRC:%.c=$(BUILD)/%.o)
+CLI_OBJ  := $(CLI_SRC:%.c=$(BUILD)/%.o)
+TEST_SRC := $(wildcard tests/test_*.c)
+TEST_BIN := $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
+TEST_LIB := $(wildcard tests/support/*.c)
+TEST_LIB_OBJ := $(TEST_LIB:%.c=$(BUILD)/%.o)
+HELPER_SRC := $(wildcard tests/helpers/*.cpp)
+HELPER_BIN := $(HELPER_SRC:tests/helpers/%.cpp=$(BUILD)/tests/helpers/%)
+FUZZ_SRC := $(wildcard tests/fuzz/fuzz_*.c)
+
+Q = @
+ifeq ($(V),1)
+Q =
+endif
+
+.PHONY: all test check-tests asan tsan bench deps demo install uninstall clean fuzz
+
+all: $(BUILD)/pacemap $(BUILD)/libpacemap.a
+
+$(BUILD)/%.o: %.c
+	@mkdir -p $(dir $@)
+	@echo "  CC      $<"
+	$(Q)$(CC) $(CPPFLAGS) $(CFLAGS) -c $< -o $@
+
+$(BUILD)/libpacemap.a: $(LIB_OBJ)
+	@echo "  AR      $@"
+	$(Q)rm -f $@ && ar rcs $@ $^
+
+$(BUILD)/pacemap: $(CLI_OBJ) $(BUILD)/libpacemap.a
+	@echo "  LD      $@"
+	$(Q)$(CC) $(LDFLAGS) $(CLI_OBJ) $(BUILD)/libpacemap.a $(LDLIBS) -o $@
+
+$(BUILD)/tests/%: tests/%.c $(BUILD)/libpacemap.a $(TEST_LIB_OBJ)
+	@mkdir -p $(dir $@)
+	@echo "  TEST    $<"
+	$(Q)$(CC) $(CPPFLAGS) -Itests $(CFLAGS) $< $(TEST_LIB_OBJ) $(BUILD)/libpacemap.a \
+	    $(LDFLAGS) -lcmocka $(LDLIBS) -o $@
+
+$(BUILD)/tests/helpers/%: tests/helpers/%.cpp
+	@mkdir -p $(dir $@)
+	@echo "  CXX     $<"
+	$(Q)$(CXX) $(CXXFLAGS) $< -o $@
+
+# The whole suite: cmocka binaries, then the outside-reference scripts.
+test: all $(TEST_BIN) $(HELPER_BIN)
+	$(Q)BUILD=$(BUILD) sh tests/run.sh
+
+# Same suite under AddressSanitizer + UndefinedBehaviorSanitizer.
+asan:
+	$(Q)$(MAKE) --no-print-directory BUILD=build-asan OPT="-O1 -g" \
+	    SAN="-fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all" test
+
+tsan:
+	$(Q)$(MAKE) --no-print-directory BUILD=build-tsan OPT="-O1 -g" \
+	    SAN="-fsanitize=thread" PM_TEST_FILTER=thread test
+
+bench: all $(HELPER_BIN)
+	$(Q)for s in tests/bench/bench_*.sh; do [ -f "$$s" ] || continue; \
+	    BUILD=$(BUILD) sh "$$s" || exit 1; done
+
+fuzz:
+	$(Q)sh tests/fuzz/run.sh $(or $(FUZZ_SECONDS),30)
+
+# Installs every Debian package the build, the tests and the references use.
+deps:
+	$(Q)if [ "$$(id -u)" = 0 ]; then SUDO=; else SUDO=sudo; fi; \
+	    $$SUDO apt-get update -qq && \
+	    DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq $(DEBIAN_PACKAGES)
+
+demo: all
+	$(Q)sh scenarios/demo.sh $(BUILD)/pacemap
+
+install: all
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/lib \
+	    $(DESTDIR)$(PREFIX)/include/pacemap $(DESTDIR)$(PREFIX)/lib/pkgconfig
+	install -m 755 $(BUILD)/pacemap $(DESTDIR)$(PREFIX)/bin/pacemap
+	install -m 644 $(BUILD)/libpacemap.a $(DESTDIR)$(PREFIX)/lib/libpacemap.a
+	install -m 644 include/pacemap/*.h $(DESTDIR)$(PREFIX)/include/pacemap/
+	sed -e 's|@PREFIX@|$(PREFIX)|g' pacemap.pc.in > $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc
+
+uninstall:
+	rm -rf $(DESTDIR)$(PREFIX)/bin/pacemap $(DESTDIR)$(PREFIX)/lib/libpacemap.a \
+	    $(DESTDIR)$(PREFIX)/include/pacemap $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc
+
+clean:
+	rm -rf build build-asan build-tsan build-fuzz
+
+-include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(TEST_LIB_OBJ:.o=.d)

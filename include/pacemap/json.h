@@ -1,0 +1,45 @@
+/*
+ * json.h - a small streaming JSON writer for machine output (--json).
+ *
+ * The writer tracks nesting and commas so callers only say what comes next.
+ * Output is deterministic: keys in the order written, integers exact,
+ * doubles with %.17g (or null when not finite).  Strings are escaped per
+ * RFC 8259.  The writer borrows the stream; nothing to free.
+ */
+#ifndef PACEMAP_JSON_H
+#define PACEMAP_JSON_H
+
+#include <stdbool.h>
+#include <stdint.h>
+#include <stdio.h>
+
+#include "pacemap/rational.h"
+
+#define PM_JSON_MAX_DEPTH 32
+
+typedef struct pm_json {
+    FILE *out;
+    int depth;
+    bool first[PM_JSON_MAX_DEPTH]; /* nothing written yet at this level */
+    bool after_key;
+    int indent;                    /* spaces per level; 0 = compact */
+} pm_json;
+
+void pm_json_init(pm_json *j, FILE *out, int indent);
+void pm_json_object_begin(pm_json *j);
+void pm_json_object_end(pm_json *j);
+void pm_json_array_begin(pm_json *j);
+void pm_json_array_end(pm_json *j);
+void pm_json_key(pm_json *j, const char *key);
+void pm_json_string(pm_json *j, const char *s);
+void pm_json_int(pm_json *j, int64_t v);
+void pm_json_uint(pm_json *j, uint64_t v);
+void pm_json_double(pm_json *j, double v);
+void pm_json_bool(pm_json *j, bool v);
+void pm_json_null(pm_json *j);
+/* {"num": N, "den": D, "value": X} (DESIGN §6) */
+void pm_json_rat(pm_json *j, pm_rat r);
+/* Ends the document with a newline. */
+void pm_json_finish(pm_json *j);
+
+#endif

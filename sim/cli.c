@@ -1,0 +1,197 @@
+/*
+ * cli.c - option parsing, error printing and scenario loading shared by
+ * every command of the pacemap program.
+ */
+#include "cli.h"
+
+#include "pacemap/reader.h"
+
+#include <errno.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+const char cli_caution[] =
+    "Caution: these are model results. Before relying on them in a product "
+    "with hard real-time duties that can harm people, validate on the target "
+    "hardware under your field's safety process and local regulations.";
+
+void cli_error(const pm_diag *d)
+{
+    fprintf(stderr, "%s:%u:%u: error: %s\n", d->file[0] ? d->file : "pacemap",
+            d->line, d->col, d->msg);
+}
+
+void cli_usage_error(const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fputs("pacemap: error: ", stderr);
+    vfprintf(stderr, fmt, ap);
+    fputc('\n', stderr);
+    va_end(ap);
+}
+
+void cli_warning(const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fputs("pacemap: warning: ", stderr);
+    vfprintf(stderr, fmt, ap);
+    fputc('\n', stderr);
+    va_end(ap);
+}
+
+int cli_exit_for(int err)
+{
+    if (err == PM_OK)
+        return CLI_EXIT_OK;
+    return err == PM_EINVAL ? CLI_EXIT_USAGE : CLI_EXIT_INPUT;
+}
+
+static void cli_help(const cli_cmd *cmd)
+{
+    printf("usage: pacemap %s %s\n\n%s\n\noptions:\n", cmd->name, cmd->synopsis,
+           cmd->summary);
+    for (const cli_opt *o = cmd->opts; o && o->name; o++) {
+        char left[64];
+        snprintf(left, sizeof left, "%s%s%s%s%s", o->name, o->alias ? ", " : "",
+                 o->alias ? o->alias : "", o->metavar ? " " : "",
+                 o->metavar ? o->metavar : "");
+        printf("  %-26s %s\n", left, o->help);
+    }
+    printf("  %-26s %s\n", "-h, --help", "show this help");
+}
+
+static bool cli_parse_u32(const char *s, uint32_t *out)
+{
+    if (!s || *s < '0' || *s > '9')
+        return false;
+    errno = 0;
+    char *end;
+    unsigned long long v = strtoull(s, &end, 10);
+    if (errno || *end || v > UINT32_MAX)
+        return false;
+    *out = (uint32_t)v;
+    return true;
+}
+
+static bool cli_parse_range(const char *s, uint32_t r[2])
+{
+    const char *dots = strstr(s, "..");
+    if (!dots) {
+        bool ok = cli_parse_u32(s, &r[0]);
+        r[1] = r[0];
+        return ok && r[0] >= 1;
+    }
+    char first[32];
+    size_t n = (size_t)(dots - s);
+    if (n == 0 || n >= sizeof first)
+        return false;
+    memcpy(first, s, n);
+    first[n] = '\0';
+    return cli_parse_u32(first, &r[0]) && cli_parse_u32(dots + 2, &r[1]) &&
+           r[0] >= 1 && r[0] <= r[1];
+}
+
+static const cli_opt *cli_find(const cli_cmd *cmd, const char *arg)
+{
+    for (const cli_opt *o = cmd->opts; o && o->name; o++)
+        if (strcmp(o->name, arg) == 0 || (o->alias && strcmp(o->alias, arg) == 0))
+            return o;
+    return NULL;
+}
+
+/* Store one option's value; false when the value is malformed. */
+static bool cli_store(const cli_opt *o, const char *val)
+{
+    switch (o->kind) {
+    case CLI_FLAG: *(bool *)o->dest = true; return true;
+    case CLI_STRING: *(const char **)o->dest = val; return true;
+    case CLI_U32: return cli_parse_u32(val, (uint32_t *)o->dest);
+    case CLI_RANGE: return cli_parse_range(val, (uint32_t *)o->dest);
+    }
+    return false;
+}
+
+int cli_parse(const cli_cmd *cmd, int argc, char **argv, const char **file)
+{
+    *file = NULL;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        if (strcmp(a, "-h") == 0 || strcmp(a, "--help") == 0) {
+            cli_help(cmd);
+            return CLI_EXIT_OK;
+        }
+        if (a[0] != '-' || a[1] == '\0') {
+            if (*file) {
+                cli_usage_error("%s: one scenario file only (got '%s' and '%s')",
+                                cmd->name, *file, a);
+                return CLI_EXIT_USAGE;
+            }
+            *file = a;
+            continue;
+        }
+        const cli_opt *o = cli_find(cmd, a);
+        if (!o) {
+            cli_usage_error("%s: unknown option '%s' (see 'pacemap %s -h')", cmd->name,
+                            a, cmd->name);
+            return CLI_EXIT_USAGE;
+        }
+        const char *val = NULL;
+        if (o->kind != CLI_FLAG) {
+            if (i + 1 >= argc) {
+                cli_usage_error("%s: option '%s' needs a value", cmd->name, a);
+                return CLI_EXIT_USAGE;
+            }
+            val = argv[++i];
+        }
+        if (!cli_store(o, val)) {
+            cli_usage_error("%s: bad value '%s' for option '%s'", cmd->name, val, a);
+            return CLI_EXIT_USAGE;
+        }
+        if (o->seen)
+            *o->seen = true;
+    }
+    if (!*file) {
+        cli_usage_error("%s: no scenario file given (usage: pacemap %s %s)", cmd->name,
+                        cmd->name, cmd->synopsis);
+        return CLI_EXIT_USAGE;
+    }
+    return -1;
+}
+
+int cli_load(const char *file, bool procs_set, uint32_t procs, pm_graph **out)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    *out = NULL;
+    if (procs_set && procs == 0) {
+        cli_usage_error("-p must be at least 1");
+        return CLI_EXIT_USAGE;
+    }
+    pm_graph *g = NULL;
+    int rc = pm_scenario_read_file(file, &g, &d);
+    if (rc != PM_OK) {
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    if (procs_set) {
+        if (g->platform.classes_named) {
+            cli_usage_error("-p %u: %s declares core classes; edit its procs line instead",
+                            procs, file);
+            pm_graph_destroy(g);
+            return CLI_EXIT_USAGE;
+        }
+        /* the reader has checked pins against the scenario's own core count */
+        rc = pm_graph_set_procs_override(g, procs, &d);
+        if (rc != PM_OK) {
+            cli_error(&d);
+            pm_graph_destroy(g);
+            return cli_exit_for(rc);
+        }
+    }
+    *out = g;
+    return CLI_EXIT_OK;
+}

@@ -1,0 +1,81 @@
+/*
+ * cli.h - shared pieces of the command-line front end (internal to the
+ * pacemap program, not part of the library).
+ *
+ * Each command lives in sim/cmd_<name>.c as `int pm_cmd_<name>(argc, argv)`
+ * and returns an exit status.  Options are parsed from a table per command;
+ * errors are printed through cli_error() only, one line each.
+ */
+#ifndef PACEMAP_CLI_H
+#define PACEMAP_CLI_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "pacemap/error.h"
+#include "pacemap/graph.h"
+
+enum cli_exit {
+    CLI_EXIT_OK = 0,
+    CLI_EXIT_INPUT = 1, /* the input or the graph is wrong */
+    CLI_EXIT_USAGE = 2  /* the command line is wrong */
+};
+
+typedef enum cli_opt_kind {
+    CLI_FLAG,   /* bool, no value */
+    CLI_STRING, /* const char *, the next argument */
+    CLI_U32,    /* uint32_t, decimal, >= 1 unless min says otherwise */
+    CLI_RANGE   /* uint32_t[2], "A..B" or "N" */
+} cli_opt_kind;
+
+typedef struct cli_opt {
+    const char *name;  /* "--json", "-p" */
+    const char *alias; /* another spelling or NULL, e.g. "--procs" */
+    cli_opt_kind kind;
+    void *dest;        /* bool*, const char**, uint32_t*, uint32_t[2] */
+    bool *seen;        /* set true when given (may be NULL) */
+    const char *help;  /* one line for -h */
+    const char *metavar; /* "N", "F", "A..B" */
+} cli_opt;
+
+typedef struct cli_cmd {
+    const char *name;
+    const char *synopsis; /* arguments after the command name */
+    const char *summary;  /* one line */
+    const cli_opt *opts;  /* terminated by an entry with name == NULL */
+} cli_cmd;
+
+/* Parse argv (argv[0] is the command name) into the table's destinations.
+ * The one positional argument (the scenario file) goes to *file.  Returns
+ * -1 to go on, or an exit status to return at once (usage error printed,
+ * or help shown for -h/--help). */
+int cli_parse(const cli_cmd *cmd, int argc, char **argv, const char **file);
+
+/* The one place that prints an error: "FILE:LINE:COL: error: MSG". */
+void cli_error(const pm_diag *d);
+/* An error without a place, "pacemap: error: MSG" (usage problems). */
+void cli_usage_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+/* A warning, "FILE:LINE:COL: warning: MSG" or "pacemap: warning: MSG". */
+void cli_warning(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+
+/* Exit status for a library error code (input errors 1, misuse 2). */
+int cli_exit_for(int err);
+
+/* Read and validate a scenario, applying `-p procs` when procs_set
+ * (identical cores only).  Prints the error and returns its exit status
+ * on failure; CLI_EXIT_OK with *out set on success. */
+int cli_load(const char *file, bool procs_set, uint32_t procs, pm_graph **out);
+
+/* Safety caution of DESIGN §9, one short paragraph for reports. */
+extern const char cli_caution[];
+
+/* The commands. */
+int pm_cmd_check(int argc, char **argv);
+int pm_cmd_bound(int argc, char **argv);
+int pm_cmd_schedule(int argc, char **argv);
+int pm_cmd_simulate(int argc, char **argv);
+int pm_cmd_run(int argc, char **argv);
+int pm_cmd_sweep(int argc, char **argv);
+int pm_cmd_dot(int argc, char **argv);
+
+#endif
