@@ -1,0 +1,117 @@
+/*
+ * bound.h - the iteration bound, critical loops and floors for P cores.
+ *
+ * The iteration bound of a single-rate graph is the largest, over directed
+ * cycles C, of (sum of node cycles on C) / (sum of delays on C) (Ito & Parhi,
+ * J. VLSI Signal Processing 1995).  It is computed exactly as a reduced
+ * fraction by Howard's policy iteration in integer arithmetic on each
+ * strongly connected part (Cochet-Terrasson et al. 1998; Dasdan, ACM TODAES
+ * 2004) and certified: integer potentials, scaled by the denominator, show
+ * that no cycle exceeds it.  A second, independent method (Karp's minimum
+ * cycle mean theorem, Discrete Math. 1978, applied parametrically) serves
+ * the tests as a cross-check.
+ *
+ * Node times are the smallest over the core classes that can run the node:
+ * a floor must hold on every mapping.  Multirate graphs must be expanded to
+ * single rate first (PM_EUNSUPPORTED otherwise).
+ *
+ * Ownership: a pm_bound owns its loops and parts; free with pm_bound_free().
+ * Thread-safe: no global state; the graph is only read.
+ */
+#ifndef PACEMAP_BOUND_H
+#define PACEMAP_BOUND_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "pacemap/error.h"
+#include "pacemap/graph.h"
+#include "pacemap/rational.h"
+
+/* A directed cycle of the graph. */
+typedef struct pm_loop {
+    uint32_t *nodes;  /* node ids in loop order, starting at the smallest id */
+    uint32_t *edges;  /* edges[i] goes from nodes[i] to nodes[(i+1) % len] */
+    uint32_t len;
+    int64_t cycles;   /* sum of node times on the loop */
+    int64_t delays;   /* sum of delays on the loop (> 0) */
+} pm_loop;
+
+/* A strongly connected part that contains at least one loop. */
+typedef struct pm_part {
+    uint32_t nnodes;
+    uint32_t first_node; /* smallest node id in the part (a stable name) */
+    pm_rat bound;        /* the part's own iteration bound */
+    pm_loop worst;       /* one loop of the part that attains it */
+} pm_part;
+
+typedef struct pm_bound {
+    bool has_loop;            /* false: feed-forward graph, no loop bound */
+    pm_rat iteration_bound;   /* valid when has_loop */
+    pm_loop *critical;        /* loops attaining the bound, at most max_critical */
+    uint32_t ncritical;
+    bool critical_truncated;  /* more critical loops exist than listed */
+    pm_part *parts;           /* parts with loops, worst bound first */
+    uint32_t nparts;
+    int64_t total_cycles;     /* sum of node times */
+    uint32_t largest_node;    /* PM_NONE for an empty graph */
+    int64_t largest_cycles;
+} pm_bound;
+
+typedef struct pm_bound_opts {
+    uint32_t max_critical;    /* 0 means PM_BOUND_DEFAULT_MAX_CRITICAL */
+} pm_bound_opts;
+
+#define PM_BOUND_DEFAULT_MAX_CRITICAL 16
+
+/*
+ * Compute the bound of finalized graph g.  opts may be NULL.
+ * Errors: PM_EZERODELAY when a loop carries no delay (diag names its nodes
+ * in order and points at one of its edges); PM_ERANGE when a sum overflows
+ * 62 bits; PM_EUNSUPPORTED for multirate graphs; PM_ENOMEM.
+ * Complexity: O(iterations * E) time, O(V + E) memory.
+ */
+int pm_bound_compute(const pm_graph *g, const pm_bound_opts *opts, pm_bound *out,
+                     pm_diag *diag);
+void pm_bound_free(pm_bound *b);
+
+/* Independent cross-check (Karp-based, O(V*E) per part): the same value or
+ * has_loop = false.  Same errors as pm_bound_compute.  For tests. */
+int pm_bound_karp(const pm_graph *g, bool *has_loop, pm_rat *bound, pm_diag *diag);
+
+/* Exact check that no cycle of g has ratio above `lambda` (integer
+ * potentials by longest paths scaled by lambda's denominator).  *ok is
+ * false when some cycle exceeds it. */
+int pm_bound_certify(const pm_graph *g, pm_rat lambda, bool *ok);
+
+/* What sets the lower bound for P cores. */
+typedef enum pm_floor_kind {
+    PM_FLOOR_LOOP = 0, /* the iteration bound */
+    PM_FLOOR_CORES,    /* total work / P */
+    PM_FLOOR_NODE      /* the largest node */
+} pm_floor_kind;
+
+typedef struct pm_floors {
+    uint32_t procs;
+    pm_rat cores;          /* total cycles / P */
+    pm_rat node;           /* largest node */
+    bool has_loop;
+    pm_rat loop;           /* iteration bound (valid when has_loop) */
+    pm_rat lower_bound;    /* max of the above */
+    pm_floor_kind binding; /* which one is the max (loop, then node, then cores on ties) */
+    bool has_budget;       /* clock and rate given */
+    pm_rat budget;         /* clock / rate, cycles per iteration */
+    bool loop_fits;        /* iteration bound <= budget (true without loops) */
+    bool lower_fits;       /* lower bound <= budget */
+    pm_rat margin;         /* budget - lower bound, cycles (may be negative) */
+    double margin_us;      /* the margin in microseconds at the clock */
+} pm_floors;
+
+/* Floors for `procs` cores from a computed bound. */
+int pm_floors_compute(const pm_graph *g, const pm_bound *b, uint32_t procs,
+                      pm_floors *out);
+
+/* Name of a floor kind: "loop", "cores", "node". */
+const char *pm_floor_name(pm_floor_kind k);
+
+#endif
