@@ -31,8 +31,10 @@ TEST_SRC := $(wildcard tests/test_*.c)
 TEST_BIN := $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
 TEST_LIB := $(wildcard tests/support/*.c)
 TEST_LIB_OBJ := $(TEST_LIB:%.c=$(BUILD)/%.o)
-HELPER_SRC := $(wildcard tests/helpers/*.cpp)
-HELPER_BIN := $(HELPER_SRC:tests/helpers/%.cpp=$(BUILD)/tests/helpers/%)
+HELPER_CXX := $(wildcard tests/helpers/*.cpp)
+HELPER_C   := $(wildcard tests/helpers/*.c)
+HELPER_BIN := $(HELPER_CXX:tests/helpers/%.cpp=$(BUILD)/tests/helpers/%) \
+              $(HELPER_C:tests/helpers/%.c=$(BUILD)/tests/helpers/%)
 FUZZ_SRC := $(wildcard tests/fuzz/fuzz_*.c)
 
 Q = @
@@ -67,6 +69,11 @@ $(BUILD)/tests/helpers/%: tests/helpers/%.cpp
 	@mkdir -p $(dir $@)
 	@echo "  CXX     $<"
 	$(Q)$(CXX) $(CXXFLAGS) $< -o $@
+
+$(BUILD)/tests/helpers/%: tests/helpers/%.c $(BUILD)/libpacemap.a
+	@mkdir -p $(dir $@)
+	@echo "  CC      $<"
+	$(Q)$(CC) $(CPPFLAGS) $(CFLAGS) $< $(BUILD)/libpacemap.a $(LDFLAGS) $(LDLIBS) -o $@
 
 # The whole suite: cmocka binaries, then the outside-reference scripts.
 test: all $(TEST_BIN) $(HELPER_BIN)
