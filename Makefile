@@ -18,6 +18,8 @@ CFLAGS   += $(OPT) $(WARN) $(SAN) -MMD -MP
 CXXFLAGS += -O2 -g -std=c++17 $(SAN)
 LDFLAGS  += $(SAN)
 LDLIBS   += -lhwloc -lpthread -lm
+# Tests also link the outside references they compare against.
+TEST_LDLIBS = -lcmocka -lfftw3f -lfftw3
 DEBIAN_PACKAGES = build-essential pkg-config libcmocka-dev libhwloc-dev hwloc \
            libboost-graph-dev glpk-utils python3 python3-networkx libfftw3-dev \
            clang libclang-rt-dev graphviz
@@ -63,7 +65,7 @@ $(BUILD)/tests/%: tests/%.c $(BUILD)/libpacemap.a $(TEST_LIB_OBJ)
 	@mkdir -p $(dir $@)
 	@echo "  TEST    $<"
 	$(Q)$(CC) $(CPPFLAGS) -Itests $(CFLAGS) $< $(TEST_LIB_OBJ) $(BUILD)/libpacemap.a \
-	    $(LDFLAGS) -lcmocka $(LDLIBS) -o $@
+	    $(LDFLAGS) $(TEST_LDLIBS) $(LDLIBS) -o $@
 
 $(BUILD)/tests/helpers/%: tests/helpers/%.cpp
 	@mkdir -p $(dir $@)
