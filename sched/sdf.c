@@ -145,20 +145,16 @@ void sdf_tokens_free(sdf_tokens *s)
     s->fired = NULL;
 }
 
-/* Firings an input edge allows.  A self-loop refills itself: with
- * produce >= consume one token batch is enough for any number of firings,
- * otherwise each firing loses consume - produce tokens. */
+/* Firings an input edge allows.  Balance forces produce == consume on a
+ * self-loop, so a self-loop that holds one firing's tokens holds them for
+ * every firing. */
 static sdf_u128 sdf_edge_allows(const sdf_tokens *s, uint32_t e)
 {
     const pm_edge *pe = &s->g->edges[e];
-    sdf_u128 tok = s->tokens[e], c = (sdf_u128)pe->consume, p = (sdf_u128)pe->produce;
+    sdf_u128 tok = s->tokens[e], c = (sdf_u128)pe->consume;
     if (pe->src != pe->dst)
         return tok / c;
-    if (tok < c)
-        return 0;
-    if (p >= c)
-        return ~(sdf_u128)0;
-    return 1 + (tok - c) / (c - p);
+    return tok >= c ? ~(sdf_u128)0 : 0;
 }
 
 uint64_t sdf_tokens_ready(const sdf_tokens *s, uint32_t v)
