@@ -5,8 +5,7 @@
  *
  * Output:  node NAME CYCLES / edge SRC DST PRODUCE CONSUME DELAY WORDS
  *          rep NAME Q / xnode NAME CYCLES / xedge SRC DST DELAY WORDS
- * Exit 0 ok, 1 the library refused the input, 3 no scenario reader in this
- * build, 2 usage.
+ * Exit 0 ok, 1 the library refused the input, 2 usage.
  */
 #include <stdio.h>
 #include <stdlib.h>
@@ -40,8 +39,6 @@ int main(int argc, char **argv)
     uint64_t *rep = NULL;
     pm_diag d;
     int rc = pm_scenario_read_file(argv[1], &g, &d);
-    if (rc == PM_EUNSUPPORTED)
-        return 3;
     if (rc == PM_OK)
         rc = pm_sdf_single_rate(g, &x, &rep, NULL, &d);
     if (rc != PM_OK) {
