@@ -489,6 +489,76 @@ int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
     return rc;
 }
 
+/* The node whose firings include expanded id f (first[] is increasing). */
+static uint32_t expand_origin_of(const uint32_t *first, uint32_t n, uint32_t f)
+{
+    uint32_t lo = 0, hi = n; /* first[lo] <= f < first[hi] */
+    while (hi - lo > 1) {
+        uint32_t mid = lo + (hi - lo) / 2;
+        if (first[mid] <= f)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    return lo;
+}
+
+/* Per-core lists of the nodes whose firing 0 xm runs there, in xm's order. */
+static int expand_collapse_with(const pm_graph *g, const pm_map *xm, const uint32_t *first,
+                                uint32_t *nodes, uint32_t *counts, pm_map **out)
+{
+    uint32_t total = first[g->nnodes], k = 0;
+    uint32_t **lists = malloc(((size_t)xm->ncores + 1) * sizeof *lists);
+    bool *seen = calloc((size_t)total + 1, sizeof *seen);
+    int rc = lists && seen ? PM_OK : PM_ENOMEM;
+    for (uint32_t c = 0; rc == PM_OK && c < xm->ncores; c++) {
+        lists[c] = nodes + k;
+        counts[c] = 0;
+        for (uint32_t i = xm->off[c]; rc == PM_OK && i < xm->off[c + 1]; i++) {
+            uint32_t f = xm->order[i];
+            if (f >= total || seen[f]) {
+                rc = PM_EMAP;
+                break;
+            }
+            seen[f] = true;
+            uint32_t v = expand_origin_of(first, g->nnodes, f);
+            if (first[v] == f)
+                nodes[k++] = v, counts[c]++;
+        }
+    }
+    if (rc == PM_OK)
+        rc = pm_map_create(xm->ncores, g->nnodes, (const uint32_t *const *)lists, counts, out);
+    free(lists);
+    free(seen);
+    return rc;
+}
+
+int pm_sdf_collapse_map(const pm_graph *g, const uint64_t *rep, const pm_map *xm,
+                        pm_map **out, pm_diag *diag)
+{
+    *out = NULL;
+    int rc = sdf_check_balance(g, rep, diag);
+    if (rc == PM_OK)
+        rc = expand_guard_firings(g, rep, diag);
+    if (rc != PM_OK)
+        return rc;
+    uint32_t *first = expand_first(g, rep);
+    uint32_t *nodes = malloc(((size_t)g->nnodes + 1) * sizeof *nodes);
+    uint32_t *counts = malloc(((size_t)xm->ncores + 1) * sizeof *counts);
+    bool fits = xm->nnodes == (first ? first[g->nnodes] : 0) &&
+                xm->off[xm->ncores] == xm->nnodes;
+    rc = !first || !nodes || !counts ? PM_ENOMEM : fits ? PM_OK : PM_EMAP;
+    if (rc == PM_OK)
+        rc = expand_collapse_with(g, xm, first, nodes, counts, out);
+    if (rc == PM_EMAP)
+        pm_diag_set(diag, g->file, 0, 0, "the map of the expanded graph does not list "
+                    "every firing exactly once");
+    free(first);
+    free(nodes);
+    free(counts);
+    return rc;
+}
+
 /* ---- the whole path ----------------------------------------------------------- */
 
 int pm_sdf_single_rate(const pm_graph *g, pm_graph **out, uint64_t **rep,

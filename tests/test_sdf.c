@@ -677,6 +677,18 @@ static void check_expanded_map(const pm_map *m, const pm_map *xm, const uint32_t
     free(seen);
 }
 
+static void assert_same_map(const pm_map *a, const pm_map *b)
+{
+    assert_int_equal(a->ncores, b->ncores);
+    assert_int_equal(a->nnodes, b->nnodes);
+    for (uint32_t c = 0; c <= a->ncores; c++)
+        assert_int_equal(a->off[c], b->off[c]);
+    for (uint32_t k = 0; k < a->nnodes; k++) {
+        assert_int_equal(a->order[k], b->order[k]);
+        assert_int_equal(a->core_of[k], b->core_of[k]);
+    }
+}
+
 /* Liveness and the expansion agree: the one-iteration check passes exactly
  * when the expanded graph has no loop without delay, i.e. when its
  * iteration bound (Ito & Parhi 1995) is finite.  And a map of a live graph
@@ -706,6 +718,10 @@ static void test_liveness_matches_expansion(void **state)
             maps++;
             check_expanded_map(m, xm, origin, x->nnodes);
             assert_true(zero_delay_acyclic(x, xm));
+            pm_map *back;
+            assert_int_equal(pm_sdf_collapse_map(r.g, rep, xm, &back, &d), PM_OK);
+            assert_same_map(m, back);
+            pm_map_destroy(back);
             pm_map_destroy(xm);
         }
         pm_map_destroy(m);
@@ -779,6 +795,38 @@ static void test_map_interleaves_a_loop(void **state)
     pm_graph_destroy(g);
 }
 
+/* A schedule of the expansion may scatter a node's firings over cores;
+ * collapsing keeps the core and the place of each node's firing 0. */
+static void test_collapse_scattered_map(void **state)
+{
+    (void)state;
+    static const spec_edge es[] = { { 0, 1, 2, 1, 0 }, { 1, 2, 1, 2, 0 } };
+    pm_graph *g = build(3, ABC, es, 2); /* q = 1, 2, 1: ids a 0, b#0 1, b#1 2, c 3 */
+    uint64_t *rep;
+    pm_diag d;
+    assert_int_equal(pm_sdf_repetition(g, &rep, &d), PM_OK);
+    pm_map *xm, *m;
+    assert_int_equal(pm_map_create(2, 4, (const uint32_t *const[]){ (const uint32_t[]){ 0, 2, 3 },
+                                                                    (const uint32_t[]){ 1 } },
+                                   (const uint32_t[]){ 3, 1 }, &xm), PM_OK);
+    assert_int_equal(pm_sdf_collapse_map(g, rep, xm, &m, &d), PM_OK);
+    assert_int_equal(m->core_of[0], 0);
+    assert_int_equal(m->core_of[1], 1); /* where b#0 ran */
+    assert_int_equal(m->core_of[2], 0);
+    assert_int_equal(m->off[1], 2);
+    assert_true(m->order[0] == 0 && m->order[1] == 2 && m->order[2] == 1);
+    pm_map_destroy(m);
+    pm_map_destroy(xm);
+    /* a firing listed twice */
+    assert_int_equal(pm_map_create(1, 4, (const uint32_t *const[]){ (const uint32_t[]){ 0, 1, 1, 3 } },
+                                   (const uint32_t[]){ 4 }, &xm), PM_OK);
+    assert_int_equal(pm_sdf_collapse_map(g, rep, xm, &m, &d), PM_EMAP);
+    assert_null(m);
+    pm_map_destroy(xm);
+    free(rep);
+    pm_graph_destroy(g);
+}
+
 static void test_rep_must_balance(void **state)
 {
     (void)state;
@@ -812,6 +860,7 @@ int main(void)
         cmocka_unit_test(test_liveness_matches_expansion),
         cmocka_unit_test(test_map_of_single_rate_graph_is_unchanged),
         cmocka_unit_test(test_map_interleaves_a_loop),
+        cmocka_unit_test(test_collapse_scattered_map),
         cmocka_unit_test(test_rep_must_balance),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

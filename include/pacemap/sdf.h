@@ -119,9 +119,22 @@ int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
                       pm_map **out, pm_diag *diag);
 
 /*
+ * The map of g's nodes that a map xm of the expanded graph implies: node v
+ * goes to the core of its firing 0, and the nodes on a core are ordered by
+ * where their firing 0 runs.  For scheduling a multirate graph: schedule
+ * the expansion, collapse, then pm_sdf_expand_map the result so that every
+ * firing of a node runs on one core.  pm_sdf_collapse_map of the result of
+ * pm_sdf_expand_map(m) is m.
+ * Errors: PM_EMAP when xm does not list every firing exactly once (sum of
+ * rep entries); PM_ENOMEM.  O(sum of q * log V).
+ */
+int pm_sdf_collapse_map(const pm_graph *g, const uint64_t *rep, const pm_map *xm,
+                        pm_map **out, pm_diag *diag);
+
+/*
  * The whole path in one call: repetition vector, one-iteration check and
- * expansion, with the errors of each.  *rep and *origin may be passed as
- * NULL pointers when not wanted.  For a single-rate graph *out is a copy.
+ * expansion, with the errors of each.  `rep` and `origin` may be NULL when
+ * those results are not wanted.  For a single-rate graph *out is a copy.
  */
 int pm_sdf_single_rate(const pm_graph *g, pm_graph **out, uint64_t **rep,
                        uint32_t **origin, pm_diag *diag);
