@@ -564,7 +564,7 @@ static int sdf_report_deadlock(const sdf_tokens *s, uint32_t stuck, pm_diag *dia
     const pm_edge *pe = len ? &g->edges[walk[(first + len - 1) % len]] : NULL;
     pm_diag_set(diag, g->file, pe ? pe->line : 0, pe ? pe->col : 0,
                 "one iteration cannot complete: too few initial tokens (delays) on the "
-                "loop %s ('%s' fires %llu of its %llu times)", t.buf,
+                "loop %s ('%s' fired %llu of %llu times)", t.buf,
                 pm_graph_node_name(g, v0), (unsigned long long)s->fired[v0],
                 (unsigned long long)s->rep[v0]);
     free(step);
