@@ -18,6 +18,11 @@
  * in a scenario name, so firing names never clash with user names.
  * docs/multirate.md explains how tokens become delays.
  *
+ * Every function first checks the edges: rates in 1 .. 2^62-1, delay and
+ * words in 0 .. 2^62-1, else PM_ERANGE with diag at the edge.  Functions
+ * taking `rep` accept any positive vector that balances every edge (a
+ * multiple of the smallest one means that many periods).
+ *
  * Ownership: arrays, graphs and maps returned through out-parameters belong
  * to the caller (free() / pm_graph_destroy() / pm_map_destroy()); on failure
  * they are set to NULL.  The input graph is only read; it need not be
