@@ -237,6 +237,15 @@ static void test_overflow_is_reported(void **state)
     assert_int_equal(pm_sdf_repetition(g, &rep, &d), PM_ERANGE);
     assert_non_null(strstr(d.msg, "2^62-1"));
     pm_graph_destroy(g);
+    /* 2 tokens of 2^61 words travel as one expanded edge of 2^62 words */
+    spec_edge wide[] = { { 0, 1, 2, 2, 0 } };
+    g = build(2, ABC, wide, 1);
+    g->edges[0].words = INT64_C(1) << 61;
+    pm_graph *x = (pm_graph *)1;
+    assert_int_equal(pm_sdf_single_rate(g, &x, NULL, NULL, &d), PM_ERANGE);
+    assert_null(x);
+    assert_int_equal(d.line, 1);
+    pm_graph_destroy(g);
     spec_edge zero[] = { { 0, 1, 0, 1, 0 } };
     g = build(2, ABC, zero, 1);
     assert_int_equal(pm_sdf_repetition(g, &rep, &d), PM_ERANGE);
