@@ -2,10 +2,13 @@
  * reader_stmt.c - one parse function per `.pace` statement (docs/format.md).
  *
  * Each function opens with the grammar rule it implements, consumes the
- * tokens of the current line through the accept/expect helpers below, checks
- * values as it goes and stores them into the graph.  Checks that need the
- * whole file (pins against the final core count, classes that run nothing)
- * are in reader.c.  Every message names what was expected and what was found.
+ * tokens of the current line through the accept/expect helpers below and
+ * checks values as it goes.  Platform statements go straight into the graph;
+ * `node` and `edge` lines are kept pending and stored in batches by
+ * reader_batch.c (which checks duplicate and unknown names).  Checks that
+ * need the whole file (pins against the final core count, classes that run
+ * nothing) are in reader.c.  Every message names what was expected and what
+ * was found.
  */
 #include "reader_internal.h"
 
@@ -16,6 +19,7 @@
 #include <string.h>
 
 #define RD_MAX_STR "4611686018427387903" /* PM_MAX_VALUE, for messages */
+_Static_assert(PM_MAX_VALUE == INT64_C(4611686018427387903), "RD_MAX_STR is PM_MAX_VALUE");
 
 static bool rd_is(const reader_tok *t, const char *word)
 {
