@@ -159,8 +159,10 @@ void pm_schedule_destroy(pm_schedule *s);
  * weights den*w - num*delay (Bellman-Ford), repeat (Dasdan, ACM TODAES
  * 2004, surveys such methods).  Exact integers.
  * Errors: PM_EZERODELAY (a cycle without delay), PM_EMAP, PM_ERANGE,
- * PM_ENOMEM.  Complexity: O(k * V * E) for k improvements; intended for
- * scenario-sized graphs.
+ * PM_ELIMIT (the work would exceed about 2^30 edge relaxations: very large
+ * loops), PM_ENOMEM.  Complexity: O(k * V * E) for k improvements, with V
+ * and E counted inside strongly connected parts; meant for scenario-sized
+ * graphs.
  */
 int pm_sched_loop_floor(const pm_graph *g, const pm_map *m, pm_rat *floor,
                         uint32_t **loop, uint32_t *nloop, pm_diag *diag);
