@@ -221,33 +221,39 @@ int sched_check_graph(const pm_graph *g, uint32_t *order, pm_diag *diag)
     return rc;
 }
 
-/* One direction of the compact adjacency. */
+/* One direction of the compact adjacency, by a counting sort over the
+ * edges in index order (the graph's own adjacency order): one sequential
+ * pass over the edge array instead of a gather through it. */
 static int adj_side(const pm_graph *g, bool in, uint32_t **off, uint32_t **other,
                     uint32_t **edge, int64_t **cost, bool *overflow)
 {
-    const uint32_t *goff = in ? g->in_off : g->out_off, *gedge = in ? g->in_edge : g->out_edge;
     size_t m = 0;
-    for (uint32_t e = 0; e < g->nedges; e++)
-        m += g->edges[e].delay == 0;
-    *off = malloc(((size_t)g->nnodes + 1) * sizeof **off);
+    *off = calloc((size_t)g->nnodes + 2, sizeof **off);
+    if (!*off)
+        return PM_ENOMEM;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        if (ed->delay == 0) {
+            (*off)[(in ? ed->dst : ed->src) + 2]++;
+            m++;
+        }
+    }
     *other = malloc((m + 1) * sizeof **other);
     *edge = malloc((m + 1) * sizeof **edge);
     *cost = malloc((m + 1) * sizeof **cost);
-    if (!*off || !*other || !*edge || !*cost)
+    if (!*other || !*edge || !*cost)
         return PM_ENOMEM;
-    uint32_t k = 0;
-    for (uint32_t v = 0; v < g->nnodes; v++) {
-        (*off)[v] = k;
-        for (uint32_t i = goff[v]; i < goff[v + 1]; i++) {
-            const pm_edge *e = &g->edges[gedge[i]];
-            if (e->delay != 0)
-                continue;
-            (*other)[k] = in ? e->src : e->dst;
-            (*edge)[k] = gedge[i];
-            (*cost)[k++] = sched_edge_cost(g, gedge[i], overflow);
-        }
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        (*off)[v + 2] += (*off)[v + 1];
+    for (uint32_t e = 0; e < g->nedges; e++) { /* off[v + 1] is v's fill point */
+        const pm_edge *ed = &g->edges[e];
+        if (ed->delay != 0)
+            continue;
+        uint32_t k = (*off)[(in ? ed->dst : ed->src) + 1]++;
+        (*other)[k] = in ? ed->src : ed->dst;
+        (*edge)[k] = e;
+        (*cost)[k] = sched_edge_cost(g, e, overflow);
     }
-    (*off)[g->nnodes] = k;
     return PM_OK;
 }
 
