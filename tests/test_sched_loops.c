@@ -165,6 +165,7 @@ static void test_loop_rule_respects_target(void **state)
     assert_int_equal(pm_sched_list(g, &o, &s, NULL, &d), PM_OK);
     assert_int_equal(pm_sched_list(g, &blind, &b, NULL, &d), PM_OK);
     assert_null(sched_checker_verify(g, s));
+    assert_null(sched_checker_verify(g, b));
     assert_memory_equal(s->slots, b->slots, g->nnodes * sizeof *s->slots);
     pm_schedule_destroy(s);
     pm_schedule_destroy(b);
