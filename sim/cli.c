@@ -4,7 +4,10 @@
  */
 #include "cli.h"
 
+#include "pacemap/map.h"
 #include "pacemap/reader.h"
+#include "pacemap/sched.h"
+#include "pacemap/sdf.h"
 
 #include <errno.h>
 #include <stdarg.h>
@@ -162,36 +165,167 @@ int cli_parse(const cli_cmd *cmd, int argc, char **argv, const char **file)
     return -1;
 }
 
-int cli_load(const char *file, bool procs_set, uint32_t procs, pm_graph **out)
+/* Apply -p to a freshly read scenario. */
+static int cli_apply_procs(pm_graph *g, const char *file, bool procs_set, uint32_t procs)
 {
-    pm_diag d;
-    pm_diag_clear(&d);
-    *out = NULL;
-    if (procs_set && procs == 0) {
+    if (!procs_set)
+        return CLI_EXIT_OK;
+    if (procs == 0) {
         cli_usage_error("-p must be at least 1");
         return CLI_EXIT_USAGE;
     }
-    pm_graph *g = NULL;
-    int rc = pm_scenario_read_file(file, &g, &d);
+    if (g->platform.classes_named) {
+        cli_usage_error("-p %u: %s declares core classes; edit its procs line instead",
+                        procs, file);
+        return CLI_EXIT_USAGE;
+    }
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_graph_set_procs_override(g, procs, &d);
     if (rc != PM_OK) {
         cli_error(&d);
         return cli_exit_for(rc);
     }
-    if (procs_set) {
-        if (g->platform.classes_named) {
-            cli_usage_error("-p %u: %s declares core classes; edit its procs line instead",
-                            procs, file);
-            pm_graph_destroy(g);
-            return CLI_EXIT_USAGE;
-        }
-        /* the reader has checked pins against the scenario's own core count */
-        rc = pm_graph_set_procs_override(g, procs, &d);
-        if (rc != PM_OK) {
-            cli_error(&d);
-            pm_graph_destroy(g);
-            return cli_exit_for(rc);
-        }
-    }
-    *out = g;
     return CLI_EXIT_OK;
+}
+
+void cli_scenario_free(cli_scenario *s)
+{
+    if (s->graph != s->source)
+        pm_graph_destroy(s->graph);
+    pm_graph_destroy(s->source);
+    free(s->rep);
+    free(s->origin);
+    memset(s, 0, sizeof *s);
+}
+
+/* Repetition vector, one-iteration check and expansion of a multirate
+ * scenario; a single-rate one is used as it is. */
+static int cli_expand(cli_scenario *s)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_sdf_repetition(s->source, &s->rep, &d);
+    if (rc == PM_OK && pm_graph_is_single_rate(s->source)) {
+        s->graph = s->source;
+        return CLI_EXIT_OK;
+    }
+    if (rc == PM_OK)
+        rc = pm_sdf_check_iteration(s->source, s->rep, &d);
+    if (rc == PM_OK)
+        rc = pm_sdf_expand(s->source, s->rep, &s->graph, &s->origin, &d);
+    if (rc != PM_OK) {
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    s->multirate = true;
+    return CLI_EXIT_OK;
+}
+
+int cli_load_scenario(const char *file, bool procs_set, uint32_t procs, cli_scenario *out)
+{
+    memset(out, 0, sizeof *out);
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_scenario_read_file(file, &out->source, &d);
+    if (rc != PM_OK) {
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    int status = cli_apply_procs(out->source, file, procs_set, procs);
+    if (status == CLI_EXIT_OK)
+        status = cli_expand(out);
+    if (status != CLI_EXIT_OK)
+        cli_scenario_free(out);
+    return status;
+}
+
+int cli_load(const char *file, bool procs_set, uint32_t procs, pm_graph **out)
+{
+    cli_scenario s;
+    *out = NULL;
+    int status = cli_load_scenario(file, procs_set, procs, &s);
+    if (status != CLI_EXIT_OK)
+        return status;
+    *out = s.graph;
+    if (s.graph != s.source)
+        pm_graph_destroy(s.source);
+    free(s.rep);
+    free(s.origin);
+    return CLI_EXIT_OK;
+}
+
+int cli_read_map(const cli_scenario *s, const char *path, pm_map **out)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    pm_map *m = NULL;
+    *out = NULL;
+    int rc = pm_map_read_file(path, s->source, &m, &d);
+    if (rc == PM_OK && s->multirate) {
+        pm_map *xm = NULL;
+        rc = pm_sdf_expand_map(s->source, s->rep, m, &xm, &d);
+        pm_map_destroy(m);
+        m = xm;
+    }
+    if (rc != PM_OK) {
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    *out = m;
+    return CLI_EXIT_OK;
+}
+
+/* A map of the expansion that keeps every firing of a node on one core. */
+static int cli_firings_together(const cli_scenario *s, pm_map **m, pm_diag *diag)
+{
+    pm_map *nodes = NULL, *firings = NULL;
+    int rc = pm_sdf_collapse_map(s->source, s->rep, *m, &nodes, diag);
+    if (rc == PM_OK)
+        rc = pm_sdf_expand_map(s->source, s->rep, nodes, &firings, diag);
+    pm_map_destroy(nodes);
+    if (rc == PM_OK) {
+        pm_map_destroy(*m);
+        *m = firings;
+    }
+    return rc;
+}
+
+int cli_schedule(const cli_scenario *s, const pm_sched_opts *opts, pm_schedule **sched,
+                 pm_map **map, pm_diag *diag)
+{
+    pm_sched_opts none = { 0 };
+    pm_schedule *sc = NULL;
+    pm_map *m = NULL;
+    int rc = pm_sched_list(s->graph, opts ? opts : &none, &sc, &m, diag);
+    if (rc == PM_OK && s->multirate) {
+        pm_schedule_destroy(sc);
+        sc = NULL;
+        rc = cli_firings_together(s, &m, diag);
+        if (rc == PM_OK)
+            rc = pm_sched_from_map(s->graph, m, &sc, diag);
+    }
+    if (rc != PM_OK) {
+        pm_schedule_destroy(sc);
+        pm_map_destroy(m);
+        return rc;
+    }
+    if (sched)
+        *sched = sc;
+    else
+        pm_schedule_destroy(sc);
+    *map = m;
+    return PM_OK;
+}
+
+int cli_write_map(const cli_scenario *s, const pm_map *m, FILE *out)
+{
+    if (!s->multirate)
+        return pm_map_write(m, s->graph, out);
+    pm_map *nodes = NULL;
+    int rc = pm_sdf_collapse_map(s->source, s->rep, m, &nodes, NULL);
+    if (rc == PM_OK)
+        rc = pm_map_write(nodes, s->source, out);
+    pm_map_destroy(nodes);
+    return rc;
 }

@@ -30,6 +30,7 @@ typedef struct sc_result {
     pm_rat floor;
     uint32_t *loop, nloop;
     const char *file;
+    const cli_scenario *scn;
 } sc_result;
 
 #define SC_NAME_W 24
@@ -85,7 +86,7 @@ static int sc_chart_make(const sc_result *r, sc_chart *c)
 
 static int sc_write_map(const sc_result *r, FILE *f)
 {
-    return pm_map_write(r->m, r->g, f);
+    return cli_write_map(r->scn, r->m, f);
 }
 
 static int sc_write_svg(const sc_result *r, FILE *f)
@@ -322,11 +323,11 @@ static int sc_compute(const sc_args *a, sc_result *r)
     pm_sched_opts o = {.loop_blind = a->loop_blind};
     int rc;
     if (a->map) {
-        rc = pm_map_read_file(a->map, r->g, &r->m, &d);
-        if (rc == PM_OK)
-            rc = pm_sched_from_map(r->g, r->m, &r->s, &d);
+        if (cli_read_map(r->scn, a->map, &r->m) != CLI_EXIT_OK)
+            return PM_EMAP; /* already reported */
+        rc = pm_sched_from_map(r->g, r->m, &r->s, &d);
     } else {
-        rc = pm_sched_list(r->g, &o, &r->s, &r->m, &d);
+        rc = cli_schedule(r->scn, &o, &r->s, &r->m, &d);
     }
     if (rc == PM_OK) {
         rc = pm_sched_loop_floor(r->g, r->m, &r->floor, &r->loop, &r->nloop, &d);
@@ -384,17 +385,18 @@ int pm_cmd_schedule(int argc, char **argv)
     if (st >= 0)
         return st;
     sc_result r = {.file = file};
-    pm_graph *g = NULL;
-    st = cli_load(file, a.procs_set, a.procs, &g);
+    cli_scenario scn;
+    st = cli_load_scenario(file, a.procs_set, a.procs, &scn);
     if (st != CLI_EXIT_OK)
         return st;
-    r.g = g;
+    r.g = scn.graph;
+    r.scn = &scn;
     st = sc_run(&a, &r);
     if (st == CLI_EXIT_OK && !a.json)
         sc_print_wrapped(cli_caution);
     pm_schedule_destroy(r.s);
     pm_map_destroy(r.m);
     free(r.loop);
-    pm_graph_destroy(g);
+    cli_scenario_free(&scn);
     return st;
 }
