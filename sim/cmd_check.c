@@ -442,8 +442,8 @@ static void check_print_text(const char *file, const pm_graph *g,
     else
         printf("%-12s none (feed-forward: no iteration bound; the cores set the floor)\n",
                "loops");
-    printf("%-12s %" PRId64 " cycles per iteration (fastest class of each node)\n",
-           "work", sum->total_cycles);
+    printf("%-12s %" PRId64 " cycles per iteration%s\n", "work", sum->total_cycles,
+           p->classes_named ? " (each node on its fastest class)" : "");
     check_print_platform(g, sum);
     check_print_repetition(g, sum);
 }
