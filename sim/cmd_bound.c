@@ -115,6 +115,26 @@ static void text_budget(const pm_graph *g, const pm_floors *f)
            f->margin_us);
 }
 
+/* The caution, wrapped to 80 columns. */
+static void text_caution(void)
+{
+    const char *s = cli_caution;
+    while (*s) {
+        size_t n = strlen(s);
+        if (n > 80) {
+            n = 80;
+            while (n > 0 && s[n] != ' ')
+                n--;
+            if (n == 0)
+                n = 80;
+        }
+        printf("%.*s\n", (int)n, s);
+        s += n;
+        while (*s == ' ')
+            s++;
+    }
+}
+
 static void bound_text(const char *file, const pm_graph *g, const pm_bound *b,
                        const pm_floors *f)
 {
@@ -138,7 +158,8 @@ static void bound_text(const char *file, const pm_graph *g, const pm_bound *b,
     text_floors(g, b, f);
     if (f->has_budget)
         text_budget(g, f);
-    printf("\n%s\n", cli_caution);
+    printf("\n");
+    text_caution();
 }
 
 static void json_loop(pm_json *j, const pm_graph *g, const pm_loop *l)
