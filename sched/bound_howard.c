@@ -30,7 +30,7 @@
 
 /* ---- building the local arrays ------------------------------------------ */
 
-static int howard_alloc(howard *h, bool small_delays)
+static int howard_alloc(howard *h, bool small_delays, bool small_times)
 {
     size_t n = (size_t)h->n + 1, m = (size_t)h->off[h->n] + 1;
     h->dst = malloc(m * sizeof *h->dst);
@@ -38,8 +38,11 @@ static int howard_alloc(howard *h, bool small_delays)
         h->d8 = malloc(m);
     else
         h->d64 = malloc(m * sizeof *h->d64);
-    h->t = malloc(n * sizeof *h->t);
-    return h->dst && (h->d8 || h->d64) && h->t ? PM_OK : PM_ENOMEM;
+    if (small_times)
+        h->t32 = malloc(n * sizeof *h->t32);
+    else
+        h->t = malloc(n * sizeof *h->t);
+    return h->dst && (h->d8 || h->d64) && (h->t || h->t32) ? PM_OK : PM_ENOMEM;
 }
 
 /* Count, then copy, the edges whose ends share a part.  dst[k] is the
@@ -60,7 +63,10 @@ static void howard_copy(howard *h, const uint32_t *comp, const uint32_t *dst)
     const pm_graph *g = h->g;
     for (uint32_t i = 0; i < h->n; i++) {
         uint32_t u = h->order[i], at = h->off[i];
-        h->t[i] = pm_graph_min_cycles(g, u);
+        if (h->t32)
+            h->t32[i] = (uint32_t)pm_graph_min_cycles(g, u);
+        else
+            h->t[i] = pm_graph_min_cycles(g, u);
         for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
             if (comp[dst[k]] != comp[u])
                 continue;
@@ -98,9 +104,13 @@ int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *d
     h->g = g;
     h->n = g->nnodes;
     h->order = s->order;
-    int64_t maxd = 0;
+    int64_t maxd = 0, maxt = 0;
     for (uint32_t e = 0; e < g->nedges; e++)
         maxd = g->edges[e].delay > maxd ? g->edges[e].delay : maxd;
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        int64_t tv = pm_graph_min_cycles(g, v);
+        maxt = tv > maxt ? tv : maxt;
+    }
     h->wide = (bnd_i128)sum_t * sum_d >= ((bnd_i128)1 << 60);
     h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
     h->off = calloc((size_t)h->n + 1, sizeof *h->off);
@@ -111,11 +121,13 @@ int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *d
     for (uint32_t i = 0; i < h->n; i++)
         h->map[h->order[i]] = i;
     howard_fill(h, s->comp, dst);
-    if (howard_alloc(h, maxd < 256) != PM_OK) {
+    if (howard_alloc(h, maxd < 256, maxt <= (int64_t)UINT32_MAX) != PM_OK) {
         howard_free(h);
         return PM_ENOMEM;
     }
     howard_copy(h, s->comp, dst);
+    free(h->map); /* rebuilt by howard_map() when the loops are read */
+    h->map = NULL;
     return PM_OK;
 }
 
@@ -127,6 +139,7 @@ void howard_free(howard *h)
     free(h->d8);
     free(h->d64);
     free(h->t);
+    free(h->t32);
     free(h->st);
     free(h->stack);
     free(h->seq);
@@ -165,7 +178,7 @@ static void howard_first_policy(howard *h, uint32_t a, uint32_t b)
         uint32_t best = h->off[i];
         for (uint32_t k = h->off[i] + 1; k < h->off[i + 1]; k++) {
             int64_t dk = he_delay(h, k), db = he_delay(h, best);
-            if (dk < db || (dk == db && h->t[he_dst(h, k)] > h->t[he_dst(h, best)]))
+            if (dk < db || (dk == db && ht(h, he_dst(h, k)) > ht(h, he_dst(h, best))))
                 best = k;
         }
         howard_set_pol(h, i, best); /* a part with a loop: every node has an edge */
@@ -191,7 +204,7 @@ static int howard_push_cycle(howard *h, int64_t w, int64_t d, uint32_t root)
 static inline bnd_i128 howard_step(const howard *h, uint32_t i, uint32_t k,
                                    const howard_cycle *c)
 {
-    return (bnd_i128)c->q * h->t[i] - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
+    return (bnd_i128)c->q * ht(h, i) - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
 }
 
 /* Set node i's cycle entry and bias, and mark it dirty when its ratio or
@@ -221,7 +234,7 @@ static int howard_close_cycle(howard *h, const uint32_t *nodes, uint32_t len)
     uint32_t at = 0;
     for (uint32_t j = 0; j < len; j++) {
         uint32_t i = nodes[j];
-        w += h->t[i];
+        w += ht(h, i);
         d += he_delay(h, *hw_pol(h, i));
         if (h->order[i] < h->order[nodes[at]])
             at = j;
@@ -308,7 +321,7 @@ howard_best(const howard *h, uint32_t i, bool wide)
     uint32_t bc = wide ? ((hw_wide *)h->st)[i].cyc : ((hw_narrow *)h->st)[i].cyc;
     uint32_t best = wide ? ((hw_wide *)h->st)[i].pol : ((hw_narrow *)h->st)[i].pol;
     bnd_i128 bx = wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
-    int64_t ti = h->t[i];
+    int64_t ti = ht(h, i);
     for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
         uint32_t v = h->dst[k];
         if (!wide && k + 16 < h->off[h->n]) /* overlap the cache misses */
@@ -421,6 +434,17 @@ bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q)
 {
     const howard_cycle *c = &h->cycles[*hw_cyc(h, i)];
     return c->p == p && c->q == q && howard_step(h, i, k, c) == hw_x(h, i);
+}
+
+int howard_map(howard *h)
+{
+    if (!h->map)
+        h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
+    if (!h->map)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < h->n; i++)
+        h->map[h->order[i]] = i;
+    return PM_OK;
 }
 
 uint32_t howard_policy_len(const howard *h, uint32_t root)

@@ -51,7 +51,8 @@ typedef struct howard {
     uint32_t *dst;         /* local target of each local edge */
     uint8_t *d8;           /* its delays when all are below 256 ... */
     int64_t *d64;          /* ... else here */
-    int64_t *t;            /* local node times */
+    int64_t *t;            /* local node times ... */
+    uint32_t *t32;         /* ... or here when all fit in 32 bits */
     void *st;              /* hw_narrow or hw_wide per local node */
     uint32_t *stack;
     uint32_t *seq;         /* scratch: peeling order of the policy graph */
@@ -89,6 +90,11 @@ static inline void hw_set_x(const howard *h, uint32_t i, bnd_i128 x)
         ((hw_narrow *)h->st)[i].x = (int64_t)x;
 }
 
+static inline int64_t ht(const howard *h, uint32_t i)
+{
+    return h->t32 ? h->t32[i] : h->t[i];
+}
+
 static inline uint32_t he_dst(const howard *h, uint32_t k)
 {
     return h->dst[k];
@@ -121,6 +127,10 @@ int howard_certify(const howard *h);
 /* Local edge k of local node i is tight under the certified potentials and
  * its part's bound is p/q (i must lie in a part with a loop). */
 bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q);
+
+/* (Re)build h->map, which howard_graph_edge needs; it is not kept during
+ * the iteration to save memory.  PM_ENOMEM. */
+int howard_map(howard *h);
 
 /* The graph edge behind local edge position k of local node i. */
 uint32_t howard_graph_edge(const howard *h, uint32_t i, uint32_t k);
