@@ -7,9 +7,8 @@
  * q*W - p*D and none is positive).  So the critical loops are the simple
  * cycles of the tight subgraph.  They are listed with Johnson's algorithm
  * ("Finding all the elementary circuits of a directed graph", SIAM J.
- * Computing 4(1), 1975), without recursion, on a local copy of the
- * nontrivial strongly connected parts of the tight subgraph (usually a few
- * nodes).  Each start node s is the smallest node of the cycles found from
+ * Computing 4(1), 1975), without recursion, on a local copy of the nodes
+ * that lie on tight cycles (found by peeling, usually a few nodes).  Each start node s is the smallest node of the cycles found from
  * it, so every loop starts at its smallest node id.  Johnson's bound,
  * O((V + E) per loop), holds because each round starts at the smallest node
  * of a nontrivial part of the nodes >= s, and we stop after max + 1 loops.
@@ -20,25 +19,44 @@
 #include <stdlib.h>
 #include <string.h>
 
-typedef struct tight_ctx {
-    const howard *h;
-    int64_t p, q;
-} tight_ctx;
-
-static bool loops_keep_tight(const pm_graph *g, uint32_t e, void *ctx)
+static bool loops_critical(const howard *h, uint32_t i, int64_t p, int64_t q)
 {
-    (void)g;
-    const tight_ctx *c = ctx;
-    return howard_tight(c->h, e, c->p, c->q);
+    uint32_t c = *hw_cyc(h, i);
+    return c != PM_NONE && h->cycles[c].p == p && h->cycles[c].q == q;
 }
 
-/* The local graph: nodes of nontrivial tight parts, in ascending id. */
+/* Peel the tight subgraph of the critical parts from its sources (Kahn).
+ * Every node of a critical part leads along tight policy edges to a tight
+ * cycle, so a node left over (indeg > 0) lies on a tight cycle itself: the
+ * leftovers are exactly the nodes of the critical loops, usually a few.
+ * indeg and queue are scratch arrays of h->n entries. */
+static void loops_peel(const howard *h, int64_t p, int64_t q, uint32_t *indeg, uint32_t *queue)
+{
+    uint32_t tail = 0;
+    memset(indeg, 0, (size_t)h->n * sizeof *indeg);
+    for (uint32_t i = 0; i < h->n; i++)
+        if (loops_critical(h, i, p, q))
+            for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+                indeg[he_dst(h, k)] += howard_tight(h, i, k, p, q);
+    for (uint32_t i = 0; i < h->n; i++)
+        if (indeg[i] == 0 && loops_critical(h, i, p, q))
+            queue[tail++] = i;
+    for (uint32_t head = 0; head < tail; head++) {
+        uint32_t i = queue[head];
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+            if (howard_tight(h, i, k, p, q) && --indeg[he_dst(h, k)] == 0)
+                queue[tail++] = he_dst(h, k);
+    }
+}
+
+/* The local graph of Johnson's search: the nodes left by loops_peel, in
+ * ascending local index (ascending node id inside a part). */
 typedef struct loops_local {
     uint32_t n, m;
-    uint32_t *glob;   /* local -> global node */
-    uint32_t *off;    /* local CSR */
-    uint32_t *adj;    /* local successor */
-    uint32_t *eid;    /* global edge id */
+    uint32_t *glob;   /* Johnson index -> howard local index */
+    uint32_t *off;    /* CSR */
+    uint32_t *adj;    /* successor (Johnson index) */
+    uint32_t *eid;    /* graph edge id */
 } loops_local;
 
 static void loops_local_free(loops_local *l)
@@ -50,46 +68,45 @@ static void loops_local_free(loops_local *l)
     memset(l, 0, sizeof *l);
 }
 
-/* Build the local graph; map[] (nnodes entries) is scratch. */
-static int loops_local_build(const pm_graph *g, const pm_scc *ts, tight_ctx *tc,
+/* Tight edge k of i whose target is kept (map != PM_NONE). */
+static bool loops_keep(const howard *h, const uint32_t *map, uint32_t i, uint32_t k,
+                       int64_t p, int64_t q)
+{
+    return map[he_dst(h, k)] != PM_NONE && howard_tight(h, i, k, p, q);
+}
+
+/* Build the local graph from the kept nodes (left[i] > 0); map[] (h->n
+ * entries) is scratch. */
+static int loops_local_build(const howard *h, int64_t p, int64_t q, const uint32_t *left,
                              uint32_t *map, loops_local *l)
 {
     memset(l, 0, sizeof *l);
-    for (uint32_t v = 0; v < g->nnodes; v++) {
-        bool in = pm_scc_has_cycle(g, ts, ts->comp[v], loops_keep_tight, tc);
-        map[v] = in ? l->n++ : PM_NONE;
-    }
+    for (uint32_t i = 0; i < h->n; i++)
+        map[i] = left[i] > 0 && loops_critical(h, i, p, q) ? l->n++ : PM_NONE;
     l->glob = malloc(((size_t)l->n + 1) * sizeof *l->glob);
     l->off = calloc((size_t)l->n + 1, sizeof *l->off);
     if (!l->glob || !l->off)
         return PM_ENOMEM;
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        if (map[v] != PM_NONE) {
-            l->glob[map[v]] = v;
-            for (uint32_t k = g->out_off[v]; k < g->out_off[v + 1]; k++) {
-                uint32_t e = g->out_edge[k], w = g->edges[e].dst;
-                if (map[w] != PM_NONE && ts->comp[w] == ts->comp[v] &&
-                    loops_keep_tight(g, e, tc))
-                    l->off[map[v] + 1]++;
-            }
+    for (uint32_t i = 0; i < h->n; i++)
+        if (map[i] != PM_NONE) {
+            l->glob[map[i]] = i;
+            for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+                l->off[map[i] + 1] += loops_keep(h, map, i, k, p, q);
         }
-    for (uint32_t i = 0; i < l->n; i++)
-        l->off[i + 1] += l->off[i];
+    for (uint32_t j = 0; j < l->n; j++)
+        l->off[j + 1] += l->off[j];
     l->m = l->off[l->n];
     l->adj = malloc(((size_t)l->m + 1) * sizeof *l->adj);
     l->eid = malloc(((size_t)l->m + 1) * sizeof *l->eid);
     if (!l->adj || !l->eid)
         return PM_ENOMEM;
-    for (uint32_t i = 0, pos = 0; i < l->n; i++) {
-        uint32_t v = l->glob[i];
-        for (uint32_t k = g->out_off[v]; k < g->out_off[v + 1]; k++) {
-            uint32_t e = g->out_edge[k], w = g->edges[e].dst;
-            if (map[w] != PM_NONE && ts->comp[w] == ts->comp[v] &&
-                loops_keep_tight(g, e, tc)) {
-                l->adj[pos] = map[w];
-                l->eid[pos++] = e;
+    for (uint32_t j = 0, at = 0; j < l->n; j++) {
+        uint32_t i = l->glob[j];
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+            if (loops_keep(h, map, i, k, p, q)) {
+                l->adj[at] = map[he_dst(h, k)];
+                l->eid[at++] = howard_graph_edge(h, i, k);
             }
-        }
     }
     return PM_OK;
 }
@@ -98,7 +115,7 @@ static int loops_local_build(const pm_graph *g, const pm_scc *ts, tight_ctx *tc,
 typedef struct johnson {
     const loops_local *l;
     const pm_graph *g;
-    const int64_t *t;
+    const howard *h;
     uint8_t *blocked;
     uint32_t *bhead;          /* B lists: head per node, pool below */
     uint32_t *bval, *bnext;
@@ -129,10 +146,10 @@ static int johnson_emit(johnson *j, uint32_t depth, uint32_t last_edge)
     lp->nodes = store;
     lp->edges = store + len;
     for (uint32_t i = 0; i < len; i++) {
-        lp->nodes[i] = j->l->glob[j->fv[i]];
+        lp->nodes[i] = j->h->order[j->l->glob[j->fv[i]]];
         lp->edges[i] = i + 1 < len ? j->pedge[i] : last_edge;
     }
-    bound_loop_sums(j->g, j->t, lp);
+    bound_loop_sums(j->g, lp);
     return PM_OK;
 }
 
@@ -310,7 +327,7 @@ static int johnson_round(johnson *j, uint32_t *s)
 static int loops_enumerate(const loops_local *l, const howard *h, uint32_t max,
                            pm_bound *out)
 {
-    johnson j = { .l = l, .g = h->g, .t = h->t, .out = out, .max = max,
+    johnson j = { .l = l, .g = h->g, .h = h, .out = out, .max = max,
                   .bfree = PM_NONE };
     int rc = johnson_alloc(&j, l->n);
     out->critical = rc ? NULL : calloc((size_t)max + 1, sizeof *out->critical);
@@ -325,27 +342,22 @@ static int loops_enumerate(const loops_local *l, const howard *h, uint32_t max,
 int bound_critical_loops(const howard *h, int64_t p, int64_t q, uint32_t max,
                          pm_bound *out)
 {
-    tight_ctx tc = { h, p, q };
-    pm_scc ts;
-    int rc = pm_scc_compute(h->g, loops_keep_tight, &tc, &ts);
-    if (rc)
-        return rc;
+    /* the iteration's scratch arrays are free now */
+    loops_peel(h, p, q, h->stack, h->seq);
     loops_local l;
-    /* the policy array is no longer needed: reuse it as the local map */
-    rc = loops_local_build(h->g, &ts, &tc, h->pol, &l);
-    pm_scc_free(&ts);
+    int rc = loops_local_build(h, p, q, h->stack, h->nxt, &l);
     if (rc == PM_OK)
         rc = loops_enumerate(&l, h, max, out);
     loops_local_free(&l);
     return rc;
 }
 
-void bound_loop_sums(const pm_graph *g, const int64_t *t, pm_loop *loop)
+void bound_loop_sums(const pm_graph *g, pm_loop *loop)
 {
     loop->cycles = 0;
     loop->delays = 0;
     for (uint32_t i = 0; i < loop->len; i++) {
-        loop->cycles += t[loop->nodes[i]];
+        loop->cycles += pm_graph_min_cycles(g, loop->nodes[i]);
         loop->delays += g->edges[loop->edges[i]].delay;
     }
 }

@@ -26,22 +26,6 @@ static void *graph_grow(void *ptr, size_t *cap, size_t need, size_t elem)
     return p;
 }
 
-static uint64_t graph_hash_name(const char *s, size_t len)
-{
-    uint64_t h = 1469598103934665603ULL; /* FNV-1a */
-    for (size_t i = 0; i < len; i++) {
-        h ^= (unsigned char)s[i];
-        h *= 1099511628211ULL;
-    }
-    /* FNV's low bits mix poorly (bit 0 is the parity of the bytes' bit 0) and
-     * the table uses the low bits: finish with a 64-bit mixer (the
-     * finalizer of MurmurHash3) so names like n1, n2, ... spread out. */
-    h ^= h >> 33;
-    h *= 0xff51afd7ed558ccdULL;
-    h ^= h >> 33;
-    return h;
-}
-
 static void platform_free(pm_platform *p)
 {
     for (uint32_t c = 0; c < p->nclasses; c++)
@@ -100,12 +84,34 @@ typedef struct graph_key {
     uint32_t pre[2];
 } graph_key;
 
+/* Up to 8 bytes of s as a little-endian word (a byte loop: no read past
+ * the name, and no serial multiply chain as in byte-wise hashes). */
+static uint64_t graph_word(const char *s, size_t n)
+{
+    uint64_t w = 0;
+    for (size_t i = 0; i < n && i < 8; i++)
+        w |= (uint64_t)(unsigned char)s[i] << (8 * i);
+    return w;
+}
+
+/* The hash folds the name in 8-byte words, each mixed with the steps of
+ * MurmurHash3's 64-bit finalizer, then finalizes; the tag is its top half. */
 static graph_key graph_key_of(const char *s, size_t len)
 {
-    graph_key k = { (uint32_t)(graph_hash_name(s, len) >> 32) & ~GRAPH_LONG, { 0, 0 } };
+    uint64_t w = graph_word(s, len);
+    uint64_t h = w ^ ((uint64_t)len * 0x9e3779b97f4a7c15ULL);
+    for (size_t i = 8; i < len; i += 8) {
+        h = (h ^ graph_word(s + i, len - i)) * 0xc4ceb9fe1a85ec53ULL;
+        h ^= h >> 29;
+    }
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdULL;
+    h ^= h >> 33;
+    h *= 0xc4ceb9fe1a85ec53ULL;
+    h ^= h >> 33;
+    graph_key k = { (uint32_t)(h >> 32) & ~GRAPH_LONG, { (uint32_t)w, (uint32_t)(w >> 32) } };
     if (len > 8)
         k.tag |= GRAPH_LONG;
-    memcpy(k.pre, s, len < 8 ? len : 8);
     return k;
 }
 

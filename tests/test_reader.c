@@ -554,6 +554,34 @@ static void test_error_order_with_batched_edges(void **state)
                  "frequency with a unit (Hz, kHz, MHz or GHz) after 'clock', found '1'");
 }
 
+/* Node lines are stored in batches too: a duplicate is still reported at
+ * its line, before any error on a later line, within a batch or across. */
+static void test_error_order_with_batched_nodes(void **state)
+{
+    (void)state;
+    expect_error("node a cycles=1\nnode a cycles=2\nnod\n", PM_ENAME,
+                 "t.pace:2:6: error: duplicate node 'a' (first declared on line 1)");
+    expect_error("node a cycles=1\nnode a cycles=dsp:1\n", PM_ENAME,
+                 "t.pace:2:6: error: duplicate node 'a' (first declared on line 1)");
+    expect_error("node a cycles=1\nnode b cycles=2\nnode a\n", PM_ENAME,
+                 "t.pace:3:6: error: duplicate node 'a' (first declared on line 1)");
+    size_t cap = 64 * 3000, len = 0;
+    char *text = malloc(cap);
+    assert_non_null(text);
+    for (int v = 0; v < 2500; v++)
+        len += (size_t)snprintf(text + len, cap - len, "node v%d cycles=1\n", v);
+    snprintf(text + len, cap - len, "node v7 cycles=1\n");
+    expect_error(text, PM_ENAME, "t.pace:2501:6: error: duplicate node 'v7' (first declared on "
+                 "line 8)");
+    snprintf(text + len, cap - len, "node v2400 cycles=1\n");
+    expect_error(text, PM_ENAME, "t.pace:2501:6: error: duplicate node 'v2400' (first declared "
+                 "on line 2401)");
+    snprintf(text + len, cap - len, "edge v0 -> v2499 -> v1\nnode v2499 cycles=1\n");
+    expect_error(text, PM_ENAME, "t.pace:2502:6: error: duplicate node 'v2499' (first declared "
+                 "on line 2500)");
+    free(text);
+}
+
 static void test_whole_file_errors(void **state)
 {
     (void)state;
@@ -806,6 +834,7 @@ int main(void)
         cmocka_unit_test(test_work_errors),
         cmocka_unit_test(test_edge_errors),
         cmocka_unit_test(test_error_order_with_batched_edges),
+        cmocka_unit_test(test_error_order_with_batched_nodes),
         cmocka_unit_test(test_whole_file_errors),
         cmocka_unit_test(test_count_limits),
         cmocka_unit_test(test_find_many_matches_find),
