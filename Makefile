@@ -22,7 +22,7 @@ LDLIBS   += -lhwloc -lpthread -lm
 TEST_LDLIBS = -lcmocka -lfftw3f -lfftw3
 DEBIAN_PACKAGES = build-essential pkg-config libcmocka-dev libhwloc-dev hwloc \
            libboost-graph-dev glpk-utils python3 python3-networkx libfftw3-dev \
-           clang libclang-rt-dev graphviz
+           clang libclang-rt-dev graphviz python3-jsonschema
 
 # ---- sources ----------------------------------------------------------------
 CLI_SRC  := $(wildcard sim/main.c sim/cli*.c sim/cmd_*.c)

@@ -1,0 +1,484 @@
+/*
+ * bound_howard.c - Howard's policy iteration for the maximum cycle ratio,
+ * in exact integer arithmetic, and its certificate.
+ *
+ * Method: Cochet-Terrasson, Cohen, Gaubert, McGettrick & Quadrat,
+ * "Numerical computation of spectral elements in max-plus algebra", 1998;
+ * Dasdan, "Experimental analysis of the fastest optimum cycle ratio and
+ * mean algorithms", ACM TODAES 2004.  A policy picks one out-edge per node;
+ * each node then leads to one policy cycle of ratio p/q, and its bias x
+ * (scaled by q, so it is an integer) satisfies x(u) = q*t(u) - p*d + x(v)
+ * along its policy edge, with x = 0 at the cycle's smallest node.  A node
+ * changes its edge only on strict improvement: first a larger ratio, then
+ * (equal ratio, hence equal reduced q) a larger bias, both judged on the
+ * values of the previous policy.  Ratios and biases never decrease and
+ * some strictly increase, so the iteration ends; at the end no edge
+ * improves, which is exactly the certificate, checked again on the graph's
+ * own edge list.
+ *
+ * Magnitudes: sums of node times T and of delays D are below 2^62, so p and
+ * q are below 2^62, |x| <= q*T + p*D < 2^125 and every expression fits in
+ * 128 bits.  When 4*T*D < 2^63 (nearly always) biases are kept in 64 bits,
+ * which halves the memory the passes sweep.
+ * What it does not do: choose the part order, list loops (bound.c,
+ * bound_loops.c).
+ */
+#include "bound_internal.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+/* ---- building the local arrays ------------------------------------------ */
+
+static int howard_alloc(howard *h, bool small_delays, bool small_times)
+{
+    size_t n = (size_t)h->n + 1, m = (size_t)h->off[h->n] + 1;
+    h->dst = malloc(m * sizeof *h->dst);
+    if (small_delays)
+        h->d8 = malloc(m);
+    else
+        h->d64 = malloc(m * sizeof *h->d64);
+    if (small_times)
+        h->t32 = malloc(n * sizeof *h->t32);
+    else
+        h->t = malloc(n * sizeof *h->t);
+    return h->dst && (h->d8 || h->d64) && (h->t || h->t32) ? PM_OK : PM_ENOMEM;
+}
+
+/* Count, then copy, the edges whose ends share a part.  dst[k] is the
+ * target of g->out_edge[k]. */
+static void howard_fill(howard *h, const uint32_t *comp, const uint32_t *dst)
+{
+    const pm_graph *g = h->g;
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t u = h->order[i], c = 0;
+        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++)
+            c += comp[dst[k]] == comp[u];
+        h->off[i + 1] = h->off[i] + c;
+    }
+}
+
+static void howard_copy(howard *h, const uint32_t *comp, const uint32_t *dst)
+{
+    const pm_graph *g = h->g;
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t u = h->order[i], at = h->off[i];
+        if (h->t32)
+            h->t32[i] = (uint32_t)pm_graph_min_cycles(g, u);
+        else
+            h->t[i] = pm_graph_min_cycles(g, u);
+        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
+            if (comp[dst[k]] != comp[u])
+                continue;
+            int64_t d = g->edges[g->out_edge[k]].delay;
+            h->dst[at] = h->map[dst[k]];
+            if (h->d8)
+                h->d8[at++] = (uint8_t)d;
+            else
+                h->d64[at++] = d;
+        }
+    }
+}
+
+/* The per-node state of the iteration, allocated once the graph's
+ * component array and target list are gone (lower peak memory). */
+int howard_alloc_state(howard *h)
+{
+    size_t n = (size_t)h->n + 1;
+    h->st = h->wide ? malloc(n * sizeof(hw_wide)) : malloc(n * sizeof(hw_narrow));
+    h->stack = malloc(n * sizeof *h->stack);
+    h->seq = malloc(n * sizeof *h->seq);
+    h->nxt = malloc(n * sizeof *h->nxt);
+    h->dirty = calloc(n / 64 + 1, sizeof *h->dirty);
+    if (!h->st || !h->stack || !h->seq || !h->nxt || !h->dirty)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < h->n; i++)
+        *hw_cyc(h, i) = PM_NONE;
+    return PM_OK;
+}
+
+int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *dst,
+                int64_t sum_t, int64_t sum_d)
+{
+    memset(h, 0, sizeof *h);
+    h->g = g;
+    h->n = g->nnodes;
+    h->order = s->order;
+    int64_t maxd = 0, maxt = 0;
+    for (uint32_t e = 0; e < g->nedges; e++)
+        maxd = g->edges[e].delay > maxd ? g->edges[e].delay : maxd;
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        int64_t tv = pm_graph_min_cycles(g, v);
+        maxt = tv > maxt ? tv : maxt;
+    }
+    h->wide = (bnd_i128)sum_t * sum_d >= ((bnd_i128)1 << 60);
+    h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
+    h->off = calloc((size_t)h->n + 1, sizeof *h->off);
+    if (!h->map || !h->off) {
+        howard_free(h);
+        return PM_ENOMEM;
+    }
+    for (uint32_t i = 0; i < h->n; i++)
+        h->map[h->order[i]] = i;
+    howard_fill(h, s->comp, dst);
+    if (howard_alloc(h, maxd < 256, maxt <= (int64_t)UINT32_MAX) != PM_OK) {
+        howard_free(h);
+        return PM_ENOMEM;
+    }
+    howard_copy(h, s->comp, dst);
+    free(h->map); /* rebuilt by howard_map() when the loops are read */
+    h->map = NULL;
+    return PM_OK;
+}
+
+void howard_free(howard *h)
+{
+    free(h->map);
+    free(h->off);
+    free(h->dst);
+    free(h->d8);
+    free(h->d64);
+    free(h->t);
+    free(h->t32);
+    free(h->st);
+    free(h->stack);
+    free(h->seq);
+    free(h->nxt);
+    free(h->dirty);
+    free(h->old);
+    free(h->cycles);
+    memset(h, 0, sizeof *h);
+}
+
+/* ---- policy iteration ---------------------------------------------------- */
+
+/* Exact order of two ratios (q > 0). */
+static inline int howard_cmp(const howard_cycle *a, const howard_cycle *b)
+{
+    bnd_i128 l = (bnd_i128)a->p * b->q, r = (bnd_i128)b->p * a->q;
+    return (l > r) - (l < r);
+}
+
+static inline uint32_t howard_next(const howard *h, uint32_t i)
+{
+    return h->nxt[i];
+}
+
+static inline void howard_set_pol(howard *h, uint32_t i, uint32_t k)
+{
+    *hw_pol(h, i) = k;
+    h->nxt[i] = he_dst(h, k);
+}
+
+/* First policy: the edge with the fewest delays, ties to the heavier
+ * successor (a cheap guess at a large ratio). */
+static void howard_first_policy(howard *h, uint32_t a, uint32_t b)
+{
+    for (uint32_t i = a; i < b; i++) {
+        uint32_t best = h->off[i];
+        for (uint32_t k = h->off[i] + 1; k < h->off[i + 1]; k++) {
+            int64_t dk = he_delay(h, k), db = he_delay(h, best);
+            if (dk < db || (dk == db && ht(h, he_dst(h, k)) > ht(h, he_dst(h, best))))
+                best = k;
+        }
+        howard_set_pol(h, i, best); /* a part with a loop: every node has an edge */
+    }
+}
+
+static int howard_push_cycle(howard *h, int64_t w, int64_t d, uint32_t root)
+{
+    if (h->ncycles == h->cycles_cap) {
+        uint32_t cap = h->cycles_cap ? 2 * h->cycles_cap : 64;
+        howard_cycle *p = realloc(h->cycles, cap * sizeof *p);
+        if (!p)
+            return PM_ENOMEM;
+        h->cycles = p;
+        h->cycles_cap = cap;
+    }
+    uint64_t gcd = pm_gcd_u64((uint64_t)w, (uint64_t)d);
+    h->cycles[h->ncycles++] = (howard_cycle){ w / (int64_t)gcd, d / (int64_t)gcd, root };
+    return PM_OK;
+}
+
+/* q*t(i) - p*d(k) + x(dst k): the bias i gets through local edge k. */
+static inline bnd_i128 howard_step(const howard *h, uint32_t i, uint32_t k,
+                                   const howard_cycle *c)
+{
+    return (bnd_i128)c->q * ht(h, i) - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
+}
+
+/* Set node i's cycle entry and bias, and mark it dirty when its ratio or
+ * bias differs from the previous policy's (h->old holds that table). */
+static inline void howard_assign(howard *h, uint32_t i, uint32_t k, bnd_i128 x)
+{
+    uint32_t o = *hw_cyc(h, i);
+    bool same = o != PM_NONE && o - h->old_base < h->nold &&
+                h->old[o - h->old_base].p == h->cycles[k].p &&
+                h->old[o - h->old_base].q == h->cycles[k].q && hw_x(h, i) == x;
+    if (!same)
+        h->dirty[i >> 6] |= UINT64_C(1) << (i & 63);
+    *hw_cyc(h, i) = k;
+    hw_set_x(h, i, x);
+}
+
+static inline bool howard_is_dirty(const howard *h, uint32_t i)
+{
+    return h->dirty[i >> 6] >> (i & 63) & 1;
+}
+
+/* The policy cycle nodes[0..len) in policy order: record it and set its
+ * biases, backwards from its smallest node. */
+static int howard_close_cycle(howard *h, const uint32_t *nodes, uint32_t len)
+{
+    int64_t w = 0, d = 0;
+    uint32_t at = 0;
+    for (uint32_t j = 0; j < len; j++) {
+        uint32_t i = nodes[j];
+        w += ht(h, i);
+        d += he_delay(h, *hw_pol(h, i));
+        if (h->order[i] < h->order[nodes[at]])
+            at = j;
+    }
+    int rc = howard_push_cycle(h, w, d, nodes[at]);
+    if (rc)
+        return rc;
+    uint32_t k = h->ncycles - 1;
+    howard_assign(h, nodes[at], k, 0);
+    for (uint32_t j = 1; j < len; j++) {
+        uint32_t i = nodes[(at + len - j) % len];
+        howard_assign(h, i, k, howard_step(h, i, *hw_pol(h, i), &h->cycles[k]));
+    }
+    return PM_OK;
+}
+
+/* Peel the policy graph of [a, b) like Kahn's topological sort: nodes with
+ * no policy predecessor left go first.  What stays (indeg > 0) lies on
+ * policy cycles.  seq[a..) gets the peeled nodes; returns the end.  The
+ * accesses are independent of each other, so the memory system overlaps
+ * them (a walk along policy pointers would wait on each miss in turn). */
+static uint32_t howard_peel(howard *h, uint32_t a, uint32_t b, uint32_t *indeg)
+{
+    for (uint32_t i = a; i < b; i++)
+        indeg[i] = 0;
+    for (uint32_t i = a; i < b; i++)
+        indeg[howard_next(h, i)]++;
+    uint32_t tail = a;
+    for (uint32_t i = a; i < b; i++)
+        if (indeg[i] == 0)
+            h->seq[tail++] = i;
+    for (uint32_t head = a; head < tail; head++) {
+        if (head + 8 < tail)
+            __builtin_prefetch(&h->nxt[h->seq[head + 8]]);
+        uint32_t v = howard_next(h, h->seq[head]);
+        if (--indeg[v] == 0)
+            h->seq[tail++] = v;
+    }
+    return tail;
+}
+
+/* Value determination: ratio and bias of every node of [a, b).  Cycles
+ * first, then the peeled nodes in reverse order (each after its
+ * successor). */
+static int howard_values(howard *h, uint32_t a, uint32_t b)
+{
+    for (uint32_t w = a >> 6; w <= (b - 1) >> 6; w++)
+        h->dirty[w] = 0;
+    uint32_t *indeg = h->stack;
+    uint32_t tail = howard_peel(h, a, b, indeg);
+    for (uint32_t i = a; i < b; i++) {
+        if (indeg[i] == 0)
+            continue;
+        uint32_t len = 0, v = i;
+        do { /* collect the cycle in the free end of seq */
+            h->seq[tail + len++] = v;
+            indeg[v] = 0;
+            v = howard_next(h, v);
+        } while (v != i);
+        int rc = howard_close_cycle(h, h->seq + tail, len);
+        if (rc)
+            return rc;
+    }
+    for (uint32_t j = tail; j-- > a;) {
+        uint32_t u = h->seq[j];
+        if (j >= a + 8) { /* overlap the misses of the coming nodes */
+            uint32_t f = h->seq[j - 8];
+            __builtin_prefetch(&h->nxt[f]);
+            __builtin_prefetch(h->wide ? (void *)&((hw_wide *)h->st)[f]
+                                       : (void *)&((hw_narrow *)h->st)[f]);
+        }
+        uint32_t k = *hw_cyc(h, howard_next(h, u));
+        howard_assign(h, u, k, howard_step(h, u, *hw_pol(h, u), &h->cycles[k]));
+    }
+    return PM_OK;
+}
+
+/* Best edge of node i under the current values (strict improvement only).
+ * Inlined with a constant `wide` so each width gets its own loop. */
+static inline __attribute__((always_inline)) uint32_t
+howard_best(const howard *h, uint32_t i, bool wide)
+{
+    const howard_cycle *cy = h->cycles;
+    uint32_t bc = wide ? ((hw_wide *)h->st)[i].cyc : ((hw_narrow *)h->st)[i].cyc;
+    uint32_t best = wide ? ((hw_wide *)h->st)[i].pol : ((hw_narrow *)h->st)[i].pol;
+    bnd_i128 bx = wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
+    int64_t ti = ht(h, i);
+    for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
+        uint32_t v = h->dst[k];
+        if (!wide && k + 16 < h->off[h->n]) /* overlap the cache misses */
+            __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);
+        int64_t d = he_delay(h, k);
+        uint32_t vc = wide ? ((hw_wide *)h->st)[v].cyc : ((hw_narrow *)h->st)[v].cyc;
+        int r = vc == bc ? 0 : howard_cmp(&cy[vc], &cy[bc]);
+        if (r < 0)
+            continue;
+        bnd_i128 vx = wide ? ((hw_wide *)h->st)[v].x : ((hw_narrow *)h->st)[v].x;
+        bnd_i128 val;
+        if (wide)
+            val = (bnd_i128)cy[vc].q * ti - (bnd_i128)cy[vc].p * d + vx;
+        else /* fits: 4*T*D < 2^63 */
+            val = cy[vc].q * ti - cy[vc].p * d + (int64_t)vx;
+        if (r > 0 || val > bx) {
+            best = k;
+            bc = vc;
+            bx = val;
+        }
+    }
+    return best;
+}
+
+/* Policy improvement; true when some node changed its edge.  Every node is
+ * judged on the values of the previous policy (the order does not
+ * matter, which the termination argument needs). */
+static bool howard_improve(howard *h, uint32_t a, uint32_t b)
+{
+    bool changed = false;
+    for (uint32_t i = a; i < b; i++) {
+        /* no value around i moved: it still has no strict improvement */
+        bool look = howard_is_dirty(h, i);
+        for (uint32_t k = h->off[i]; !look && k < h->off[i + 1]; k++)
+            look = howard_is_dirty(h, h->dst[k]);
+        if (!look)
+            continue;
+        uint32_t best = h->wide ? howard_best(h, i, true) : howard_best(h, i, false);
+        if (best != *hw_pol(h, i)) {
+            howard_set_pol(h, i, best);
+            changed = true;
+        }
+    }
+    return changed;
+}
+
+/* Remember the ratios of the current policy's cycles (entries from base)
+ * so that the next value determination can tell what changed. */
+static int howard_keep_old(howard *h, uint32_t base)
+{
+    uint32_t n = h->ncycles - base;
+    if (n > h->old_cap) {
+        howard_cycle *p = realloc(h->old, n * sizeof *p);
+        if (!p)
+            return PM_ENOMEM;
+        h->old = p;
+        h->old_cap = n;
+    }
+    if (n)
+        memcpy(h->old, h->cycles + base, n * sizeof *h->old);
+    h->old_base = base;
+    h->nold = n;
+    return PM_OK;
+}
+
+int howard_solve_part(howard *h, uint32_t a, uint32_t b)
+{
+    uint32_t base = h->ncycles;
+    howard_first_policy(h, a, b);
+    for (;;) {
+        int rc = howard_keep_old(h, base);
+        if (rc)
+            return rc;
+        h->ncycles = base;
+        rc = howard_values(h, a, b);
+        if (rc)
+            return rc;
+        if (!howard_improve(h, a, b))
+            break;
+    }
+    /* converged: one ratio for the whole part; keep the cycle reached from
+     * the part's first node as its worst loop */
+    h->ncycles = base + 1;
+    for (uint32_t i = a; i < b; i++)
+        *hw_cyc(h, i) = base;
+    return PM_OK;
+}
+
+/* ---- the certificate and what it gives ----------------------------------- */
+
+int howard_certify(const howard *h)
+{
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t cu = *hw_cyc(h, i);
+        bnd_i128 xi = hw_x(h, i);
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
+            if (!h->wide && k + 16 < h->off[h->n])
+                __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);
+            /* an edge inside a part: both ends carry the part's entry */
+            if (cu == PM_NONE || *hw_cyc(h, he_dst(h, k)) != cu)
+                return PM_EINVAL;
+            if (howard_step(h, i, k, &h->cycles[cu]) > xi)
+                return PM_EINVAL;
+        }
+    }
+    return PM_OK;
+}
+
+bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q)
+{
+    const howard_cycle *c = &h->cycles[*hw_cyc(h, i)];
+    return c->p == p && c->q == q && howard_step(h, i, k, c) == hw_x(h, i);
+}
+
+int howard_map(howard *h)
+{
+    if (!h->map)
+        h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
+    if (!h->map)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < h->n; i++)
+        h->map[h->order[i]] = i;
+    return PM_OK;
+}
+
+uint32_t howard_policy_len(const howard *h, uint32_t root)
+{
+    uint32_t len = 0, v = root;
+    do {
+        len++;
+        v = howard_next(h, v);
+    } while (v != root);
+    return len;
+}
+
+/* The graph edge behind local edge position k of local node i: the same
+ * rank among the node's out-edges that stay inside its part. */
+uint32_t howard_graph_edge(const howard *h, uint32_t i, uint32_t k)
+{
+    const pm_graph *g = h->g;
+    uint32_t u = h->order[i], rank = k - h->off[i], cu = *hw_cyc(h, i);
+    for (uint32_t j = g->out_off[u];; j++) {
+        uint32_t e = g->out_edge[j];
+        if (*hw_cyc(h, h->map[g->edges[e].dst]) == cu && rank-- == 0)
+            return e;
+    }
+}
+
+void howard_policy_loop(const howard *h, uint32_t root, uint32_t *store, pm_loop *loop)
+{
+    uint32_t len = howard_policy_len(h, root), v = root;
+    loop->len = len;
+    loop->nodes = store;
+    loop->edges = store + len;
+    for (uint32_t j = 0; j < len; j++) {
+        loop->nodes[j] = h->order[v];
+        loop->edges[j] = howard_graph_edge(h, v, *hw_pol(h, v));
+        v = howard_next(h, v);
+    }
+}
