@@ -424,10 +424,11 @@ int pm_cmd_check(int argc, char **argv)
     int st = cli_parse(&cmd, argc, argv, &file);
     if (st >= 0)
         return st;
-    pm_graph *g = NULL;
-    st = cli_load(file, procs_set, procs, &g);
+    cli_scenario scn;
+    st = cli_load_scenario(file, procs_set, procs, &scn);
     if (st != CLI_EXIT_OK)
         return st;
+    const pm_graph *g = scn.source;
     check_summary sum = { 0 };
     st = check_analyse(g, &sum);
     if (st == CLI_EXIT_OK && json)
@@ -435,6 +436,6 @@ int pm_cmd_check(int argc, char **argv)
     else if (st == CLI_EXIT_OK)
         check_print_text(file, g, &sum);
     free(sum.rep);
-    pm_graph_destroy(g);
+    cli_scenario_free(&scn);
     return st;
 }

@@ -58,7 +58,7 @@ static void dot_mark_loop(dot_view *v, const pm_loop *l, unsigned char mark)
     for (uint32_t i = 0; i < l->len; i++) {
         if (v->node_mark[l->nodes[i]] < mark)
             v->node_mark[l->nodes[i]] = mark;
-        if (v->edge_mark[l->edges[i]] < mark)
+        if (l->edges[i] != PM_NONE && v->edge_mark[l->edges[i]] < mark)
             v->edge_mark[l->edges[i]] = mark;
     }
 }
@@ -333,16 +333,50 @@ static int dot_bound(const pm_graph *g, pm_bound *b, bool *have, pm_diag *d)
     return CLI_EXIT_INPUT;
 }
 
-static int dot_draw(const char *file, const pm_graph *g, bool json)
+/* The first edge of the scenario from node u to node v (PM_NONE if none). */
+static uint32_t dot_source_edge(const pm_graph *g, uint32_t u, uint32_t v)
+{
+    for (uint32_t i = g->out_off[u]; i < g->out_off[u + 1]; i++)
+        if (g->edges[g->out_edge[i]].dst == v)
+            return g->out_edge[i];
+    return PM_NONE;
+}
+
+/* A multirate scenario's bound is computed on its expansion; draw its
+ * loops on the scenario's own nodes and edges (firings of one node fold
+ * onto that node). */
+static void dot_fold_loop(const cli_scenario *s, pm_loop *l)
+{
+    for (uint32_t i = 0; i < l->len; i++) {
+        uint32_t u = s->origin[l->nodes[i]];
+        uint32_t v = s->origin[l->nodes[(i + 1) % l->len]];
+        l->edges[i] = dot_source_edge(s->source, u, v);
+    }
+    for (uint32_t i = 0; i < l->len; i++)
+        l->nodes[i] = s->origin[l->nodes[i]];
+}
+
+static void dot_fold_bound(const cli_scenario *s, pm_bound *b)
+{
+    for (uint32_t i = 0; i < b->ncritical; i++)
+        dot_fold_loop(s, &b->critical[i]);
+    for (uint32_t i = 0; i < b->nparts; i++)
+        dot_fold_loop(s, &b->parts[i].worst);
+}
+
+static int dot_draw(const char *file, const cli_scenario *s, bool json)
 {
     pm_bound b;
     pm_diag d;
     bool have = false;
+    const pm_graph *g = s->source;
     memset(&b, 0, sizeof b);
     pm_diag_clear(&d);
-    int st = dot_bound(g, &b, &have, &d);
+    int st = dot_bound(s->graph, &b, &have, &d);
     if (st != CLI_EXIT_OK)
         return st;
+    if (have && s->multirate)
+        dot_fold_bound(s, &b);
     dot_view v = { .g = g, .b = have ? &b : NULL, .no_bound_why = d.msg };
     v.node_mark = calloc((size_t)g->nnodes + 1, 1);
     v.edge_mark = calloc((size_t)g->nedges + 1, 1);
@@ -379,11 +413,11 @@ int pm_cmd_dot(int argc, char **argv)
     int st = cli_parse(&cmd, argc, argv, &file);
     if (st >= 0)
         return st;
-    pm_graph *g = NULL;
-    st = cli_load(file, false, 0, &g);
+    cli_scenario scn;
+    st = cli_load_scenario(file, false, 0, &scn);
     if (st != CLI_EXIT_OK)
         return st;
-    st = dot_draw(file, g, json);
-    pm_graph_destroy(g);
+    st = dot_draw(file, &scn, json);
+    cli_scenario_free(&scn);
     return st;
 }
