@@ -3,8 +3,8 @@
  * [--oversubscribe] [--ring N] [--json]`: execute a map on real cores and
  * compare the measured period with the model's prediction (DESIGN §7).
  *
- * Steps: load, map (--map, else a round-robin map: the one place to plug
- * the list scheduler in), choose PUs, calibrate, time each node alone,
+ * Steps: load, map (--map, else the list scheduler's), choose PUs,
+ * calibrate, time each node alone,
  * measure the handoff, predict, run, rerun single-threaded to check the
  * outputs, report.  All computing is in runner.h/topo.h; this file parses,
  * orders the steps and prints.
@@ -19,6 +19,7 @@
 #include "pacemap/json.h"
 #include "pacemap/map.h"
 #include "pacemap/runner.h"
+#include "pacemap/sched.h"
 #include "pacemap/topo.h"
 
 typedef struct run_opts {
@@ -33,7 +34,7 @@ typedef struct run_state {
     run_opts o;
     pm_graph *g;
     pm_map *m;
-    bool scheduled_map;     /* map given by --map */
+    bool scheduled_map;     /* made by the list scheduler (else --map) */
     pm_topo *topo;
     pm_topo_choice pus;
     pm_run_config cfg;
@@ -52,7 +53,7 @@ static int run_parse(run_opts *o, int argc, char **argv)
          "measured iterations (default 1000)", "ITER"},
         {"--warmup", NULL, CLI_U32, &o->warmup, &o->warmup_set,
          "iterations before measuring (default ITER/10, 10..1000)", "N"},
-        {"--map", NULL, CLI_STRING, &o->map, NULL, "run this map instead of a trivial one",
+        {"--map", NULL, CLI_STRING, &o->map, NULL, "run this map instead of the scheduler's",
          "F"},
         {"--cores", NULL, CLI_STRING, &o->cores, NULL,
          "use these processing units (OS indices, e.g. 0,2-3)", "LIST"},
@@ -106,25 +107,23 @@ static int run_config(run_state *s)
     return CLI_EXIT_OK;
 }
 
-/* The map to run: --map, else the trivial round-robin one.  Swap the
- * latter for the list scheduler once it is available. */
+/* The map to run: --map, else the list scheduler's (sched.h). */
 static int run_make_map(run_state *s)
 {
     pm_diag d;
     pm_diag_clear(&d);
     int rc;
     if (s->o.map) {
-        /* pm_map_read_file arrives with the scheduler branch */
-        pm_diag_set(&d, s->o.map, 0, 0, "run: --map is not available in this build yet");
-        rc = PM_EUNSUPPORTED;
-        s->scheduled_map = true;
+        rc = pm_map_read_file(s->o.map, s->g, &s->m, &d);
+        s->scheduled_map = false;
     } else {
-        rc = pm_run_round_robin_map(s->g, s->g->platform.ncores, &s->m);
-        if (rc != PM_OK)
-            pm_diag_set(&d, s->g->file, 0, 0, "cannot map the graph onto %u cores: %s",
-                        s->g->platform.ncores, pm_strerror(rc));
+        rc = pm_sched_list(s->g, NULL, NULL, &s->m, &d);
+        s->scheduled_map = true;
     }
     if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, s->g->file, 0, 0, "cannot map the graph onto %u cores: %s",
+                        s->g->platform.ncores, pm_strerror(rc));
         cli_error(&d);
         return cli_exit_for(rc);
     }
@@ -263,8 +262,7 @@ static void run_text_setup(const run_state *s)
     printf("run %s%s%s%s\n", s->o.file, p->title ? " \"" : "", p->title ? p->title : "",
            p->title ? "\"" : "");
     printf("map: %u core%s, %s\n", s->m->ncores, s->m->ncores == 1 ? "" : "s",
-           s->scheduled_map ? "from --map"
-                            : "round-robin in topological order (give --map for a scheduled one)");
+           s->scheduled_map ? "from the list scheduler" : s->o.map);
     printf("processing units: %s\n", s->pus.summary);
     for (uint32_t c = 0; c < s->pus.n; c++)
         printf("  core %-3u -> PU %-4u %s\n", c, s->pus.pu[c], s->pus.why[c]);
