@@ -159,6 +159,18 @@ static int run_choose_pus(run_state *s)
     return CLI_EXIT_OK;
 }
 
+/* A node slower than the watchdog would look like a stall: give the
+ * watchdog ten times the slowest node unless the user set it. */
+static void run_watchdog_fit(run_state *s)
+{
+    double slow = 0;
+    for (uint32_t v = 0; v < s->g->nnodes; v++)
+        slow = s->node_ns[v] > slow ? s->node_ns[v] : slow;
+    double ms = 10.0 * slow / 1e6;
+    if (!s->o.watchdog_set && ms > PM_RUN_WATCHDOG_MS)
+        s->cfg.watchdog_ms = ms < 4e9 ? (uint32_t)ms : UINT32_MAX;
+}
+
 static int run_measure(run_state *s)
 {
     int rc = pm_run_calibrate(&s->cfg.turns_per_ns);
@@ -171,6 +183,7 @@ static int run_measure(run_state *s)
                             &s->handoff_p99, &s->handoff_pinned);
     if (rc == PM_OK)
         rc = pm_run_predict(s->g, s->m, s->node_ns, s->handoff, &s->predicted);
+    run_watchdog_fit(s);
     if (rc != PM_OK) {
         pm_diag d;
         pm_diag_set(&d, s->g->file, 0, 0, "run: cannot measure or predict: %s%s",
