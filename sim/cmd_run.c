@@ -41,6 +41,7 @@ typedef struct run_state {
     bool main_pinned, handoff_pinned;
     double *node_ns;
     double handoff, handoff_p99, predicted;
+    double predicted_in_run;  /* the model again, with the in-run firing times */
     pm_run_result *res;
     bool outputs_match;
 } run_state;
@@ -164,6 +165,8 @@ static int run_choose_pus(run_state *s)
 static void run_watchdog_fit(run_state *s)
 {
     double slow = 0;
+    if (!s->node_ns)
+        return;
     for (uint32_t v = 0; v < s->g->nnodes; v++)
         slow = s->node_ns[v] > slow ? s->node_ns[v] : slow;
     double ms = 10.0 * slow / 1e6;
@@ -237,6 +240,9 @@ static int run_execute(run_state *s)
         c.pu = s->pus.pu; /* the single thread goes on the first PU */
         rc = pm_run_execute(s->g, serial, &c, &one);
     }
+    if (rc == PM_OK && pm_run_predict(s->g, s->m, s->res->node_ns, s->handoff,
+                                      &s->predicted_in_run) != PM_OK)
+        s->predicted_in_run = 0;
     if (rc == PM_OK)
         s->outputs_match = one->output_hash == s->res->output_hash &&
                            s->res->order_errors == 0;
@@ -291,18 +297,20 @@ static void run_text_setup(const run_state *s)
 
 static void run_text_nodes(const run_state *s)
 {
-    printf("\n%-20s %5s  %-12s %12s %14s\n", "node", "core", "work", "cycles",
-           "host ns alone");
+    printf("\n%-20s %5s  %-12s %12s %14s %14s\n", "node", "core", "work", "cycles",
+           "host ns alone", "ns in the run");
     for (uint32_t c = 0; c < s->m->ncores; c++)
         for (uint32_t i = s->m->off[c]; i < s->m->off[c + 1]; i++) {
             uint32_t v = s->m->order[i];
             char wb[32];
             uint32_t cls = s->g->platform.core_class[c];
-            printf("%-20.20s %5u  %-12s %12lld %14.0f\n", pm_graph_node_name(s->g, v), c,
-                   run_work_text(&s->g->nodes[v], wb, sizeof wb),
-                   (long long)pm_graph_cycles_on(s->g, v, cls), s->node_ns[v]);
+            printf("%-20.20s %5u  %-12s %12lld %14.0f %14.0f\n", pm_graph_node_name(s->g, v),
+                   c, run_work_text(&s->g->nodes[v], wb, sizeof wb),
+                   (long long)pm_graph_cycles_on(s->g, v, cls), s->node_ns[v],
+                   s->res->node_ns[v]);
         }
-    printf("(median of 15 timed samples each; the busy loop is used for spin only)\n\n");
+    printf("(alone: median of 15 timed samples on one PU; in the run: median firing time, "
+           "outputs included)\n\n");
 }
 
 static void run_text_results(const run_state *s)
@@ -314,6 +322,8 @@ static void run_text_results(const run_state *s)
            r->period_ns_median, r->period_ns_p99, r->period_ns_mean);
     printf("measured/predicted %12.3f\n", s->predicted > 0 ? r->period_ns_median / s->predicted
                                                          : 0.0);
+    printf("model, in-run times%12.0f ns  (the prediction redone with the firing times "
+           "measured in the run)\n", s->predicted_in_run);
     printf("latency            %12.0f ns  median; p99 %.0f ns (first source start to last "
            "sink end)\n", r->latency_ns_median, r->latency_ns_p99);
     printf("iterations         %12u     after %u warm-up\n", r->iterations, r->warmup);
@@ -352,6 +362,7 @@ static void run_json_cores(pm_json *j, const run_state *s)
         pm_json_key(j, "core"); pm_json_uint(j, s->m->core_of[v]);
         pm_json_key(j, "work"); pm_json_string(j, run_work_text(&s->g->nodes[v], wb, sizeof wb));
         pm_json_key(j, "host_ns"); pm_json_double(j, s->node_ns[v]);
+        pm_json_key(j, "run_ns"); pm_json_double(j, s->res->node_ns[v]);
         pm_json_object_end(j);
     }
     pm_json_array_end(j);
@@ -368,6 +379,7 @@ static void run_json(const run_state *s)
     pm_json_key(&j, "predicted_ns"); pm_json_double(&j, s->predicted);
     pm_json_key(&j, "ratio");
     pm_json_double(&j, s->predicted > 0 ? r->period_ns_median / s->predicted : 0.0);
+    pm_json_key(&j, "predicted_in_run_ns"); pm_json_double(&j, s->predicted_in_run);
     pm_json_key(&j, "period_ns_mean"); pm_json_double(&j, r->period_ns_mean);
     pm_json_key(&j, "latency_ns"); pm_json_double(&j, r->latency_ns_median);
     pm_json_key(&j, "latency_ns_p99"); pm_json_double(&j, r->latency_ns_p99);

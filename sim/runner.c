@@ -744,11 +744,12 @@ static int run_alloc_result(run_ctx *x)
     r->iterations = x->cfg->iterations;
     r->warmup = x->cfg->warmup;
     r->busy = calloc(r->ncores, sizeof *r->busy);
+    r->node_ns = calloc(g->nnodes ? g->nnodes : 1, sizeof *r->node_ns);
     r->pinned = calloc(r->ncores, sizeof *r->pinned);
     r->waits = calloc(r->ncores, sizeof *r->waits);
     r->tokens = calloc(g->nedges ? g->nedges : 1, sizeof *r->tokens);
     r->remaining = calloc(g->nedges ? g->nedges : 1, sizeof *r->remaining);
-    if (!r->busy || !r->pinned || !r->waits || !r->tokens || !r->remaining)
+    if (!r->busy || !r->node_ns || !r->pinned || !r->waits || !r->tokens || !r->remaining)
         return PM_ENOMEM;
     return run_pick_sinks(x);
 }
@@ -822,6 +823,7 @@ void pm_run_result_destroy(pm_run_result *r)
     if (!r)
         return;
     free(r->busy);
+    free(r->node_ns);
     free(r->pinned);
     free(r->tokens);
     free(r->remaining);
@@ -951,6 +953,17 @@ static void run_busy(run_ctx *x)
     }
 }
 
+static void run_node_times(run_ctx *x, double *tmp)
+{
+    uint32_t n = x->g->nnodes;
+    for (uint32_t v = 0; v < n; v++) {
+        uint32_t cnt = 0;
+        for (uint64_t k = x->r->warmup; k < x->total; k++)
+            tmp[cnt++] = (double)(x->end[k * n + v] - x->start[k * n + v]);
+        x->r->node_ns[v] = run_quantile(tmp, cnt, 0.5);
+    }
+}
+
 static void run_collect(run_ctx *x)
 {
     pm_run_result *r = x->r;
@@ -971,6 +984,7 @@ static void run_collect(run_ctx *x)
         return;
     run_periods(x, tmp);
     run_latency(x, tmp);
+    run_node_times(x, tmp);
     run_busy(x);
     free(tmp);
 }

@@ -74,6 +74,7 @@ typedef struct pm_run_result {
     double period_ns_median, period_ns_p99, period_ns_mean;
     double latency_ns_median, latency_ns_p99; /* first source start to last sink end */
     double *busy;           /* ncores: share of the measured window spent firing */
+    double *node_ns;        /* nnodes: median firing time (kernel + outputs) */
     bool *pinned;           /* ncores: the thread was bound to its PU */
     uint64_t *tokens;       /* nedges: tokens consumed */
     uint32_t *remaining;    /* nedges: tokens left in the channel at the end */

@@ -2,7 +2,11 @@
  * bench_runner.c - benchmark of the real-core runner (run by
  * tests/bench/bench_run.sh): handoff latency between two pinned threads,
  * and measured against predicted period on invented graphs whose nodes
- * take at least 10 µs.  Graphs are built with the pm_graph API so the
+ * take at least 10 µs.  run/alone is the mean over nodes of (median firing
+ * time in the run) / (median time alone): above 1 the nodes themselves
+ * ran slower with all cores busy, rather than waiting longer.  meas/post
+ * divides the measured median by the prediction made again from the
+ * in-run firing times: the model's own error once node slow-down is out.  Graphs are built with the pm_graph API so the
  * bench needs no scenario files.  Prints one aligned table; never fails on
  * timing (exit 1 only when something cannot run or outputs differ).
  *
@@ -119,15 +123,23 @@ static int bench_one(bench b, pm_run_config *cfg, double handoff)
         rc = pm_run_execute(b.g, b.m, cfg, &r);
     if (rc == PM_OK && (rc = pm_run_serial_map(b.g, &serial)) == PM_OK)
         rc = pm_run_execute(b.g, serial, cfg, &one);
-    for (uint32_t v = 0; v < b.g->nnodes; v++)
+    double slow = 0, post = 0;
+    if (rc == PM_OK && pm_run_predict(b.g, b.m, r->node_ns, handoff, &post) != PM_OK)
+        post = 0;
+    for (uint32_t v = 0; v < b.g->nnodes; v++) {
         lo = ns[v] < lo ? ns[v] : lo;
+        slow += rc == PM_OK ? r->node_ns[v] / ns[v] / b.g->nnodes : 0;
+    }
     if (rc == PM_OK)
-        printf("%-24s %9.1f %12.1f %12.1f %12.1f %9.4f  %s\n", b.name, lo / 1000, pred / 1000,
-               r->period_ns_median / 1000, r->period_ns_p99 / 1000,
-               r->period_ns_median / pred,
+        printf("%-24s %8.1f %9.1f %9.1f %9.1f %9.4f %9.4f %9.4f  %s\n", b.name, lo / 1000,
+               pred / 1000, r->period_ns_median / 1000, r->period_ns_p99 / 1000,
+               r->period_ns_median / pred, slow, r->period_ns_median / post,
                one->output_hash == r->output_hash && !r->order_errors ? "same" : "DIFFER");
     else
         printf("%-24s failed: %s\n", b.name, pm_strerror(rc));
+    if (rc == PM_OK && getenv("PM_BENCH_BUSY"))
+        printf("  busy %.4f %.4f, mean period %.1f us\n", r->busy[0], r->busy[1],
+               r->period_ns_mean / 1000);
     int bad = rc != PM_OK || one->output_hash != r->output_hash;
     pm_run_result_destroy(r);
     pm_run_result_destroy(one);
@@ -160,8 +172,8 @@ int main(int argc, char **argv)
            "median %.0f ns, p99 %.0f ns, %s\n", ch.summary, cfg.turns_per_ns, ch.pu[0],
            ch.pu[1], cfg.block, med, p99, pinned ? "pinned" : "NOT pinned");
     printf("iterations %u after %u warm-up; times in us\n", cfg.iterations, cfg.warmup);
-    printf("%-24s %9s %12s %12s %12s %9s  %s\n", "graph", "min node", "predicted",
-           "median", "p99", "meas/pred", "outputs");
+    printf("%-24s %8s %9s %9s %9s %9s %9s %9s  %s\n", "graph", "min node", "predicted",
+           "median", "p99", "meas/pred", "run/alone", "meas/post", "outputs");
     int bad = bench_one(pipeline(), &cfg, med) | bench_one(loop(), &cfg, med) |
               bench_one(kernels(), &cfg, med);
     pm_topo_choice_free(&ch);
