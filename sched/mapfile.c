@@ -87,7 +87,7 @@ static int mf_header(mf_state *st, mf_cur *c, uint32_t *core)
     if (!ok)
         return mf_error(st, c, num, PM_ESYNTAX, "expected a core number after 'core'");
     if (v >= st->g->platform.ncores)
-        return mf_error(st, c, num, PM_EMAP, "core %llu does not exist (the platform has %u)",
+        return mf_error(st, c, num, PM_EMAP, "core %llu does not exist (the platform has %u cores)",
                         (unsigned long long)v, st->g->platform.ncores);
     if (st->line_of[v])
         return mf_error(st, c, num, PM_EMAP, "core %u is listed twice (first on line %u)",

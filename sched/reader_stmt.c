@@ -148,7 +148,7 @@ static int rd_frequency(reader_state *st, const char *word, uint64_t *hz)
     size_t i = 0, f0, f1;
     uint64_t ip = 0, fp = 0;
     for (; i < t->len && t->text[i] >= '0' && t->text[i] <= '9'; i++)
-        ip = ip > UINT64_MAX / 100 ? UINT64_MAX / 100 : ip * 10 + (uint64_t)(t->text[i] - '0');
+        ip = ip > UINT64_MAX / 10 - 1 ? UINT64_MAX : ip * 10 + (uint64_t)(t->text[i] - '0');
     f0 = f1 = i + (i < t->len && t->text[i] == '.');
     while (f1 < t->len && t->text[f1] >= '0' && t->text[f1] <= '9')
         f1++;
@@ -269,7 +269,7 @@ static int rd_procs_store(reader_state *st, const rd_class *cls, uint32_t n)
     }
     int rc = pm_graph_set_cores(st->g, n, names, counts);
     free(buf);
-    return rc ? reader_fail(st, rc, cls[0].col, "cannot set the cores") : PM_OK;
+    return rc ? reader_fail(st, rc, cls[0].col, "out of memory") : PM_OK;
 }
 
 /* procs := 'procs' count | 'procs' class { class } */
@@ -283,7 +283,7 @@ static int rd_procs(reader_state *st)
         if (rd_core_count(st, "procs", ' ', &total, &count) || rd_end(st))
             return st->rc;
         int rc = pm_graph_set_cores(st->g, 1, NULL, &count);
-        return rc ? reader_fail(st, rc, 0, "cannot set the cores") : PM_OK;
+        return rc ? reader_fail(st, rc, 0, "out of memory") : PM_OK;
     }
     if (st->tok.kind != TOK_NAME)
         return reader_fail(st, PM_ESYNTAX, st->tok.col,

@@ -367,6 +367,8 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
     uint64_t om = s->mask, nm = W - 1;
     for (uint32_t v = 0; v < s->n; v++) {
         uint64_t hi = s->done[v], lo = hi > s->W ? hi - s->W : 0;
+        if (lo > s->valid_lo)
+            s->valid_lo = lo; /* older times of v were overwritten already */
         sim_ring_move(p[0], s->xr, sizeof(int64_t), s->n, lo, hi, om, nm, v);
         sim_ring_move(p[1], s->cr, sizeof(uint32_t), s->n, lo, hi, om, nm, v);
     }
@@ -377,7 +379,8 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
         sim_ring_move(p[4], s->br, sizeof(uint32_t), s->nx, lo, hi, om, nm, i);
         sim_ring_move(p[5], s->bi, sizeof(uint64_t), s->nx, lo, hi, om, nm, i);
     }
-    uint64_t hi = s->max_iter + 1, lo = hi > s->W ? hi - s->W : 0;
+    /* iteration max_iter is new (reset after the move); older ones live */
+    uint64_t hi = s->max_iter, lo = hi > s->W ? hi - s->W : 0;
     sim_ring_move(p[6], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[7], s->f2, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[8], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);

@@ -91,6 +91,7 @@ typedef struct sim {
     uint64_t *f1, *f2;  /* fingerprints of each iteration's begin differences */
     int64_t *lmin, *lmax;
     uint64_t completed, max_iter;
+    uint64_t valid_lo;  /* every node's times from this iteration on are held */
     uint64_t last_break[PM_SIM_MAX_CYCLICITY + 1];
     int64_t *half;      /* begin times of iteration N/2 */
     /* events */
@@ -120,6 +121,9 @@ static inline int64_t *sim_x_at(const sim *s, uint32_t v, uint64_t k)
 /* The node run by core c just before position `pos` (wrapping to the last
  * node of the previous iteration); *back is 1 when it wrapped. */
 uint32_t sim_prev_on_core(const sim *s, uint32_t c, uint32_t pos, uint32_t *back);
+
+/* First iteration whose times the rings still hold for every node. */
+uint64_t sim_window_lo(const sim *s);
 
 /* End-of-run analysis (sim_report.c). */
 int sim_report_steady(sim *s, pm_sim_result *r);

@@ -85,6 +85,12 @@ int sim_report_deadlock(sim *s, pm_sim_result *r, pm_diag *diag)
 
 /* ---- steady state ------------------------------------------------------- */
 
+uint64_t sim_window_lo(const sim *s)
+{
+    uint64_t lo = s->N > s->W ? s->N - s->W : 0;
+    return lo > s->valid_lo ? lo : s->valid_lo;
+}
+
 static bool sim_verify(const sim *s, uint32_t c, uint64_t lo)
 {
     uint64_t last = s->N - 1;
@@ -121,7 +127,7 @@ static int64_t sim_latency_of(const sim *s, uint64_t k)
 
 static bool sim_try_cyclicity(sim *s, pm_sim_result *r, uint32_t c)
 {
-    uint64_t N = s->N, winlo = N > s->W ? N - s->W : 0;
+    uint64_t N = s->N, winlo = sim_window_lo(s);
     if (c >= N || N - 1 - c < winlo)
         return false;
     uint64_t b = s->last_break[c] > c ? s->last_break[c] : c;
@@ -211,8 +217,10 @@ int sim_report_resources(sim *s, pm_sim_result *r)
             r->bus_busy += s->x[i].cost;
     }
     r->bus_utilisation = sim_share(r->bus_busy, r->period);
-    qsort(s->trace, s->ntrace, sizeof *s->trace, sim_firing_cmp);
-    qsort(s->tr, s->ntr, sizeof *s->tr, sim_transfer_cmp);
+    if (s->ntrace)
+        qsort(s->trace, s->ntrace, sizeof *s->trace, sim_firing_cmp);
+    if (s->ntr)
+        qsort(s->tr, s->ntr, sizeof *s->tr, sim_transfer_cmp);
     r->trace = s->trace, r->ntrace = s->ntrace, s->trace = NULL;
     r->transfers = s->tr, r->ntransfers = s->ntr, s->tr = NULL;
     r->recorded = (uint32_t)(s->record < s->N ? s->record : s->N);
@@ -297,7 +305,7 @@ static pm_sim_step sim_step_of(const sim *s, sim_walk w)
 static int sim_chain_walk(sim *s, pm_sim_result *r, uint32_t *mark, const uint32_t *xs_of,
                           pm_sim_step *steps, sim_walk *walk)
 {
-    uint64_t last = s->N - 1, winlo = s->N > s->W ? s->N - s->W : 0;
+    uint64_t last = s->N - 1, winlo = sim_window_lo(s);
     uint32_t v0 = 0;
     for (uint32_t v = 1; v < s->n; v++)
         if (*sim_x_at(s, v, last) + s->recv[v] + s->t[v] >
