@@ -40,6 +40,7 @@ typedef struct run_state {
     pm_run_config cfg;
     bool main_pinned, handoff_pinned;
     double *node_ns;
+    uint32_t *depth, *cap;    /* per edge: model buffer depth, ring slots */
     double handoff, handoff_p99, predicted;
     double predicted_in_run;  /* the model again, with the in-run firing times */
     pm_run_result *res;
@@ -61,7 +62,7 @@ static int run_parse(run_opts *o, int argc, char **argv)
         {"--oversubscribe", NULL, CLI_FLAG, &o->oversubscribe, NULL,
          "allow more map cores than processing units", NULL},
         {"--ring", NULL, CLI_U32, &o->ring, &o->ring_set,
-         "slots per cross-core ring (default delay + 16)", "N"},
+         "slots per cross-core ring (default: the model's buffer depth + 1)", "N"},
         {"--block", NULL, CLI_U32, &o->block, &o->block_set, "samples per token (default 64)",
          "N"},
         {"--ns-per-cycle", NULL, CLI_STRING, &o->nspc, NULL,
@@ -174,6 +175,23 @@ static void run_watchdog_fit(run_state *s)
         s->cfg.watchdog_ms = ms < 4e9 ? (uint32_t)ms : UINT32_MAX;
 }
 
+/* Without --ring, each ring holds the model's buffer depth plus one,
+ * at least delay + PM_RUN_RING_SLACK and at most delay + 1024 (a depth
+ * that keeps growing in the model means the parts run at different
+ * rates; back-pressure then paces the producer). */
+static void run_ring_sizes(run_state *s)
+{
+    if (s->o.ring_set || !s->cap)
+        return;
+    for (uint32_t e = 0; e < s->g->nedges; e++) {
+        uint64_t d = (uint64_t)s->g->edges[e].delay, want = (uint64_t)s->depth[e] + 1u;
+        uint64_t lo = d + PM_RUN_RING_SLACK, hi = d + 1024u;
+        want = want < lo ? lo : want > hi ? hi : want;
+        s->cap[e] = want > UINT32_MAX ? UINT32_MAX : (uint32_t)want;
+    }
+    s->cfg.edge_capacity = s->cap;
+}
+
 static int run_measure(run_state *s)
 {
     int rc = pm_run_calibrate(&s->cfg.turns_per_ns);
@@ -184,9 +202,15 @@ static int run_measure(run_state *s)
     if (rc == PM_OK && s->m->ncores > 1)
         rc = pm_run_handoff(&s->cfg, s->pus.pu[0], s->pus.pu[1], 2000, &s->handoff,
                             &s->handoff_p99, &s->handoff_pinned);
+    s->depth = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->depth);
+    s->cap = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->cap);
+    if (rc == PM_OK && (!s->depth || !s->cap))
+        rc = PM_ENOMEM;
     if (rc == PM_OK)
-        rc = pm_run_predict(s->g, s->m, s->node_ns, s->handoff, &s->predicted);
+        rc = pm_run_predict(s->g, s->m, s->node_ns, s->handoff, s->o.ring_set ? s->o.ring : 0,
+                            &s->predicted, s->depth);
     run_watchdog_fit(s);
+    run_ring_sizes(s);
     if (rc != PM_OK) {
         pm_diag d;
         pm_diag_set(&d, s->g->file, 0, 0, "run: cannot measure or predict: %s%s",
@@ -241,7 +265,8 @@ static int run_execute(run_state *s)
         rc = pm_run_execute(s->g, serial, &c, &one);
     }
     if (rc == PM_OK && pm_run_predict(s->g, s->m, s->res->node_ns, s->handoff,
-                                      &s->predicted_in_run) != PM_OK)
+                                      s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
+                                      NULL) != PM_OK)
         s->predicted_in_run = 0;
     if (rc == PM_OK)
         s->outputs_match = one->output_hash == s->res->output_hash &&
@@ -316,8 +341,8 @@ static void run_text_nodes(const run_state *s)
 static void run_text_results(const run_state *s)
 {
     const pm_run_result *r = s->res;
-    printf("predicted period   %12.0f ns  (self-timed model: host times above, handoff "
-           "between cores)\n", s->predicted);
+    printf("predicted period   %12.0f ns  (simulator: host times above, handoff between "
+           "cores)\n", s->predicted);
     printf("measured period    %12.0f ns  median; p99 %.0f ns, mean %.0f ns\n",
            r->period_ns_median, r->period_ns_p99, r->period_ns_mean);
     printf("measured/predicted %12.3f\n", s->predicted > 0 ? r->period_ns_median / s->predicted
@@ -403,6 +428,8 @@ static void run_free(run_state *s)
 {
     pm_run_result_destroy(s->res);
     free(s->node_ns);
+    free(s->depth);
+    free(s->cap);
     pm_topo_choice_free(&s->pus);
     pm_topo_close(s->topo);
     pm_map_destroy(s->m);

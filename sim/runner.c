@@ -1,7 +1,7 @@
 /*
  * runner.c - the real-core runner (runner.h): threads executing a map over
  * rings, the measurements around it (busy-loop calibration, node times,
- * handoff latency) and the self-timed prediction they are compared with.
+ * handoff latency) and the prediction (the simulator run with them).
  *
  * Threads share only: the rings (SPSC, ring.h), one stop flag and one
  * progress counter per thread (C11 atomics).  Everything else a thread
@@ -20,6 +20,7 @@
 
 #include "pacemap/kernels.h"
 #include "pacemap/ring.h"
+#include "pacemap/sim.h"
 
 /* ---- small helpers --------------------------------------------------------- */
 
@@ -187,105 +188,46 @@ int pm_run_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out)
     return rc;
 }
 
+enum { RUN_PREDICT_ITERS = 1000 };
+
 /* ---- prediction -------------------------------------------------------------- */
 
-/* Firing order within one iteration: zero-delay edges plus core order. */
-static int run_iteration_order(const pm_graph *g, const pm_map *m, uint32_t *order)
-{
-    uint32_t n = g->nnodes, done = 0;
-    uint32_t *indeg = calloc(n ? n : 1, sizeof *indeg);
-    uint32_t *pos = calloc(m->ncores ? m->ncores : 1, sizeof *pos);
-    if (!indeg || !pos) {
-        free(indeg);
-        free(pos);
-        return PM_ENOMEM;
-    }
-    for (uint32_t e = 0; e < g->nedges; e++)
-        indeg[g->edges[e].dst] += g->edges[e].delay == 0;
-    /* repeatedly take the next node of some core whose zero-delay inputs
-     * are all done; a full pass with no progress means deadlock */
-    for (bool moved = true; moved && done < n;) {
-        moved = false;
-        for (uint32_t c = 0; c < m->ncores; c++) {
-            while (m->off[c] + pos[c] < m->off[c + 1]) {
-                uint32_t v = m->order[m->off[c] + pos[c]];
-                if (indeg[v] != 0)
-                    break;
-                order[done++] = v;
-                pos[c]++;
-                moved = true;
-                for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++)
-                    if (g->edges[g->out_edge[i]].delay == 0)
-                        indeg[g->edges[g->out_edge[i]].dst]--;
-            }
-        }
-    }
-    free(indeg);
-    free(pos);
-    return done == n ? PM_OK : PM_EDEADLOCK;
-}
+/* Model time units per host nanosecond: the simulator counts in integers,
+ * so sixteenths of a nanosecond keep rounding far below timer noise. */
+#define RUN_UNITS_PER_NS 16.0
 
-enum { RUN_PREDICT_ITERS = 512 };
-
-/* Earliest start of (v, k) given end times of earlier firings (DESIGN §5). */
-static double run_ready(const pm_graph *g, const pm_map *m, const double *end,
-                        uint32_t rows, uint32_t v, uint32_t k, const uint32_t *prev,
-                        double handoff_ns)
+static int64_t run_units(double ns)
 {
-    uint32_t n = g->nnodes, c = m->core_of[v];
-    double s = 0.0;
-    if (prev[v] != PM_NONE)
-        s = end[(size_t)(k % rows) * n + prev[v]];
-    else if (k > 0) /* first node of its core waits for the core's last node */
-        s = end[(size_t)((k - 1u) % rows) * n + m->order[m->off[c + 1] - 1u]];
-    for (uint32_t i = g->in_off[v]; i < g->in_off[v + 1]; i++) {
-        const pm_edge *e = &g->edges[g->in_edge[i]];
-        if (e->delay > (int64_t)k)
-            continue; /* an initial token: there at time 0 */
-        uint32_t kk = k - (uint32_t)e->delay;
-        double a = end[(size_t)(kk % rows) * n + e->src];
-        if (m->core_of[e->src] != c)
-            a += handoff_ns;
-        s = fmax(s, a);
-    }
-    return s;
-}
-
-static void run_prev_on_core(const pm_map *m, uint32_t *prev)
-{
-    for (uint32_t c = 0; c < m->ncores; c++)
-        for (uint32_t i = m->off[c]; i < m->off[c + 1]; i++)
-            prev[m->order[i]] = i == m->off[c] ? PM_NONE : m->order[i - 1u];
+    double u = ns * RUN_UNITS_PER_NS;
+    return u <= 0 ? 0 : u >= (double)PM_MAX_VALUE ? PM_MAX_VALUE : (int64_t)llround(u);
 }
 
 int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
-                   double handoff_ns, double *period_ns)
+                   double handoff_ns, uint32_t fifo_cap, double *period_ns,
+                   uint32_t *depth)
 {
-    uint32_t n = g->nnodes, K = RUN_PREDICT_ITERS;
-    int64_t maxd = 1;
-    for (uint32_t e = 0; e < g->nedges; e++)
-        maxd = g->edges[e].delay > maxd ? g->edges[e].delay : maxd;
-    uint32_t rows = (uint32_t)(maxd < K ? maxd : K) + 1u;
-    uint32_t *order = malloc((n ? n : 1) * sizeof *order);
-    uint32_t *prev = malloc((n ? n : 1) * sizeof *prev);
-    double *end = calloc((size_t)rows * (n ? n : 1), sizeof *end);
-    double *done = calloc(K, sizeof *done);
-    int rc = order && prev && end && done ? run_iteration_order(g, m, order) : PM_ENOMEM;
+    int64_t *t = malloc((g->nnodes ? g->nnodes : 1) * sizeof *t);
+    if (!t)
+        return PM_ENOMEM;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        t[v] = run_units(node_ns[v]);
+    /* the host's platform: every cross-core token arrives one handoff after
+     * its producer ends, links overlap freely (a borrowed, read-only view) */
+    pm_graph host = *g;
+    host.platform.comm = (pm_comm){run_units(handoff_ns), 0, 0, 0};
+    host.platform.interconnect = PM_P2P;
+    pm_sim_opts o = {.iterations = RUN_PREDICT_ITERS, .fifo_cap = fifo_cap, .node_cycles = t};
+    pm_sim_result r;
+    memset(&r, 0, sizeof r);
+    int rc = pm_sim_run(&host, m, &o, &r, NULL);
     if (rc == PM_OK) {
-        run_prev_on_core(m, prev);
-        for (uint32_t k = 0; k < K; k++)
-            for (uint32_t i = 0; i < n; i++) {
-                uint32_t v = order[i];
-                double t = run_ready(g, m, end, rows, v, k, prev, handoff_ns) + node_ns[v];
-                end[(size_t)(k % rows) * n + v] = t;
-                done[k] = fmax(done[k], t);
-            }
-        *period_ns = (done[K - 1] - done[K / 2 - 1]) / (double)(K - K / 2);
+        *period_ns = pm_rat_to_double(r.period) / RUN_UNITS_PER_NS;
+        for (uint32_t e = 0; depth && e < g->nedges; e++)
+            depth[e] = r.max_tokens[e] < 0 ? 0
+                     : r.max_tokens[e] > UINT32_MAX ? UINT32_MAX : (uint32_t)r.max_tokens[e];
     }
-    free(order);
-    free(prev);
-    free(end);
-    free(done);
+    pm_sim_result_free(&r);
+    free(t);
     return rc;
 }
 
@@ -661,6 +603,7 @@ static int run_make_chan(run_ctx *x, uint32_t e)
     run_chan *c = &x->chan[e];
     bool cross = x->m->core_of[ed->src] != x->m->core_of[ed->dst];
     uint64_t want = x->cfg->ring_capacity ? x->cfg->ring_capacity
+                  : x->cfg->edge_capacity ? x->cfg->edge_capacity[e]
                                           : (uint64_t)ed->delay + PM_RUN_RING_SLACK;
     uint64_t cap = cross ? want : (uint64_t)ed->delay + 1u;
     if (cap < (uint64_t)ed->delay + 1u)

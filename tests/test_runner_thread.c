@@ -6,6 +6,8 @@
  *   - an FIR stage fed by the test signal gives the direct convolution
  *     y[n] = sum_k h[k] x[n-k] (Oppenheim & Schafer, Discrete-Time Signal
  *     Processing, 3rd ed. 2010, eq. 2.49), computed here in double;
+ *   - the same holds on every shipped scenario with real kernels
+ *     (the .pace files in scenarios/ naming work=fir/biquad/fft), two cores;
  *   - the watchdog stops a deadlocked map and names who waits on what;
  *   - the prediction matches periods derived by hand from DESIGN §5
  *     (self-timed execution; Sriram & Bhattacharyya, Embedded
@@ -22,8 +24,13 @@
 #include <stdio.h>
 #include <string.h>
 
+#include <dirent.h>
+#include <stdlib.h>
+
 #include "pacemap/kernels.h"
+#include "pacemap/reader.h"
 #include "pacemap/runner.h"
+#include "pacemap/sched.h"
 #include "pacemap/topo.h"
 
 static uint32_t node(pm_graph *g, const char *name, int64_t cycles, pm_work_kind w,
@@ -182,6 +189,68 @@ static void test_fir_stage_is_convolution(void **state)
     pm_graph_destroy(g);
 }
 
+static bool has_kernels(const pm_graph *g)
+{
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        if (g->nodes[v].work != PM_WORK_SPIN)
+            return true;
+    return false;
+}
+
+/* One scenario: list-scheduled onto at most two cores, run, compared with
+ * the single-thread run bit for bit. */
+static void check_scenario(const char *path)
+{
+    pm_graph *g = NULL;
+    pm_diag d;
+    assert_int_equal(pm_scenario_read_file(path, &g, &d), PM_OK);
+    if (!has_kernels(g) || !pm_graph_is_single_rate(g) || g->platform.classes_named) {
+        pm_graph_destroy(g);
+        return;
+    }
+    if (g->platform.ncores > 2)
+        assert_int_equal(pm_graph_set_procs_override(g, 2, &d), PM_OK);
+    pm_map *m = NULL, *serial = NULL;
+    assert_int_equal(pm_sched_list(g, NULL, NULL, &m, &d), PM_OK);
+    assert_int_equal(pm_run_serial_map(g, &serial), PM_OK);
+    pm_run_config c;
+    config(&c, 12);
+    c.ns_per_cycle = 0.05; /* keep spin nodes short: only outputs are checked */
+    pm_run_result *par = run_ok(g, m, &c), *one = run_ok(g, serial, &c);
+    size_t n = (size_t)par->nsinks * (c.warmup + c.iterations) * c.block;
+    assert_int_equal(par->nsinks, one->nsinks);
+    assert_memory_equal(par->outputs, one->outputs, n * sizeof(float));
+    printf("# %s: %u nodes on %u cores, sink outputs bit-identical\n", path, g->nnodes,
+           m->ncores);
+    pm_run_result_destroy(par);
+    pm_run_result_destroy(one);
+    pm_map_destroy(m);
+    pm_map_destroy(serial);
+    pm_graph_destroy(g);
+}
+
+static void test_scenarios_match_one_thread(void **state)
+{
+    (void)state;
+    DIR *dir = opendir("scenarios");
+    if (!dir) {
+        printf("# no scenarios/ folder here: skipped\n");
+        return;
+    }
+    int seen = 0;
+    for (struct dirent *e; (e = readdir(dir));) {
+        size_t len = strlen(e->d_name);
+        if (len < 6 || strcmp(e->d_name + len - 5, ".pace") != 0)
+            continue;
+        char path[512];
+        snprintf(path, sizeof path, "scenarios/%s", e->d_name);
+        check_scenario(path);
+        seen++;
+    }
+    closedir(dir);
+    assert_true(seen > 0);
+}
+
 /* core 0 runs A then B, core 1 runs C then D; B -> C and D -> A without
  * delay: A waits for D, which waits behind C, which waits for B. */
 static void test_watchdog_names_waits(void **state)
@@ -197,7 +266,7 @@ static void test_watchdog_names_waits(void **state)
     const uint32_t c0[] = {a, b}, c1[] = {cc, d};
     pm_map *m = map2(c0, 2, c1, 2, 4);
     double t[4] = {1, 1, 1, 1}, p;
-    assert_int_equal(pm_run_predict(g, m, t, 0, &p), PM_EDEADLOCK);
+    assert_int_equal(pm_run_predict(g, m, t, 0, 0, &p, NULL), PM_EDEADLOCK);
     pm_run_config c;
     config(&c, 10);
     c.watchdog_ms = 100;
@@ -255,11 +324,11 @@ static void test_predict_hand_cases(void **state)
     double t[3] = {100, 300, 50}, p;
     pm_map *one = NULL;
     assert_int_equal(pm_run_serial_map(g, &one), PM_OK);
-    assert_int_equal(pm_run_predict(g, one, t, 1000, &p), PM_OK);
+    assert_int_equal(pm_run_predict(g, one, t, 1000, 0, &p, NULL), PM_OK);
     assert_true(fabs(p - 450) < 1e-6);
     const uint32_t c0[] = {a}, c1[] = {b, cc};
     pm_map *two = map2(c0, 1, c1, 2, 3);
-    assert_int_equal(pm_run_predict(g, two, t, 20, &p), PM_OK);
+    assert_int_equal(pm_run_predict(g, two, t, 20, 0, &p, NULL), PM_OK);
     assert_true(fabs(p - 350) < 1e-6);
     pm_map_destroy(one);
     pm_map_destroy(two);
@@ -275,7 +344,7 @@ static void test_predict_hand_cases(void **state)
     const uint32_t d0[] = {a}, d1[] = {b};
     pm_map *m = map2(d0, 1, d1, 1, 2);
     double u[2] = {100, 200};
-    assert_int_equal(pm_run_predict(g, m, u, 30, &p), PM_OK);
+    assert_int_equal(pm_run_predict(g, m, u, 30, 0, &p, NULL), PM_OK);
     assert_true(fabs(p - 360) < 1e-6);
     pm_map_destroy(m);
     pm_graph_destroy(g);
@@ -350,6 +419,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_two_cores_match_one),
         cmocka_unit_test(test_fir_stage_is_convolution),
+        cmocka_unit_test(test_scenarios_match_one_thread),
         cmocka_unit_test(test_watchdog_names_waits),
         cmocka_unit_test(test_same_core_wait_stops),
         cmocka_unit_test(test_predict_hand_cases),

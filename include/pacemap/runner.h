@@ -15,8 +15,8 @@
  *
  * The procedure of a `pacemap run` is: pm_run_calibrate (busy loop),
  * pm_run_node_times (each node alone), pm_run_handoff (ring latency between
- * two pinned threads), pm_run_predict (the period the self-timed model
- * gives with those host times), pm_run_execute (the measured run), and a
+ * two pinned threads), pm_run_predict (the period the simulator gives
+ * with those host times), pm_run_execute (the measured run), and a
  * second pm_run_execute of pm_run_serial_map to check the outputs bit for
  * bit.
  *
@@ -44,8 +44,9 @@ typedef struct pm_run_config {
     uint32_t iterations;    /* measured iterations, >= 1 */
     uint32_t warmup;        /* iterations run before measuring */
     uint32_t block;         /* samples per token, 1..PM_KERNEL_MAX_BLOCK */
-    uint32_t ring_capacity; /* slots per cross-core ring; 0 = delay + PM_RUN_RING_SLACK;
-                               always raised to delay + 1 so the delays fit */
+    uint32_t ring_capacity; /* slots per cross-core ring; 0 = edge_capacity, else
+                               delay + PM_RUN_RING_SLACK; always raised to delay + 1 */
+    const uint32_t *edge_capacity; /* NULL, or slots per edge (cross-core edges) */
     double ns_per_cycle;    /* spin nodes: host nanoseconds per node cycle */
     double turns_per_ns;    /* spin calibration from pm_run_calibrate */
     uint32_t watchdog_ms;   /* stall limit; 0 = PM_RUN_WATCHDOG_MS */
@@ -109,13 +110,19 @@ int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
                    uint32_t rounds, double *median_ns, double *p99_ns, bool *pinned);
 
 /* Predicted steady period (ns) of map m when node v takes node_ns[v] and a
- * cross-core token arrives handoff_ns after its producer ends: self-timed
- * execution (DESIGN §5) evaluated over 512 iterations, average of the last
- * half.  Rings are taken as unbounded.  PM_EDEADLOCK when the map admits no
- * firing order (a zero-delay cycle through core order), PM_ENOMEM.
- * O(512 * (nodes + edges)). */
+ * cross-core token arrives handoff_ns after its producer ends: the
+ * simulator (sim.h, pm_sim_run, 1000 iterations; exact steady period when
+ * reached, else the average of the last half) on a view of g whose
+ * platform is point-to-point links with that latency and no send/recv
+ * cost, in units of 1/16 ns.  fifo_cap: tokens per cross-core edge, 0 =
+ * unbounded.  depth (nedges entries, may be NULL) receives the most tokens
+ * each cross-core edge held in the model (0 for same-core edges): the
+ * buffer depth the rings need.  Errors of pm_sim_run: PM_EDEADLOCK when
+ * the map admits no firing order, PM_EMAP, PM_ELIMIT, PM_ENOMEM.
+ * Complexity: that of pm_sim_run for 1000 iterations. */
 int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
-                   double handoff_ns, double *period_ns);
+                   double handoff_ns, uint32_t fifo_cap, double *period_ns,
+                   uint32_t *depth);
 
 /* Run m with one thread per core: cfg->warmup + cfg->iterations
  * iterations.  PM_OK with *out filled; PM_EDEADLOCK with *out filled and

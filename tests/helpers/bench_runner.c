@@ -118,13 +118,13 @@ static int bench_one(bench b, pm_run_config *cfg, double handoff)
     pm_map *serial = NULL;
     int rc = pm_run_node_times(b.g, b.m, cfg, 15, ns);
     if (rc == PM_OK)
-        rc = pm_run_predict(b.g, b.m, ns, handoff, &pred);
+        rc = pm_run_predict(b.g, b.m, ns, handoff, 0, &pred, NULL);
     if (rc == PM_OK)
         rc = pm_run_execute(b.g, b.m, cfg, &r);
     if (rc == PM_OK && (rc = pm_run_serial_map(b.g, &serial)) == PM_OK)
         rc = pm_run_execute(b.g, serial, cfg, &one);
     double slow = 0, post = 0;
-    if (rc == PM_OK && pm_run_predict(b.g, b.m, r->node_ns, handoff, &post) != PM_OK)
+    if (rc == PM_OK && pm_run_predict(b.g, b.m, r->node_ns, handoff, 0, &post, NULL) != PM_OK)
         post = 0;
     for (uint32_t v = 0; v < b.g->nnodes; v++) {
         lo = ns[v] < lo ? ns[v] : lo;
