@@ -358,6 +358,8 @@ static void run_text_results(const run_state *s)
     printf("\noutputs            %s\n", s->outputs_match
                ? "bit-identical to a single-threaded run; every token once, in order"
                : "DIFFER from a single-threaded run or arrived out of order");
+    if (s->pus.shared)
+        printf("oversubscribed     threads share PUs; the prediction assumes one PU per core\n");
     printf("pinning            %s\n", run_all_pinned(s)
                ? "every thread pinned to its PU"
                : "NOT pinned (the system refused; times may include migrations)");

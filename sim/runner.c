@@ -255,43 +255,67 @@ int pm_run_calibrate(double *turns_per_ns)
     return *turns_per_ns > 0 ? PM_OK : PM_EPLATFORM;
 }
 
-/* Median time of one call of k on `in`, samples of >= 5 µs each. */
-static double run_time_kernel(pm_kernel *k, const float *in, float *out, uint32_t repeats,
-                              double *samples)
+/* Calls of k per timed sample so that a sample lasts >= 5 µs. */
+static uint32_t run_inner(pm_kernel *k, const float *in, float *out)
 {
     pm_kernel_process(k, in, out); /* warm caches and branch predictors */
     int64_t t0 = run_now();
     pm_kernel_process(k, in, out);
     int64_t one = run_now() - t0;
-    uint32_t inner = one >= 5000 ? 1u : (uint32_t)(5000 / (one > 0 ? one : 1)) + 1u;
-    for (uint32_t r = 0; r < repeats; r++) {
-        t0 = run_now();
-        for (uint32_t i = 0; i < inner; i++)
-            pm_kernel_process(k, in, out);
-        samples[r] = (double)(run_now() - t0) / inner;
-    }
-    return run_quantile(samples, repeats, 0.5);
+    return one >= 5000 ? 1u : (uint32_t)(5000 / (one > 0 ? one : 1)) + 1u;
+}
+
+static double run_sample(pm_kernel *k, uint32_t inner, const float *in, float *out)
+{
+    int64_t t0 = run_now();
+    for (uint32_t i = 0; i < inner; i++)
+        pm_kernel_process(k, in, out);
+    return (double)(run_now() - t0) / inner;
+}
+
+typedef struct run_timing {
+    pm_kernel **k;
+    uint32_t *inner;
+    double *samples; /* [node][repeat] */
+    float *in, *out;
+} run_timing;
+
+static void run_timing_free(run_timing *t, uint32_t n)
+{
+    for (uint32_t v = 0; t->k && v < n; v++)
+        pm_kernel_destroy(t->k[v]);
+    free(t->k);
+    free(t->inner);
+    free(t->samples);
+    free(t->in);
+    free(t->out);
 }
 
 int pm_run_node_times(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
                       uint32_t repeats, double *node_ns)
 {
+    uint32_t n = g->nnodes;
+    size_t nn = n ? n : 1;
     repeats = repeats ? repeats : 1;
-    float *in = malloc(cfg->block * sizeof *in), *out = malloc(cfg->block * sizeof *out);
-    double *samples = malloc(repeats * sizeof *samples);
-    int rc = in && out && samples ? PM_OK : PM_ENOMEM;
-    for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++) {
-        pm_kernel *k = NULL;
-        rc = run_kernel_for(g, cfg, v, m->core_of[v], &k);
-        if (rc != PM_OK)
-            break;
-        pm_signal_fill(in, cfg->block, v, 0);
-        node_ns[v] = run_time_kernel(k, in, out, repeats, samples);
-        pm_kernel_destroy(k);
+    run_timing t = {calloc(nn, sizeof *t.k), calloc(nn, sizeof *t.inner),
+                    calloc(nn * repeats, sizeof *t.samples),
+                    malloc(cfg->block * sizeof *t.in), malloc(cfg->block * sizeof *t.out)};
+    int rc = t.k && t.inner && t.samples && t.in && t.out ? PM_OK : PM_ENOMEM;
+    for (uint32_t v = 0; rc == PM_OK && v < n; v++)
+        rc = run_kernel_for(g, cfg, v, m->core_of[v], &t.k[v]);
+    if (rc == PM_OK) {
+        pm_signal_fill(t.in, cfg->block, 0, 0);
+        for (uint32_t v = 0; v < n; v++)
+            t.inner[v] = run_inner(t.k[v], t.in, t.out);
+        /* rounds over all nodes, so a passing load on the host touches
+         * every node alike instead of a few */
+        for (uint32_t r = 0; r < repeats; r++)
+            for (uint32_t v = 0; v < n; v++)
+                t.samples[(size_t)v * repeats + r] = run_sample(t.k[v], t.inner[v], t.in, t.out);
+        for (uint32_t v = 0; v < n; v++)
+            node_ns[v] = run_quantile(t.samples + (size_t)v * repeats, repeats, 0.5);
     }
-    free(in);
-    free(out);
-    free(samples);
+    run_timing_free(&t, n);
     return rc;
 }
 

@@ -97,7 +97,8 @@ int pm_run_calibrate(double *turns_per_ns);
 /* Host time of one firing of each node alone on the calling thread (its
  * kernel on a test block; spin turns for the cycles of the class of its
  * core in m): median of `repeats` samples, each averaging enough firings
- * to last >= 5 µs.  node_ns has g->nnodes entries.  PM_ERANGE for a bad
+ * to last >= 5 µs, taken in rounds over all nodes (a passing load on the
+ * host then touches every node alike).  node_ns has g->nnodes entries.  PM_ERANGE for a bad
  * work parameter, PM_ENOMEM. */
 int pm_run_node_times(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
                       uint32_t repeats, double *node_ns);
