@@ -272,8 +272,9 @@ int pm_topo_choose(const pm_topo *t, uint32_t n, const uint32_t *list, uint32_t 
         return rc;
     uint32_t avail = nlist ? nlist : t->npus;
     if (avail < n && !oversubscribe) {
-        pm_diag_set(diag, "", 0, 0, "the map has %u cores but only %u processing units "
-                    "are %s; use fewer cores (-p) or --oversubscribe", n, avail,
+        pm_diag_set(diag, "", 0, 0, "the map has %u cores but only %u processing unit%s "
+                    "%s %s; use fewer cores (-p) or --oversubscribe", n, avail,
+                    avail == 1 ? "" : "s", avail == 1 ? "is" : "are",
                     nlist ? "listed in --cores" : "available to this process");
         return PM_EPLATFORM;
     }
