@@ -51,29 +51,53 @@ static uint32_t topo_distinct(const topo_pu *p, uint32_t n, size_t field)
     return count;
 }
 
+/* The PUs this process may run on: hwloc already drops those outside its
+ * cgroup cpuset; an affinity mask (taskset) narrows them further. */
+static hwloc_bitmap_t topo_allowed(hwloc_topology_t h)
+{
+    hwloc_bitmap_t set = hwloc_bitmap_alloc();
+    if (!set)
+        return NULL;
+    if (!hwloc_topology_is_thissystem(h) ||
+        hwloc_get_cpubind(h, set, HWLOC_CPUBIND_PROCESS) != 0 || hwloc_bitmap_iszero(set))
+        hwloc_bitmap_copy(set, hwloc_topology_get_allowed_cpuset(h));
+    return set;
+}
+
+static void topo_fill(pm_topo *t, hwloc_obj_t pu, uint32_t i)
+{
+    hwloc_obj_t core = hwloc_get_ancestor_obj_by_type(t->h, HWLOC_OBJ_CORE, pu);
+    topo_pu *p = &t->pus[i];
+    p->os = pu->os_index;
+    p->order = i;
+    /* a PU without a core object counts as a core of its own */
+    p->core = core ? core->logical_index : 0x80000000u + i;
+    p->rank = 0;
+    for (uint32_t j = 0; j < i; j++)
+        p->rank += t->pus[j].core == p->core;
+    p->l3 = topo_ancestor(t->h, pu, HWLOC_OBJ_L3CACHE);
+    p->pkg = topo_ancestor(t->h, pu, HWLOC_OBJ_PACKAGE);
+}
+
 static int topo_flatten(pm_topo *t)
 {
     int n = hwloc_get_nbobjs_by_type(t->h, HWLOC_OBJ_PU);
-    if (n <= 0)
-        return PM_EPLATFORM;
-    t->pus = calloc((size_t)n, sizeof *t->pus);
-    if (!t->pus)
-        return PM_ENOMEM;
+    hwloc_bitmap_t allowed = topo_allowed(t->h);
+    t->pus = n > 0 ? calloc((size_t)n, sizeof *t->pus) : NULL;
+    if (!allowed || !t->pus) {
+        hwloc_bitmap_free(allowed);
+        return n > 0 ? PM_ENOMEM : PM_EPLATFORM;
+    }
+    uint32_t k = 0;
     for (int i = 0; i < n; i++) {
         hwloc_obj_t pu = hwloc_get_obj_by_type(t->h, HWLOC_OBJ_PU, (unsigned)i);
-        hwloc_obj_t core = hwloc_get_ancestor_obj_by_type(t->h, HWLOC_OBJ_CORE, pu);
-        topo_pu *p = &t->pus[i];
-        p->os = pu->os_index;
-        p->order = (uint32_t)i;
-        /* a PU without a core object counts as a core of its own */
-        p->core = core ? core->logical_index : 0x80000000u + (uint32_t)i;
-        p->rank = 0;
-        for (int j = 0; j < i; j++)
-            p->rank += t->pus[j].core == p->core;
-        p->l3 = topo_ancestor(t->h, pu, HWLOC_OBJ_L3CACHE);
-        p->pkg = topo_ancestor(t->h, pu, HWLOC_OBJ_PACKAGE);
+        if (hwloc_bitmap_isset(allowed, pu->os_index))
+            topo_fill(t, pu, k++);
     }
-    t->npus = (uint32_t)n;
+    hwloc_bitmap_free(allowed);
+    if (k == 0)
+        return PM_EPLATFORM;
+    t->npus = k;
     t->ncores = topo_distinct(t->pus, t->npus, offsetof(topo_pu, core));
     t->npkgs = topo_distinct(t->pus, t->npus, offsetof(topo_pu, pkg));
     return PM_OK;
@@ -216,8 +240,9 @@ static void topo_summary(const pm_topo *t, pm_topo_choice *c)
         pkg = p->pkg;
     }
     snprintf(c->summary, sizeof c->summary,
-             "%u thread%s on %u physical core%s of %u allowed (%u PUs)%s%s", c->n,
+             "%u thread%s on %u physical core%s of %u allowed (%u PU%s)%s%s", c->n,
              c->n == 1 ? "" : "s", cores, cores == 1 ? "" : "s", t->ncores, t->npus,
+             t->npus == 1 ? "" : "s",
              one_l3 ? ", sharing one L3 cache" : one_pkg ? ", in one package" : "",
              c->shared ? ", some PUs shared (--oversubscribe)" : "");
 }

@@ -37,6 +37,23 @@ printf 'core 0: a\ncore 1: b\n' > "$tmp/two.map"
 grep -q "bit-identical" "$tmp/out.txt" || fail "outputs not reported identical"
 grep -q "core 1 .*-> PU" "$tmp/out.txt" || fail "PU choice not printed"
 
+# pinning refused (hwloc told this is not the running system): a warning,
+# the run goes on unpinned and the report says so
+HWLOC_THISSYSTEM=0 "$PM_BIN" run "$tmp/two.pace" -n 20 --oversubscribe > "$tmp/out.txt" \
+    2> "$tmp/err.txt" || fail "unpinned run failed"
+grep -q "warning: .*unpinned" "$tmp/err.txt" || fail "no pinning warning"
+grep -q "NOT pinned" "$tmp/out.txt" || fail "report does not say unpinned"
+
+# an affinity mask narrows the PUs: one PU for two map cores is an error
+if command -v taskset > /dev/null 2>&1; then
+    first=$(taskset -pc $$ 2> /dev/null | sed 's/.*: *//; s/[-,].*//')
+    if [ -n "$first" ]; then
+        taskset -c "$first" "$PM_BIN" run "$tmp/two.pace" 2> "$tmp/err.txt"
+        [ $? -eq 1 ] || fail "affinity of one PU: wrong exit status"
+        grep -q "only 1 processing unit is available" "$tmp/err.txt" || fail "mask ignored"
+    fi
+fi
+
 # more map cores than listed PUs: error naming both counts, exit 1
 "$PM_BIN" run "$tmp/two.pace" --cores 0 2> "$tmp/err.txt"
 [ $? -eq 1 ] || fail "too few PUs: wrong exit status"

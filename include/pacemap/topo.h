@@ -6,7 +6,8 @@
  * already used; among cores, those of the first L3 cache (else package)
  * that holds enough cores come first, so threads share a cache where
  * possible.  Each chosen PU carries a one-line reason.  Only PUs allowed
- * to this process (its cpuset) are considered.
+ * to this process are considered: its cgroup cpuset and, on this machine,
+ * its affinity mask at pm_topo_open (taskset).
  *
  * Ownership: pm_topo_close(NULL) and pm_topo_choice_free(NULL) are no-ops;
  * a choice owns its arrays.  Thread safety: after pm_topo_open, every call
