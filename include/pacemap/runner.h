@@ -105,8 +105,11 @@ int pm_run_node_times(const pm_graph *g, const pm_map *m, const pm_run_config *c
 
 /* One-way handoff latency of a token between a thread on PU pu_a and one
  * on pu_b through a ring (ping-pong, half the round trip): median and p99
- * of `rounds` (>= 10).  Threads are pinned when cfg->topo is set; *pinned
- * says whether both bindings held.  PM_ENOMEM, PM_EPLATFORM (no thread). */
+ * of `rounds` (>= 10, the first tenth dropped as warm-up).  The calling
+ * thread plays the pu_a side and, when cfg->topo is set, stays bound to
+ * pu_a afterwards; the other side is a new thread on pu_b.  *pinned says
+ * whether both bindings held.  PM_EINVAL, PM_ENOMEM, PM_EPLATFORM (no
+ * thread). */
 int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
                    uint32_t rounds, double *median_ns, double *p99_ns, bool *pinned);
 
