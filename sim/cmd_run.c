@@ -338,6 +338,25 @@ static void run_text_nodes(const run_state *s)
            "outputs included)\n\n");
 }
 
+/* Print text in lines of at most `width` columns, breaking at spaces. */
+static void run_print_wrapped(const char *text, size_t width)
+{
+    while (*text) {
+        size_t len = strlen(text), cut = len;
+        if (len > width) {
+            cut = width;
+            while (cut > 0 && text[cut] != ' ')
+                cut--;
+            if (cut == 0)
+                cut = width;
+        }
+        printf("%.*s\n", (int)cut, text);
+        text += cut;
+        while (*text == ' ')
+            text++;
+    }
+}
+
 static void run_text_results(const run_state *s)
 {
     const pm_run_result *r = s->res;
@@ -347,8 +366,8 @@ static void run_text_results(const run_state *s)
            r->period_ns_median, r->period_ns_p99, r->period_ns_mean);
     printf("measured/predicted %12.3f\n", s->predicted > 0 ? r->period_ns_median / s->predicted
                                                          : 0.0);
-    printf("model, in-run times%12.0f ns  (the prediction redone with the firing times "
-           "measured in the run)\n", s->predicted_in_run);
+    printf("model, in-run times%12.0f ns  (the prediction again, firing times of this run)\n",
+           s->predicted_in_run);
     printf("latency            %12.0f ns  median; p99 %.0f ns (first source start to last "
            "sink end)\n", r->latency_ns_median, r->latency_ns_p99);
     printf("iterations         %12u     after %u warm-up\n", r->iterations, r->warmup);
@@ -363,7 +382,8 @@ static void run_text_results(const run_state *s)
     printf("pinning            %s\n", run_all_pinned(s)
                ? "every thread pinned to its PU"
                : "NOT pinned (the system refused; times may include migrations)");
-    printf("\n%s\n", cli_caution);
+    printf("\n");
+    run_print_wrapped(cli_caution, 100);
 }
 
 static void run_json_cores(pm_json *j, const run_state *s)

@@ -215,10 +215,10 @@ static void topo_reason(const pm_topo *t, const pm_topo_choice *c, uint32_t i,
     }
     const char *src = listed ? "given by --cores; " : "";
     if (same_pu != PM_TOPO_NONE)
-        snprintf(c->why[i], PM_TOPO_WHY, "%s%s; shares this PU with map core %u "
+        snprintf(c->why[i], PM_TOPO_WHY, "%s%s; shared with map core %u "
                  "(--oversubscribe)", src, place, same_pu);
     else if (same_core != PM_TOPO_NONE)
-        snprintf(c->why[i], PM_TOPO_WHY, "%s%s; SMT sibling of map core %u's PU "
+        snprintf(c->why[i], PM_TOPO_WHY, "%s%s; SMT sibling of map core %u "
                  "(only %u physical cores)", src, place, same_core, t->ncores);
     else
         snprintf(c->why[i], PM_TOPO_WHY, "%s%s; a physical core of its own", src, place);
@@ -240,11 +240,10 @@ static void topo_summary(const pm_topo *t, pm_topo_choice *c)
         pkg = p->pkg;
     }
     snprintf(c->summary, sizeof c->summary,
-             "%u thread%s on %u physical core%s of %u allowed (%u PU%s)%s%s", c->n,
-             c->n == 1 ? "" : "s", cores, cores == 1 ? "" : "s", t->ncores, t->npus,
-             t->npus == 1 ? "" : "s",
-             one_l3 ? ", sharing one L3 cache" : one_pkg ? ", in one package" : "",
-             c->shared ? ", some PUs shared (--oversubscribe)" : "");
+             "%u thread%s on %u of %u physical cores (%u PU%s allowed)%s%s", c->n,
+             c->n == 1 ? "" : "s", cores, t->ncores, t->npus, t->npus == 1 ? "" : "s",
+             one_l3 ? ", one L3 cache" : one_pkg ? ", one package" : "",
+             c->shared ? ", PUs shared" : "");
 }
 
 static int topo_alloc_choice(pm_topo_choice *c, uint32_t n)

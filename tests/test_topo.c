@@ -129,6 +129,7 @@ static void test_too_few_pus(void **state)
     assert_true(c.shared);
     assert_int_equal(c.pu[2], c.pu[0]);
     assert_non_null(strstr(c.why[2], "--oversubscribe"));
+    assert_non_null(strstr(c.summary, "PUs shared"));
     pm_topo_choice_free(&c);
     pm_topo_close(t);
 }

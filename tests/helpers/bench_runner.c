@@ -36,7 +36,7 @@ static uint32_t add(pm_graph *g, const char *name, int64_t cycles, pm_work_kind 
     return id;
 }
 
-static void link(pm_graph *g, uint32_t a, uint32_t b, int64_t delay)
+static void connect(pm_graph *g, uint32_t a, uint32_t b, int64_t delay)
 {
     pm_edge e = pm_edge_default(a, b);
     e.delay = delay;
@@ -70,9 +70,9 @@ static bench pipeline(void)
     pm_graph *g = two_core_graph();
     uint32_t a = add(g, "a", 20000, PM_WORK_SPIN, 0), b = add(g, "b", 20000, PM_WORK_SPIN, 0);
     uint32_t c = add(g, "c", 20000, PM_WORK_SPIN, 0), d = add(g, "d", 20000, PM_WORK_SPIN, 0);
-    link(g, a, b, 0);
-    link(g, b, c, 0);
-    link(g, c, d, 0);
+    connect(g, a, b, 0);
+    connect(g, b, c, 0);
+    connect(g, c, d, 0);
     pm_graph_finalize(g);
     return (bench){g, split(g, (uint32_t[]){a, b}, 2, (uint32_t[]){c, d}, 2), "pipeline 4x20us"};
 }
@@ -84,9 +84,9 @@ static bench loop(void)
     pm_graph *g = two_core_graph();
     uint32_t a = add(g, "a", 20000, PM_WORK_SPIN, 0), b = add(g, "b", 30000, PM_WORK_SPIN, 0);
     uint32_t c = add(g, "c", 15000, PM_WORK_SPIN, 0);
-    link(g, a, b, 0);
-    link(g, b, a, 2);
-    link(g, b, c, 0);
+    connect(g, a, b, 0);
+    connect(g, b, a, 2);
+    connect(g, b, c, 0);
     pm_graph_finalize(g);
     return (bench){g, split(g, (uint32_t[]){a}, 1, (uint32_t[]){b, c}, 2), "loop 2 delays"};
 }
@@ -100,12 +100,12 @@ static bench kernels(void)
     uint32_t t = add(g, "fft", 0, PM_WORK_FFT, 2048);
     uint32_t q = add(g, "bq", 0, PM_WORK_BIQUAD, 96);
     uint32_t o = add(g, "out", 10000, PM_WORK_SPIN, 0);
-    link(g, s, f, 0);
-    link(g, f, t, 0);
-    link(g, t, q, 0);
-    link(g, q, q, 1);
-    link(g, q, o, 0);
-    link(g, o, f, 3);
+    connect(g, s, f, 0);
+    connect(g, f, t, 0);
+    connect(g, t, q, 0);
+    connect(g, q, q, 1);
+    connect(g, q, o, 0);
+    connect(g, o, f, 3);
     pm_graph_finalize(g);
     return (bench){g, split(g, (uint32_t[]){s, f, o}, 3, (uint32_t[]){t, q}, 2),
                    "kernels fir/fft/biquad"};
