@@ -509,6 +509,10 @@ int pm_cmd_simulate(int argc, char **argv)
     int st = cli_parse(&cmd, argc, argv, &file);
     if (st >= 0)
         return st;
+    if (a.iterations == 0) {
+        cli_usage_error("-n must be at least 1");
+        return CLI_EXIT_USAGE;
+    }
     sm_run s;
     memset(&s, 0, sizeof s);
     s.file = file;
