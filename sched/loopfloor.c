@@ -137,7 +137,7 @@ int pm_sched_loop_floor(const pm_graph *g, const pm_map *m, pm_rat *floor,
     *nloop = 0;
     if (loop)
         *loop = NULL;
-    int rc = sched_check_graph(g, diag);
+    int rc = sched_check_graph(g, NULL, diag);
     if (rc == PM_OK)
         rc = pm_map_check(m, g, diag);
     if (rc != PM_OK)

@@ -250,7 +250,7 @@ static void test_random_checked(void **state)
 {
     (void)state;
     uint64_t seed = 12345;
-    for (int i = 0; i < 300; i++) {
+    for (int i = 0; i < 1000; i++) {
         uint32_t n = 2 + tl_rand(&seed, 40), P = 1 + tl_rand(&seed, 5);
         pm_graph *g = random_graph(&seed, n, P, i);
         for (int mode = 0; mode < 3; mode++) {
