@@ -5,11 +5,11 @@
  * Besides what the reader checks, 'check' refuses a graph with a loop that
  * carries no delay: such a graph cannot run at all (every node of the loop
  * waits for another one in the same iteration), so it is reported as an
- * input error naming the loop's nodes in order, as 'bound' does.  Loops are
- * counted as strongly connected parts that contain a cycle (a part of two
- * or more nodes, or one node with an edge to itself), found with Tarjan's
- * algorithm (Tarjan, SIAM J. Computing 1972) written iteratively so that
- * graphs with millions of nodes do not exhaust the stack.
+ * input error naming the loop's nodes in order, in the words 'bound' uses.
+ * Loops are counted as strongly connected parts that contain a cycle (two
+ * or more nodes, or one node with an edge to itself), from pm_scc (Tarjan
+ * and Pearce's algorithm, iterative).  Both checks are O(V + E) and work
+ * on multirate graphs too.
  *
  * It does not compute the iteration bound ('bound' does) and does not
  * schedule anything.
@@ -18,6 +18,7 @@
 
 #include "pacemap/json.h"
 #include "pacemap/rational.h"
+#include "pacemap/scc.h"
 #include "pacemap/sdf.h"
 
 #include <inttypes.h>
@@ -25,140 +26,15 @@
 #include <stdlib.h>
 #include <string.h>
 
-/* Strongly connected parts of the graph, restricted to some edges. */
-typedef struct check_scc {
-    uint32_t *comp;     /* part of each node */
-    uint32_t ncomp;
-    uint32_t *size;     /* nodes in each part */
-    bool *cyclic;       /* the part contains a cycle */
-} check_scc;
-
-/* Tarjan's working state: an explicit call stack instead of recursion. */
-typedef struct check_tarjan {
-    const pm_graph *g;
-    bool zero_only;     /* follow only edges without delay */
-    uint32_t *index, *low, *stack, *call, *next_edge;
-    bool *on_stack;
-    uint32_t counter, sp, cp;
-} check_tarjan;
-
-static bool check_follow(const check_tarjan *t, uint32_t e)
+static bool check_zero_delay(const pm_graph *g, uint32_t e, void *ctx)
 {
-    return !t->zero_only || t->g->edges[e].delay == 0;
+    (void)ctx;
+    return g->edges[e].delay == 0;
 }
 
-/* Pop the part whose root is v off the Tarjan stack. */
-static void check_pop_part(check_tarjan *t, uint32_t v, check_scc *s)
-{
-    uint32_t w, id = s->ncomp++;
-    s->size[id] = 0;
-    s->cyclic[id] = false;
-    do {
-        w = t->stack[--t->sp];
-        t->on_stack[w] = false;
-        s->comp[w] = id;
-        s->size[id]++;
-    } while (w != v);
-    if (s->size[id] > 1)
-        s->cyclic[id] = true;
-}
-
-static void check_visit(check_tarjan *t, uint32_t v)
-{
-    t->index[v] = t->low[v] = t->counter++;
-    t->stack[t->sp++] = v;
-    t->on_stack[v] = true;
-    t->next_edge[v] = t->g->out_off[v];
-    t->call[t->cp++] = v;
-}
-
-/* One depth-first search from root r. */
-static void check_dfs(check_tarjan *t, uint32_t r, check_scc *s)
-{
-    const pm_graph *g = t->g;
-    check_visit(t, r);
-    while (t->cp > 0) {
-        uint32_t v = t->call[t->cp - 1];
-        if (t->next_edge[v] < g->out_off[v + 1]) {
-            uint32_t e = g->out_edge[t->next_edge[v]++];
-            uint32_t w = g->edges[e].dst;
-            if (!check_follow(t, e))
-                continue;
-            if (t->index[w] == PM_NONE)
-                check_visit(t, w);
-            else if (t->on_stack[w] && t->index[w] < t->low[v])
-                t->low[v] = t->index[w];
-            continue;
-        }
-        t->cp--;
-        if (t->low[v] == t->index[v])
-            check_pop_part(t, v, s);
-        if (t->cp > 0) {
-            uint32_t u = t->call[t->cp - 1];
-            if (t->low[v] < t->low[u])
-                t->low[u] = t->low[v];
-        }
-    }
-}
-
-/* Self-loops make a one-node part cyclic. */
-static void check_mark_self_loops(const pm_graph *g, bool zero_only, check_scc *s)
-{
-    for (uint32_t e = 0; e < g->nedges; e++) {
-        const pm_edge *ed = &g->edges[e];
-        if (ed->src == ed->dst && (!zero_only || ed->delay == 0))
-            s->cyclic[s->comp[ed->src]] = true;
-    }
-}
-
-static void check_scc_free(check_scc *s)
-{
-    free(s->comp);
-    free(s->size);
-    free(s->cyclic);
-    memset(s, 0, sizeof *s);
-}
-
-/* The strongly connected parts of g (all edges, or only zero-delay ones).
- * PM_ENOMEM.  O(V + E). */
-static int check_scc_compute(const pm_graph *g, bool zero_only, check_scc *s)
-{
-    size_t n = (size_t)g->nnodes + 1;
-    check_tarjan t = { .g = g, .zero_only = zero_only };
-    memset(s, 0, sizeof *s);
-    s->comp = malloc(n * sizeof *s->comp);
-    s->size = malloc(n * sizeof *s->size);
-    s->cyclic = malloc(n * sizeof *s->cyclic);
-    t.index = malloc(n * sizeof *t.index);
-    t.low = malloc(n * sizeof *t.low);
-    t.stack = malloc(n * sizeof *t.stack);
-    t.call = malloc(n * sizeof *t.call);
-    t.next_edge = malloc(n * sizeof *t.next_edge);
-    t.on_stack = calloc(n, sizeof *t.on_stack);
-    int rc = PM_ENOMEM;
-    if (s->comp && s->size && s->cyclic && t.index && t.low && t.stack && t.call &&
-        t.next_edge && t.on_stack) {
-        memset(t.index, 0xff, n * sizeof *t.index);
-        for (uint32_t v = 0; v < g->nnodes; v++)
-            if (t.index[v] == PM_NONE)
-                check_dfs(&t, v, s);
-        check_mark_self_loops(g, zero_only, s);
-        rc = PM_OK;
-    }
-    free(t.index);
-    free(t.low);
-    free(t.stack);
-    free(t.call);
-    free(t.next_edge);
-    free(t.on_stack);
-    if (rc != PM_OK)
-        check_scc_free(s);
-    return rc;
-}
-
-/* A zero-delay out-edge of v that stays inside v's part (one exists when
- * the part is cyclic). */
-static uint32_t check_inner_edge(const pm_graph *g, const check_scc *s, uint32_t v)
+/* A zero-delay out-edge of v that stays inside v's component (one exists
+ * when the component holds a cycle of zero-delay edges). */
+static uint32_t check_inner_edge(const pm_graph *g, const pm_scc *s, uint32_t v)
 {
     for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
         uint32_t e = g->out_edge[i];
@@ -168,33 +44,33 @@ static uint32_t check_inner_edge(const pm_graph *g, const check_scc *s, uint32_t
     return PM_NONE;
 }
 
-/* Append "a -> b -> ... -> a" for the cycle through the edges cyc[0..len)
- * to buf, shortened with "..." if it does not fit. */
+/* "a -> b -> ... -> a" for the cycle through the edges cyc[0..len), cut
+ * short with "..." if it does not fit in buf. */
 static void check_loop_text(const pm_graph *g, const uint32_t *cyc, uint32_t len,
                             char *buf, size_t cap)
 {
     size_t used = 0;
     buf[0] = '\0';
     for (uint32_t i = 0; i <= len; i++) {
-        uint32_t v = i < len ? g->edges[cyc[i]].src : g->edges[cyc[0]].src;
+        uint32_t v = g->edges[cyc[i % len]].src;
         const char *name = pm_graph_node_name(g, v);
         if (used + strlen(name) + 8 >= cap) {
-            snprintf(buf + used, cap - used, "...");
+            snprintf(buf + used, cap - used, " ...");
             return;
         }
         used += (size_t)snprintf(buf + used, cap - used, "%s%s", i ? " -> " : "", name);
     }
 }
 
-/* Report a cycle of zero-delay edges inside cyclic part `part`: walk inner
- * edges from its smallest node until a node repeats. */
-static int check_report_zero_loop(const pm_graph *g, const check_scc *s, uint32_t part)
+/* Print the error for a cycle of zero-delay edges in component c: walk
+ * inner edges from its smallest node until a node repeats.  The message
+ * and the position (the loop's last written edge) are those of 'bound'. */
+static int check_report_zero_loop(const pm_graph *g, const pm_scc *s, uint32_t c)
 {
-    uint32_t start = 0;
-    while (s->comp[start] != part)
-        start++;
+    uint32_t start = s->order[s->start[c]];
+    uint32_t size = s->start[c + 1] - s->start[c];
     uint32_t *pos = malloc(((size_t)g->nnodes + 1) * sizeof *pos);
-    uint32_t *walk = malloc(((size_t)s->size[part] + 1) * sizeof *walk);
+    uint32_t *walk = malloc(((size_t)size + 1) * sizeof *walk);
     if (!pos || !walk) {
         free(pos);
         free(walk);
@@ -207,28 +83,30 @@ static int check_report_zero_loop(const pm_graph *g, const check_scc *s, uint32_
         walk[len] = check_inner_edge(g, s, v);
         v = g->edges[walk[len++]].dst;
     }
+    uint32_t *cyc = walk + pos[v], n = len - pos[v], last = cyc[0];
+    for (uint32_t i = 1; i < n; i++)
+        last = cyc[i] > last ? cyc[i] : last;
     char text[400];
-    check_loop_text(g, walk + pos[v], len - pos[v], text, sizeof text);
-    const pm_edge *e = &g->edges[walk[pos[v]]];
+    check_loop_text(g, cyc, n, text, sizeof text);
     pm_diag d;
-    pm_diag_set(&d, g->file, e->line, e->col,
-                "loop without delay: %s (it can never run; give one of its edges delay=1 "
-                "or more)", text);
+    pm_diag_set(&d, g->file, g->edges[last].line, g->edges[last].col,
+                "loop without delay: %s (add a delay on one of its edges)", text);
     cli_error(&d);
     free(pos);
     free(walk);
     return PM_EZERODELAY;
 }
 
-/* PM_EZERODELAY (reported) when some loop has no delay at all. */
+/* PM_EZERODELAY (reported) when some loop carries no delay at all: such a
+ * graph cannot run, whatever its rates. */
 static int check_zero_delay_loops(const pm_graph *g)
 {
-    check_scc s;
-    int rc = check_scc_compute(g, true, &s);
+    pm_scc s;
+    int rc = pm_scc_compute(g, check_zero_delay, NULL, &s);
     for (uint32_t c = 0; rc == PM_OK && c < s.ncomp; c++)
-        if (s.cyclic[c])
+        if (pm_scc_has_cycle(g, &s, c, check_zero_delay, NULL))
             rc = check_report_zero_loop(g, &s, c);
-    check_scc_free(&s);
+    pm_scc_free(&s);
     return rc;
 }
 
@@ -247,18 +125,19 @@ typedef struct check_summary {
 
 static int check_count_loops(const pm_graph *g, check_summary *sum)
 {
-    check_scc s;
-    int rc = check_scc_compute(g, false, &s);
+    pm_scc s;
+    int rc = pm_scc_compute(g, NULL, NULL, &s);
     if (rc != PM_OK)
         return rc;
     for (uint32_t c = 0; c < s.ncomp; c++) {
-        if (!s.cyclic[c])
+        if (!pm_scc_has_cycle(g, &s, c, NULL, NULL))
             continue;
+        uint32_t size = s.start[c + 1] - s.start[c];
         sum->loops++;
-        if (s.size[c] > sum->largest_loop)
-            sum->largest_loop = s.size[c];
+        if (size > sum->largest_loop)
+            sum->largest_loop = size;
     }
-    check_scc_free(&s);
+    pm_scc_free(&s);
     return PM_OK;
 }
 
