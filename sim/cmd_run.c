@@ -194,6 +194,8 @@ static void run_ring_sizes(run_state *s)
 
 static int run_measure(run_state *s)
 {
+    pm_diag d;
+    pm_diag_clear(&d);
     int rc = pm_run_calibrate(&s->cfg.turns_per_ns);
     s->main_pinned = pm_topo_bind_thread(s->topo, s->pus.pu[0]) == PM_OK;
     s->node_ns = calloc(s->g->nnodes ? s->g->nnodes : 1, sizeof *s->node_ns);
@@ -208,14 +210,13 @@ static int run_measure(run_state *s)
         rc = PM_ENOMEM;
     if (rc == PM_OK)
         rc = pm_run_predict(s->g, s->m, s->node_ns, s->handoff, s->o.ring_set ? s->o.ring : 0,
-                            &s->predicted, s->depth);
+                            &s->predicted, s->depth, &d);
     run_watchdog_fit(s);
     run_ring_sizes(s);
     if (rc != PM_OK) {
-        pm_diag d;
-        pm_diag_set(&d, s->g->file, 0, 0, "run: cannot measure or predict: %s%s",
-                    pm_strerror(rc), rc == PM_EDEADLOCK ? " (the map's core order waits "
-                    "on itself)" : "");
+        if (!d.msg[0])
+            pm_diag_set(&d, s->g->file, 0, 0, "run: cannot measure or predict: %s",
+                        pm_strerror(rc));
         cli_error(&d);
         return cli_exit_for(rc);
     }
@@ -266,7 +267,7 @@ static int run_execute(run_state *s)
     }
     if (rc == PM_OK && pm_run_predict(s->g, s->m, s->res->node_ns, s->handoff,
                                       s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
-                                      NULL) != PM_OK)
+                                      NULL, NULL) != PM_OK)
         s->predicted_in_run = 0;
     if (rc == PM_OK)
         s->outputs_match = one->output_hash == s->res->output_hash &&

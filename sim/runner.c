@@ -204,7 +204,7 @@ static int64_t run_units(double ns)
 
 int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
                    double handoff_ns, uint32_t fifo_cap, double *period_ns,
-                   uint32_t *depth)
+                   uint32_t *depth, pm_diag *diag)
 {
     int64_t *t = malloc((g->nnodes ? g->nnodes : 1) * sizeof *t);
     if (!t)
@@ -219,7 +219,7 @@ int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
     pm_sim_opts o = {.iterations = RUN_PREDICT_ITERS, .fifo_cap = fifo_cap, .node_cycles = t};
     pm_sim_result r;
     memset(&r, 0, sizeof r);
-    int rc = pm_sim_run(&host, m, &o, &r, NULL);
+    int rc = pm_sim_run(&host, m, &o, &r, diag);
     if (rc == PM_OK) {
         *period_ns = pm_rat_to_double(r.period) / RUN_UNITS_PER_NS;
         for (uint32_t e = 0; depth && e < g->nedges; e++)

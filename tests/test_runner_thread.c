@@ -266,7 +266,7 @@ static void test_watchdog_names_waits(void **state)
     const uint32_t c0[] = {a, b}, c1[] = {cc, d};
     pm_map *m = map2(c0, 2, c1, 2, 4);
     double t[4] = {1, 1, 1, 1}, p;
-    assert_int_equal(pm_run_predict(g, m, t, 0, 0, &p, NULL), PM_EDEADLOCK);
+    assert_int_equal(pm_run_predict(g, m, t, 0, 0, &p, NULL, NULL), PM_EDEADLOCK);
     pm_run_config c;
     config(&c, 10);
     c.watchdog_ms = 100;
@@ -324,11 +324,11 @@ static void test_predict_hand_cases(void **state)
     double t[3] = {100, 300, 50}, p;
     pm_map *one = NULL;
     assert_int_equal(pm_run_serial_map(g, &one), PM_OK);
-    assert_int_equal(pm_run_predict(g, one, t, 1000, 0, &p, NULL), PM_OK);
+    assert_int_equal(pm_run_predict(g, one, t, 1000, 0, &p, NULL, NULL), PM_OK);
     assert_true(fabs(p - 450) < 1e-6);
     const uint32_t c0[] = {a}, c1[] = {b, cc};
     pm_map *two = map2(c0, 1, c1, 2, 3);
-    assert_int_equal(pm_run_predict(g, two, t, 20, 0, &p, NULL), PM_OK);
+    assert_int_equal(pm_run_predict(g, two, t, 20, 0, &p, NULL, NULL), PM_OK);
     assert_true(fabs(p - 350) < 1e-6);
     pm_map_destroy(one);
     pm_map_destroy(two);
@@ -344,7 +344,7 @@ static void test_predict_hand_cases(void **state)
     const uint32_t d0[] = {a}, d1[] = {b};
     pm_map *m = map2(d0, 1, d1, 1, 2);
     double u[2] = {100, 200};
-    assert_int_equal(pm_run_predict(g, m, u, 30, 0, &p, NULL), PM_OK);
+    assert_int_equal(pm_run_predict(g, m, u, 30, 0, &p, NULL, NULL), PM_OK);
     assert_true(fabs(p - 360) < 1e-6);
     pm_map_destroy(m);
     pm_graph_destroy(g);

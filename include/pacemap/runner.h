@@ -121,12 +121,13 @@ int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
  * cost, in units of 1/16 ns.  fifo_cap: tokens per cross-core edge, 0 =
  * unbounded.  depth (nedges entries, may be NULL) receives the most tokens
  * each cross-core edge held in the model (0 for same-core edges): the
- * buffer depth the rings need.  Errors of pm_sim_run: PM_EDEADLOCK when
- * the map admits no firing order, PM_EMAP, PM_ELIMIT, PM_ENOMEM.
+ * buffer depth the rings need.  Errors of pm_sim_run, with its message in
+ * diag (may be NULL): PM_EDEADLOCK when the map admits no firing order
+ * (diag names the waiting cycle), PM_EMAP, PM_ELIMIT, PM_ENOMEM.
  * Complexity: that of pm_sim_run for 1000 iterations. */
 int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
                    double handoff_ns, uint32_t fifo_cap, double *period_ns,
-                   uint32_t *depth);
+                   uint32_t *depth, pm_diag *diag);
 
 /* Run m with one thread per core: cfg->warmup + cfg->iterations
  * iterations.  PM_OK with *out filled; PM_EDEADLOCK with *out filled and
@@ -145,7 +146,7 @@ int pm_run_serial_map(const pm_graph *g, pm_map **out);
 
 /* A trivial map for `ncores` cores: nodes in that topological order dealt
  * round-robin to the cores that may run them (pins and classes honoured).
- * Used by `run` when no scheduler map is given.  PM_EPLATFORM when a node
+ * For tests and programs that want a map without scheduling.  PM_EPLATFORM when a node
  * has no core, PM_EZERODELAY, PM_ENOMEM.  O(V * ncores + E). */
 int pm_run_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out);
 

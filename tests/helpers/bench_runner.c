@@ -6,8 +6,9 @@
  * time in the run) / (median time alone): above 1 the nodes themselves
  * ran slower with all cores busy, rather than waiting longer.  meas/post
  * divides the measured median by the prediction made again from the
- * in-run firing times: the model's own error once node slow-down is out.  Graphs are built with the pm_graph API so the
- * bench needs no scenario files.  Prints one aligned table; never fails on
+ * in-run firing times: the model's own error once node slow-down is out.
+ * Graphs are built with the pm_graph API so the bench needs no scenario
+ * files.  Prints one aligned table; never fails on
  * timing (exit 1 only when something cannot run or outputs differ).
  *
  * usage: bench_runner [ITERATIONS]
@@ -118,13 +119,14 @@ static int bench_one(bench b, pm_run_config *cfg, double handoff)
     pm_map *serial = NULL;
     int rc = pm_run_node_times(b.g, b.m, cfg, 15, ns);
     if (rc == PM_OK)
-        rc = pm_run_predict(b.g, b.m, ns, handoff, 0, &pred, NULL);
+        rc = pm_run_predict(b.g, b.m, ns, handoff, 0, &pred, NULL, NULL);
     if (rc == PM_OK)
         rc = pm_run_execute(b.g, b.m, cfg, &r);
     if (rc == PM_OK && (rc = pm_run_serial_map(b.g, &serial)) == PM_OK)
         rc = pm_run_execute(b.g, serial, cfg, &one);
     double slow = 0, post = 0;
-    if (rc == PM_OK && pm_run_predict(b.g, b.m, r->node_ns, handoff, 0, &post, NULL) != PM_OK)
+    if (rc == PM_OK &&
+        pm_run_predict(b.g, b.m, r->node_ns, handoff, 0, &post, NULL, NULL) != PM_OK)
         post = 0;
     for (uint32_t v = 0; v < b.g->nnodes; v++) {
         lo = ns[v] < lo ? ns[v] : lo;
