@@ -59,6 +59,22 @@ fi
 [ $? -eq 1 ] || fail "too few PUs: wrong exit status"
 grep -q "2 cores but only 1 processing unit" "$tmp/err.txt" || fail "counts not named"
 
+# a map whose core order waits on itself: refused before running, exit 1
+cat > "$tmp/dl.pace" <<'PACE'
+# invented four-node graph for this check
+procs 2
+node a cycles=10
+node b cycles=10
+node c cycles=10
+node d cycles=10
+edge b -> c
+edge d -> a
+PACE
+printf 'core 0: a b\ncore 1: c d\n' > "$tmp/dl.map"
+"$PM_BIN" run "$tmp/dl.pace" --map "$tmp/dl.map" --oversubscribe 2> "$tmp/err.txt"
+[ $? -eq 1 ] || fail "deadlocked map: wrong exit status"
+grep -q "deadlock" "$tmp/err.txt" || fail "deadlocked map: no reason given"
+
 # usage errors: exit 2
 "$PM_BIN" run "$tmp/two.pace" --ring x 2> /dev/null
 [ $? -eq 2 ] || fail "bad --ring: wrong exit status"
