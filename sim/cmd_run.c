@@ -17,6 +17,7 @@
 #include <string.h>
 
 #include "pacemap/json.h"
+#include "pacemap/kernels.h"
 #include "pacemap/map.h"
 #include "pacemap/runner.h"
 #include "pacemap/sched.h"
@@ -91,8 +92,9 @@ static int run_config(run_state *s)
     c->ring_capacity = o->ring_set ? o->ring : 0;
     c->block = o->block_set ? o->block : PM_RUN_BLOCK;
     c->watchdog_ms = o->watchdog_set ? o->watchdog : 0;
-    if (c->iterations < 1 || c->block < 1) {
-        cli_usage_error("run: -n and --block must be at least 1");
+    if (c->iterations < 1 || c->block < 1 || c->block > PM_KERNEL_MAX_BLOCK) {
+        cli_usage_error("run: -n must be at least 1 and --block from 1 to %u",
+                        PM_KERNEL_MAX_BLOCK);
         return CLI_EXIT_USAGE;
     }
     uint64_t clock = s->g->platform.clock_hz;
@@ -276,7 +278,13 @@ static int run_execute(run_state *s)
     pm_map_destroy(serial);
     if (rc != PM_OK) {
         pm_diag d;
-        pm_diag_set(&d, s->g->file, 0, 0, "run failed: %s", pm_strerror(rc));
+        if (rc == PM_ELIMIT)
+            pm_diag_set(&d, s->g->file, 0, 0, "run: %u nodes x %u iterations (warm-up "
+                        "included) exceed the %u timestamps kept, or a ring is too large; "
+                        "use a smaller -n or --ring", s->g->nnodes,
+                        s->cfg.iterations + s->cfg.warmup, PM_RUN_MAX_RECORDS);
+        else
+            pm_diag_set(&d, s->g->file, 0, 0, "run failed: %s", pm_strerror(rc));
         cli_error(&d);
         return cli_exit_for(rc);
     }
