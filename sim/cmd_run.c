@@ -1,12 +1,509 @@
 /*
- * cmd_run.c - the 'run' command (not written yet: exits with a usage error).
+ * cmd_run.c - `pacemap run FILE -p N [-n ITER] [--map F] [--cores LIST]
+ * [--oversubscribe] [--ring N] [--json]`: execute a map on real cores and
+ * compare the measured period with the model's prediction (DESIGN §7).
+ *
+ * Steps: load, map (--map, else the list scheduler's), choose PUs,
+ * calibrate, time each node alone,
+ * measure the handoff, predict, run, rerun single-threaded to check the
+ * outputs, report.  All computing is in runner.h/topo.h; this file parses,
+ * orders the steps and prints.
  */
 #include "cli.h"
 
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "pacemap/json.h"
+#include "pacemap/kernels.h"
+#include "pacemap/map.h"
+#include "pacemap/runner.h"
+#include "pacemap/sched.h"
+#include "pacemap/topo.h"
+
+typedef struct run_opts {
+    uint32_t procs, iters, warmup, ring, block, watchdog;
+    bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
+    bool oversubscribe, json;
+    const char *map, *cores, *nspc;
+    const char *file;
+} run_opts;
+
+typedef struct run_state {
+    run_opts o;
+    pm_graph *g;
+    pm_map *m;
+    bool scheduled_map;     /* made by the list scheduler (else --map) */
+    pm_topo *topo;
+    pm_topo_choice pus;
+    pm_run_config cfg;
+    bool main_pinned, handoff_pinned;
+    double *node_ns;
+    uint32_t *depth, *cap;    /* per edge: model buffer depth, ring slots */
+    double handoff, handoff_p99, predicted;
+    double predicted_in_run;  /* the model again, with the in-run firing times */
+    pm_run_result *res;
+    bool outputs_match;
+} run_state;
+
+static int run_parse(run_opts *o, int argc, char **argv)
+{
+    const cli_opt opts[] = {
+        {"-p", "--procs", CLI_U32, &o->procs, &o->procs_set, "cores of the map", "N"},
+        {"-n", "--iterations", CLI_U32, &o->iters, &o->iters_set,
+         "measured iterations (default 1000)", "ITER"},
+        {"--warmup", NULL, CLI_U32, &o->warmup, &o->warmup_set,
+         "iterations before measuring (default ITER/10, 10..1000)", "N"},
+        {"--map", NULL, CLI_STRING, &o->map, NULL, "run this map instead of the scheduler's",
+         "F"},
+        {"--cores", NULL, CLI_STRING, &o->cores, NULL,
+         "use these processing units (OS indices, e.g. 0,2-3)", "LIST"},
+        {"--oversubscribe", NULL, CLI_FLAG, &o->oversubscribe, NULL,
+         "allow more map cores than processing units", NULL},
+        {"--ring", NULL, CLI_U32, &o->ring, &o->ring_set,
+         "slots per cross-core ring (default: the model's buffer depth + 1)", "N"},
+        {"--block", NULL, CLI_U32, &o->block, &o->block_set, "samples per token (default 64)",
+         "N"},
+        {"--ns-per-cycle", NULL, CLI_STRING, &o->nspc, NULL,
+         "host ns per node cycle for spin nodes (default 1e9/clock, else 1)", "X"},
+        {"--watchdog", NULL, CLI_U32, &o->watchdog, &o->watchdog_set,
+         "stop after this many ms without progress (default 2000)", "MS"},
+        {"--json", NULL, CLI_FLAG, &o->json, NULL, "machine-readable output", NULL},
+        {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
+    };
+    const cli_cmd cmd = {"run", "FILE -p N [-n ITER] [--map F] [--cores LIST] "
+                                "[--oversubscribe] [--ring N] [--json]",
+                         "Run the map with pinned threads on this host's cores and compare "
+                         "the measured period with the predicted one.", opts};
+    return cli_parse(&cmd, argc, argv, &o->file);
+}
+
+static int run_config(run_state *s)
+{
+    run_opts *o = &s->o;
+    pm_run_config *c = &s->cfg;
+    pm_run_config_default(c);
+    c->iterations = o->iters_set ? o->iters : 1000u;
+    c->warmup = o->warmup_set ? o->warmup
+                              : (c->iterations / 10 < 10 ? 10 : c->iterations / 10 > 1000
+                                                                    ? 1000 : c->iterations / 10);
+    c->ring_capacity = o->ring_set ? o->ring : 0;
+    c->block = o->block_set ? o->block : PM_RUN_BLOCK;
+    c->watchdog_ms = o->watchdog_set ? o->watchdog : 0;
+    if (c->iterations < 1 || c->block < 1 || c->block > PM_KERNEL_MAX_BLOCK) {
+        cli_usage_error("run: -n must be at least 1 and --block from 1 to %u",
+                        PM_KERNEL_MAX_BLOCK);
+        return CLI_EXIT_USAGE;
+    }
+    uint64_t clock = s->g->platform.clock_hz;
+    c->ns_per_cycle = clock ? 1e9 / (double)clock : 1.0;
+    if (o->nspc) {
+        char *end;
+        double v = strtod(o->nspc, &end);
+        if (*end || !(v > 0) || !isfinite(v)) {
+            cli_usage_error("run: bad value '%s' for --ns-per-cycle", o->nspc);
+            return CLI_EXIT_USAGE;
+        }
+        c->ns_per_cycle = v;
+    }
+    return CLI_EXIT_OK;
+}
+
+/* The map to run: --map, else the list scheduler's (sched.h). */
+static int run_make_map(run_state *s)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc;
+    if (s->o.map) {
+        rc = pm_map_read_file(s->o.map, s->g, &s->m, &d);
+        s->scheduled_map = false;
+    } else {
+        rc = pm_sched_list(s->g, NULL, NULL, &s->m, &d);
+        s->scheduled_map = true;
+    }
+    if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, s->g->file, 0, 0, "cannot map the graph onto %u cores: %s",
+                        s->g->platform.ncores, pm_strerror(rc));
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    return CLI_EXIT_OK;
+}
+
+static int run_choose_pus(run_state *s)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    uint32_t *list = NULL, n = 0;
+    int rc = pm_topo_open(NULL, &s->topo);
+    if (rc != PM_OK) {
+        pm_diag_set(&d, "pacemap", 0, 0, "hwloc cannot read this machine's topology");
+        cli_error(&d);
+        return CLI_EXIT_INPUT;
+    }
+    if (s->o.cores && (rc = pm_topo_parse_list(s->o.cores, &list, &n, &d)) != PM_OK) {
+        cli_usage_error("run: --cores '%s': %s", s->o.cores, d.msg);
+        return CLI_EXIT_USAGE;
+    }
+    rc = pm_topo_choose(s->topo, s->m->ncores, list, n, s->o.oversubscribe, &s->pus, &d);
+    free(list);
+    if (rc != PM_OK) {
+        pm_diag d2 = d;
+        pm_diag_set(&d2, s->g->file, 0, 0, "%s", d.msg);
+        cli_error(&d2);
+        return cli_exit_for(rc);
+    }
+    s->cfg.topo = s->topo;
+    s->cfg.pu = s->pus.pu;
+    s->cfg.yield = s->pus.shared;
+    return CLI_EXIT_OK;
+}
+
+/* A node slower than the watchdog would look like a stall: give the
+ * watchdog ten times the slowest node unless the user set it. */
+static void run_watchdog_fit(run_state *s)
+{
+    double slow = 0;
+    if (!s->node_ns)
+        return;
+    for (uint32_t v = 0; v < s->g->nnodes; v++)
+        slow = s->node_ns[v] > slow ? s->node_ns[v] : slow;
+    double ms = 10.0 * slow / 1e6;
+    if (!s->o.watchdog_set && ms > PM_RUN_WATCHDOG_MS)
+        s->cfg.watchdog_ms = ms < 4e9 ? (uint32_t)ms : UINT32_MAX;
+}
+
+/* Without --ring, each ring holds the model's buffer depth plus one,
+ * at least delay + PM_RUN_RING_SLACK and at most delay + 1024 (a depth
+ * that keeps growing in the model means the parts run at different
+ * rates; back-pressure then paces the producer). */
+static void run_ring_sizes(run_state *s)
+{
+    if (s->o.ring_set || !s->cap)
+        return;
+    for (uint32_t e = 0; e < s->g->nedges; e++) {
+        uint64_t d = (uint64_t)s->g->edges[e].delay, want = (uint64_t)s->depth[e] + 1u;
+        uint64_t lo = d + PM_RUN_RING_SLACK, hi = d + 1024u;
+        want = want < lo ? lo : want > hi ? hi : want;
+        s->cap[e] = want > UINT32_MAX ? UINT32_MAX : (uint32_t)want;
+    }
+    s->cfg.edge_capacity = s->cap;
+}
+
+static int run_measure(run_state *s)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_run_calibrate(&s->cfg.turns_per_ns);
+    s->main_pinned = pm_topo_bind_thread(s->topo, s->pus.pu[0]) == PM_OK;
+    s->node_ns = calloc(s->g->nnodes ? s->g->nnodes : 1, sizeof *s->node_ns);
+    if (rc == PM_OK)
+        rc = s->node_ns ? pm_run_node_times(s->g, s->m, &s->cfg, 15, s->node_ns) : PM_ENOMEM;
+    if (rc == PM_OK && s->m->ncores > 1)
+        rc = pm_run_handoff(&s->cfg, s->pus.pu[0], s->pus.pu[1], 2000, &s->handoff,
+                            &s->handoff_p99, &s->handoff_pinned);
+    s->depth = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->depth);
+    s->cap = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->cap);
+    if (rc == PM_OK && (!s->depth || !s->cap))
+        rc = PM_ENOMEM;
+    if (rc == PM_OK)
+        rc = pm_run_predict(s->g, s->m, s->node_ns, s->handoff, s->o.ring_set ? s->o.ring : 0,
+                            &s->predicted, s->depth, &d);
+    run_watchdog_fit(s);
+    run_ring_sizes(s);
+    if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, s->g->file, 0, 0, "run: cannot measure or predict: %s",
+                        pm_strerror(rc));
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    return CLI_EXIT_OK;
+}
+
+static const char *run_edge_text(const pm_graph *g, uint32_t e, char *buf, size_t n)
+{
+    snprintf(buf, n, "%s -> %s", pm_graph_node_name(g, g->edges[e].src),
+             pm_graph_node_name(g, g->edges[e].dst));
+    return buf;
+}
+
+static void run_report_stall(const run_state *s)
+{
+    const pm_run_result *r = s->res;
+    for (uint32_t c = 0; c < r->ncores; c++) {
+        const pm_run_wait *w = &r->waits[c];
+        if (w->edge == PM_NONE)
+            continue;
+        char eb[600];
+        const pm_edge *e = &s->g->edges[w->edge];
+        pm_diag d;
+        pm_diag_set(&d, s->g->file, e->line, e->col,
+                    "run stopped, no progress: core %u (node %s, iteration %llu) waits for "
+                    "%s on edge %s", c, pm_graph_node_name(s->g, w->node),
+                    (unsigned long long)w->iteration, w->for_space ? "ring space" : "a token",
+                    run_edge_text(s->g, w->edge, eb, sizeof eb));
+        cli_error(&d);
+    }
+}
+
+static int run_execute(run_state *s)
+{
+    int rc = pm_run_execute(s->g, s->m, &s->cfg, &s->res);
+    if (rc == PM_EDEADLOCK) {
+        run_report_stall(s);
+        return CLI_EXIT_INPUT;
+    }
+    pm_map *serial = NULL;
+    pm_run_result *one = NULL;
+    if (rc == PM_OK)
+        rc = pm_run_serial_map(s->g, &serial);
+    if (rc == PM_OK) {
+        pm_run_config c = s->cfg;
+        c.pu = s->pus.pu; /* the single thread goes on the first PU */
+        rc = pm_run_execute(s->g, serial, &c, &one);
+    }
+    if (rc == PM_OK && pm_run_predict(s->g, s->m, s->res->node_ns, s->handoff,
+                                      s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
+                                      NULL, NULL) != PM_OK)
+        s->predicted_in_run = 0;
+    if (rc == PM_OK)
+        s->outputs_match = one->output_hash == s->res->output_hash &&
+                           s->res->order_errors == 0;
+    pm_run_result_destroy(one);
+    pm_map_destroy(serial);
+    if (rc != PM_OK) {
+        pm_diag d;
+        if (rc == PM_ELIMIT)
+            pm_diag_set(&d, s->g->file, 0, 0, "run: %u nodes x %u iterations (warm-up "
+                        "included) exceed the %u timestamps kept, or a ring is too large; "
+                        "use a smaller -n or --ring", s->g->nnodes,
+                        s->cfg.iterations + s->cfg.warmup, PM_RUN_MAX_RECORDS);
+        else
+            pm_diag_set(&d, s->g->file, 0, 0, "run failed: %s", pm_strerror(rc));
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    return CLI_EXIT_OK;
+}
+
+static const char *run_work_text(const pm_node *n, char *buf, size_t len)
+{
+    static const char *const names[] = {"spin", "fir", "biquad", "fft"};
+    if (n->work == PM_WORK_SPIN)
+        snprintf(buf, len, "spin");
+    else
+        snprintf(buf, len, "%s:%u", names[n->work], n->work_param);
+    return buf;
+}
+
+static bool run_all_pinned(const run_state *s)
+{
+    for (uint32_t c = 0; c < s->res->ncores; c++)
+        if (!s->res->pinned[c])
+            return false;
+    return s->main_pinned && (s->m->ncores < 2 || s->handoff_pinned);
+}
+
+static void run_text_setup(const run_state *s)
+{
+    const pm_platform *p = &s->g->platform;
+    printf("run %s%s%s%s\n", s->o.file, p->title ? " \"" : "", p->title ? p->title : "",
+           p->title ? "\"" : "");
+    printf("map: %u core%s, %s\n", s->m->ncores, s->m->ncores == 1 ? "" : "s",
+           s->scheduled_map ? "from the list scheduler" : s->o.map);
+    printf("processing units: %s\n", s->pus.summary);
+    for (uint32_t c = 0; c < s->pus.n; c++)
+        printf("  core %-3u -> PU %-4u %s\n", c, s->pus.pu[c], s->pus.why[c]);
+    printf("spin calibration: %.3f busy-loop turns per ns; 1 node cycle = %.4g ns",
+           s->cfg.turns_per_ns, s->cfg.ns_per_cycle);
+    if (p->clock_hz && !s->o.nspc)
+        printf(" (clock %.6g MHz)", (double)p->clock_hz / 1e6);
+    printf("\n");
+    if (s->m->ncores > 1)
+        printf("handoff PU %u -> PU %u: median %.0f ns, p99 %.0f ns (ring ping-pong, half "
+               "the round trip)\n", s->pus.pu[0], s->pus.pu[1], s->handoff, s->handoff_p99);
+}
+
+static void run_text_nodes(const run_state *s)
+{
+    printf("\n%-20s %5s  %-12s %12s %14s %14s\n", "node", "core", "work", "cycles",
+           "host ns alone", "ns in the run");
+    for (uint32_t c = 0; c < s->m->ncores; c++)
+        for (uint32_t i = s->m->off[c]; i < s->m->off[c + 1]; i++) {
+            uint32_t v = s->m->order[i];
+            char wb[32];
+            uint32_t cls = s->g->platform.core_class[c];
+            printf("%-20.20s %5u  %-12s %12lld %14.0f %14.0f\n", pm_graph_node_name(s->g, v),
+                   c, run_work_text(&s->g->nodes[v], wb, sizeof wb),
+                   (long long)pm_graph_cycles_on(s->g, v, cls), s->node_ns[v],
+                   s->res->node_ns[v]);
+        }
+    printf("(alone: median of 15 timed samples on one PU; in the run: median firing time, "
+           "outputs included)\n\n");
+}
+
+/* Print text in lines of at most `width` columns, breaking at spaces. */
+static void run_print_wrapped(const char *text, size_t width)
+{
+    while (*text) {
+        size_t len = strlen(text), cut = len;
+        if (len > width) {
+            cut = width;
+            while (cut > 0 && text[cut] != ' ')
+                cut--;
+            if (cut == 0)
+                cut = width;
+        }
+        printf("%.*s\n", (int)cut, text);
+        text += cut;
+        while (*text == ' ')
+            text++;
+    }
+}
+
+static void run_text_results(const run_state *s)
+{
+    const pm_run_result *r = s->res;
+    printf("predicted period   %12.0f ns  (simulator: host times above, handoff between "
+           "cores)\n", s->predicted);
+    printf("measured period    %12.0f ns  median; p99 %.0f ns, mean %.0f ns\n",
+           r->period_ns_median, r->period_ns_p99, r->period_ns_mean);
+    printf("measured/predicted %12.3f\n", s->predicted > 0 ? r->period_ns_median / s->predicted
+                                                         : 0.0);
+    printf("model, in-run times%12.0f ns  (the prediction again, firing times of this run)\n",
+           s->predicted_in_run);
+    printf("latency            %12.0f ns  median; p99 %.0f ns (first source start to last "
+           "sink end)\n", r->latency_ns_median, r->latency_ns_p99);
+    printf("iterations         %12u     after %u warm-up\n", r->iterations, r->warmup);
+    printf("busy share        ");
+    for (uint32_t c = 0; c < r->ncores; c++)
+        printf(" core %u %.1f%%", c, 100.0 * r->busy[c]);
+    printf("\noutputs            %s\n", s->outputs_match
+               ? "bit-identical to a single-threaded run; every token once, in order"
+               : "DIFFER from a single-threaded run or arrived out of order");
+    if (s->pus.shared)
+        printf("oversubscribed     threads share PUs; the prediction assumes one PU per core\n");
+    printf("pinning            %s\n", run_all_pinned(s)
+               ? "every thread pinned to its PU"
+               : "NOT pinned (the system refused; times may include migrations)");
+    printf("\n");
+    run_print_wrapped(cli_caution, 100);
+}
+
+static void run_json_cores(pm_json *j, const run_state *s)
+{
+    pm_json_key(j, "cores");
+    pm_json_array_begin(j);
+    for (uint32_t c = 0; c < s->m->ncores; c++) {
+        pm_json_object_begin(j);
+        pm_json_key(j, "core"); pm_json_uint(j, c);
+        pm_json_key(j, "pu"); pm_json_uint(j, s->pus.pu[c]);
+        pm_json_key(j, "why"); pm_json_string(j, s->pus.why[c]);
+        pm_json_key(j, "busy"); pm_json_double(j, s->res->busy[c]);
+        pm_json_key(j, "pinned"); pm_json_bool(j, s->res->pinned[c]);
+        pm_json_object_end(j);
+    }
+    pm_json_array_end(j);
+    pm_json_key(j, "nodes");
+    pm_json_array_begin(j);
+    for (uint32_t v = 0; v < s->g->nnodes; v++) {
+        char wb[32];
+        pm_json_object_begin(j);
+        pm_json_key(j, "name"); pm_json_string(j, pm_graph_node_name(s->g, v));
+        pm_json_key(j, "core"); pm_json_uint(j, s->m->core_of[v]);
+        pm_json_key(j, "work"); pm_json_string(j, run_work_text(&s->g->nodes[v], wb, sizeof wb));
+        pm_json_key(j, "host_ns"); pm_json_double(j, s->node_ns[v]);
+        pm_json_key(j, "run_ns"); pm_json_double(j, s->res->node_ns[v]);
+        pm_json_object_end(j);
+    }
+    pm_json_array_end(j);
+}
+
+static void run_json(const run_state *s)
+{
+    const pm_run_result *r = s->res;
+    pm_json j;
+    pm_json_init(&j, stdout, 2);
+    pm_json_object_begin(&j);
+    pm_json_key(&j, "period_ns"); pm_json_double(&j, r->period_ns_median);
+    pm_json_key(&j, "period_ns_p99"); pm_json_double(&j, r->period_ns_p99);
+    pm_json_key(&j, "predicted_ns"); pm_json_double(&j, s->predicted);
+    pm_json_key(&j, "ratio");
+    pm_json_double(&j, s->predicted > 0 ? r->period_ns_median / s->predicted : 0.0);
+    pm_json_key(&j, "predicted_in_run_ns"); pm_json_double(&j, s->predicted_in_run);
+    pm_json_key(&j, "period_ns_mean"); pm_json_double(&j, r->period_ns_mean);
+    pm_json_key(&j, "latency_ns"); pm_json_double(&j, r->latency_ns_median);
+    pm_json_key(&j, "latency_ns_p99"); pm_json_double(&j, r->latency_ns_p99);
+    pm_json_key(&j, "handoff_ns"); pm_json_double(&j, s->handoff);
+    pm_json_key(&j, "handoff_ns_p99"); pm_json_double(&j, s->handoff_p99);
+    pm_json_key(&j, "ns_per_cycle"); pm_json_double(&j, s->cfg.ns_per_cycle);
+    pm_json_key(&j, "spin_turns_per_ns"); pm_json_double(&j, s->cfg.turns_per_ns);
+    pm_json_key(&j, "iterations"); pm_json_uint(&j, r->iterations);
+    pm_json_key(&j, "warmup"); pm_json_uint(&j, r->warmup);
+    pm_json_key(&j, "block"); pm_json_uint(&j, s->cfg.block);
+    pm_json_key(&j, "pinned"); pm_json_bool(&j, run_all_pinned(s));
+    pm_json_key(&j, "oversubscribed"); pm_json_bool(&j, s->pus.shared);
+    pm_json_key(&j, "outputs_match"); pm_json_bool(&j, s->outputs_match);
+    pm_json_key(&j, "order_errors"); pm_json_uint(&j, r->order_errors);
+    run_json_cores(&j, s);
+    pm_json_object_end(&j);
+    pm_json_finish(&j);
+}
+
+static void run_free(run_state *s)
+{
+    pm_run_result_destroy(s->res);
+    free(s->node_ns);
+    free(s->depth);
+    free(s->cap);
+    pm_topo_choice_free(&s->pus);
+    pm_topo_close(s->topo);
+    pm_map_destroy(s->m);
+    pm_graph_destroy(s->g);
+}
+
+static int run_steps(run_state *s)
+{
+    int st = cli_load(s->o.file, s->o.procs_set, s->o.procs, &s->g);
+    if (st != CLI_EXIT_OK)
+        return st;
+    if (!pm_graph_is_single_rate(s->g)) {
+        pm_diag d;
+        pm_diag_set(&d, s->g->file, 0, 0, "run needs a single-rate graph (every edge "
+                    "produce=1 consume=1); this one is multirate");
+        cli_error(&d);
+        return CLI_EXIT_INPUT;
+    }
+    if ((st = run_config(s)) != CLI_EXIT_OK || (st = run_make_map(s)) != CLI_EXIT_OK ||
+        (st = run_choose_pus(s)) != CLI_EXIT_OK || (st = run_measure(s)) != CLI_EXIT_OK ||
+        (st = run_execute(s)) != CLI_EXIT_OK)
+        return st;
+    if (!run_all_pinned(s))
+        cli_warning("run: the system refused to pin threads (restricted cpuset or "
+                    "container?); ran unpinned");
+    if (s->o.json) {
+        run_json(s);
+    } else {
+        run_text_setup(s);
+        run_text_nodes(s);
+        run_text_results(s);
+    }
+    return s->outputs_match ? CLI_EXIT_OK : CLI_EXIT_INPUT;
+}
+
 int pm_cmd_run(int argc, char **argv)
 {
-    (void)argc;
-    (void)argv;
-    cli_usage_error("run: not available yet");
-    return CLI_EXIT_USAGE;
+    run_state s;
+    memset(&s, 0, sizeof s);
+    int st = run_parse(&s.o, argc, argv);
+    if (st >= 0)
+        return st;
+    st = run_steps(&s);
+    run_free(&s);
+    return st;
 }

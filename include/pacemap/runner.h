@@ -1,0 +1,153 @@
+/*
+ * runner.h - execute a map with real threads on real cores (DESIGN §7) and
+ * measure it against the model.
+ *
+ * One thread per core of the map, optionally pinned to a processing unit
+ * chosen by topo.h.  Each thread runs its nodes in map order, iteration
+ * after iteration (self-timed, DESIGN §5).  A token is a block of float
+ * samples; a node's input is the mean of its input tokens, where a source
+ * (a node whose only in-edges are self-loops) counts the deterministic test
+ * signal (stream = node index) as one more input; its work is the
+ * kernel of kernels.h, and its output token goes to every out-edge.
+ * Cross-core edges are SPSC rings (ring.h), same-core edges plain FIFOs,
+ * both pre-filled with the edge's delays as zero-sample tokens.  Each token
+ * carries the producing iteration as a sequence number, checked on receipt.
+ *
+ * The procedure of a `pacemap run` is: pm_run_calibrate (busy loop),
+ * pm_run_node_times (each node alone), pm_run_handoff (ring latency between
+ * two pinned threads), pm_run_predict (the period the simulator gives
+ * with those host times), pm_run_execute (the measured run), and a
+ * second pm_run_execute of pm_run_serial_map to check the outputs bit for
+ * bit.
+ *
+ * Single-rate graphs only (PM_EUNSUPPORTED otherwise).  The library never
+ * prints; pinning failures and stalls come back in the result.
+ * Ownership: results are freed with pm_run_result_destroy (NULL is a no-op).
+ */
+#ifndef PACEMAP_RUNNER_H
+#define PACEMAP_RUNNER_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "pacemap/error.h"
+#include "pacemap/graph.h"
+#include "pacemap/map.h"
+#include "pacemap/topo.h"
+
+#define PM_RUN_BLOCK 64u             /* default samples per token */
+#define PM_RUN_RING_SLACK 16u        /* default ring slots beyond an edge's delay */
+#define PM_RUN_MAX_RECORDS (1u << 26)/* nodes x (warm-up + iterations) timestamps */
+#define PM_RUN_WATCHDOG_MS 2000u     /* default: stop after this long without progress */
+
+typedef struct pm_run_config {
+    uint32_t iterations;    /* measured iterations, >= 1 */
+    uint32_t warmup;        /* iterations run before measuring */
+    uint32_t block;         /* samples per token, 1..PM_KERNEL_MAX_BLOCK */
+    uint32_t ring_capacity; /* slots per cross-core ring; 0 = edge_capacity, else
+                               delay + PM_RUN_RING_SLACK; always raised to delay + 1 */
+    const uint32_t *edge_capacity; /* NULL, or slots per edge (cross-core edges) */
+    double ns_per_cycle;    /* spin nodes: host nanoseconds per node cycle */
+    double turns_per_ns;    /* spin calibration from pm_run_calibrate */
+    uint32_t watchdog_ms;   /* stall limit; 0 = PM_RUN_WATCHDOG_MS */
+    const pm_topo *topo;    /* pin threads with it; NULL = do not pin */
+    const uint32_t *pu;     /* map core c runs on PU pu[c] (OS index); with topo */
+    bool yield;             /* sched_yield while waiting (PUs shared or busy host) */
+    bool record_outputs;    /* keep every sink block in the result */
+} pm_run_config;
+
+/* Defaults: 1000 iterations, 100 warm-up, PM_RUN_BLOCK, auto rings,
+ * 1 ns per cycle, no calibration (turns_per_ns 1), no pinning. */
+void pm_run_config_default(pm_run_config *c);
+
+/* Where a stalled thread stood when the watchdog stopped the run. */
+typedef struct pm_run_wait {
+    uint32_t core;
+    uint32_t node;       /* node it was firing, PM_NONE when it had finished */
+    uint32_t edge;       /* edge it waited on, PM_NONE when not waiting */
+    bool for_space;      /* waited for room in the ring (else for a token) */
+    uint64_t iteration;
+} pm_run_wait;
+
+typedef struct pm_run_result {
+    uint32_t ncores, nnodes, nedges;
+    uint32_t iterations, warmup;
+    double period_ns_median, period_ns_p99, period_ns_mean;
+    double latency_ns_median, latency_ns_p99; /* first source start to last sink end */
+    double *busy;           /* ncores: share of the measured window spent firing */
+    double *node_ns;        /* nnodes: median firing time (kernel + outputs) */
+    bool *pinned;           /* ncores: the thread was bound to its PU */
+    uint64_t *tokens;       /* nedges: tokens consumed */
+    uint32_t *remaining;    /* nedges: tokens left in the channel at the end */
+    uint64_t order_errors;  /* tokens received with the wrong sequence number */
+    uint64_t output_hash;   /* FNV-1a over every sink block, sinks in node order */
+    uint32_t nsinks;
+    uint32_t *sinks;        /* nodes whose only out-edges are self-loops (all if none) */
+    float *outputs;         /* record_outputs: [nsinks][warmup+iterations][block] */
+    bool stalled;           /* the watchdog (or a same-core wait) stopped the run */
+    pm_run_wait *waits;     /* ncores, meaningful when stalled */
+} pm_run_result;
+
+void pm_run_result_destroy(pm_run_result *r);
+
+/* Busy-loop turns per nanosecond on the calling thread: median of 9 timed
+ * runs of pm_spin.  PM_EPLATFORM when the clock is unusable. ~20 ms. */
+int pm_run_calibrate(double *turns_per_ns);
+
+/* Host time of one firing of each node alone on the calling thread (its
+ * kernel on a test block; spin turns for the cycles of the class of its
+ * core in m): median of `repeats` samples, each averaging enough firings
+ * to last >= 5 µs, taken in rounds over all nodes (a passing load on the
+ * host then touches every node alike).  node_ns has g->nnodes entries.  PM_ERANGE for a bad
+ * work parameter, PM_ENOMEM. */
+int pm_run_node_times(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
+                      uint32_t repeats, double *node_ns);
+
+/* One-way handoff latency of a token between a thread on PU pu_a and one
+ * on pu_b through a ring (ping-pong, half the round trip): median and p99
+ * of `rounds` (>= 10, the first tenth dropped as warm-up).  The calling
+ * thread plays the pu_a side and, when cfg->topo is set, stays bound to
+ * pu_a afterwards; the other side is a new thread on pu_b.  *pinned says
+ * whether both bindings held.  PM_EINVAL, PM_ENOMEM, PM_EPLATFORM (no
+ * thread). */
+int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
+                   uint32_t rounds, double *median_ns, double *p99_ns, bool *pinned);
+
+/* Predicted steady period (ns) of map m when node v takes node_ns[v] and a
+ * cross-core token arrives handoff_ns after its producer ends: the
+ * simulator (sim.h, pm_sim_run, 1000 iterations; exact steady period when
+ * reached, else the average of the last half) on a view of g whose
+ * platform is point-to-point links with that latency and no send/recv
+ * cost, in units of 1/16 ns.  fifo_cap: tokens per cross-core edge, 0 =
+ * unbounded.  depth (nedges entries, may be NULL) receives the most tokens
+ * each cross-core edge held in the model (0 for same-core edges): the
+ * buffer depth the rings need.  Errors of pm_sim_run, with its message in
+ * diag (may be NULL): PM_EDEADLOCK when the map admits no firing order
+ * (diag names the waiting cycle), PM_EMAP, PM_ELIMIT, PM_ENOMEM.
+ * Complexity: that of pm_sim_run for 1000 iterations. */
+int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
+                   double handoff_ns, uint32_t fifo_cap, double *period_ns,
+                   uint32_t *depth, pm_diag *diag);
+
+/* Run m with one thread per core: cfg->warmup + cfg->iterations
+ * iterations.  PM_OK with *out filled; PM_EDEADLOCK with *out filled and
+ * stalled set when no thread progressed for cfg->watchdog_ms (or a thread
+ * waited on its own core); PM_EUNSUPPORTED for a multirate graph;
+ * PM_ELIMIT past PM_RUN_MAX_RECORDS; PM_ERANGE for a bad work parameter
+ * or block; PM_EINVAL when m does not fit g; PM_ENOMEM; PM_EPLATFORM when
+ * a thread cannot be started.  Pinning failures do not fail the run. */
+int pm_run_execute(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
+                   pm_run_result **out);
+
+/* One core running every node in a topological order of the zero-delay
+ * edges (ties by node index): the single-threaded reference.
+ * PM_EZERODELAY when zero-delay edges form a cycle, PM_ENOMEM. O(V + E). */
+int pm_run_serial_map(const pm_graph *g, pm_map **out);
+
+/* A trivial map for `ncores` cores: nodes in that topological order dealt
+ * round-robin to the cores that may run them (pins and classes honoured).
+ * For tests and programs that want a map without scheduling.  PM_EPLATFORM when a node
+ * has no core, PM_EZERODELAY, PM_ENOMEM.  O(V * ncores + E). */
+int pm_run_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out);
+
+#endif

@@ -1,0 +1,1145 @@
+/*
+ * sim.c - the event engine of the self-timed simulator (sim.h).
+ *
+ * Events are processed in time order from one binary heap, keyed
+ * (time, phase, core, edge, iteration): phase 0 a core tries its next
+ * firing, phase 1 a bus request is queued, phase 2 the bus is granted.
+ * A firing is committed as soon as every time it depends on is known
+ * (its begin may lie ahead of the clock; without contention that is
+ * exact), so p2p runs are a max-plus recursion driven in time order, and
+ * bus grants still see every earlier request.  A core that cannot go on
+ * registers on the node it waits for and is woken when that node fires
+ * (or its transfer is granted): no polling.  Steady state, critical chain
+ * and deadlock reports are in sim_report.c.
+ */
+#include "pacemap/sim.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+#include "sim_internal.h"
+
+#define SIM_MEM_LIMIT (UINT64_C(1) << 30) /* bytes of rings before PM_ELIMIT */
+#define SIM_LAG 8 /* p2p: iterations a core may run ahead of the slowest */
+#define SIM_PREFETCH 6 /* firings ahead whose data is prefetched */
+
+/* ---- heap ------------------------------------------------------------- */
+
+static bool sim_ev_less(const sim_ev *a, const sim_ev *b)
+{
+    if (a->time != b->time)
+        return a->time < b->time;
+    if (a->phase != b->phase)
+        return a->phase < b->phase;
+    if (a->core != b->core)
+        return a->core < b->core;
+    if (a->xslot != b->xslot)
+        return a->xslot < b->xslot;
+    return a->iter < b->iter;
+}
+
+static int sim_heap_push(sim_heap *h, sim_ev e)
+{
+    if (h->len == h->cap) {
+        size_t nc = h->cap ? h->cap * 2 : 64;
+        sim_ev *na = realloc(h->a, nc * sizeof *na);
+        if (!na)
+            return PM_ENOMEM;
+        h->a = na;
+        h->cap = nc;
+    }
+    size_t i = h->len++;
+    while (i > 0) {
+        size_t p = (i - 1) / 2;
+        if (!sim_ev_less(&e, &h->a[p]))
+            break;
+        h->a[i] = h->a[p];
+        i = p;
+    }
+    h->a[i] = e;
+    return PM_OK;
+}
+
+static sim_ev sim_heap_pop(sim_heap *h)
+{
+    sim_ev top = h->a[0];
+    sim_ev last = h->a[--h->len];
+    size_t i = 0, n = h->len;
+    for (;;) {
+        size_t l = 2 * i + 1;
+        if (l >= n)
+            break;
+        if (l + 1 < n && sim_ev_less(&h->a[l + 1], &h->a[l]))
+            l++;
+        if (!sim_ev_less(&h->a[l], &last))
+            break;
+        h->a[i] = h->a[l];
+        i = l;
+    }
+    if (n)
+        h->a[i] = last;
+    return top;
+}
+
+/* ---- token counts ----------------------------------------------------- */
+
+static int sim_occ_grow(sim_occ *o)
+{
+    uint32_t nc = o->cap ? o->cap * 2 : 4;
+    int64_t *nq = malloc(nc * sizeof *nq);
+    if (!nq)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < o->len; i++)
+        nq[i] = o->q[(o->head + i) & (o->cap - 1)];
+    free(o->q);
+    o->q = nq;
+    o->cap = nc;
+    o->head = 0;
+    return PM_OK;
+}
+
+static inline int sim_occ_queue(sim_occ *o, int64_t t, bool pop)
+{
+    if (o->len == o->cap && sim_occ_grow(o))
+        return PM_ENOMEM;
+    o->q[(o->head + o->len++) & (o->cap - 1)] = t;
+    o->pops = pop;
+    return PM_OK;
+}
+
+static int64_t sim_occ_front(const sim_occ *o)
+{
+    return o->q[o->head];
+}
+
+static void sim_occ_drop(sim_occ *o)
+{
+    o->head = (o->head + 1) & (o->cap - 1);
+    o->len--;
+}
+
+static void sim_occ_apply_push(sim_occ *o)
+{
+    if (++o->occ > o->max)
+        o->max = o->occ;
+}
+
+/* A token pushed at time t.  Pops at the same time go first: a slot
+ * freed and refilled in the same cycle is one slot (docs/simulation.md). */
+static inline int sim_occ_push(sim_occ *o, int64_t t)
+{
+    if (o->len && o->pops) {
+        while (o->len && sim_occ_front(o) <= t) {
+            o->occ--;
+            sim_occ_drop(o);
+        }
+        if (o->len) {
+            sim_occ_apply_push(o);
+            return PM_OK;
+        }
+    }
+    return sim_occ_queue(o, t, false);
+}
+
+static inline int sim_occ_pop(sim_occ *o, int64_t t)
+{
+    if (o->len && !o->pops) {
+        while (o->len && sim_occ_front(o) < t) {
+            sim_occ_apply_push(o);
+            sim_occ_drop(o);
+        }
+        if (o->len) {
+            o->occ--;
+            return PM_OK;
+        }
+    }
+    return sim_occ_queue(o, t, true);
+}
+
+static void sim_occ_flush(sim_occ *o)
+{
+    while (o->len) {
+        if (o->pops)
+            o->occ--;
+        else
+            sim_occ_apply_push(o);
+        sim_occ_drop(o);
+    }
+}
+
+/* ---- preparation ------------------------------------------------------ */
+
+static int sim_node_times(sim *s, const pm_sim_opts *o, pm_diag *diag)
+{
+    const pm_graph *g = s->g;
+    for (uint32_t v = 0; v < s->n; v++) {
+        uint32_t c = s->m->core_of[v];
+        int64_t t = o->node_cycles ? o->node_cycles[v]
+                                   : pm_graph_cycles_on(g, v, g->platform.core_class[c]);
+        if (t < 0 || t > PM_MAX_VALUE) {
+            pm_diag_set(diag, g->file, 0, 0, "node '%s' has no valid time on core %u",
+                        pm_graph_node_name(g, v), c);
+            return o->node_cycles ? PM_EINVAL : PM_EMAP;
+        }
+        s->t[v] = t;
+    }
+    return PM_OK;
+}
+
+static int sim_alloc_nodes(sim *s)
+{
+    size_t n = s->n, e = s->g->nedges, P = s->P;
+    s->t = calloc(n + 1, sizeof *s->t);
+    s->recv = calloc(n + 1, sizeof *s->recv);
+    s->send = calloc(n + 1, sizeof *s->send);
+    s->nd = calloc(n + 1, sizeof *s->nd);
+    s->in_off = calloc(n + 1, sizeof *s->in_off);
+    s->ins = calloc(e + 1, sizeof *s->ins);
+    s->xout_off = calloc(n + 1, sizeof *s->xout_off);
+    s->xout = calloc(e + 1, sizeof *s->xout);
+    s->xs_of = calloc(e + 1, sizeof *s->xs_of);
+    s->x = calloc(e + 1, sizeof *s->x);
+    s->occ = calloc(e + 1, sizeof *s->occ);
+    s->pos_of = calloc(n + 1, sizeof *s->pos_of);
+    s->done = calloc(n + 1, sizeof *s->done);
+    s->wait_head = malloc((n + 1) * sizeof *s->wait_head);
+    s->half = calloc(n + 1, sizeof *s->half);
+    s->pos = calloc(P + 1, sizeof *s->pos);
+    s->cnt = calloc(P + 1, sizeof *s->cnt);
+    s->first = calloc(P + 1, sizeof *s->first);
+    s->iter = calloc(P + 1, sizeof *s->iter);
+    s->free = calloc(P + 1, sizeof *s->free);
+    s->wait_next = calloc(P + 1, sizeof *s->wait_next);
+    s->wait_node = calloc(P + 1, sizeof *s->wait_node);
+    s->wait_edge = calloc(P + 1, sizeof *s->wait_edge);
+    s->wait_fifo = calloc(P + 1, sizeof *s->wait_fifo);
+    s->queued = calloc(P + 1, sizeof *s->queued);
+    if (!s->t || !s->recv || !s->send || !s->nd || !s->in_off || !s->ins || !s->xout_off ||
+        !s->xout || !s->xs_of || !s->x || !s->occ || !s->pos_of || !s->done ||
+        !s->wait_head || !s->half || !s->pos || !s->cnt || !s->first || !s->iter ||
+        !s->free || !s->wait_next || !s->wait_node || !s->wait_edge || !s->wait_fifo ||
+        !s->queued)
+        return PM_ENOMEM;
+    for (uint32_t v = 0; v < s->n; v++)
+        s->wait_head[v] = PM_NONE;
+    return PM_OK;
+}
+
+/* Cross-core edges get an xslot; every node gets its input list. */
+static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
+{
+    const pm_graph *g = s->g;
+    const pm_comm *cm = &g->platform.comm;
+    const uint32_t *core = s->m->core_of;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        s->xs_of[e] = PM_NONE;
+        if (ed->delay > INT32_MAX) {
+            pm_diag_set(diag, g->file, ed->line, ed->col, "too many delays for the simulator");
+            return PM_ELIMIT;
+        }
+        if (ed->delay > s->span)
+            s->span = ed->delay;
+        if (core[ed->src] == core[ed->dst])
+            continue;
+        sim_x *x = &s->x[s->nx];
+        x->edge = e, x->src = ed->src, x->dst = ed->dst, x->delay = ed->delay;
+        x->cost = cm->latency + cm->per_word * ed->words;
+        x->cap = fifo_cap ? (ed->delay > fifo_cap ? ed->delay : fifo_cap) : 0;
+        if (x->cap > s->span)
+            s->span = x->cap;
+        s->occ[s->nx].occ = s->occ[s->nx].max = ed->delay;
+        s->xs_of[e] = s->nx++;
+        s->recv[ed->dst] += cm->recv;
+        s->send[ed->src] += cm->send;
+        s->xout_off[ed->src + 1]++;
+    }
+    uint32_t k = 0;
+    for (uint32_t v = 0; v < s->n; v++) {
+        s->in_off[v] = k;
+        for (uint32_t i = g->in_off[v]; i < g->in_off[v + 1]; i++) {
+            uint32_t e = g->in_edge[i];
+            s->ins[k++] = (sim_in){ g->edges[e].src, e, s->xs_of[e], (uint32_t)g->edges[e].delay };
+        }
+    }
+    s->in_off[s->n] = k;
+    return PM_OK;
+}
+
+/* Fill the cross-core out lists (counting sort by node) and the packed
+ * per-node records. */
+static int sim_build_xlists(sim *s)
+{
+    for (uint32_t v = 0; v < s->n; v++)
+        s->xout_off[v + 1] += s->xout_off[v];
+    uint32_t *fo = calloc(s->n + 1, sizeof *fo);
+    if (!fo)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < s->nx; i++) {
+        uint32_t u = s->x[i].src;
+        s->xout[s->xout_off[u] + fo[u]++] = i;
+    }
+    free(fo);
+    for (uint32_t v = 0; v < s->n; v++)
+        s->nd[v] = (sim_nd){ s->recv[v], s->recv[v] + s->t[v], s->recv[v] + s->t[v] + s->send[v],
+                             0, s->in_off[v], s->in_off[v + 1], s->xout_off[v],
+                             s->xout_off[v + 1] };
+    return PM_OK;
+}
+
+static void sim_build_cores(sim *s)
+{
+    const pm_map *m = s->m;
+    for (uint32_t c = 0; c < s->P; c++) {
+        s->first[c] = m->off[c];
+        s->cnt[c] = m->off[c + 1] - m->off[c];
+        for (uint32_t i = 0; i < s->cnt[c]; i++)
+            s->pos_of[m->order[m->off[c] + i]] = i;
+        s->iter[c] = s->cnt[c] ? 0 : s->N;
+        s->wait_node[c] = PM_NONE;
+    }
+}
+
+/* Times stay below N * (all work and transfer time of one iteration),
+ * doubled for bus waits; refuse runs where that could pass 2^62. */
+static int sim_check_range(const sim *s, pm_diag *diag)
+{
+    unsigned __int128 per = 1;
+    for (uint32_t v = 0; v < s->n; v++)
+        per += (unsigned __int128)(s->t[v] + s->recv[v] + s->send[v]);
+    for (uint32_t i = 0; i < s->nx; i++)
+        per += (unsigned __int128)s->x[i].cost;
+    if (per * 2 * ((unsigned __int128)s->N + 1) > (unsigned __int128)PM_MAX_VALUE) {
+        pm_diag_set(diag, s->g->file, 0, 0, "times of %llu iterations would overflow",
+                    (unsigned long long)s->N);
+        return PM_ERANGE;
+    }
+    return PM_OK;
+}
+
+/* ---- rings ------------------------------------------------------------ */
+
+static uint64_t sim_ring_bytes(const sim *s, uint64_t W)
+{
+    return W * ((uint64_t)s->n * 12 + (uint64_t)s->nx * 28 + 32);
+}
+
+/* Copy ring `old` (W_old slots of `width` bytes-per-slot items) into the
+ * new layout for iterations [lo, hi). */
+static void sim_ring_move(void *dst, const void *src, size_t item, size_t width,
+                          uint64_t lo, uint64_t hi, uint64_t omask, uint64_t nmask,
+                          size_t idx)
+{
+    for (uint64_t k = lo; k < hi; k++)
+        memcpy((char *)dst + ((k & nmask) * width + idx) * item,
+               (const char *)src + ((k & omask) * width + idx) * item, item);
+}
+
+static int sim_ring_alloc(sim *s, uint64_t W, void **p)
+{
+    size_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
+    p[0] = malloc(W * n * sizeof(int64_t));
+    p[1] = malloc(W * n * sizeof(uint32_t));
+    p[2] = malloc(W * nx * sizeof(int64_t));
+    p[3] = malloc(W * nx * sizeof(int64_t));
+    p[4] = malloc(W * nx * sizeof(uint32_t));
+    p[5] = malloc(W * nx * sizeof(uint64_t));
+    p[6] = calloc(W, sizeof(uint64_t));
+    p[7] = malloc(1); /* unused slot */
+    p[8] = malloc(W * sizeof(int64_t));
+    p[9] = malloc(W * sizeof(int64_t));
+    for (int i = 0; i < 10; i++)
+        if (!p[i]) {
+            for (int j = 0; j < 10; j++)
+                free(p[j]);
+            return PM_ENOMEM;
+        }
+    return PM_OK;
+}
+
+static void sim_ring_install(sim *s, uint64_t W, void **p)
+{
+    free(s->xr), free(s->cr), free(s->ar), free(s->gr), free(s->br), free(s->bi);
+    free(s->f1), free(s->lmin), free(s->lmax);
+    s->xr = p[0], s->cr = p[1], s->ar = p[2], s->gr = p[3], s->br = p[4], s->bi = p[5];
+    s->f1 = p[6], s->lmin = p[8], s->lmax = p[9];
+    free(p[7]);
+    s->W = (uint32_t)W;
+    s->mask = W - 1;
+}
+
+static void sim_ring_copy(sim *s, uint64_t W, void **p)
+{
+    uint64_t om = s->mask, nm = W - 1;
+    for (uint32_t v = 0; v < s->n; v++) {
+        uint64_t hi = s->done[v], lo = hi > s->W ? hi - s->W : 0;
+        if (lo > s->valid_lo)
+            s->valid_lo = lo; /* older times of v were overwritten already */
+        sim_ring_move(p[0], s->xr, sizeof(int64_t), s->n, lo, hi, om, nm, v);
+        sim_ring_move(p[1], s->cr, sizeof(uint32_t), s->n, lo, hi, om, nm, v);
+    }
+    for (uint32_t i = 0; i < s->nx; i++) {
+        uint64_t hi = s->granted[i], lo = hi > s->W ? hi - s->W : 0;
+        sim_ring_move(p[2], s->ar, sizeof(int64_t), s->nx, lo, hi, om, nm, i);
+        sim_ring_move(p[3], s->gr, sizeof(int64_t), s->nx, lo, hi, om, nm, i);
+        sim_ring_move(p[4], s->br, sizeof(uint32_t), s->nx, lo, hi, om, nm, i);
+        sim_ring_move(p[5], s->bi, sizeof(uint64_t), s->nx, lo, hi, om, nm, i);
+    }
+    /* iteration max_iter is new (reset after the move); older ones live */
+    uint64_t hi = s->max_iter, lo = hi > s->W ? hi - s->W : 0;
+    sim_ring_move(p[6], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[8], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[9], s->lmax, sizeof(int64_t), 1, lo, hi, om, nm, 0);
+}
+
+/* The cross-core edge with the most tokens waiting (for the message). */
+static uint32_t sim_worst_edge(const sim *s)
+{
+    uint32_t best = PM_NONE;
+    int64_t most = -1;
+    for (uint32_t i = 0; i < s->nx; i++) {
+        int64_t w = (int64_t)s->done[s->x[i].src] + s->x[i].delay - (int64_t)s->done[s->x[i].dst];
+        if (w > most)
+            most = w, best = s->x[i].edge;
+    }
+    return best;
+}
+
+/* Make room for iterations [completed - look-back, max_iter]. */
+static int sim_ring_fit(sim *s, pm_diag *diag)
+{
+    uint64_t back = (uint64_t)s->span + 2 > s->cmax + 1 ? (uint64_t)s->span + 2 : s->cmax + 1;
+    uint64_t need = s->max_iter - s->completed + back + 1;
+    if (s->xr && need <= s->W)
+        return PM_OK;
+    uint64_t W = s->W ? s->W : 8;
+    while (W < need)
+        W *= 2;
+    if (sim_ring_bytes(s, W) > SIM_MEM_LIMIT) {
+        uint32_t e = sim_worst_edge(s);
+        const pm_graph *g = s->g;
+        pm_diag_set(diag, g->file, e == PM_NONE ? 0 : g->edges[e].line,
+                    e == PM_NONE ? 0 : g->edges[e].col,
+                    "tokens pile up on edge '%s' -> '%s' (cores drift %llu iterations "
+                    "apart); give a FIFO capacity or fewer iterations",
+                    e == PM_NONE ? "?" : pm_graph_node_name(g, g->edges[e].src),
+                    e == PM_NONE ? "?" : pm_graph_node_name(g, g->edges[e].dst),
+                    (unsigned long long)(s->max_iter - s->completed));
+        return PM_ELIMIT;
+    }
+    void *p[10] = { 0 };
+    if (sim_ring_alloc(s, W, p))
+        return PM_ENOMEM;
+    if (s->xr)
+        sim_ring_copy(s, W, p);
+    sim_ring_install(s, W, p);
+    return PM_OK;
+}
+
+/* ---- iteration bookkeeping -------------------------------------------- */
+
+/* Spread (node, begin difference) over 64 bits; one multiply is enough,
+ * since a collision can only hide a period, never report a wrong one. */
+static inline uint64_t sim_mix(uint64_t d, uint32_t v)
+{
+    uint64_t z = (d + ((uint64_t)v << 32) + v) * UINT64_C(0x9e3779b97f4a7c15);
+    return z ^ (z >> 29);
+}
+
+static void sim_slot_reset(sim *s, uint64_t k)
+{
+    uint64_t i = k & s->mask;
+    s->f1[i] = 0;
+    s->lmin[i] = INT64_MAX;
+    s->lmax[i] = INT64_MIN;
+}
+
+/* Iteration k has fully begun: compare its fingerprint with the c before. */
+static void sim_iteration_done(sim *s, uint64_t k)
+{
+    uint64_t i = k & s->mask;
+    int64_t lat = s->lmax[i] - s->lmin[i];
+    if (lat > s->lat_max)
+        s->lat_max = lat;
+    if (k == 0)
+        return;
+    for (uint32_t c = 1; c <= s->cmax && c < k; c++) {
+        uint64_t j = (k - c) & s->mask;
+        if (s->f1[i] != s->f1[j])
+            s->last_break[c] = k;
+    }
+}
+
+static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
+{
+    uint64_t it = s->iter[c];
+    if (it < s->N && it > s->max_iter) {
+        s->max_iter = it;
+        int rc = sim_ring_fit(s, diag);
+        if (rc)
+            return rc;
+        sim_slot_reset(s, it);
+    }
+    uint64_t lo = s->N;
+    for (uint32_t d = 0; d < s->P; d++)
+        if (s->iter[d] < lo)
+            lo = s->iter[d];
+    while (s->completed < lo)
+        sim_iteration_done(s, s->completed++);
+    return PM_OK;
+}
+
+/* ---- firing ------------------------------------------------------------ */
+
+static void sim_wait(sim *s, uint32_t c, uint32_t node, uint32_t edge, bool fifo)
+{
+    s->wait_node[c] = node;
+    s->wait_edge[c] = edge;
+    s->wait_fifo[c] = fifo;
+    if (!s->bus)
+        return; /* round-robin engine: no wake-up lists */
+    s->wait_next[c] = s->wait_head[node];
+    s->wait_head[node] = c;
+}
+
+static int sim_wake(sim *s, uint32_t node)
+{
+    if (!s->bus)
+        return PM_OK;
+    uint32_t c = s->wait_head[node];
+    s->wait_head[node] = PM_NONE;
+    while (c != PM_NONE) {
+        uint32_t next = s->wait_next[c];
+        s->wait_node[c] = PM_NONE;
+        if (!s->queued[c]) {
+            s->queued[c] = true;
+            sim_ev e = { s->now, 0, c, 0, 0, 0 };
+            if (sim_heap_push(&s->ev, e))
+                return PM_ENOMEM;
+        }
+        c = next;
+    }
+    return PM_OK;
+}
+
+/* Earliest begin of (v,k) from its inputs and output room; false (after
+ * registering the wait) when something it needs is not known yet. */
+static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, uint32_t *cause)
+{
+    const sim_nd *nd = &s->nd[v];
+    for (uint32_t i = nd->in_lo; i < nd->in_hi; i++) {
+        const sim_in *in = &s->ins[i];
+        if (k < in->delay)
+            continue;
+        uint64_t j = k - in->delay;
+        bool bus = s->bus && in->xslot != PM_NONE;
+        if (s->done[in->src] <= j || (bus && s->granted[in->xslot] <= j)) {
+            sim_wait(s, c, in->src, in->edge, false);
+            return false;
+        }
+        int64_t a;
+        if (bus)
+            a = s->ar[(size_t)(j & s->mask) * s->nx + in->xslot];
+        else
+            a = *sim_x_at(s, in->src, j) + s->nd[in->src].end_off +
+                (in->xslot != PM_NONE ? s->x[in->xslot].cost : 0);
+        if (a > *x)
+            *x = a, *cause = (bus ? PM_CAUSE_BUS : PM_CAUSE_EDGE) | in->edge << 3;
+    }
+    if (!s->fifo)
+        return true;
+    for (uint32_t i = nd->xo_lo; i < nd->xo_hi; i++) {
+        const sim_x *xe = &s->x[s->xout[i]];
+        int64_t jj = (int64_t)k + xe->delay - xe->cap;
+        if (jj < 0)
+            continue;
+        if (s->done[xe->dst] <= (uint64_t)jj) {
+            sim_wait(s, c, xe->dst, xe->edge, true);
+            return false;
+        }
+        int64_t a = *sim_x_at(s, xe->dst, (uint64_t)jj);
+        if (a > *x)
+            *x = a, *cause = PM_CAUSE_FIFO | xe->edge << 3;
+    }
+    return true;
+}
+
+static int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x)
+{
+    if (s->ntrace == s->trace_cap) {
+        size_t nc = s->trace_cap ? s->trace_cap * 2 : 64;
+        pm_sim_firing *nt = realloc(s->trace, nc * sizeof *nt);
+        if (!nt)
+            return PM_ENOMEM;
+        s->trace = nt, s->trace_cap = nc;
+    }
+    int64_t st = x + s->recv[v];
+    s->trace[s->ntrace++] = (pm_sim_firing){ v, c, k, x, st, st + s->t[v],
+                                             st + s->t[v] + s->send[v] };
+    return PM_OK;
+}
+
+static int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr)
+{
+    if (s->ntr == s->tr_cap) {
+        size_t nc = s->tr_cap ? s->tr_cap * 2 : 64;
+        pm_sim_transfer *nt = realloc(s->tr, nc * sizeof *nt);
+        if (!nt)
+            return PM_ENOMEM;
+        s->tr = nt, s->tr_cap = nc;
+    }
+    pm_sim_transfer *t = &s->tr[s->ntr++];
+    memset(t, 0, sizeof *t); /* no stray padding bytes in results */
+    t->edge = s->x[xs].edge;
+    t->iteration = k;
+    t->request = req;
+    t->grant = gr;
+    t->arrival = gr + s->x[xs].cost;
+    return PM_OK;
+}
+
+/* Tokens leave (v,k) at `end`: count them, queue bus requests; tokens
+ * taken at its begin x leave their buffers. */
+static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, int64_t end)
+{
+    const sim_nd *nd = &s->nd[v];
+    int rc = PM_OK;
+    for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
+        uint32_t xs = s->xout[i];
+        rc = sim_occ_push(&s->occ[xs], end);
+        if (!rc && s->bus)
+            rc = sim_heap_push(&s->ev, (sim_ev){ end, 1, c, xs, 0, k });
+        else if (!rc && k < s->record)
+            rc = sim_record_transfer(s, xs, k, end, end);
+    }
+    for (uint32_t i = nd->in_lo; i < nd->in_hi && !rc; i++)
+        if (s->ins[i].xslot != PM_NONE)
+            rc = sim_occ_pop(&s->occ[s->ins[i].xslot], x);
+    return rc;
+}
+
+static inline void sim_note_begin(sim *s, uint32_t v, uint64_t k, int64_t x)
+{
+    sim_nd *nd = &s->nd[v];
+    int64_t st = x + nd->recv, en = x + nd->end_off;
+    uint64_t i = k & s->mask;
+    if (k > 0)
+        s->f1[i] += sim_mix((uint64_t)(x - nd->last_x), v);
+    nd->last_x = x;
+    if (st < s->lmin[i])
+        s->lmin[i] = st;
+    if (en > s->lmax[i])
+        s->lmax[i] = en;
+    if (k == s->N / 2)
+        s->half[v] = x;
+}
+
+static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uint32_t cause)
+{
+    size_t slot = (size_t)(k & s->mask) * s->n + v;
+    s->xr[slot] = x;
+    s->cr[slot] = cause;
+    sim_note_begin(s, v, k, x);
+    s->done[v]++;
+    s->firings++;
+    int64_t end = x + s->nd[v].end_off;
+    s->free[c] = x + s->nd[v].free_off;
+    if (s->free[c] > s->makespan)
+        s->makespan = s->free[c];
+    int rc = s->nx ? sim_outputs(s, c, v, k, x, end) : PM_OK;
+    if (!rc && k < s->record)
+        rc = sim_record_firing(s, c, v, k, x);
+    if (!rc)
+        rc = sim_wake(s, v);
+    if (rc)
+        return rc;
+    if (++s->pos[c] == s->cnt[c]) {
+        s->pos[c] = 0;
+        s->iter[c]++;
+        return 1; /* the core moved to a new iteration */
+    }
+    return PM_OK;
+}
+
+/* Fire core c's next firings for as long as it is the earliest event. */
+static int sim_try(sim *s, uint32_t c, pm_diag *diag)
+{
+    for (;;) {
+        if (s->iter[c] >= s->N)
+            return PM_OK;
+        uint32_t v = s->m->order[s->first[c] + s->pos[c]];
+        uint64_t k = s->iter[c];
+        int64_t x = s->free[c];
+        uint32_t cause = (k || s->pos[c]) ? PM_CAUSE_ORDER : PM_CAUSE_START;
+        if (!sim_ready(s, c, v, k, &x, &cause))
+            return PM_OK;
+        int rc = sim_commit(s, c, v, k, x, cause);
+        if (rc == 1)
+            rc = sim_core_advanced(s, c, diag);
+        if (rc)
+            return rc;
+        sim_ev next = { s->free[c], 0, c, 0, 0, 0 };
+        if (s->ev.len && !sim_ev_less(&next, &s->ev.a[0])) {
+            s->queued[c] = true;
+            return sim_heap_push(&s->ev, next);
+        }
+        if (next.time > s->now)
+            s->now = next.time;
+    }
+}
+
+/* Point-to-point engine: no shared resource, so a firing's times follow
+ * from its inputs alone (max-plus) and the order in which cores are
+ * simulated does not matter.  Each core fires for as long as it can, but
+ * never more than SIM_LAG iterations ahead of the slowest core, which keeps
+ * the rings small and the work of one core in cache.  A pass in which no
+ * core can fire is a deadlock: the core at the lowest iteration is never
+ * held back by the lag limit, and it waits for data only. */
+/* Ask for the data of the firing `ahead` positions later on core c; the
+ * per-node records are far apart in memory and misses dominate otherwise. */
+static void sim_prefetch(const sim *s, uint32_t c, uint32_t ahead)
+{
+    uint32_t p = s->pos[c] + ahead;
+    if (p >= s->cnt[c])
+        p -= s->cnt[c];
+    if (p >= s->cnt[c])
+        return;
+    uint32_t v = s->m->order[s->first[c] + p];
+    const sim_nd *nd = &s->nd[v];
+    __builtin_prefetch(nd);
+    __builtin_prefetch(&s->ins[nd->in_lo]);
+    __builtin_prefetch(&s->done[v], 1);
+    __builtin_prefetch(sim_x_at(s, v, s->iter[c]), 1);
+    __builtin_prefetch(&s->cr[(size_t)(s->iter[c] & s->mask) * s->n + v], 1);
+}
+
+static int sim_run_core(sim *s, uint32_t c, uint64_t *fired, pm_diag *diag)
+{
+    s->wait_node[c] = PM_NONE;
+    for (uint32_t a = 1; a <= SIM_PREFETCH; a++)
+        sim_prefetch(s, c, a);
+    while (s->iter[c] < s->N && s->iter[c] < s->completed + SIM_LAG) {
+        sim_prefetch(s, c, SIM_PREFETCH);
+        uint32_t v = s->m->order[s->first[c] + s->pos[c]];
+        uint64_t k = s->iter[c];
+        int64_t x = s->free[c];
+        uint32_t cause = (k || s->pos[c]) ? PM_CAUSE_ORDER : PM_CAUSE_START;
+        if (!sim_ready(s, c, v, k, &x, &cause))
+            return PM_OK;
+        int rc = sim_commit(s, c, v, k, x, cause);
+        if (rc == 1)
+            rc = sim_core_advanced(s, c, diag);
+        if (rc)
+            return rc;
+        ++*fired;
+    }
+    return PM_OK;
+}
+
+static int sim_loop_p2p(sim *s, pm_diag *diag)
+{
+    for (;;) {
+        uint64_t fired = 0;
+        for (uint32_t c = 0; c < s->P; c++) {
+            int rc = sim_run_core(s, c, &fired, diag);
+            if (rc)
+                return rc;
+        }
+        if (fired == 0)
+            return PM_OK; /* finished, or deadlocked (sim_collect tells) */
+    }
+}
+
+/* ---- point-to-point sweep ---------------------------------------------- */
+
+/* Without a shared bus nothing but data, core order and FIFO room decides
+ * a begin time, so self-timed execution is the max-plus recursion of the
+ * IPC graph (Sriram & Bhattacharyya 2000): begin(v,k) = max over the
+ * predecessors p of v of begin(p, k - delay) + weight.  When the edges
+ * with no delay form no cycle the run cannot deadlock, and the recursion
+ * is evaluated iteration by iteration in one fixed topological order:
+ * no readiness checks, no waiting, one pass over a compiled array.  With a
+ * zero-delay cycle the round-robin engine runs instead and reports where
+ * it stalls.  Predecessors are listed core order first, then inputs in
+ * the graph's order, then FIFO room, and a later one wins only when
+ * strictly later: the same tie rule as the engines above. */
+typedef struct sim_pred {
+    uint32_t u, delay, cause;
+    uint32_t xslot; /* a cross-core input: its token leaves the buffer at begin */
+    int64_t w;
+} sim_pred;
+
+typedef struct sim_sweep {
+    uint32_t *step;       /* nodes in topological order of zero-delay edges */
+    uint32_t *p_off;      /* per node: preds[p_off[v] .. p_off[v+1]) */
+    sim_pred *preds;
+} sim_sweep;
+
+static uint32_t sim_sweep_count(const sim *s, uint32_t v)
+{
+    uint32_t k = 1 + s->nd[v].in_hi - s->nd[v].in_lo;
+    if (s->fifo)
+        k += s->nd[v].xo_hi - s->nd[v].xo_lo;
+    return k;
+}
+
+static void sim_sweep_preds(const sim *s, uint32_t v, sim_pred *p)
+{
+    uint32_t c = s->m->core_of[v], back;
+    uint32_t prev = sim_prev_on_core(s, c, s->pos_of[v], &back);
+    *p++ = (sim_pred){ prev, back, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off };
+    for (uint32_t i = s->nd[v].in_lo; i < s->nd[v].in_hi; i++) {
+        const sim_in *in = &s->ins[i];
+        int64_t cost = in->xslot != PM_NONE ? s->x[in->xslot].cost : 0;
+        *p++ = (sim_pred){ in->src, in->delay, PM_CAUSE_EDGE | in->edge << 3, in->xslot,
+                           s->nd[in->src].end_off + cost };
+    }
+    if (!s->fifo)
+        return;
+    for (uint32_t i = s->nd[v].xo_lo; i < s->nd[v].xo_hi; i++) {
+        const sim_x *xe = &s->x[s->xout[i]];
+        *p++ = (sim_pred){ xe->dst, (uint32_t)(xe->cap - xe->delay), PM_CAUSE_FIFO | xe->edge << 3,
+                           PM_NONE, 0 };
+    }
+}
+
+/* Kahn's algorithm over the zero-delay predecessors; false on a cycle. */
+static bool sim_sweep_order(const sim *s, sim_sweep *w, uint32_t *indeg, uint32_t *succ_off,
+                            uint32_t *succ)
+{
+    uint32_t n = s->n, head = 0, tail = 0;
+    for (uint32_t i = 0; i < w->p_off[n]; i++)
+        if (w->preds[i].delay == 0)
+            succ_off[w->preds[i].u + 1]++;
+    for (uint32_t v = 0; v < n; v++)
+        succ_off[v + 1] += succ_off[v];
+    for (uint32_t v = 0; v < n; v++)
+        for (uint32_t i = w->p_off[v]; i < w->p_off[v + 1]; i++)
+            if (w->preds[i].delay == 0) {
+                succ[succ_off[w->preds[i].u] + indeg[n + w->preds[i].u]++] = v;
+                indeg[v]++;
+            }
+    for (uint32_t v = 0; v < n; v++)
+        if (indeg[v] == 0)
+            w->step[tail++] = v;
+    while (head < tail) {
+        uint32_t u = w->step[head++];
+        for (uint32_t i = succ_off[u]; i < succ_off[u + 1]; i++)
+            if (--indeg[succ[i]] == 0)
+                w->step[tail++] = succ[i];
+    }
+    return tail == n;
+}
+
+/* PM_OK with the sweep built, 1 when zero-delay edges form a cycle. */
+static int sim_sweep_build(const sim *s, sim_sweep *w)
+{
+    uint32_t n = s->n;
+    w->p_off = calloc(n + 1, sizeof *w->p_off);
+    w->step = malloc((n + 1) * sizeof *w->step);
+    if (!w->p_off || !w->step)
+        return PM_ENOMEM;
+    for (uint32_t v = 0; v < n; v++)
+        w->p_off[v + 1] = w->p_off[v] + sim_sweep_count(s, v);
+    w->preds = malloc(((size_t)w->p_off[n] + 1) * sizeof *w->preds);
+    uint32_t *indeg = calloc(2 * (size_t)n + 1, sizeof *indeg);
+    uint32_t *succ_off = calloc(n + 2, sizeof *succ_off);
+    uint32_t *succ = malloc(((size_t)w->p_off[n] + 1) * sizeof *succ);
+    int rc = PM_ENOMEM;
+    if (w->preds && indeg && succ_off && succ) {
+        for (uint32_t v = 0; v < n; v++)
+            sim_sweep_preds(s, v, &w->preds[w->p_off[v]]);
+        rc = sim_sweep_order(s, w, indeg, succ_off, succ) ? PM_OK : 1;
+    }
+    free(indeg), free(succ_off), free(succ);
+    return rc;
+}
+
+static void sim_sweep_free(sim_sweep *w)
+{
+    free(w->step), free(w->p_off), free(w->preds);
+}
+
+/* Bookkeeping of firing (v,k) begun at x (what sim_commit does, minus the
+ * core state the sweep does not need); p..end are its predecessors. */
+static inline int sim_sweep_note(sim *s, uint32_t v, uint64_t k, int64_t x, uint32_t cause,
+                          const sim_pred *p, const sim_pred *end)
+{
+    size_t slot = (size_t)(k & s->mask) * s->n + v;
+    s->xr[slot] = x;
+    s->cr[slot] = cause;
+    sim_note_begin(s, v, k, x);
+    const sim_nd *nd = &s->nd[v];
+    if (x + nd->free_off > s->makespan)
+        s->makespan = x + nd->free_off;
+    int rc = PM_OK;
+    for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
+        rc = sim_occ_push(&s->occ[s->xout[i]], x + nd->end_off);
+        if (!rc && k < s->record)
+            rc = sim_record_transfer(s, s->xout[i], k, x + nd->end_off, x + nd->end_off);
+    }
+    for (; p < end && !rc; p++)
+        if (p->xslot != PM_NONE)
+            rc = sim_occ_pop(&s->occ[p->xslot], x);
+    if (!rc && k < s->record)
+        rc = sim_record_firing(s, s->m->core_of[v], v, k, x);
+    return rc;
+}
+
+static int sim_sweep_iteration(sim *s, const sim_sweep *w, uint64_t k)
+{
+    for (uint32_t i = 0; i < s->n; i++) {
+        if (i + SIM_PREFETCH < s->n) {
+            uint32_t f = w->step[i + SIM_PREFETCH];
+            __builtin_prefetch(&w->preds[w->p_off[f]]);
+            __builtin_prefetch(&s->nd[f]);
+        }
+        uint32_t v = w->step[i];
+        const sim_pred *p0 = &w->preds[w->p_off[v]], *end = &w->preds[w->p_off[v + 1]];
+        const sim_pred *p = p0;
+        int64_t x = 0;
+        uint32_t cause = PM_CAUSE_START;
+        if (k >= p->delay)
+            x = *sim_x_at(s, p->u, k - p->delay) + p->w, cause = p->cause;
+        for (p++; p < end; p++) {
+            if (k < p->delay)
+                continue;
+            int64_t a = *sim_x_at(s, p->u, k - p->delay) + p->w;
+            bool later = a > x; /* data-dependent: keep it free of branches */
+            x = later ? a : x;
+            cause = later ? p->cause : cause;
+        }
+        int rc = sim_sweep_note(s, v, k, x, cause, p0 + 1, end);
+        if (rc)
+            return rc;
+    }
+    return PM_OK;
+}
+
+/* 1: not usable (zero-delay cycle), the caller runs the other engine. */
+static int sim_loop_sweep(sim *s, pm_diag *diag)
+{
+    sim_sweep w = { 0 };
+    int rc = sim_sweep_build(s, &w);
+    for (uint64_t k = 0; rc == PM_OK && k < s->N; k++) {
+        s->max_iter = k;
+        if (k > 0) {
+            rc = sim_ring_fit(s, diag);
+            sim_slot_reset(s, k);
+        }
+        if (!rc)
+            rc = sim_sweep_iteration(s, &w, k);
+        if (!rc)
+            sim_iteration_done(s, s->completed++);
+    }
+    sim_sweep_free(&w);
+    if (rc)
+        return rc;
+    s->firings = s->N * s->n;
+    for (uint32_t v = 0; v < s->n; v++)
+        s->done[v] = s->N;
+    for (uint32_t c = 0; c < s->P; c++)
+        s->iter[c] = s->N, s->pos[c] = 0;
+    return PM_OK;
+}
+
+/* ---- bus ---------------------------------------------------------------- */
+
+static int sim_bus_grant(sim *s)
+{
+    sim_ev r = sim_heap_pop(&s->pend);
+    uint32_t xs = r.xslot;
+    size_t slot = (size_t)(r.iter & s->mask) * s->nx + xs;
+    s->gr[slot] = s->now;
+    s->ar[slot] = s->now + s->x[xs].cost;
+    s->br[slot] = s->bus_free > r.time ? s->bus_last : 0;
+    s->bi[slot] = s->bus_last_iter;
+    s->bus_free = s->ar[slot];
+    s->bus_last = xs + 1;
+    s->bus_last_iter = r.iter;
+    s->granted[xs]++;
+    int rc = r.iter < s->record ? sim_record_transfer(s, xs, r.iter, r.time, s->now) : 0;
+    if (!rc && s->pend.len) {
+        s->grant_queued = true;
+        rc = sim_heap_push(&s->ev, (sim_ev){ s->bus_free, 2, 0, 0, 0, 0 });
+    }
+    return rc ? rc : sim_wake(s, s->x[xs].src);
+}
+
+static int sim_bus_request(sim *s, sim_ev e)
+{
+    int rc = sim_heap_push(&s->pend, e);
+    if (rc || s->grant_queued)
+        return rc;
+    s->grant_queued = true;
+    int64_t at = s->bus_free > e.time ? s->bus_free : e.time;
+    return sim_heap_push(&s->ev, (sim_ev){ at, 2, 0, 0, 0, 0 });
+}
+
+/* ---- main loop ---------------------------------------------------------- */
+
+static int sim_loop(sim *s, pm_diag *diag)
+{
+    if (!s->bus) {
+        int rc = sim_loop_sweep(s, diag);
+        return rc == 1 ? sim_loop_p2p(s, diag) : rc;
+    }
+    for (uint32_t c = 0; c < s->P; c++) {
+        s->queued[c] = true;
+        if (sim_heap_push(&s->ev, (sim_ev){ 0, 0, c, 0, 0, 0 }))
+            return PM_ENOMEM;
+    }
+    int rc = PM_OK;
+    while (s->ev.len && !rc) {
+        sim_ev e = sim_heap_pop(&s->ev);
+        s->now = e.time;
+        if (e.phase == 0) {
+            s->queued[e.core] = false;
+            rc = sim_try(s, e.core, diag);
+        } else if (e.phase == 1) {
+            rc = sim_bus_request(s, e);
+        } else {
+            s->grant_queued = false;
+            rc = sim_bus_grant(s);
+        }
+    }
+    return rc;
+}
+
+static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
+                    pm_diag *diag)
+{
+    s->g = g, s->m = m, s->n = g->nnodes, s->P = m->ncores;
+    s->N = o->iterations ? o->iterations : PM_SIM_DEFAULT_ITERATIONS;
+    s->bus = g->platform.interconnect == PM_BUS;
+    s->fifo = o->fifo_cap > 0;
+    s->record = o->record;
+    uint32_t cm = o->max_cyclicity ? o->max_cyclicity : (uint32_t)((UINT32_C(1) << 21) / (s->n + 1));
+    s->cmax = cm > PM_SIM_MAX_CYCLICITY ? PM_SIM_MAX_CYCLICITY : cm < 4 ? 4 : cm;
+    if (o->max_cyclicity && o->max_cyclicity < s->cmax)
+        s->cmax = o->max_cyclicity;
+    int rc = sim_alloc_nodes(s);
+    if (!rc)
+        rc = sim_node_times(s, o, diag);
+    if (rc)
+        return rc;
+    rc = sim_build_edges(s, o->fifo_cap, diag);
+    if (!rc)
+        rc = sim_build_xlists(s);
+    if (rc)
+        return rc;
+    sim_build_cores(s);
+    s->granted = calloc(s->nx + 1, sizeof *s->granted);
+    if (!s->granted)
+        return PM_ENOMEM;
+    rc = sim_check_range(s, diag);
+    if (!rc)
+        rc = sim_ring_fit(s, diag);
+    if (!rc)
+        sim_slot_reset(s, 0);
+    return rc;
+}
+
+static void sim_free(sim *s)
+{
+    void *ps[] = { s->t, s->recv, s->send, s->nd, s->in_off, s->ins, s->xout_off, s->xout,
+                   s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
+                   s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
+                   s->wait_edge, s->wait_fifo, s->queued, s->xr, s->cr, s->ar, s->gr,
+                   s->br, s->bi, s->granted, s->f1, s->lmin, s->lmax, s->half,
+                   s->ev.a, s->pend.a, s->trace, s->tr };
+    for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
+        free(ps[i]);
+    if (s->occ)
+        for (uint32_t i = 0; i < s->nx; i++)
+            free(s->occ[i].q);
+    free(s->occ);
+}
+
+static int sim_validate(const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
+                        pm_diag *diag)
+{
+    if (!g || !m || !o || !g->finalized) {
+        pm_diag_set(diag, "", 0, 0, "simulate: missing or unfinished graph or map");
+        return PM_EINVAL;
+    }
+    if (!pm_graph_is_single_rate(g)) {
+        pm_diag_set(diag, g->file, 0, 0,
+                    "the simulator runs single-rate graphs; expand multirate edges first");
+        return PM_EUNSUPPORTED;
+    }
+    if (o->record > 0 && (uint64_t)o->record * (g->nnodes + g->nedges) > (UINT64_C(1) << 26)) {
+        pm_diag_set(diag, g->file, 0, 0, "too many iterations to record (%u)", o->record);
+        return PM_EINVAL;
+    }
+    return pm_map_check(m, g, diag);
+}
+
+uint32_t sim_prev_on_core(const sim *s, uint32_t c, uint32_t pos, uint32_t *back)
+{
+    *back = pos == 0;
+    pos = pos ? pos - 1 : s->cnt[c] - 1;
+    return s->m->order[s->first[c] + pos];
+}
+
+static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
+{
+    for (uint32_t i = 0; i < s->nx; i++)
+        sim_occ_flush(&s->occ[i]);
+    r->firings = s->firings;
+    r->makespan = s->makespan;
+    r->latency_max = s->lat_max;
+    for (uint32_t c = 0; c < s->P; c++)
+        if (s->iter[c] < s->N)
+            return sim_report_deadlock(s, r, diag);
+    r->iterations = s->N;
+    int rc = sim_report_steady(s, r);
+    if (!rc)
+        rc = sim_report_resources(s, r);
+    if (!rc)
+        rc = sim_report_chain(s, r);
+    return rc;
+}
+
+int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
+               pm_sim_result *out, pm_diag *diag)
+{
+    static const pm_sim_opts defaults = { 0 };
+    memset(out, 0, sizeof *out);
+    pm_diag_clear(diag);
+    const pm_sim_opts *o = opts ? opts : &defaults;
+    int rc = sim_validate(g, m, o, diag);
+    if (rc)
+        return rc;
+    sim s;
+    memset(&s, 0, sizeof s);
+    rc = sim_init(&s, g, m, o, diag);
+    if (!rc)
+        rc = sim_loop(&s, diag);
+    if (!rc)
+        rc = sim_collect(&s, out, diag);
+    sim_free(&s);
+    if (rc && rc != PM_EDEADLOCK)
+        pm_sim_result_free(out);
+    return rc;
+}
+
+void pm_sim_result_free(pm_sim_result *r)
+{
+    if (!r)
+        return;
+    free(r->waits);
+    free(r->core_busy);
+    free(r->utilisation);
+    free(r->max_tokens);
+    free(r->critical);
+    free(r->trace);
+    free(r->transfers);
+    memset(r, 0, sizeof *r);
+}
+
+const char *pm_sim_cause_name(pm_sim_cause c)
+{
+    static const char *const names[] = { "start", "order", "edge", "bus", "fifo", "bus-busy" };
+    return (unsigned)c < sizeof names / sizeof names[0] ? names[c] : "?";
+}
