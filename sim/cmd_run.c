@@ -33,6 +33,7 @@ typedef struct run_opts {
 
 typedef struct run_state {
     run_opts o;
+    cli_scenario scn;  /* the scenario; g is its (expanded) graph */
     pm_graph *g;
     pm_map *m;
     bool scheduled_map;     /* made by the list scheduler (else --map) */
@@ -118,12 +119,11 @@ static int run_make_map(run_state *s)
     pm_diag_clear(&d);
     int rc;
     if (s->o.map) {
-        rc = pm_map_read_file(s->o.map, s->g, &s->m, &d);
         s->scheduled_map = false;
-    } else {
-        rc = pm_sched_list(s->g, NULL, NULL, &s->m, &d);
-        s->scheduled_map = true;
+        return cli_read_map(&s->scn, s->o.map, &s->m);
     }
+    rc = cli_schedule(&s->scn, NULL, NULL, &s->m, &d);
+    s->scheduled_map = true;
     if (rc != PM_OK) {
         if (!d.msg[0])
             pm_diag_set(&d, s->g->file, 0, 0, "cannot map the graph onto %u cores: %s",
@@ -464,21 +464,15 @@ static void run_free(run_state *s)
     pm_topo_choice_free(&s->pus);
     pm_topo_close(s->topo);
     pm_map_destroy(s->m);
-    pm_graph_destroy(s->g);
+    cli_scenario_free(&s->scn);
 }
 
 static int run_steps(run_state *s)
 {
-    int st = cli_load(s->o.file, s->o.procs_set, s->o.procs, &s->g);
+    int st = cli_load_scenario(s->o.file, s->o.procs_set, s->o.procs, &s->scn);
     if (st != CLI_EXIT_OK)
         return st;
-    if (!pm_graph_is_single_rate(s->g)) {
-        pm_diag d;
-        pm_diag_set(&d, s->g->file, 0, 0, "run needs a single-rate graph (every edge "
-                    "produce=1 consume=1); this one is multirate");
-        cli_error(&d);
-        return CLI_EXIT_INPUT;
-    }
+    s->g = s->scn.graph;
     if ((st = run_config(s)) != CLI_EXIT_OK || (st = run_make_map(s)) != CLI_EXIT_OK ||
         (st = run_choose_pus(s)) != CLI_EXIT_OK || (st = run_measure(s)) != CLI_EXIT_OK ||
         (st = run_execute(s)) != CLI_EXIT_OK)
