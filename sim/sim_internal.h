@@ -85,6 +85,8 @@ typedef struct sim {
     int64_t *free;
     uint32_t *wait_next, *wait_node, *wait_edge;
     bool *wait_fifo, *queued;
+    bool *lagged, *relax;        /* held by the lag limit / let go once */
+    uint32_t *runq, runq_head, runq_len; /* cores that may fire */
     /* rings */
     uint32_t W;
     uint64_t mask;
@@ -102,9 +104,8 @@ typedef struct sim {
     uint64_t last_break[PM_SIM_MAX_CYCLICITY + 1];
     int64_t *half;      /* begin times of iteration N/2 */
     /* events */
-    sim_heap ev, pend;
-    int64_t now, bus_free;
-    bool grant_queued;
+    sim_heap pend;               /* bus requests not granted yet */
+    int64_t bus_free;
     uint32_t bus_last;  /* xslot + 1 of the last granted transfer, 0 = none */
     uint64_t bus_last_iter;
     /* results gathered while running */
