@@ -349,7 +349,7 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
     p[4] = malloc(W * nx * sizeof(uint32_t));
     p[5] = malloc(W * nx * sizeof(uint64_t));
     p[6] = calloc(W, sizeof(uint64_t));
-    p[7] = malloc(1); /* unused slot */
+    p[7] = calloc(W, SIM_LBR * sizeof(uint64_t));
     p[8] = malloc(W * sizeof(int64_t));
     p[9] = malloc(W * sizeof(int64_t));
     for (int i = 0; i < 10; i++)
@@ -364,10 +364,9 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
 static void sim_ring_install(sim *s, uint64_t W, void **p)
 {
     free(s->xr), free(s->cr), free(s->ar), free(s->gr), free(s->br), free(s->bi);
-    free(s->f1), free(s->lmin), free(s->lmax);
+    free(s->f1), free(s->lbr), free(s->lmin), free(s->lmax);
     s->xr = p[0], s->cr = p[1], s->ar = p[2], s->gr = p[3], s->br = p[4], s->bi = p[5];
-    s->f1 = p[6], s->lmin = p[8], s->lmax = p[9];
-    free(p[7]);
+    s->f1 = p[6], s->lbr = p[7], s->lmin = p[8], s->lmax = p[9];
     s->W = (uint32_t)W;
     s->mask = W - 1;
 }
@@ -392,6 +391,7 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
     /* iteration max_iter is new (reset after the move); older ones live */
     uint64_t hi = s->max_iter, lo = hi > s->W ? hi - s->W : 0;
     sim_ring_move(p[6], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[7], s->lbr, SIM_LBR * sizeof(uint64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[8], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[9], s->lmax, sizeof(int64_t), 1, lo, hi, om, nm, 0);
 }
@@ -482,6 +482,8 @@ static void sim_iteration_done(sim *s, uint64_t k)
         if (s->f1[i] != s->f1[j])
             s->last_break[c] = k;
     }
+    if (s->bus) /* the end of a bus run is disturbed: keep the past breaks */
+        memcpy(&s->lbr[i * SIM_LBR], s->last_break, sizeof s->last_break);
 }
 
 static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
@@ -1033,7 +1035,7 @@ static void sim_free(sim *s)
                    s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
                    s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->ar, s->gr,
-                   s->br, s->bi, s->granted, s->f1, s->lmin, s->lmax, s->half,
+                   s->br, s->bi, s->granted, s->f1, s->lbr, s->lmin, s->lmax, s->half,
                    s->pend.a, s->trace, s->tr };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);
