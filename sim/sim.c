@@ -84,8 +84,12 @@ static sim_ev sim_heap_pop(sim_heap *h)
 
 /* ---- token counts ----------------------------------------------------- */
 
+#define SIM_OCC_LIMIT (UINT32_C(1) << 24) /* waiting times kept per edge */
+
 static int sim_occ_grow(sim_occ *o)
 {
+    if (o->cap >= SIM_OCC_LIMIT)
+        return PM_ELIMIT; /* tokens pile up without bound (pm_sim_run names the edge) */
     uint32_t nc = o->cap ? o->cap * 2 : 4;
     int64_t *nq = malloc(nc * sizeof *nq);
     if (!nq)
@@ -1090,6 +1094,20 @@ static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
     return rc;
 }
 
+/* Name the edge whose token counts outgrew SIM_OCC_LIMIT. */
+static void sim_pile_up_message(const sim *s, pm_diag *diag)
+{
+    uint32_t best = 0;
+    for (uint32_t i = 1; i < s->nx; i++)
+        if (s->occ[i].len > s->occ[best].len)
+            best = i;
+    const pm_graph *g = s->g;
+    const pm_edge *e = &g->edges[s->x[best].edge];
+    pm_diag_set(diag, g->file, e->line, e->col,
+                "tokens pile up without bound on edge '%s' -> '%s'; give a FIFO capacity "
+                "or fewer iterations", pm_graph_node_name(g, e->src), pm_graph_node_name(g, e->dst));
+}
+
 int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
                pm_sim_result *out, pm_diag *diag)
 {
@@ -1105,6 +1123,8 @@ int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
     rc = sim_init(&s, g, m, o, diag);
     if (!rc)
         rc = sim_loop(&s, diag);
+    if (rc == PM_ELIMIT && diag && !diag->msg[0] && s.nx)
+        sim_pile_up_message(&s, diag);
     if (!rc)
         rc = sim_collect(&s, out, diag);
     sim_free(&s);
