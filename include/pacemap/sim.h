@@ -172,6 +172,8 @@ typedef struct pm_sim_result {
 int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
                pm_sim_result *out, pm_diag *diag);
 
+/* Free what a result owns and zero it; NULL, zeroed or freed results are
+ * fine. */
 void pm_sim_result_free(pm_sim_result *r);
 
 /* Stable lower-case name of a cause: "start", "order", "edge", "bus",
