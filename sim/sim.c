@@ -21,7 +21,7 @@
 #include "sim_internal.h"
 
 #define SIM_MEM_LIMIT (UINT64_C(1) << 30) /* bytes of rings before PM_ELIMIT */
-#define SIM_LAG 8 /* p2p: iterations a core may run ahead of the slowest */
+#define SIM_LAG 8 /* causal engine: iterations a core may run ahead of the slowest */
 #define SIM_PREFETCH 6 /* firings ahead whose data is prefetched */
 
 /* ---- heap of bus requests, keyed (time, phase, core, edge, iteration) --- */
