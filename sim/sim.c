@@ -1,16 +1,17 @@
 /*
- * sim.c - the event engine of the self-timed simulator (sim.h).
+ * sim.c - the engines of the self-timed simulator (sim.h).
  *
- * Events are processed in time order from one binary heap, keyed
- * (time, phase, core, edge, iteration): phase 0 a core tries its next
- * firing, phase 1 a bus request is queued, phase 2 the bus is granted.
- * A firing is committed as soon as every time it depends on is known
- * (its begin may lie ahead of the clock; without contention that is
- * exact), so p2p runs are a max-plus recursion driven in time order, and
- * bus grants still see every earlier request.  A core that cannot go on
- * registers on the node it waits for and is woken when that node fires
- * (or its transfer is granted): no polling.  Steady state, critical chain
- * and deadlock reports are in sim_report.c.
+ * Three ways to run the same semantics (docs/simulation.md):
+ *  - the sweep: point-to-point links and no zero-delay cycle in the IPC
+ *    graph; the max-plus recursion evaluated iteration by iteration in one
+ *    topological order (fastest, cannot deadlock);
+ *  - the causal engine: a bus, or a map that deadlocks; cores fire
+ *    whatever is ready, sleep on wake-up lists, and the bus grants the
+ *    oldest request once nothing can fire any more;
+ *  - shared bookkeeping: sliding rings of begin times and causes, token
+ *    counts per cross-core edge, fingerprints for the steady state.
+ * The end-of-run analysis (period, chain, deadlock cycle) is in
+ * sim_report.c.  Nothing here prints.
  */
 #include "pacemap/sim.h"
 
@@ -20,10 +21,10 @@
 #include "sim_internal.h"
 
 #define SIM_MEM_LIMIT (UINT64_C(1) << 30) /* bytes of rings before PM_ELIMIT */
-#define SIM_LAG 8 /* p2p: iterations a core may run ahead of the slowest */
+#define SIM_LAG 8 /* causal engine: iterations a core may run ahead of the slowest */
 #define SIM_PREFETCH 6 /* firings ahead whose data is prefetched */
 
-/* ---- heap ------------------------------------------------------------- */
+/* ---- heap of bus requests, keyed (time, phase, core, edge, iteration) --- */
 
 static bool sim_ev_less(const sim_ev *a, const sim_ev *b)
 {
@@ -83,8 +84,12 @@ static sim_ev sim_heap_pop(sim_heap *h)
 
 /* ---- token counts ----------------------------------------------------- */
 
+#define SIM_OCC_LIMIT (UINT32_C(1) << 24) /* waiting times kept per edge */
+
 static int sim_occ_grow(sim_occ *o)
 {
+    if (o->cap >= SIM_OCC_LIMIT)
+        return PM_ELIMIT; /* tokens pile up without bound (pm_sim_run names the edge) */
     uint32_t nc = o->cap ? o->cap * 2 : 4;
     int64_t *nq = malloc(nc * sizeof *nq);
     if (!nq)
@@ -214,11 +219,14 @@ static int sim_alloc_nodes(sim *s)
     s->wait_edge = calloc(P + 1, sizeof *s->wait_edge);
     s->wait_fifo = calloc(P + 1, sizeof *s->wait_fifo);
     s->queued = calloc(P + 1, sizeof *s->queued);
+    s->lagged = calloc(P + 1, sizeof *s->lagged);
+    s->relax = calloc(P + 1, sizeof *s->relax);
+    s->runq = calloc(P + 1, sizeof *s->runq);
     if (!s->t || !s->recv || !s->send || !s->nd || !s->in_off || !s->ins || !s->xout_off ||
         !s->xout || !s->xs_of || !s->x || !s->occ || !s->pos_of || !s->done ||
         !s->wait_head || !s->half || !s->pos || !s->cnt || !s->first || !s->iter ||
         !s->free || !s->wait_next || !s->wait_node || !s->wait_edge || !s->wait_fifo ||
-        !s->queued)
+        !s->queued || !s->lagged || !s->relax || !s->runq)
         return PM_ENOMEM;
     for (uint32_t v = 0; v < s->n; v++)
         s->wait_head[v] = PM_NONE;
@@ -345,7 +353,7 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
     p[4] = malloc(W * nx * sizeof(uint32_t));
     p[5] = malloc(W * nx * sizeof(uint64_t));
     p[6] = calloc(W, sizeof(uint64_t));
-    p[7] = malloc(1); /* unused slot */
+    p[7] = calloc(W, SIM_LBR * sizeof(uint64_t));
     p[8] = malloc(W * sizeof(int64_t));
     p[9] = malloc(W * sizeof(int64_t));
     for (int i = 0; i < 10; i++)
@@ -360,10 +368,9 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
 static void sim_ring_install(sim *s, uint64_t W, void **p)
 {
     free(s->xr), free(s->cr), free(s->ar), free(s->gr), free(s->br), free(s->bi);
-    free(s->f1), free(s->lmin), free(s->lmax);
+    free(s->f1), free(s->lbr), free(s->lmin), free(s->lmax);
     s->xr = p[0], s->cr = p[1], s->ar = p[2], s->gr = p[3], s->br = p[4], s->bi = p[5];
-    s->f1 = p[6], s->lmin = p[8], s->lmax = p[9];
-    free(p[7]);
+    s->f1 = p[6], s->lbr = p[7], s->lmin = p[8], s->lmax = p[9];
     s->W = (uint32_t)W;
     s->mask = W - 1;
 }
@@ -388,6 +395,7 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
     /* iteration max_iter is new (reset after the move); older ones live */
     uint64_t hi = s->max_iter, lo = hi > s->W ? hi - s->W : 0;
     sim_ring_move(p[6], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[7], s->lbr, SIM_LBR * sizeof(uint64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[8], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[9], s->lmax, sizeof(int64_t), 1, lo, hi, om, nm, 0);
 }
@@ -436,6 +444,16 @@ static int sim_ring_fit(sim *s, pm_diag *diag)
     return PM_OK;
 }
 
+/* ---- cores ready to fire ----------------------------------------------- */
+
+static void sim_runnable(sim *s, uint32_t c)
+{
+    if (s->queued[c])
+        return;
+    s->queued[c] = true;
+    s->runq[(s->runq_head + s->runq_len++) % s->P] = c;
+}
+
 /* ---- iteration bookkeeping -------------------------------------------- */
 
 /* Spread (node, begin difference) over 64 bits; one multiply is enough,
@@ -468,6 +486,8 @@ static void sim_iteration_done(sim *s, uint64_t k)
         if (s->f1[i] != s->f1[j])
             s->last_break[c] = k;
     }
+    if (s->bus) /* the end of a bus run is disturbed: keep the past breaks */
+        memcpy(&s->lbr[i * SIM_LBR], s->last_break, sizeof s->last_break);
 }
 
 static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
@@ -484,8 +504,13 @@ static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
     for (uint32_t d = 0; d < s->P; d++)
         if (s->iter[d] < lo)
             lo = s->iter[d];
+    if (s->completed == lo)
+        return PM_OK;
     while (s->completed < lo)
         sim_iteration_done(s, s->completed++);
+    for (uint32_t d = 0; d < s->P; d++)
+        if (s->lagged[d])
+            s->lagged[d] = false, sim_runnable(s, d);
     return PM_OK;
 }
 
@@ -496,30 +521,21 @@ static void sim_wait(sim *s, uint32_t c, uint32_t node, uint32_t edge, bool fifo
     s->wait_node[c] = node;
     s->wait_edge[c] = edge;
     s->wait_fifo[c] = fifo;
-    if (!s->bus)
-        return; /* round-robin engine: no wake-up lists */
     s->wait_next[c] = s->wait_head[node];
     s->wait_head[node] = c;
 }
 
-static int sim_wake(sim *s, uint32_t node)
+/* Cores waiting for `node` (its firing or its bus transfer) may go on. */
+static void sim_wake(sim *s, uint32_t node)
 {
-    if (!s->bus)
-        return PM_OK;
     uint32_t c = s->wait_head[node];
     s->wait_head[node] = PM_NONE;
     while (c != PM_NONE) {
         uint32_t next = s->wait_next[c];
         s->wait_node[c] = PM_NONE;
-        if (!s->queued[c]) {
-            s->queued[c] = true;
-            sim_ev e = { s->now, 0, c, 0, 0, 0 };
-            if (sim_heap_push(&s->ev, e))
-                return PM_ENOMEM;
-        }
+        sim_runnable(s, c);
         c = next;
     }
-    return PM_OK;
 }
 
 /* Earliest begin of (v,k) from its inputs and output room; false (after
@@ -608,7 +624,7 @@ static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, in
         uint32_t xs = s->xout[i];
         rc = sim_occ_push(&s->occ[xs], end);
         if (!rc && s->bus)
-            rc = sim_heap_push(&s->ev, (sim_ev){ end, 1, c, xs, 0, k });
+            rc = sim_heap_push(&s->pend, (sim_ev){ end, 1, c, xs, 0, k });
         else if (!rc && k < s->record)
             rc = sim_record_transfer(s, xs, k, end, end);
     }
@@ -649,10 +665,9 @@ static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uin
     int rc = s->nx ? sim_outputs(s, c, v, k, x, end) : PM_OK;
     if (!rc && k < s->record)
         rc = sim_record_firing(s, c, v, k, x);
-    if (!rc)
-        rc = sim_wake(s, v);
     if (rc)
         return rc;
+    sim_wake(s, v);
     if (++s->pos[c] == s->cnt[c]) {
         s->pos[c] = 0;
         s->iter[c]++;
@@ -661,42 +676,22 @@ static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uin
     return PM_OK;
 }
 
-/* Fire core c's next firings for as long as it is the earliest event. */
-static int sim_try(sim *s, uint32_t c, pm_diag *diag)
-{
-    for (;;) {
-        if (s->iter[c] >= s->N)
-            return PM_OK;
-        uint32_t v = s->m->order[s->first[c] + s->pos[c]];
-        uint64_t k = s->iter[c];
-        int64_t x = s->free[c];
-        uint32_t cause = (k || s->pos[c]) ? PM_CAUSE_ORDER : PM_CAUSE_START;
-        if (!sim_ready(s, c, v, k, &x, &cause))
-            return PM_OK;
-        int rc = sim_commit(s, c, v, k, x, cause);
-        if (rc == 1)
-            rc = sim_core_advanced(s, c, diag);
-        if (rc)
-            return rc;
-        sim_ev next = { s->free[c], 0, c, 0, 0, 0 };
-        if (s->ev.len && !sim_ev_less(&next, &s->ev.a[0])) {
-            s->queued[c] = true;
-            return sim_heap_push(&s->ev, next);
-        }
-        if (next.time > s->now)
-            s->now = next.time;
-    }
-}
+/* The causal engine, for a bus and for maps the sweep cannot run.  A
+ * firing whose inputs are all known has fixed times (max-plus), so cores
+ * fire in any order, each as far as it can: until it waits for a node (it
+ * then sits on that node's wake-up list), or until it is SIM_LAG
+ * iterations ahead of the slowest core (this bounds the rings).  Only the
+ * bus needs time order, and only when it grants: the oldest request is
+ * granted once no core can fire any more.  Then every core that waits
+ * does so, through data or room, for a transfer still queued (granted
+ * later) or for a core held by the lag limit; a held core whose free time
+ * is not after the grant is let go first, since it might still ask for the
+ * bus earlier.  Everything else can only ask later, so the grant is final.
+ * With nothing to fire and nothing to grant the run is over, or
+ * deadlocked: the core at the lowest iteration is never held by the lag
+ * limit and waits for data or room only. */
 
-/* Point-to-point engine: no shared resource, so a firing's times follow
- * from its inputs alone (max-plus) and the order in which cores are
- * simulated does not matter.  Each core fires for as long as it can, but
- * never more than SIM_LAG iterations ahead of the slowest core, which keeps
- * the rings small and the work of one core in cache.  A pass in which no
- * core can fire is a deadlock: the core at the lowest iteration is never
- * held back by the lag limit, and it waits for data only. */
-/* Ask for the data of the firing `ahead` positions later on core c; the
- * per-node records are far apart in memory and misses dominate otherwise. */
+/* Ask for the data of the firing `ahead` positions later on core c. */
 static void sim_prefetch(const sim *s, uint32_t c, uint32_t ahead)
 {
     uint32_t p = s->pos[c] + ahead;
@@ -710,15 +705,19 @@ static void sim_prefetch(const sim *s, uint32_t c, uint32_t ahead)
     __builtin_prefetch(&s->ins[nd->in_lo]);
     __builtin_prefetch(&s->done[v], 1);
     __builtin_prefetch(sim_x_at(s, v, s->iter[c]), 1);
-    __builtin_prefetch(&s->cr[(size_t)(s->iter[c] & s->mask) * s->n + v], 1);
 }
 
-static int sim_run_core(sim *s, uint32_t c, uint64_t *fired, pm_diag *diag)
+static int sim_run_core(sim *s, uint32_t c, pm_diag *diag)
 {
     s->wait_node[c] = PM_NONE;
     for (uint32_t a = 1; a <= SIM_PREFETCH; a++)
         sim_prefetch(s, c, a);
-    while (s->iter[c] < s->N && s->iter[c] < s->completed + SIM_LAG) {
+    while (s->iter[c] < s->N) {
+        if (s->iter[c] >= s->completed + SIM_LAG && !s->relax[c]) {
+            s->lagged[c] = true;
+            return PM_OK;
+        }
+        s->relax[c] = false;
         sim_prefetch(s, c, SIM_PREFETCH);
         uint32_t v = s->m->order[s->first[c] + s->pos[c]];
         uint64_t k = s->iter[c];
@@ -731,23 +730,22 @@ static int sim_run_core(sim *s, uint32_t c, uint64_t *fired, pm_diag *diag)
             rc = sim_core_advanced(s, c, diag);
         if (rc)
             return rc;
-        ++*fired;
     }
     return PM_OK;
 }
 
-static int sim_loop_p2p(sim *s, pm_diag *diag)
+/* Let held cores that are free by time g fire once more; true if any. */
+static bool sim_release_lagged(sim *s, int64_t g)
 {
-    for (;;) {
-        uint64_t fired = 0;
-        for (uint32_t c = 0; c < s->P; c++) {
-            int rc = sim_run_core(s, c, &fired, diag);
-            if (rc)
-                return rc;
+    bool any = false;
+    for (uint32_t c = 0; c < s->P; c++)
+        if (s->lagged[c] && s->free[c] <= g) {
+            s->lagged[c] = false;
+            s->relax[c] = true;
+            sim_runnable(s, c);
+            any = true;
         }
-        if (fired == 0)
-            return PM_OK; /* finished, or deadlocked (sim_collect tells) */
-    }
+    return any;
 }
 
 /* ---- point-to-point sweep ---------------------------------------------- */
@@ -945,65 +943,60 @@ static int sim_loop_sweep(sim *s, pm_diag *diag)
 
 /* ---- bus ---------------------------------------------------------------- */
 
-static int sim_bus_grant(sim *s)
+/* Grant the oldest request (the head of the queue) at g. */
+static int sim_bus_grant(sim *s, int64_t g)
 {
     sim_ev r = sim_heap_pop(&s->pend);
     uint32_t xs = r.xslot;
     size_t slot = (size_t)(r.iter & s->mask) * s->nx + xs;
-    s->gr[slot] = s->now;
-    s->ar[slot] = s->now + s->x[xs].cost;
+    s->gr[slot] = g;
+    s->ar[slot] = g + s->x[xs].cost;
     s->br[slot] = s->bus_free > r.time ? s->bus_last : 0;
     s->bi[slot] = s->bus_last_iter;
     s->bus_free = s->ar[slot];
     s->bus_last = xs + 1;
     s->bus_last_iter = r.iter;
     s->granted[xs]++;
-    int rc = r.iter < s->record ? sim_record_transfer(s, xs, r.iter, r.time, s->now) : 0;
-    if (!rc && s->pend.len) {
-        s->grant_queued = true;
-        rc = sim_heap_push(&s->ev, (sim_ev){ s->bus_free, 2, 0, 0, 0, 0 });
-    }
-    return rc ? rc : sim_wake(s, s->x[xs].src);
-}
-
-static int sim_bus_request(sim *s, sim_ev e)
-{
-    int rc = sim_heap_push(&s->pend, e);
-    if (rc || s->grant_queued)
-        return rc;
-    s->grant_queued = true;
-    int64_t at = s->bus_free > e.time ? s->bus_free : e.time;
-    return sim_heap_push(&s->ev, (sim_ev){ at, 2, 0, 0, 0, 0 });
+    int rc = r.iter < s->record ? sim_record_transfer(s, xs, r.iter, r.time, g) : PM_OK;
+    sim_wake(s, s->x[xs].src);
+    return rc;
 }
 
 /* ---- main loop ---------------------------------------------------------- */
+
+static int sim_loop_causal(sim *s, pm_diag *diag)
+{
+    for (uint32_t c = 0; c < s->P; c++)
+        sim_runnable(s, c);
+    for (;;) {
+        while (s->runq_len) {
+            uint32_t c = s->runq[s->runq_head];
+            s->runq_head = (s->runq_head + 1) % s->P;
+            s->runq_len--;
+            s->queued[c] = false;
+            int rc = sim_run_core(s, c, diag);
+            if (rc)
+                return rc;
+        }
+        if (!s->pend.len)
+            return PM_OK; /* finished, or deadlocked (sim_collect tells) */
+        int64_t g = s->pend.a[0].time > s->bus_free ? s->pend.a[0].time : s->bus_free;
+        if (sim_release_lagged(s, g))
+            continue;
+        int rc = sim_bus_grant(s, g);
+        if (rc)
+            return rc;
+    }
+}
 
 static int sim_loop(sim *s, pm_diag *diag)
 {
     if (!s->bus) {
         int rc = sim_loop_sweep(s, diag);
-        return rc == 1 ? sim_loop_p2p(s, diag) : rc;
+        if (rc != 1)
+            return rc;
     }
-    for (uint32_t c = 0; c < s->P; c++) {
-        s->queued[c] = true;
-        if (sim_heap_push(&s->ev, (sim_ev){ 0, 0, c, 0, 0, 0 }))
-            return PM_ENOMEM;
-    }
-    int rc = PM_OK;
-    while (s->ev.len && !rc) {
-        sim_ev e = sim_heap_pop(&s->ev);
-        s->now = e.time;
-        if (e.phase == 0) {
-            s->queued[e.core] = false;
-            rc = sim_try(s, e.core, diag);
-        } else if (e.phase == 1) {
-            rc = sim_bus_request(s, e);
-        } else {
-            s->grant_queued = false;
-            rc = sim_bus_grant(s);
-        }
-    }
-    return rc;
+    return sim_loop_causal(s, diag);
 }
 
 static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
@@ -1045,9 +1038,9 @@ static void sim_free(sim *s)
     void *ps[] = { s->t, s->recv, s->send, s->nd, s->in_off, s->ins, s->xout_off, s->xout,
                    s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
-                   s->wait_edge, s->wait_fifo, s->queued, s->xr, s->cr, s->ar, s->gr,
-                   s->br, s->bi, s->granted, s->f1, s->lmin, s->lmax, s->half,
-                   s->ev.a, s->pend.a, s->trace, s->tr };
+                   s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->ar, s->gr,
+                   s->br, s->bi, s->granted, s->f1, s->lbr, s->lmin, s->lmax, s->half,
+                   s->pend.a, s->trace, s->tr };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);
     if (s->occ)
@@ -1101,6 +1094,20 @@ static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
     return rc;
 }
 
+/* Name the edge whose token counts outgrew SIM_OCC_LIMIT. */
+static void sim_pile_up_message(const sim *s, pm_diag *diag)
+{
+    uint32_t best = 0;
+    for (uint32_t i = 1; i < s->nx; i++)
+        if (s->occ[i].len > s->occ[best].len)
+            best = i;
+    const pm_graph *g = s->g;
+    const pm_edge *e = &g->edges[s->x[best].edge];
+    pm_diag_set(diag, g->file, e->line, e->col,
+                "tokens pile up without bound on edge '%s' -> '%s'; give a FIFO capacity "
+                "or fewer iterations", pm_graph_node_name(g, e->src), pm_graph_node_name(g, e->dst));
+}
+
 int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
                pm_sim_result *out, pm_diag *diag)
 {
@@ -1116,6 +1123,8 @@ int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
     rc = sim_init(&s, g, m, o, diag);
     if (!rc)
         rc = sim_loop(&s, diag);
+    if (rc == PM_ELIMIT && diag && !diag->msg[0] && s.nx)
+        sim_pile_up_message(&s, diag);
     if (!rc)
         rc = sim_collect(&s, out, diag);
     sim_free(&s);

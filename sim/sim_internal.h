@@ -85,6 +85,8 @@ typedef struct sim {
     int64_t *free;
     uint32_t *wait_next, *wait_node, *wait_edge;
     bool *wait_fifo, *queued;
+    bool *lagged, *relax;        /* held by the lag limit / let go once */
+    uint32_t *runq, runq_head, runq_len; /* cores that may fire */
     /* rings */
     uint32_t W;
     uint64_t mask;
@@ -100,11 +102,12 @@ typedef struct sim {
     uint64_t completed, max_iter;
     uint64_t valid_lo;  /* every node's times from this iteration on are held */
     uint64_t last_break[PM_SIM_MAX_CYCLICITY + 1];
+    uint64_t *lbr;      /* bus: last_break as it was after each iteration */
+    uint64_t end;       /* iterations the analysis looks at (N minus the tail) */
     int64_t *half;      /* begin times of iteration N/2 */
     /* events */
-    sim_heap ev, pend;
-    int64_t now, bus_free;
-    bool grant_queued;
+    sim_heap pend;               /* bus requests not granted yet */
+    int64_t bus_free;
     uint32_t bus_last;  /* xslot + 1 of the last granted transfer, 0 = none */
     uint64_t bus_last_iter;
     /* results gathered while running */
@@ -117,6 +120,7 @@ typedef struct sim {
     size_t ntr, tr_cap;
 } sim;
 
+#define SIM_LBR (PM_SIM_MAX_CYCLICITY + 1)
 #define SIM_CAUSE(c) ((pm_sim_cause)((c) & 7u))
 #define SIM_CAUSE_EDGE(c) ((c) >> 3)
 
