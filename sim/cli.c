@@ -255,24 +255,31 @@ int cli_load(const char *file, bool procs_set, uint32_t procs, pm_graph **out)
     return CLI_EXIT_OK;
 }
 
+int cli_map_read(const cli_scenario *s, const char *path, pm_map **out, pm_diag *diag)
+{
+    pm_map *m = NULL;
+    *out = NULL;
+    int rc = pm_map_read_file(path, s->source, &m, diag);
+    if (rc == PM_OK && s->multirate) {
+        pm_map *xm = NULL;
+        rc = pm_sdf_expand_map(s->source, s->rep, m, &xm, diag);
+        pm_map_destroy(m);
+        m = xm;
+    }
+    if (rc == PM_OK)
+        *out = m;
+    return rc;
+}
+
 int cli_read_map(const cli_scenario *s, const char *path, pm_map **out)
 {
     pm_diag d;
     pm_diag_clear(&d);
-    pm_map *m = NULL;
-    *out = NULL;
-    int rc = pm_map_read_file(path, s->source, &m, &d);
-    if (rc == PM_OK && s->multirate) {
-        pm_map *xm = NULL;
-        rc = pm_sdf_expand_map(s->source, s->rep, m, &xm, &d);
-        pm_map_destroy(m);
-        m = xm;
-    }
+    int rc = cli_map_read(s, path, out, &d);
     if (rc != PM_OK) {
         cli_error(&d);
         return cli_exit_for(rc);
     }
-    *out = m;
     return CLI_EXIT_OK;
 }
 

@@ -90,6 +90,8 @@ int cli_load(const char *file, bool procs_set, uint32_t procs, pm_graph **out);
  * returns its exit status on failure. */
 struct pm_map;
 int cli_read_map(const cli_scenario *s, const char *path, struct pm_map **out);
+/* The same without printing: library error code, diag filled. */
+int cli_map_read(const cli_scenario *s, const char *path, struct pm_map **out, pm_diag *diag);
 
 /* List-schedule s->graph (pm_sched_list with `opts`, may be NULL); for a
  * multirate scenario the map is then made to keep all firings of a node on

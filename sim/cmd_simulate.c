@@ -34,6 +34,7 @@ typedef struct sm_args {
 
 typedef struct sm_run {
     const char *file;
+    cli_scenario scn; /* the scenario; g is its (expanded) graph */
     pm_graph *g;
     pm_map *m;
     pm_sim_result r;
@@ -438,12 +439,8 @@ static void sm_json(const sm_run *s)
 static int sm_map(const sm_args *a, sm_run *s, pm_diag *d)
 {
     if (a->map)
-        return pm_map_read_file(a->map, s->g, &s->m, d);
-    pm_schedule *sc = NULL;
-    pm_sched_opts o = { 0 };
-    int rc = pm_sched_list(s->g, &o, &sc, &s->m, d);
-    pm_schedule_destroy(sc);
-    return rc;
+        return cli_map_read(&s->scn, a->map, &s->m, d);
+    return cli_schedule(&s->scn, NULL, NULL, &s->m, d);
 }
 
 static int sm_compute(const sm_args *a, sm_run *s)
@@ -518,14 +515,15 @@ int pm_cmd_simulate(int argc, char **argv)
     memset(&s, 0, sizeof s);
     s.file = file;
     s.fifo = a.fifo;
-    st = cli_load(file, a.procs_set, a.procs, &s.g);
+    st = cli_load_scenario(file, a.procs_set, a.procs, &s.scn);
     if (st != CLI_EXIT_OK)
         return st;
+    s.g = s.scn.graph;
     st = sm_main(&a, &s);
     pm_sim_result_free(&s.r);
     if (s.has_bound)
         pm_bound_free(&s.b);
     pm_map_destroy(s.m);
-    pm_graph_destroy(s.g);
+    cli_scenario_free(&s.scn);
     return st;
 }
