@@ -44,6 +44,7 @@ ifeq ($(V),1)
 Q =
 endif
 
+.SECONDARY: $(TEST_LIB_OBJ)
 .PHONY: all test check-tests asan tsan bench deps demo install uninstall clean fuzz
 
 all: $(BUILD)/pacemap $(BUILD)/libpacemap.a
