@@ -145,10 +145,249 @@ static void test_fork_join(void **state)
     pm_graph_destroy(g);
 }
 
+/* ---- a first-order recursive loop saturates at its bound --------------- */
+
+/* Invented: a 4-channel front end; channel 0 is a first-order recursive
+ * smoother y = x + a * y[n-1] (add 10, mul 20, one delay: loop bound
+ * 30 / 1 = 30), channels 1-3 are 20-cycle filters.  Total 90. */
+static const char recursive[] =
+    "# invented for this test\n"
+    "node add cycles=10\n"
+    "node mul cycles=20\n"
+    "node f1 cycles=20\nnode f2 cycles=20\nnode f3 cycles=20\n"
+    "edge add -> mul\n"
+    "edge mul -> add delay=1\n";
+
+static void test_recursive_loop(void **state)
+{
+    (void)state;
+    pm_graph *g = load(recursive);
+    pm_sweep s;
+    run(g, 1, 5, &s);
+    dump(g, &s);
+    /* P=1: 90.  P=2: core loads are multiples of 10 and at least 90/2, so
+     * at least 50.  P=3: three cores of 30 would need the four 20-cycle
+     * pieces (mul, f1..f3) on separate cores: at least 40.  P>=4: the
+     * loop bound 30 (every other floor is lower: node 20, 90/4). */
+    expect_period(&s, 1, 90, 1);
+    expect_period(&s, 2, 50, 1);
+    expect_period(&s, 3, 40, 1);
+    expect_period(&s, 4, 30, 1);
+    expect_period(&s, 5, 30, 1);
+    assert_int_equal(point(&s, 1)->limit.kind, PM_LIMIT_CORES);
+    /* P=2, 3: above every floor - the map's core loads are uneven */
+    assert_int_equal(point(&s, 2)->limit.kind, PM_LIMIT_MAPPING);
+    assert_int_equal(point(&s, 3)->limit.kind, PM_LIMIT_MAPPING);
+    /* ... made of core-order links only: one core carries the period */
+    for (uint32_t p = 2; p <= 3; p++) {
+        assert_int_equal(point(&s, p)->limit.nhops, 0);
+        assert_true(point(&s, p)->limit.norders > 0);
+        assert_true(point(&s, p)->limit.single_core != PM_NONE);
+        assert_int_equal(point(&s, p)->limit.cycles, p == 2 ? 50 : 40);
+    }
+    for (uint32_t p = 4; p <= 5; p++) {
+        const pm_sweep_limit *l = &point(&s, p)->limit;
+        assert_int_equal(l->kind, PM_LIMIT_LOOP);
+        assert_int_equal(l->nnodes, 2);
+        assert_int_equal(l->cycles, 30);
+        assert_int_equal(l->delays, 1);
+        assert_true(l->exact);
+        bool add = false, mul = false;
+        for (uint32_t i = 0; i < 2; i++) {
+            add |= strcmp(name(g, l->nodes[i]), "add") == 0;
+            mul |= strcmp(name(g, l->nodes[i]), "mul") == 0;
+        }
+        assert_true(add && mul);
+    }
+    assert_int_equal(s.points[s.saturation].procs, 4);
+    assert_true(s.saturation_proven);
+    /* what-ifs at P=4 (faster = 10 cycles by default): add 10 -> 0 gives
+     * the loop 20/1; mul 20 -> 10 gives 20/1; either way the floor at 4
+     * cores is max(20, node 20, 80/4) = 20. */
+    const pm_sweep_whatif *w = &s.whatif;
+    assert_int_equal(w->kind, PM_LIMIT_LOOP);
+    assert_int_equal(w->nrows, 2);
+    for (uint32_t i = 0; i < 2; i++) {
+        assert_int_equal(w->rows[i].new_cycles, w->rows[i].cycles - 10);
+        assert_int_equal(w->rows[i].after.num, 20);
+        assert_int_equal(w->rows[i].after.den, 1);
+        assert_int_equal(w->rows[i].loop_alone.num, 20);
+        assert_int_equal(w->rows[i].floor_after.num, 20);
+    }
+    /* one more delay: 30 / 2 = 15; the floor at 4 cores is then
+     * max(15, 20, 90/4) = 45/2 */
+    assert_true(w->has_delay);
+    assert_int_equal(w->delay_bound.num, 15);
+    assert_int_equal(w->delay_bound.den, 1);
+    assert_int_equal(w->delay_loop_alone.num, 15);
+    assert_int_equal(w->delay_floor.num, 45);
+    assert_int_equal(w->delay_floor.den, 2);
+    /* behind the loop at P=4: no other loop; node 20 < cores 90/4 */
+    assert_true(w->has_next);
+    assert_int_equal(w->next_kind, PM_LIMIT_CORES);
+    assert_int_equal(w->next_value.num, 45);
+    assert_int_equal(w->next_value.den, 2);
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+}
+
+/* ---- a feedback loop split across cores: a loop the mapping made -------- */
+
+/* Invented: a tracking loop whose two halves are pinned to different cores
+ * (a -> b -> a, one delay), 5 cycles per transfer.  The graph's loop
+ * bound is (20 + 20) / 1 = 40; through the two transfers the loop takes
+ * 20 + 5 + 20 + 5 = 50 cycles per iteration. */
+static const char split_loop[] =
+    "# invented for this test\n"
+    "procs 2\n"
+    "comm latency=5\n"
+    "node a cycles=20 pin=0\n"
+    "node b cycles=20 pin=1\n"
+    "edge a -> b\n"
+    "edge b -> a delay=1\n";
+
+static bool has_hop(const pm_graph *g, const pm_sweep_limit *l, const char *from,
+                    const char *to, uint32_t fc, uint32_t tc)
+{
+    for (uint32_t i = 0; i < l->nhops; i++) {
+        const pm_edge *e = &g->edges[l->hops[i].edge];
+        if (strcmp(name(g, e->src), from) == 0 && strcmp(name(g, e->dst), to) == 0 &&
+            l->hops[i].from_core == fc && l->hops[i].to_core == tc && l->hops[i].cost == 5)
+            return true;
+    }
+    return false;
+}
+
+static void test_mapping_loop(void **state)
+{
+    (void)state;
+    pm_graph *g = load(split_loop);
+    pm_sweep s;
+    run(g, 2, 3, &s);
+    dump(g, &s);
+    for (uint32_t p = 2; p <= 3; p++) {
+        expect_period(&s, p, 50, 1);
+        const pm_sweep_limit *l = &point(&s, p)->limit;
+        assert_int_equal(l->kind, PM_LIMIT_MAPPING);
+        assert_int_equal(l->nhops, 2);
+        assert_true(has_hop(g, l, "a", "b", 0, 1));
+        assert_true(has_hop(g, l, "b", "a", 1, 0));
+        assert_int_equal(l->cycles, 50);
+        assert_int_equal(l->delays, 1);
+        assert_true(l->exact);
+        assert_int_equal(l->single_core, PM_NONE);
+    }
+    /* 50 is no floor (loop 40, node 20), but 3 cores do no better */
+    assert_int_equal(s.saturation, 0);
+    assert_false(s.saturation_proven);
+    assert_true(s.saturation_reached);
+    /* what-if: either node 10 cycles faster -> 10 + 5 + 20 + 5 = 40 on the
+     * same map; the floor at 2 cores becomes the loop 30 */
+    const pm_sweep_whatif *w = &s.whatif;
+    assert_int_equal(w->kind, PM_LIMIT_MAPPING);
+    assert_int_equal(w->nrows, 2);
+    for (uint32_t i = 0; i < 2; i++) {
+        assert_int_equal(w->rows[i].after.num, 40);
+        assert_int_equal(w->rows[i].after.den, 1);
+        assert_int_equal(w->rows[i].loop_alone.num, 40);
+        assert_int_equal(w->rows[i].floor_after.num, 30);
+    }
+    assert_false(w->has_delay);
+    /* next: the lower bound, the graph's loop a -> b at 40 */
+    assert_int_equal(w->next_kind, PM_LIMIT_LOOP);
+    assert_int_equal(w->next_value.num, 40);
+    assert_int_equal(w->nnext_nodes, 2);
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+}
+
+/* ---- saturation rule, refusals ------------------------------------------ */
+
+static void test_not_saturated(void **state)
+{
+    (void)state;
+    pm_graph *g = load(fork_join);
+    pm_sweep s;
+    run(g, 1, 2, &s);
+    /* 120 then 60: still improving at the end of the range, and 60 is no
+     * floor that more cores cannot move */
+    assert_int_equal(s.saturation, 1);
+    assert_false(s.saturation_proven);
+    assert_false(s.saturation_reached);
+    assert_int_equal(s.best, 1);
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+}
+
+static int sweep_rc(pm_graph *g, uint32_t from, uint32_t to, pm_diag *d)
+{
+    pm_sweep s;
+    pm_sweep_opts o = {.procs_from = from, .procs_to = to, .iterations = 50};
+    pm_diag_clear(d);
+    int rc = pm_sweep_run(g, &o, &s, d);
+    pm_sweep_free(&s);
+    pm_sweep_free(&s); /* twice is safe */
+    return rc;
+}
+
+static void test_refusals(void **state)
+{
+    (void)state;
+    pm_diag d;
+    pm_graph *g = load(split_loop);
+    assert_int_equal(pm_sweep_min_procs(g), 2);
+    /* b is pinned to core 1: one core cannot hold it */
+    assert_int_equal(sweep_rc(g, 1, 2, &d), PM_EPLATFORM);
+    assert_non_null(strstr(d.msg, "'b'"));
+    assert_non_null(strstr(d.msg, "with 1 cores"));
+    /* the core count is restored after a failed sweep too */
+    assert_int_equal(g->platform.ncores, 2);
+    assert_int_equal(sweep_rc(g, 3, 2, &d), PM_EINVAL);
+    assert_int_equal(sweep_rc(g, 2, 2 + PM_SWEEP_MAX_POINTS, &d), PM_ELIMIT);
+    pm_graph_destroy(g);
+
+    g = load("procs dsp:1 host:1\nnode a cycles=dsp:4,host:9\n");
+    assert_int_equal(sweep_rc(g, 1, 4, &d), PM_EPLATFORM);
+    assert_non_null(strstr(d.msg, "core classes"));
+    /* its own core count is fine: a is 4 cycles at best */
+    pm_sweep s;
+    pm_sweep_opts o = {.procs_from = 2, .procs_to = 2};
+    assert_int_equal(pm_sweep_run(g, &o, &s, &d), PM_OK);
+    assert_int_equal(s.points[0].period.num, 4);
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+
+    g = pm_graph_create("empty");
+    assert_int_equal(pm_graph_finalize(g), PM_OK);
+    assert_int_equal(sweep_rc(g, 1, 2, &d), PM_EINVAL);
+    pm_graph_destroy(g);
+    assert_int_equal(pm_sweep_run(NULL, &o, &s, &d), PM_EINVAL);
+    assert_int_equal(pm_sweep_run(g = load(recursive), NULL, &s, &d), PM_EINVAL);
+    pm_graph_destroy(g);
+}
+
+/* The sweep restores the scenario's own core count. */
+static void test_restores_procs(void **state)
+{
+    (void)state;
+    pm_graph *g = load(recursive);
+    assert_int_equal(g->platform.ncores, 1);
+    pm_sweep s;
+    run(g, 2, 4, &s);
+    assert_int_equal(g->platform.ncores, 1);
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_fork_join),
+        cmocka_unit_test(test_recursive_loop),
+        cmocka_unit_test(test_mapping_loop),
+        cmocka_unit_test(test_not_saturated),
+        cmocka_unit_test(test_refusals),
+        cmocka_unit_test(test_restores_procs),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
