@@ -12,7 +12,7 @@
 
 #include "pacemap/error.h"
 
-#define PL_W 860.0        /* document width */
+#define PL_W 920.0        /* document width */
 #define PL_ML 84.0        /* left margin: y tick labels and y label */
 #define PL_PW 520.0       /* plot area width */
 #define PL_PH 250.0       /* plot area height of one panel */
@@ -299,7 +299,7 @@ int pm_plot_write_svg(const pm_plot *p, FILE *out)
         pl_frame fr = {PL_ML, PL_HEAD + (double)k * (PL_PH + PL_GAP), PL_PW, PL_PH, x,
                        pl_y_axis(p, pa)};
         pl_axes(out, &fr, p, pa);
-        for (size_t s = 0; s < pa->nseries; s++)
+        for (size_t s = pa->nseries; s-- > 0;) /* the first series on top */
             pl_series(out, &fr, p, &pa->series[s], s);
         pl_legend(out, &fr, pa);
     }

@@ -324,13 +324,18 @@ static int whatif_next(const pm_graph *c, const pm_bound *b, const pm_sweep_poin
 int sweep_whatif_run(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag)
 {
     pm_sweep_whatif *w = &s->whatif;
-    const pm_sweep_point *pt = &s->points[s->saturation];
+    uint32_t at = s->saturation;
+    /* all cores busy there: explain the first core count that did not help */
+    if (s->points[at].limit.kind == PM_LIMIT_CORES && s->saturation_reached &&
+        at + 1 < s->npoints)
+        at++;
+    const pm_sweep_point *pt = &s->points[at];
     pm_graph *c = NULL;
     int rc = whatif_copy(g, &c);
     if (rc != PM_OK)
         return rc;
     w->present = true;
-    w->point = s->saturation;
+    w->point = at;
     w->kind = pt->limit.kind;
     w->faster = o->faster > 0 ? o->faster : PM_SWEEP_DEFAULT_FASTER;
     if (w->kind == PM_LIMIT_LOOP || w->kind == PM_LIMIT_NODE)

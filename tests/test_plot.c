@@ -115,13 +115,14 @@ static void test_well_formed(void **state)
     assert_non_null(strstr(svg, "<svg xmlns=\"http://www.w3.org/2000/svg\""));
     assert_true(strcmp(svg + strlen(svg) - 7, "</svg>\n") == 0);
     assert_balanced(svg);
-    /* period 5, loop 5, gappy 2 + 2, throughput 5 */
+    /* series are drawn last to first (the first on top): gappy 2 + 2,
+     * loop 5, period 5; then the throughput panel 5 */
     size_t pts[16];
     assert_int_equal(polylines(svg, pts, 16), 5);
-    assert_int_equal(pts[0], 5);
-    assert_int_equal(pts[1], 5);
-    assert_int_equal(pts[2], 2);
-    assert_int_equal(pts[3], 2);
+    assert_int_equal(pts[0], 2);
+    assert_int_equal(pts[1], 2);
+    assert_int_equal(pts[2], 5);
+    assert_int_equal(pts[3], 5);
     assert_int_equal(pts[4], 5);
     /* markers: period 5 circles + legend 1; gappy 4 triangles + legend 1;
      * throughput: series 0 of its panel, 5 circles + legend 1 */
