@@ -13,6 +13,7 @@
 #include "cli.h"
 #include "cmd_sweep_internal.h"
 
+#include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -137,11 +138,16 @@ static void sw_text_table(const sw_report *r)
            "speedup", "efficiency", "limit");
     for (uint32_t i = 0; i < s->npoints; i++) {
         const pm_sweep_point *p = &s->points[i];
-        printf("%5u %11s%c %12s %12s %8.2f %10.1f%%  %s\n", p->procs,
+        char sp[24] = "-", ef[24] = "-"; /* a zero period has no speedup */
+        if (isfinite(p->speedup)) {
+            snprintf(sp, sizeof sp, "%.2f", p->speedup);
+            snprintf(ef, sizeof ef, "%.1f%%", 100.0 * p->efficiency);
+        }
+        printf("%5u %11s%c %12s %12s %8s %11s  %s\n", p->procs,
                sw_rat_text(a, sizeof a, p->period), p->steady ? ' ' : '~',
                sw_rat_text(b, sizeof b, p->floors.lower_bound),
-               p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-",
-               p->speedup, 100.0 * p->efficiency, pm_limit_name(p->limit.kind));
+               p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-", sp, ef,
+               pm_limit_name(p->limit.kind));
     }
     for (uint32_t i = 0; i < s->npoints; i++)
         if (!s->points[i].steady) {

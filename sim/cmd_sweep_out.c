@@ -280,9 +280,11 @@ int sw_write_csv(const sw_report *r, FILE *out)
             sw_csv_rat(out, p->floors.loop);
         else
             fputs(",,", out);
-        fprintf(out, ",%.6f,%.6f,%s,%s,", isfinite(p->speedup) ? p->speedup : 0.0,
-                isfinite(p->efficiency) ? p->efficiency : 0.0, p->steady ? "yes" : "no",
-                pm_limit_name(p->limit.kind));
+        if (isfinite(p->speedup))
+            fprintf(out, ",%.6f,%.6f", p->speedup, p->efficiency);
+        else
+            fputs(",,", out); /* a zero period has no speedup */
+        fprintf(out, ",%s,%s,", p->steady ? "yes" : "no", pm_limit_name(p->limit.kind));
         for (uint32_t k = 0; k < p->limit.nnodes; k++)
             fprintf(out, "%s%s", k ? " " : "", pm_graph_node_name(r->g, p->limit.nodes[k]));
         fputc('\n', out);
