@@ -8,6 +8,7 @@
  * floors for P cores (floors.c), or print anything.
  */
 #include "bound_internal.h"
+#include "scc_internal.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -29,7 +30,7 @@ static int bound_multirate_error(const pm_graph *g, pm_diag *diag)
     return PM_OK;
 }
 
-static int bound_sum_delays(const pm_graph *g, pm_diag *diag)
+static int bound_sum_delays(const pm_graph *g, int64_t *out, pm_diag *diag)
 {
     uint64_t sum = 0;
     for (uint32_t e = 0; e < g->nedges; e++) {
@@ -42,36 +43,43 @@ static int bound_sum_delays(const pm_graph *g, pm_diag *diag)
             return PM_ERANGE;
         }
     }
+    if (out)
+        *out = (int64_t)sum;
     return PM_OK;
 }
 
-int bound_node_times(const pm_graph *g, int64_t **t_out, int64_t *total,
+int bound_node_times(const pm_graph *g, int64_t **t_out, int64_t *total, int64_t *sum_delays,
                      uint32_t *largest, pm_diag *diag)
 {
-    *t_out = NULL;
+    if (t_out)
+        *t_out = NULL;
     int rc = bound_multirate_error(g, diag);
     if (rc == PM_OK)
-        rc = bound_sum_delays(g, diag);
+        rc = bound_sum_delays(g, sum_delays, diag);
     if (rc)
         return rc;
-    int64_t *t = malloc(((size_t)g->nnodes + 1) * sizeof *t);
-    if (!t)
+    int64_t *t = t_out ? malloc(((size_t)g->nnodes + 1) * sizeof *t) : NULL;
+    if (t_out && !t)
         return PM_ENOMEM;
     uint64_t sum = 0;
     uint32_t big = PM_NONE;
+    int64_t bigt = -1;
     for (uint32_t v = 0; v < g->nnodes && rc == PM_OK; v++) {
         const pm_node *n = &g->nodes[v];
-        t[v] = pm_graph_min_cycles(g, v);
-        if (t[v] < 0) {
+        int64_t tv = pm_graph_min_cycles(g, v);
+        if (t)
+            t[v] = tv;
+        if (tv < 0) {
             pm_diag_set(diag, g->file, n->line, n->col,
                         "node '%s' can run on no core class", pm_graph_node_name(g, v));
             rc = PM_EPLATFORM;
-        } else if ((sum += (uint64_t)t[v]) > (uint64_t)PM_MAX_VALUE) {
+        } else if ((sum += (uint64_t)tv) > (uint64_t)PM_MAX_VALUE) {
             pm_diag_set(diag, g->file, n->line, n->col,
                         "the node cycles of the graph add up to more than 2^62-1");
             rc = PM_ERANGE;
-        } else if (big == PM_NONE || t[v] > t[big]) {
+        } else if (tv > bigt) {
             big = v;
+            bigt = tv;
         }
     }
     if (rc) {
@@ -82,7 +90,8 @@ int bound_node_times(const pm_graph *g, int64_t **t_out, int64_t *total,
         *total = (int64_t)sum;
     if (largest)
         *largest = big;
-    *t_out = t;
+    if (t_out)
+        *t_out = t;
     return PM_OK;
 }
 
@@ -250,13 +259,8 @@ static int bound_fill_parts(const howard *h, const uint32_t *first, const uint32
     out->nparts_total = np;
     out->nparts = max && max < np ? max : np;
     size_t total = 0;
-    for (uint32_t i = 0; i < out->nparts; i++) {
-        uint32_t r = h->cycles[keys[i].k].root, v = r;
-        do {
-            total += 2;
-            v = h->g->edges[h->pol[v]].dst;
-        } while (v != r);
-    }
+    for (uint32_t i = 0; i < out->nparts; i++)
+        total += 2 * (size_t)howard_policy_len(h, h->cycles[keys[i].k].root);
     out->parts = calloc((size_t)out->nparts + 1, sizeof *out->parts);
     out->loop_pool_ = malloc((total + 1) * sizeof *out->loop_pool_);
     if (!out->parts || !out->loop_pool_) {
@@ -270,7 +274,7 @@ static int bound_fill_parts(const howard *h, const uint32_t *first, const uint32
         pt->first_node = keys[i].first;
         pt->bound = (pm_rat){ c->p, c->q };
         howard_policy_loop(h, c->root, out->loop_pool_ + at, &pt->worst);
-        bound_loop_sums(h->g, h->t, &pt->worst);
+        bound_loop_sums(h->g, &pt->worst);
         at += 2 * pt->worst.len;
     }
     free(keys);
@@ -281,43 +285,61 @@ static int bound_fill_parts(const howard *h, const uint32_t *first, const uint32
 static int bound_solve_parts(howard *h, const pm_scc *s, uint32_t **first, uint32_t **size)
 {
     uint32_t np = 0;
-    for (uint32_t c = 0; c < s->ncomp; c++)
-        np += pm_scc_has_cycle(h->g, s, c, NULL, NULL);
+    for (uint32_t c = 0; c < s->ncomp; c++) {
+        uint32_t a = s->start[c], b = s->start[c + 1];
+        np += b - a > 1 || h->off[b] > h->off[a];
+    }
     *first = malloc(((size_t)np + 1) * sizeof **first);
     *size = malloc(((size_t)np + 1) * sizeof **size);
     if (!*first || !*size)
         return PM_ENOMEM;
     for (uint32_t c = 0; c < s->ncomp; c++) {
-        if (!pm_scc_has_cycle(h->g, s, c, NULL, NULL))
-            continue;
-        uint32_t len = s->start[c + 1] - s->start[c];
-        int rc = howard_solve_part(h, s->order + s->start[c], len, c);
+        uint32_t a = s->start[c], b = s->start[c + 1];
+        if (b - a == 1 && h->off[b] == h->off[a])
+            continue; /* one node without a self-loop */
+        int rc = howard_solve_part(h, a, b);
         if (rc)
             return rc;
-        (*first)[h->ncycles - 1] = s->order[s->start[c]];
-        (*size)[h->ncycles - 1] = len;
+        (*first)[h->ncycles - 1] = s->order[a];
+        (*size)[h->ncycles - 1] = b - a;
     }
     return PM_OK;
 }
 
-static int bound_solve(const pm_graph *g, const int64_t *t, const pm_bound_opts *opts,
-                       pm_bound *out)
+/* Parts of g and the local arrays of the iteration.  The targets of the
+ * out-edges are first gathered in one list, so that the depth-first search
+ * and the copy read 4 bytes per edge instead of a whole pm_edge. */
+static int bound_prepare(const pm_graph *g, int64_t sum_t, int64_t sum_d, pm_scc *s,
+                         howard *h)
 {
-    pm_scc s;
-    int rc = pm_scc_compute(g, NULL, NULL, &s);
-    if (rc)
-        return rc;
-    howard h;
+    uint32_t *dst = malloc(((size_t)g->nedges + 1) * sizeof *dst);
+    if (!dst)
+        return PM_ENOMEM;
+    for (uint32_t k = 0; k < g->nedges; k++)
+        dst[k] = g->edges[g->out_edge[k]].dst;
+    scc_csr c = { .n = g->nnodes, .off = g->out_off, .list = dst };
+    int rc = scc_run(&c, s);
+    if (rc == PM_OK)
+        rc = howard_init(h, g, s, dst, sum_t, sum_d);
+    free(dst);
+    free(s->comp); /* the local numbering replaces it */
+    s->comp = NULL;
+    if (rc == PM_OK)
+        rc = howard_alloc_state(h);
+    return rc;
+}
+
+static int bound_solve(const pm_graph *g, int64_t sum_t, int64_t sum_d,
+                       const pm_bound_opts *opts, pm_bound *out)
+{
+    pm_scc s = { 0 };
+    howard h = { 0 };
     uint32_t *first = NULL, *size = NULL;
-    rc = howard_init(&h, g, t, s.comp);
+    int rc = bound_prepare(g, sum_t, sum_d, &s, &h);
     if (rc == PM_OK)
         rc = bound_solve_parts(&h, &s, &first, &size);
     if (rc == PM_OK)
         rc = howard_certify(&h);
-    /* only the component of each node is needed from here on */
-    free(s.order);
-    free(s.start);
-    s.order = s.start = NULL;
     if (rc == PM_OK)
         rc = bound_fill_parts(&h, first, size, opts ? opts->max_parts : 0, out);
     free(first);
@@ -344,17 +366,17 @@ int pm_bound_compute(const pm_graph *g, const pm_bound_opts *opts, pm_bound *out
     out->largest_node = PM_NONE;
     if (!g || !g->finalized)
         return PM_EINVAL;
-    int64_t *t;
-    int rc = bound_node_times(g, &t, &out->total_cycles, &out->largest_node, diag);
+    int64_t sum_d;
+    int rc = bound_node_times(g, NULL, &out->total_cycles, &sum_d, &out->largest_node, diag);
     if (rc)
         return rc;
-    out->largest_cycles = out->largest_node != PM_NONE ? t[out->largest_node] : 0;
+    if (out->largest_node != PM_NONE)
+        out->largest_cycles = pm_graph_min_cycles(g, out->largest_node);
     rc = bound_check_zero_delay(g, diag);
     if (rc == PM_OK)
-        rc = bound_solve(g, t, opts, out);
+        rc = bound_solve(g, out->total_cycles, sum_d, opts, out);
     if (rc == PM_EINVAL)
         pm_diag_set(diag, g->file, 0, 0, "internal error: the bound's certificate failed");
-    free(t);
     if (rc)
         pm_bound_free(out);
     return rc;
@@ -401,7 +423,7 @@ int pm_bound_certify(const pm_graph *g, pm_rat lambda, bool *ok)
     if (lambda.den > CERTIFY_MAX || lambda.num > CERTIFY_MAX)
         return PM_ERANGE;
     int64_t *t;
-    int rc = bound_node_times(g, &t, NULL, NULL, NULL);
+    int rc = bound_node_times(g, &t, NULL, NULL, NULL, NULL);
     if (rc)
         return rc;
     if (lambda.num < 0) /* every loop exceeds a negative ratio: use 0 - 1/2 */

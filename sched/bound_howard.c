@@ -10,12 +10,16 @@
  * (scaled by q, so it is an integer) satisfies x(u) = q*t(u) - p*d + x(v)
  * along its policy edge, with x = 0 at the cycle's smallest node.  A node
  * changes its edge only on strict improvement: first a larger ratio, then
- * (equal ratio, hence equal reduced q) a larger bias.  Ratios and biases
- * never decrease and some strictly increase, so the iteration ends; at the
- * end no edge improves, which is exactly the certificate.
+ * (equal ratio, hence equal reduced q) a larger bias, both judged on the
+ * values of the previous policy.  Ratios and biases never decrease and
+ * some strictly increase, so the iteration ends; at the end no edge
+ * improves, which is exactly the certificate, checked again on the graph's
+ * own edge list.
  *
- * Magnitudes: sums of node times and of delays are below 2^62, so p and q
- * are below 2^62, |x| < 2^125 and every expression below fits in 128 bits.
+ * Magnitudes: sums of node times T and of delays D are below 2^62, so p and
+ * q are below 2^62, |x| <= q*T + p*D < 2^125 and every expression fits in
+ * 128 bits.  When 4*T*D < 2^63 (nearly always) biases are kept in 64 bits,
+ * which halves the memory the passes sweep.
  * What it does not do: choose the part order, list loops (bound.c,
  * bound_loops.c).
  */
@@ -24,64 +28,137 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define HOWARD_ONPATH (PM_NONE - 1)
+/* ---- building the local arrays ------------------------------------------ */
 
-int howard_init(howard *h, const pm_graph *g, const int64_t *t, const uint32_t *comp)
+static int howard_alloc(howard *h)
+{
+    size_t n = (size_t)h->n + 1, m = (size_t)h->off[h->n] + 1;
+    h->adj = malloc(m * (h->wide ? sizeof(he_wide) : sizeof(he_narrow)));
+    h->t = malloc(n * sizeof *h->t);
+    return h->adj && h->t ? PM_OK : PM_ENOMEM;
+}
+
+/* Count, then copy, the edges whose ends share a part.  dst[k] is the
+ * target of g->out_edge[k]. */
+static void howard_fill(howard *h, const uint32_t *comp, const uint32_t *dst)
+{
+    const pm_graph *g = h->g;
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t u = h->order[i], c = 0;
+        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++)
+            c += comp[dst[k]] == comp[u];
+        h->off[i + 1] = h->off[i] + c;
+    }
+}
+
+static void howard_copy(howard *h, const uint32_t *comp, const uint32_t *dst)
+{
+    const pm_graph *g = h->g;
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t u = h->order[i], at = h->off[i];
+        h->t[i] = pm_graph_min_cycles(g, u);
+        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
+            if (comp[dst[k]] != comp[u])
+                continue;
+            int64_t d = g->edges[g->out_edge[k]].delay;
+            if (h->wide)
+                ((he_wide *)h->adj)[at++] = (he_wide){ h->map[dst[k]], 0, d };
+            else
+                ((he_narrow *)h->adj)[at++] = (he_narrow){ h->map[dst[k]], (uint32_t)d };
+        }
+    }
+}
+
+/* The per-node state of the iteration, allocated once the graph's
+ * component array and target list are gone (lower peak memory). */
+int howard_alloc_state(howard *h)
+{
+    size_t n = (size_t)h->n + 1;
+    h->st = h->wide ? malloc(n * sizeof(hw_wide)) : malloc(n * sizeof(hw_narrow));
+    h->stack = malloc(n * sizeof *h->stack);
+    h->seq = malloc(n * sizeof *h->seq);
+    h->nxt = malloc(n * sizeof *h->nxt);
+    if (!h->st || !h->stack || !h->seq || !h->nxt)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < h->n; i++)
+        *hw_cyc(h, i) = PM_NONE;
+    return PM_OK;
+}
+
+int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *dst,
+                int64_t sum_t, int64_t sum_d)
 {
     memset(h, 0, sizeof *h);
-    size_t n = (size_t)g->nnodes + 1;
     h->g = g;
-    h->t = t;
-    h->comp = comp;
-    h->pol = malloc(n * sizeof *h->pol);
-    h->cyc = malloc(n * sizeof *h->cyc);
-    h->x = malloc(n * sizeof *h->x);
-    h->stack = malloc(n * sizeof *h->stack);
-    if (!h->pol || !h->cyc || !h->x || !h->stack) {
+    h->n = g->nnodes;
+    h->order = s->order;
+    bool big_delay = false;
+    for (uint32_t e = 0; e < g->nedges && !big_delay; e++)
+        big_delay = g->edges[e].delay > (int64_t)UINT32_MAX;
+    h->wide = big_delay || (bnd_i128)sum_t * sum_d >= ((bnd_i128)1 << 60);
+    h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
+    h->off = calloc((size_t)h->n + 1, sizeof *h->off);
+    if (!h->map || !h->off) {
         howard_free(h);
         return PM_ENOMEM;
     }
-    memset(h->cyc, 0xff, n * sizeof *h->cyc);
+    for (uint32_t i = 0; i < h->n; i++)
+        h->map[h->order[i]] = i;
+    howard_fill(h, s->comp, dst);
+    if (howard_alloc(h) != PM_OK) {
+        howard_free(h);
+        return PM_ENOMEM;
+    }
+    howard_copy(h, s->comp, dst);
     return PM_OK;
 }
 
 void howard_free(howard *h)
 {
-    free(h->pol);
-    free(h->cyc);
-    free(h->x);
+    free(h->map);
+    free(h->off);
+    free(h->adj);
+    free(h->t);
+    free(h->st);
     free(h->stack);
+    free(h->seq);
+    free(h->nxt);
     free(h->cycles);
     memset(h, 0, sizeof *h);
 }
 
-/* Exact order of two ratios a.p/a.q and b.p/b.q (q > 0). */
-static int howard_cmp(const howard_cycle *a, const howard_cycle *b)
+/* ---- policy iteration ---------------------------------------------------- */
+
+/* Exact order of two ratios (q > 0). */
+static inline int howard_cmp(const howard_cycle *a, const howard_cycle *b)
 {
-    if (a == b)
-        return 0;
     bnd_i128 l = (bnd_i128)a->p * b->q, r = (bnd_i128)b->p * a->q;
     return (l > r) - (l < r);
 }
 
-/* First policy: the out-edge inside the part with the fewest delays
- * (largest ratio contribution), ties to the heavier successor. */
-static void howard_first_policy(howard *h, const uint32_t *nodes, uint32_t len, uint32_t c)
+static inline uint32_t howard_next(const howard *h, uint32_t i)
 {
-    const pm_graph *g = h->g;
-    for (uint32_t i = 0; i < len; i++) {
-        uint32_t u = nodes[i], best = PM_NONE;
-        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
-            uint32_t e = g->out_edge[k];
-            const pm_edge *ed = &g->edges[e];
-            if (h->comp[ed->dst] != c)
-                continue;
-            if (best == PM_NONE || ed->delay < g->edges[best].delay ||
-                (ed->delay == g->edges[best].delay &&
-                 h->t[ed->dst] > h->t[g->edges[best].dst]))
-                best = e;
+    return h->nxt[i];
+}
+
+static inline void howard_set_pol(howard *h, uint32_t i, uint32_t k)
+{
+    *hw_pol(h, i) = k;
+    h->nxt[i] = he_dst(h, k);
+}
+
+/* First policy: the edge with the fewest delays, ties to the heavier
+ * successor (a cheap guess at a large ratio). */
+static void howard_first_policy(howard *h, uint32_t a, uint32_t b)
+{
+    for (uint32_t i = a; i < b; i++) {
+        uint32_t best = h->off[i];
+        for (uint32_t k = h->off[i] + 1; k < h->off[i + 1]; k++) {
+            int64_t dk = he_delay(h, k), db = he_delay(h, best);
+            if (dk < db || (dk == db && h->t[he_dst(h, k)] > h->t[he_dst(h, best)]))
+                best = k;
         }
-        h->pol[u] = best; /* never PM_NONE: the part is strongly connected */
+        howard_set_pol(h, i, best); /* a part with a loop: every node has an edge */
     }
 }
 
@@ -96,171 +173,232 @@ static int howard_push_cycle(howard *h, int64_t w, int64_t d, uint32_t root)
         h->cycles_cap = cap;
     }
     uint64_t gcd = pm_gcd_u64((uint64_t)w, (uint64_t)d);
-    if (gcd == 0)
-        gcd = 1;
     h->cycles[h->ncycles++] = (howard_cycle){ w / (int64_t)gcd, d / (int64_t)gcd, root };
     return PM_OK;
 }
 
-static inline uint32_t howard_next(const howard *h, uint32_t u)
-{
-    return h->g->edges[h->pol[u]].dst;
-}
-
-static inline bnd_i128 howard_step(const howard *h, uint32_t u, uint32_t e,
+/* q*t(i) - p*d(k) + x(dst k): the bias i gets through local edge k. */
+static inline bnd_i128 howard_step(const howard *h, uint32_t i, uint32_t k,
                                    const howard_cycle *c)
 {
-    return (bnd_i128)c->q * h->t[u] - (bnd_i128)c->p * h->g->edges[e].delay +
-           h->x[h->g->edges[e].dst];
+    return (bnd_i128)c->q * h->t[i] - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
 }
 
-/* The policy cycle on stack[from..top): record it and set its biases. */
-static int howard_close_cycle(howard *h, uint32_t from, uint32_t top)
+/* The policy cycle nodes[0..len) in policy order: record it and set its
+ * biases, backwards from its smallest node. */
+static int howard_close_cycle(howard *h, const uint32_t *nodes, uint32_t len)
 {
     int64_t w = 0, d = 0;
-    uint32_t root = h->stack[from], at = from;
-    for (uint32_t i = from; i < top; i++) {
-        uint32_t u = h->stack[i];
-        w += h->t[u];
-        d += h->g->edges[h->pol[u]].delay;
-        if (u < root) {
-            root = u;
-            at = i;
-        }
+    uint32_t at = 0;
+    for (uint32_t j = 0; j < len; j++) {
+        uint32_t i = nodes[j];
+        w += h->t[i];
+        d += he_delay(h, *hw_pol(h, i));
+        if (h->order[i] < h->order[nodes[at]])
+            at = j;
     }
-    int rc = howard_push_cycle(h, w, d, root);
+    int rc = howard_push_cycle(h, w, d, nodes[at]);
     if (rc)
         return rc;
-    uint32_t k = h->ncycles - 1, len = top - from;
-    h->x[root] = 0;
-    h->cyc[root] = k;
-    /* walk backwards from the node before the root */
+    uint32_t k = h->ncycles - 1;
+    hw_set_x(h, nodes[at], 0);
+    *hw_cyc(h, nodes[at]) = k;
     for (uint32_t j = 1; j < len; j++) {
-        uint32_t u = h->stack[from + (at + len - from - j) % len];
-        h->x[u] = howard_step(h, u, h->pol[u], &h->cycles[k]);
-        h->cyc[u] = k;
+        uint32_t i = nodes[(at + len - j) % len];
+        hw_set_x(h, i, howard_step(h, i, *hw_pol(h, i), &h->cycles[k]));
+        *hw_cyc(h, i) = k;
     }
     return PM_OK;
 }
 
-/* Value determination: ratios and biases of every node of the part. */
-static int howard_values(howard *h, const uint32_t *nodes, uint32_t len)
+/* Peel the policy graph of [a, b) like Kahn's topological sort: nodes with
+ * no policy predecessor left go first.  What stays (indeg > 0) lies on
+ * policy cycles.  seq[a..) gets the peeled nodes; returns the end.  The
+ * accesses are independent of each other, so the memory system overlaps
+ * them (a walk along policy pointers would wait on each miss in turn). */
+static uint32_t howard_peel(howard *h, uint32_t a, uint32_t b, uint32_t *indeg)
 {
-    for (uint32_t i = 0; i < len; i++)
-        h->cyc[nodes[i]] = PM_NONE;
-    for (uint32_t i = 0; i < len; i++) {
-        uint32_t top = 0, v = nodes[i];
-        while (h->cyc[v] == PM_NONE) {
-            h->cyc[v] = HOWARD_ONPATH;
-            h->stack[top++] = v;
+    for (uint32_t i = a; i < b; i++)
+        indeg[i] = 0;
+    for (uint32_t i = a; i < b; i++)
+        indeg[howard_next(h, i)]++;
+    uint32_t tail = a;
+    for (uint32_t i = a; i < b; i++)
+        if (indeg[i] == 0)
+            h->seq[tail++] = i;
+    for (uint32_t head = a; head < tail; head++) {
+        if (head + 8 < tail)
+            __builtin_prefetch(&h->nxt[h->seq[head + 8]]);
+        uint32_t v = howard_next(h, h->seq[head]);
+        if (--indeg[v] == 0)
+            h->seq[tail++] = v;
+    }
+    return tail;
+}
+
+/* Value determination: ratio and bias of every node of [a, b).  Cycles
+ * first, then the peeled nodes in reverse order (each after its
+ * successor). */
+static int howard_values(howard *h, uint32_t a, uint32_t b)
+{
+    uint32_t *indeg = h->stack;
+    uint32_t tail = howard_peel(h, a, b, indeg);
+    for (uint32_t i = a; i < b; i++) {
+        if (indeg[i] == 0)
+            continue;
+        uint32_t len = 0, v = i;
+        do { /* collect the cycle in the free end of seq */
+            h->seq[tail + len++] = v;
+            indeg[v] = 0;
             v = howard_next(h, v);
+        } while (v != i);
+        int rc = howard_close_cycle(h, h->seq + tail, len);
+        if (rc)
+            return rc;
+    }
+    for (uint32_t j = tail; j-- > a;) {
+        uint32_t u = h->seq[j];
+        if (j >= a + 8) { /* overlap the misses of the coming nodes */
+            uint32_t f = h->seq[j - 8];
+            __builtin_prefetch(&h->nxt[f]);
+            __builtin_prefetch(h->wide ? (void *)&((hw_wide *)h->st)[f]
+                                       : (void *)&((hw_narrow *)h->st)[f]);
         }
-        if (h->cyc[v] == HOWARD_ONPATH) {
-            uint32_t from = top;
-            while (h->stack[from - 1] != v)
-                from--;
-            int rc = howard_close_cycle(h, from - 1, top);
-            if (rc)
-                return rc;
-            top = from - 1;
-        }
-        while (top) {
-            uint32_t u = h->stack[--top];
-            uint32_t k = h->cyc[howard_next(h, u)];
-            h->cyc[u] = k;
-            h->x[u] = howard_step(h, u, h->pol[u], &h->cycles[k]);
-        }
+        uint32_t k = *hw_cyc(h, howard_next(h, u));
+        *hw_cyc(h, u) = k;
+        hw_set_x(h, u, howard_step(h, u, *hw_pol(h, u), &h->cycles[k]));
     }
     return PM_OK;
 }
 
-/* Policy improvement; true when some node changed its edge. */
-static bool howard_improve(howard *h, const uint32_t *nodes, uint32_t len, uint32_t c)
+/* Best edge of node i under the current values (strict improvement only).
+ * Inlined with a constant `wide` so each width gets its own loop. */
+static inline __attribute__((always_inline)) uint32_t
+howard_best(const howard *h, uint32_t i, bool wide)
 {
-    const pm_graph *g = h->g;
-    bool changed = false;
-    for (uint32_t i = 0; i < len; i++) {
-        uint32_t u = nodes[i], best = h->pol[u];
-        const howard_cycle *bc = &h->cycles[h->cyc[u]];
-        bnd_i128 bx = h->x[u];
-        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
-            uint32_t e = g->out_edge[k], v = g->edges[e].dst;
-            if (h->comp[v] != c)
-                continue;
-            const howard_cycle *vc = &h->cycles[h->cyc[v]];
-            int r = howard_cmp(vc, bc);
-            if (r < 0)
-                continue;
-            bnd_i128 vx = howard_step(h, u, e, vc);
-            if (r > 0 || vx > bx) {
-                best = e;
-                bc = vc;
-                bx = vx;
-            }
+    const howard_cycle *cy = h->cycles;
+    uint32_t bc = wide ? ((hw_wide *)h->st)[i].cyc : ((hw_narrow *)h->st)[i].cyc;
+    uint32_t best = wide ? ((hw_wide *)h->st)[i].pol : ((hw_narrow *)h->st)[i].pol;
+    bnd_i128 bx = wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
+    int64_t ti = h->t[i];
+    for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
+        uint32_t v = wide ? ((he_wide *)h->adj)[k].dst : ((he_narrow *)h->adj)[k].dst;
+        if (!wide && k + 16 < h->off[h->n]) /* overlap the cache misses */
+            __builtin_prefetch(&((hw_narrow *)h->st)[((he_narrow *)h->adj)[k + 16].dst]);
+        int64_t d = wide ? ((he_wide *)h->adj)[k].delay : ((he_narrow *)h->adj)[k].delay;
+        uint32_t vc = wide ? ((hw_wide *)h->st)[v].cyc : ((hw_narrow *)h->st)[v].cyc;
+        int r = vc == bc ? 0 : howard_cmp(&cy[vc], &cy[bc]);
+        if (r < 0)
+            continue;
+        bnd_i128 vx = wide ? ((hw_wide *)h->st)[v].x : ((hw_narrow *)h->st)[v].x;
+        bnd_i128 val;
+        if (wide)
+            val = (bnd_i128)cy[vc].q * ti - (bnd_i128)cy[vc].p * d + vx;
+        else /* fits: 4*T*D < 2^63 */
+            val = cy[vc].q * ti - cy[vc].p * d + (int64_t)vx;
+        if (r > 0 || val > bx) {
+            best = k;
+            bc = vc;
+            bx = val;
         }
-        if (best != h->pol[u]) {
-            h->pol[u] = best;
+    }
+    return best;
+}
+
+/* Policy improvement; true when some node changed its edge.  Every node is
+ * judged on the values of the previous policy (the order does not
+ * matter, which the termination argument needs). */
+static bool howard_improve(howard *h, uint32_t a, uint32_t b)
+{
+    bool changed = false;
+    for (uint32_t i = a; i < b; i++) {
+        uint32_t best = h->wide ? howard_best(h, i, true) : howard_best(h, i, false);
+        if (best != *hw_pol(h, i)) {
+            howard_set_pol(h, i, best);
             changed = true;
         }
     }
     return changed;
 }
 
-int howard_solve_part(howard *h, const uint32_t *nodes, uint32_t len, uint32_t comp_id)
+int howard_solve_part(howard *h, uint32_t a, uint32_t b)
 {
     uint32_t base = h->ncycles;
-    howard_first_policy(h, nodes, len, comp_id);
+    howard_first_policy(h, a, b);
     for (;;) {
         h->ncycles = base;
-        int rc = howard_values(h, nodes, len);
+        int rc = howard_values(h, a, b);
         if (rc)
             return rc;
-        if (!howard_improve(h, nodes, len, comp_id))
+        if (!howard_improve(h, a, b))
             break;
     }
     /* converged: one ratio for the whole part; keep the cycle reached from
      * the part's first node as its worst loop */
     h->ncycles = base + 1;
-    for (uint32_t i = 0; i < len; i++)
-        h->cyc[nodes[i]] = base;
+    for (uint32_t i = a; i < b; i++)
+        *hw_cyc(h, i) = base;
     return PM_OK;
 }
 
+/* ---- the certificate and what it gives ----------------------------------- */
+
 int howard_certify(const howard *h)
 {
-    const pm_graph *g = h->g;
-    for (uint32_t e = 0; e < g->nedges; e++) {
-        uint32_t u = g->edges[e].src, v = g->edges[e].dst;
-        if (h->comp[u] != h->comp[v] || h->cyc[u] == PM_NONE)
-            continue;
-        if (h->cyc[v] != h->cyc[u])
-            return PM_EINVAL;
-        if (howard_step(h, u, e, &h->cycles[h->cyc[u]]) > h->x[u])
-            return PM_EINVAL;
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t cu = *hw_cyc(h, i);
+        bnd_i128 xi = hw_x(h, i);
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
+            if (!h->wide && k + 16 < h->off[h->n])
+                __builtin_prefetch(&((hw_narrow *)h->st)[((he_narrow *)h->adj)[k + 16].dst]);
+            /* an edge inside a part: both ends carry the part's entry */
+            if (cu == PM_NONE || *hw_cyc(h, he_dst(h, k)) != cu)
+                return PM_EINVAL;
+            if (howard_step(h, i, k, &h->cycles[cu]) > xi)
+                return PM_EINVAL;
+        }
     }
     return PM_OK;
 }
 
-bool howard_tight(const howard *h, uint32_t e, int64_t p, int64_t q)
+bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q)
 {
-    const pm_edge *ed = &h->g->edges[e];
-    uint32_t k = h->cyc[ed->src];
-    if (k == PM_NONE || h->cyc[ed->dst] != k || h->comp[ed->src] != h->comp[ed->dst])
-        return false;
-    const howard_cycle *c = &h->cycles[k];
-    return c->p == p && c->q == q && howard_step(h, ed->src, e, c) == h->x[ed->src];
+    const howard_cycle *c = &h->cycles[*hw_cyc(h, i)];
+    return c->p == p && c->q == q && howard_step(h, i, k, c) == hw_x(h, i);
+}
+
+uint32_t howard_policy_len(const howard *h, uint32_t root)
+{
+    uint32_t len = 0, v = root;
+    do {
+        len++;
+        v = howard_next(h, v);
+    } while (v != root);
+    return len;
+}
+
+/* The graph edge behind local edge position k of local node i: the same
+ * rank among the node's out-edges that stay inside its part. */
+uint32_t howard_graph_edge(const howard *h, uint32_t i, uint32_t k)
+{
+    const pm_graph *g = h->g;
+    uint32_t u = h->order[i], rank = k - h->off[i], cu = *hw_cyc(h, i);
+    for (uint32_t j = g->out_off[u];; j++) {
+        uint32_t e = g->out_edge[j];
+        if (*hw_cyc(h, h->map[g->edges[e].dst]) == cu && rank-- == 0)
+            return e;
+    }
 }
 
 void howard_policy_loop(const howard *h, uint32_t root, uint32_t *store, pm_loop *loop)
 {
-    uint32_t len = 0, v = root;
-    do {
-        store[len++] = v;
-        v = howard_next(h, v);
-    } while (v != root);
+    uint32_t len = howard_policy_len(h, root), v = root;
     loop->len = len;
     loop->nodes = store;
     loop->edges = store + len;
-    for (uint32_t i = 0; i < len; i++)
-        loop->edges[i] = h->pol[store[i]];
+    for (uint32_t j = 0; j < len; j++) {
+        loop->nodes[j] = h->order[v];
+        loop->edges[j] = howard_graph_edge(h, v, *hw_pol(h, v));
+        v = howard_next(h, v);
+    }
 }

@@ -10,54 +10,127 @@
 
 typedef __int128 bnd_i128;
 
-/* Node times (pm_graph_min_cycles) after checking that the graph is
- * single-rate, every node can run somewhere and the sums fit in 62 bits.
- * *t is malloc'd (nnodes entries).  *total and *largest may be NULL. */
-int bound_node_times(const pm_graph *g, int64_t **t, int64_t *total,
+/* Check that the graph is single-rate, every node can run somewhere and
+ * the sums of node times (pm_graph_min_cycles) and of delays fit in 62
+ * bits.  When t is not NULL, *t gets the node times (malloc'd).  Any other
+ * out-parameter may be NULL. */
+int bound_node_times(const pm_graph *g, int64_t **t, int64_t *total, int64_t *sum_delays,
                      uint32_t *largest, pm_diag *diag);
 
 /* PM_EZERODELAY with its diagnostic when a loop of g carries no delay. */
 int bound_check_zero_delay(const pm_graph *g, pm_diag *diag);
 
-/* A policy cycle's ratio p/q (reduced) and the smallest node on it. */
+/* A policy cycle's ratio p/q (reduced) and the smallest node on it
+ * (a local index). */
 typedef struct howard_cycle {
     int64_t p, q;
     uint32_t root;
 } howard_cycle;
 
-/* Policy iteration state over the whole graph; parts are solved one by
- * one and each leaves one entry in `cycles` (its bound and worst loop). */
+/* Node state, packed so that the improvement step touches one cache line
+ * per successor.  Narrow when every bias and step fits in 64 bits. */
+typedef struct hw_narrow {
+    int64_t x;           /* bias scaled by the cycle's q */
+    uint32_t cyc, pol;   /* index in cycles; policy (local edge position) */
+} hw_narrow;
+typedef struct hw_wide {
+    bnd_i128 x;
+    uint32_t cyc, pol;
+    uint64_t pad;
+} hw_wide;
+typedef struct he_narrow {
+    uint32_t dst, delay;
+} he_narrow;
+typedef struct he_wide {
+    uint32_t dst, pad;
+    int64_t delay;
+} he_wide;
+
+/* Policy iteration state.  Nodes are renumbered ("local" index) in the
+ * order of their strongly connected part, and the edges inside parts are
+ * copied into a compact CSR, so that the passes run over dense arrays. */
 typedef struct howard {
     const pm_graph *g;
-    const int64_t *t;
-    const uint32_t *comp;  /* strongly connected part of each node */
-    uint32_t *pol;         /* policy: chosen out-edge of each node */
-    uint32_t *cyc;         /* index in `cycles` of the node's policy cycle,
-                            * PM_NONE outside the parts with loops */
-    bnd_i128 *x;           /* biases scaled by the cycle's q */
+    uint32_t n;
+    const uint32_t *order; /* local -> node (the SCC order) */
+    uint32_t *map;         /* node -> local */
+    uint32_t *off;         /* local CSR of the edges inside parts */
+    void *adj;             /* he_narrow or he_wide */
+    int64_t *t;            /* local node times */
+    void *st;              /* hw_narrow or hw_wide per local node */
     uint32_t *stack;
-    howard_cycle *cycles;
+    uint32_t *seq;         /* scratch: peeling order of the policy graph */
+    uint32_t *nxt;         /* policy successor of each local node */
+    bool wide;
+    howard_cycle *cycles;  /* after solving: one entry per part */
     uint32_t ncycles, cycles_cap;
 } howard;
 
-int howard_init(howard *h, const pm_graph *g, const int64_t *t, const uint32_t *comp);
+/* ---- packed state accessors (wide is constant per run) ------------------ */
+
+static inline uint32_t *hw_cyc(const howard *h, uint32_t i)
+{
+    return h->wide ? &((hw_wide *)h->st)[i].cyc : &((hw_narrow *)h->st)[i].cyc;
+}
+
+static inline uint32_t *hw_pol(const howard *h, uint32_t i)
+{
+    return h->wide ? &((hw_wide *)h->st)[i].pol : &((hw_narrow *)h->st)[i].pol;
+}
+
+static inline bnd_i128 hw_x(const howard *h, uint32_t i)
+{
+    return h->wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
+}
+
+static inline void hw_set_x(const howard *h, uint32_t i, bnd_i128 x)
+{
+    if (h->wide)
+        ((hw_wide *)h->st)[i].x = x;
+    else
+        ((hw_narrow *)h->st)[i].x = (int64_t)x;
+}
+
+static inline uint32_t he_dst(const howard *h, uint32_t k)
+{
+    return h->wide ? ((he_wide *)h->adj)[k].dst : ((he_narrow *)h->adj)[k].dst;
+}
+
+static inline int64_t he_delay(const howard *h, uint32_t k)
+{
+    return h->wide ? ((he_wide *)h->adj)[k].delay : ((he_narrow *)h->adj)[k].delay;
+}
+
+/* Build the local CSR from the parts of s (s->comp and dst are used, then
+ * may be freed by the caller; dst[k] is the target of g->out_edge[k]).
+ * sum_t, sum_d: the graph's sums (they decide the width).  Then
+ * howard_alloc_state() before solving. */
+int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *dst,
+                int64_t sum_t, int64_t sum_d);
+int howard_alloc_state(howard *h);
 void howard_free(howard *h);
 
-/* Solve the part made of nodes[0..len) (component comp_id).  On return the
- * part's bound and worst-loop root are cycles[ncycles - 1] and every node
- * of the part has cyc == ncycles - 1. */
-int howard_solve_part(howard *h, const uint32_t *nodes, uint32_t len, uint32_t comp_id);
+/* Solve the part made of local nodes [a, b).  On return the part's bound
+ * and worst-loop root are cycles[ncycles - 1] and every node of the part
+ * has that cycle index. */
+int howard_solve_part(howard *h, uint32_t a, uint32_t b);
 
 /* The certificate: for every edge u -> v inside a part with bound p/q,
- * q*t(u) - p*d + x(v) <= x(u).  Returns PM_OK or PM_EINVAL (a bug). */
+ * q*t(u) - p*d + x(v) <= x(u), in exact integers.  PM_OK or PM_EINVAL (a
+ * bug).  One pass over the edges, O(E). */
 int howard_certify(const howard *h);
 
-/* Edge e is tight under the certified potentials and lies in a part whose
- * bound is p/q. */
-bool howard_tight(const howard *h, uint32_t e, int64_t p, int64_t q);
+/* Local edge k of local node i is tight under the certified potentials and
+ * its part's bound is p/q (i must lie in a part with a loop). */
+bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q);
 
-/* Fill loop with the policy cycle through `root` (rotated to its smallest
- * node); nodes/edges point into `store` (2 * len entries available). */
+/* The graph edge behind local edge position k of local node i. */
+uint32_t howard_graph_edge(const howard *h, uint32_t i, uint32_t k);
+
+/* Fill loop with the policy cycle through local node `root` (its smallest
+ * node); nodes/edges point into `store` (2 * len entries available).
+ * howard_policy_len gives len. */
+uint32_t howard_policy_len(const howard *h, uint32_t root);
 void howard_policy_loop(const howard *h, uint32_t root, uint32_t *store, pm_loop *loop);
 
 /* Critical loops of g: simple cycles of the edges tight for lambda = p/q,
@@ -66,6 +139,6 @@ int bound_critical_loops(const howard *h, int64_t p, int64_t q, uint32_t max,
                          pm_bound *out);
 
 /* Sums of node times and delays of a loop given by its edges. */
-void bound_loop_sums(const pm_graph *g, const int64_t *t, pm_loop *loop);
+void bound_loop_sums(const pm_graph *g, pm_loop *loop);
 
 #endif

@@ -20,25 +20,57 @@
 #include <stdlib.h>
 #include <string.h>
 
-typedef struct tight_ctx {
-    const howard *h;
-    int64_t p, q;
-} tight_ctx;
+/* The tight subgraph on local indices: tight edges of the critical parts,
+ * as targets (tdst) and local edge positions (tpos). */
+typedef struct tight_graph {
+    uint32_t *off, *dst, *pos;
+} tight_graph;
 
-static bool loops_keep_tight(const pm_graph *g, uint32_t e, void *ctx)
+static void tight_free(tight_graph *t)
 {
-    (void)g;
-    const tight_ctx *c = ctx;
-    return howard_tight(c->h, e, c->p, c->q);
+    free(t->off);
+    free(t->dst);
+    free(t->pos);
 }
 
-/* The local graph: nodes of nontrivial tight parts, in ascending id. */
+static int tight_build(const howard *h, int64_t p, int64_t q, tight_graph *t)
+{
+    memset(t, 0, sizeof *t);
+    t->off = calloc((size_t)h->n + 1, sizeof *t->off);
+    if (!t->off)
+        return PM_ENOMEM;
+    for (int pass = 0; pass < 2; pass++) {
+        for (uint32_t i = 0, at = 0; i < h->n; i++) {
+            for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
+                if (!howard_tight(h, i, k, p, q))
+                    continue;
+                if (pass) {
+                    t->dst[at] = he_dst(h, k);
+                    t->pos[at] = k;
+                }
+                at++;
+            }
+            if (!pass)
+                t->off[i + 1] = at;
+        }
+        if (!pass) {
+            t->dst = malloc(((size_t)t->off[h->n] + 1) * sizeof *t->dst);
+            t->pos = malloc(((size_t)t->off[h->n] + 1) * sizeof *t->pos);
+            if (!t->dst || !t->pos)
+                return PM_ENOMEM;
+        }
+    }
+    return PM_OK;
+}
+
+/* The local graph of Johnson's search: nodes of nontrivial tight parts,
+ * in ascending local index (ascending node id inside a part). */
 typedef struct loops_local {
     uint32_t n, m;
-    uint32_t *glob;   /* local -> global node */
-    uint32_t *off;    /* local CSR */
-    uint32_t *adj;    /* local successor */
-    uint32_t *eid;    /* global edge id */
+    uint32_t *glob;   /* Johnson index -> howard local index */
+    uint32_t *off;    /* CSR */
+    uint32_t *adj;    /* successor (Johnson index) */
+    uint32_t *eid;    /* graph edge id */
 } loops_local;
 
 static void loops_local_free(loops_local *l)
@@ -50,46 +82,48 @@ static void loops_local_free(loops_local *l)
     memset(l, 0, sizeof *l);
 }
 
-/* Build the local graph; map[] (nnodes entries) is scratch. */
-static int loops_local_build(const pm_graph *g, const pm_scc *ts, tight_ctx *tc,
+static bool loops_cyclic(const tight_graph *t, const pm_scc *ts, uint32_t i)
+{
+    uint32_t c = ts->comp[i];
+    if (ts->start[c + 1] - ts->start[c] > 1)
+        return true;
+    for (uint32_t k = t->off[i]; k < t->off[i + 1]; k++)
+        if (t->dst[k] == i)
+            return true;
+    return false;
+}
+
+/* Build the local graph; map[] (h->n entries) is scratch. */
+static int loops_local_build(const howard *h, const tight_graph *t, const pm_scc *ts,
                              uint32_t *map, loops_local *l)
 {
     memset(l, 0, sizeof *l);
-    for (uint32_t v = 0; v < g->nnodes; v++) {
-        bool in = pm_scc_has_cycle(g, ts, ts->comp[v], loops_keep_tight, tc);
-        map[v] = in ? l->n++ : PM_NONE;
-    }
+    for (uint32_t i = 0; i < h->n; i++)
+        map[i] = loops_cyclic(t, ts, i) ? l->n++ : PM_NONE;
     l->glob = malloc(((size_t)l->n + 1) * sizeof *l->glob);
     l->off = calloc((size_t)l->n + 1, sizeof *l->off);
     if (!l->glob || !l->off)
         return PM_ENOMEM;
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        if (map[v] != PM_NONE) {
-            l->glob[map[v]] = v;
-            for (uint32_t k = g->out_off[v]; k < g->out_off[v + 1]; k++) {
-                uint32_t e = g->out_edge[k], w = g->edges[e].dst;
-                if (map[w] != PM_NONE && ts->comp[w] == ts->comp[v] &&
-                    loops_keep_tight(g, e, tc))
-                    l->off[map[v] + 1]++;
-            }
+    for (uint32_t i = 0; i < h->n; i++)
+        if (map[i] != PM_NONE) {
+            l->glob[map[i]] = i;
+            for (uint32_t k = t->off[i]; k < t->off[i + 1]; k++)
+                l->off[map[i] + 1] += ts->comp[t->dst[k]] == ts->comp[i];
         }
-    for (uint32_t i = 0; i < l->n; i++)
-        l->off[i + 1] += l->off[i];
+    for (uint32_t j = 0; j < l->n; j++)
+        l->off[j + 1] += l->off[j];
     l->m = l->off[l->n];
     l->adj = malloc(((size_t)l->m + 1) * sizeof *l->adj);
     l->eid = malloc(((size_t)l->m + 1) * sizeof *l->eid);
     if (!l->adj || !l->eid)
         return PM_ENOMEM;
-    for (uint32_t i = 0, pos = 0; i < l->n; i++) {
-        uint32_t v = l->glob[i];
-        for (uint32_t k = g->out_off[v]; k < g->out_off[v + 1]; k++) {
-            uint32_t e = g->out_edge[k], w = g->edges[e].dst;
-            if (map[w] != PM_NONE && ts->comp[w] == ts->comp[v] &&
-                loops_keep_tight(g, e, tc)) {
-                l->adj[pos] = map[w];
-                l->eid[pos++] = e;
+    for (uint32_t j = 0, at = 0; j < l->n; j++) {
+        uint32_t i = l->glob[j];
+        for (uint32_t k = t->off[i]; k < t->off[i + 1]; k++)
+            if (ts->comp[t->dst[k]] == ts->comp[i]) {
+                l->adj[at] = map[t->dst[k]];
+                l->eid[at++] = howard_graph_edge(h, i, t->pos[k]);
             }
-        }
     }
     return PM_OK;
 }
@@ -98,7 +132,7 @@ static int loops_local_build(const pm_graph *g, const pm_scc *ts, tight_ctx *tc,
 typedef struct johnson {
     const loops_local *l;
     const pm_graph *g;
-    const int64_t *t;
+    const howard *h;
     uint8_t *blocked;
     uint32_t *bhead;          /* B lists: head per node, pool below */
     uint32_t *bval, *bnext;
@@ -129,10 +163,10 @@ static int johnson_emit(johnson *j, uint32_t depth, uint32_t last_edge)
     lp->nodes = store;
     lp->edges = store + len;
     for (uint32_t i = 0; i < len; i++) {
-        lp->nodes[i] = j->l->glob[j->fv[i]];
+        lp->nodes[i] = j->h->order[j->l->glob[j->fv[i]]];
         lp->edges[i] = i + 1 < len ? j->pedge[i] : last_edge;
     }
-    bound_loop_sums(j->g, j->t, lp);
+    bound_loop_sums(j->g, lp);
     return PM_OK;
 }
 
@@ -310,7 +344,7 @@ static int johnson_round(johnson *j, uint32_t *s)
 static int loops_enumerate(const loops_local *l, const howard *h, uint32_t max,
                            pm_bound *out)
 {
-    johnson j = { .l = l, .g = h->g, .t = h->t, .out = out, .max = max,
+    johnson j = { .l = l, .g = h->g, .h = h, .out = out, .max = max,
                   .bfree = PM_NONE };
     int rc = johnson_alloc(&j, l->n);
     out->critical = rc ? NULL : calloc((size_t)max + 1, sizeof *out->critical);
@@ -325,27 +359,31 @@ static int loops_enumerate(const loops_local *l, const howard *h, uint32_t max,
 int bound_critical_loops(const howard *h, int64_t p, int64_t q, uint32_t max,
                          pm_bound *out)
 {
-    tight_ctx tc = { h, p, q };
-    pm_scc ts;
-    int rc = pm_scc_compute(h->g, loops_keep_tight, &tc, &ts);
-    if (rc)
-        return rc;
-    loops_local l;
-    /* the policy array is no longer needed: reuse it as the local map */
-    rc = loops_local_build(h->g, &ts, &tc, h->pol, &l);
+    tight_graph t;
+    int rc = tight_build(h, p, q, &t);
+    pm_scc ts = { 0 };
+    if (rc == PM_OK) {
+        scc_csr c = { .n = h->n, .off = t.off, .list = t.dst };
+        rc = scc_run(&c, &ts);
+    }
+    loops_local l = { 0 };
+    /* the peeling scratch is no longer needed: reuse it as the local map */
+    if (rc == PM_OK)
+        rc = loops_local_build(h, &t, &ts, h->stack, &l);
     pm_scc_free(&ts);
+    tight_free(&t);
     if (rc == PM_OK)
         rc = loops_enumerate(&l, h, max, out);
     loops_local_free(&l);
     return rc;
 }
 
-void bound_loop_sums(const pm_graph *g, const int64_t *t, pm_loop *loop)
+void bound_loop_sums(const pm_graph *g, pm_loop *loop)
 {
     loop->cycles = 0;
     loop->delays = 0;
     for (uint32_t i = 0; i < loop->len; i++) {
-        loop->cycles += t[loop->nodes[i]];
+        loop->cycles += pm_graph_min_cycles(g, loop->nodes[i]);
         loop->delays += g->edges[loop->edges[i]].delay;
     }
 }

@@ -11,6 +11,7 @@
 
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 
 static void *graph_grow(void *ptr, size_t *cap, size_t need, size_t elem)
 {
@@ -23,22 +24,6 @@ static void *graph_grow(void *ptr, size_t *cap, size_t need, size_t elem)
     if (p)
         *cap = ncap;
     return p;
-}
-
-static uint64_t graph_hash_name(const char *s, size_t len)
-{
-    uint64_t h = 1469598103934665603ULL; /* FNV-1a */
-    for (size_t i = 0; i < len; i++) {
-        h ^= (unsigned char)s[i];
-        h *= 1099511628211ULL;
-    }
-    /* FNV's low bits mix poorly (bit 0 is the parity of the bytes' bit 0) and
-     * the table uses the low bits: finish with a 64-bit mixer (the
-     * finalizer of MurmurHash3) so names like n1, n2, ... spread out. */
-    h ^= h >> 33;
-    h *= 0xff51afd7ed558ccdULL;
-    h ^= h >> 33;
-    return h;
 }
 
 static void platform_free(pm_platform *p)
@@ -84,34 +69,98 @@ void pm_graph_destroy(pm_graph *g)
     free(g);
 }
 
-/* Slot i of the name table is hash[2i] (a node, or PM_NONE when empty) and
- * hash[2i+1] (the high 32 bits of its name's hash, its "tag").  A lookup
- * compares tags before it touches the node or its name, so a probe costs one
- * cache line; the home slot is the tag's low bits, so a rehash needs no
- * names. */
-static uint32_t graph_tag(const char *s, size_t len)
+/* The name table: open addressing, linear probing, load at most 1/2.  Slot
+ * i is hash[4i .. 4i+3]: the node (PM_NONE when empty), a 31-bit tag of the
+ * name's hash whose top bit says "longer than 8 bytes", and the name's first
+ * 8 bytes, zero-padded.  A name of at most 8 bytes is then recognised from
+ * its slot alone, one cache line, without touching the node or the names
+ * buffer; longer ones are confirmed against the names buffer.  The home slot
+ * is the tag's low bits, so a rehash needs no names. */
+#define GRAPH_SLOT 4
+#define GRAPH_LONG 0x80000000u
+
+typedef struct graph_key {
+    uint32_t tag;
+    uint32_t pre[2];
+} graph_key;
+
+/* Up to 8 bytes of s as a little-endian word (a byte loop: no read past
+ * the name, and no serial multiply chain as in byte-wise hashes). */
+static uint64_t graph_word(const char *s, size_t n)
 {
-    return (uint32_t)(graph_hash_name(s, len) >> 32);
+    uint64_t w = 0;
+    for (size_t i = 0; i < n && i < 8; i++)
+        w |= (uint64_t)(unsigned char)s[i] << (8 * i);
+    return w;
 }
 
-static void graph_slot_put(uint32_t *h, uint32_t cap, uint32_t v, uint32_t tag)
+/* The hash folds the name in 8-byte words, each mixed with the steps of
+ * MurmurHash3's 64-bit finalizer, then finalizes; the tag is its top half. */
+static graph_key graph_key_of(const char *s, size_t len)
 {
-    uint32_t i = tag & (cap - 1);
-    while (h[2 * i] != PM_NONE)
+    uint64_t w = graph_word(s, len);
+    uint64_t h = w ^ ((uint64_t)len * 0x9e3779b97f4a7c15ULL);
+    for (size_t i = 8; i < len; i += 8) {
+        h = (h ^ graph_word(s + i, len - i)) * 0xc4ceb9fe1a85ec53ULL;
+        h ^= h >> 29;
+    }
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdULL;
+    h ^= h >> 33;
+    h *= 0xc4ceb9fe1a85ec53ULL;
+    h ^= h >> 33;
+    graph_key k = { (uint32_t)(h >> 32) & ~GRAPH_LONG, { (uint32_t)w, (uint32_t)(w >> 32) } };
+    if (len > 8)
+        k.tag |= GRAPH_LONG;
+    return k;
+}
+
+static bool graph_slot_is(const uint32_t *slot, const graph_key *k)
+{
+    return slot[1] == k->tag && slot[2] == k->pre[0] && slot[3] == k->pre[1];
+}
+
+static void graph_slot_put(uint32_t *h, uint32_t cap, uint32_t v, const graph_key *k)
+{
+    uint32_t i = k->tag & (cap - 1);
+    while (h[GRAPH_SLOT * i] != PM_NONE)
         i = (i + 1) & (cap - 1);
-    h[2 * i] = v;
-    h[2 * i + 1] = tag;
+    uint32_t *slot = h + GRAPH_SLOT * i;
+    slot[0] = v;
+    slot[1] = k->tag;
+    slot[2] = k->pre[0];
+    slot[3] = k->pre[1];
+}
+
+/* Big tables are looked up at random: on 2 MiB pages (where the system
+ * grants them on request) their lookups miss the TLB far less often. */
+static void *graph_alloc_table(size_t bytes)
+{
+    const size_t huge = (size_t)2 << 20;
+    if (bytes < huge)
+        return malloc(bytes);
+    size_t size = (bytes + huge - 1) / huge * huge;
+    void *p = aligned_alloc(huge, size);
+#ifdef MADV_HUGEPAGE
+    if (p)
+        madvise(p, size, MADV_HUGEPAGE);
+#endif
+    return p;
 }
 
 static int graph_rehash(pm_graph *g, uint32_t cap)
 {
-    uint32_t *h = malloc((size_t)cap * 2 * sizeof *h);
+    size_t bytes = (size_t)cap * GRAPH_SLOT * sizeof(uint32_t);
+    uint32_t *h = graph_alloc_table(bytes);
     if (!h)
         return PM_ENOMEM;
-    memset(h, 0xff, (size_t)cap * 2 * sizeof *h);
-    for (uint32_t i = 0; i < g->hash_cap; i++)
-        if (g->hash[2 * i] != PM_NONE)
-            graph_slot_put(h, cap, g->hash[2 * i], g->hash[2 * i + 1]);
+    memset(h, 0xff, bytes);
+    for (uint32_t i = 0; i < g->hash_cap; i++) {
+        const uint32_t *old = g->hash + GRAPH_SLOT * i;
+        graph_key k = { old[1], { old[2], old[3] } };
+        if (old[0] != PM_NONE)
+            graph_slot_put(h, cap, old[0], &k);
+    }
     free(g->hash);
     g->hash = h;
     g->hash_cap = cap;
@@ -124,50 +173,63 @@ static bool graph_name_is(const pm_graph *g, uint32_t v, const char *name, size_
     return memcmp(s, name, len) == 0 && s[len] == '\0';
 }
 
+/* From slot *at on: the first node whose slot matches k (and, for a long
+ * name, whose name is `name` when confirm is set), or PM_NONE. */
+static uint32_t graph_probe(const pm_graph *g, uint32_t *at, const graph_key *k,
+                            const char *name, size_t len, bool confirm)
+{
+    uint32_t mask = g->hash_cap - 1;
+    for (uint32_t i = *at;; i = (i + 1) & mask) {
+        const uint32_t *slot = g->hash + GRAPH_SLOT * i;
+        *at = i;
+        if (slot[0] == PM_NONE)
+            return PM_NONE;
+        if (graph_slot_is(slot, k) &&
+            (!(k->tag & GRAPH_LONG) || !confirm || graph_name_is(g, slot[0], name, len)))
+            return slot[0];
+    }
+}
+
 uint32_t pm_graph_find(const pm_graph *g, const char *name, size_t len)
 {
     if (!g->hash_cap)
         return PM_NONE;
-    uint32_t tag = graph_tag(name, len), mask = g->hash_cap - 1;
-    for (uint32_t i = tag & mask; g->hash[2 * i] != PM_NONE; i = (i + 1) & mask)
-        if (g->hash[2 * i + 1] == tag && graph_name_is(g, g->hash[2 * i], name, len))
-            return g->hash[2 * i];
-    return PM_NONE;
-}
-
-/* The first slot at or after *slot whose tag matches (its node), or PM_NONE. */
-static uint32_t graph_probe_tag(const pm_graph *g, uint32_t *slot, uint32_t tag)
-{
-    uint32_t i = *slot, mask = g->hash_cap - 1;
-    while (g->hash[2 * i] != PM_NONE && g->hash[2 * i + 1] != tag)
-        i = (i + 1) & mask;
-    *slot = i;
-    return g->hash[2 * i];
+    graph_key k = graph_key_of(name, len);
+    uint32_t at = k.tag & (g->hash_cap - 1);
+    return graph_probe(g, &at, &k, name, len, true);
 }
 
 /* One group of at most 64 lookups, in stages: each stage starts the memory
- * loads the next one needs (slot, node, name) for all lookups of the group,
- * so their cache misses overlap instead of queueing one after another. */
+ * loads the next one needs for all lookups of the group (the slot; for long
+ * names the node and its name), so their cache misses overlap instead of
+ * queueing one after another. */
 static void graph_find_group(const pm_graph *g, const char *const *names, const size_t *lens,
                              size_t n, uint32_t *ids)
 {
-    uint32_t tag[64], slot[64];
+    graph_key key[64];
+    uint32_t at[64];
     for (size_t k = 0; k < n; k++) {
-        tag[k] = graph_tag(names[k], lens[k]);
-        slot[k] = tag[k] & (g->hash_cap - 1);
-        __builtin_prefetch(&g->hash[2 * slot[k]]);
+        key[k] = graph_key_of(names[k], lens[k]);
+        at[k] = key[k].tag & (g->hash_cap - 1);
+        __builtin_prefetch(g->hash + GRAPH_SLOT * at[k]);
     }
+    bool longs = false;
     for (size_t k = 0; k < n; k++) {
-        ids[k] = graph_probe_tag(g, &slot[k], tag[k]);
-        if (ids[k] != PM_NONE)
+        ids[k] = graph_probe(g, &at[k], &key[k], names[k], lens[k], false);
+        if (ids[k] != PM_NONE && (key[k].tag & GRAPH_LONG)) {
             __builtin_prefetch(&g->nodes[ids[k]].name);
+            longs = true;
+        }
     }
+    if (!longs)
+        return;
     for (size_t k = 0; k < n; k++)
-        if (ids[k] != PM_NONE)
+        if (ids[k] != PM_NONE && (key[k].tag & GRAPH_LONG))
             __builtin_prefetch(g->names + g->nodes[ids[k]].name);
     for (size_t k = 0; k < n; k++)
-        if (ids[k] != PM_NONE && !graph_name_is(g, ids[k], names[k], lens[k]))
-            ids[k] = pm_graph_find(g, names[k], lens[k]); /* a tag collision: rare */
+        if (ids[k] != PM_NONE && (key[k].tag & GRAPH_LONG) &&
+            !graph_name_is(g, ids[k], names[k], lens[k]))
+            ids[k] = pm_graph_find(g, names[k], lens[k]); /* same tag, other name: rare */
 }
 
 void pm_graph_find_many(const pm_graph *g, const char *const *names, const size_t *lens,
@@ -228,7 +290,8 @@ int pm_graph_add_node(pm_graph *g, const char *name, size_t len, int64_t cycles,
     v->pin_core = PM_NONE;
     v->pin_class = PM_NONE;
     v->work = PM_WORK_SPIN;
-    graph_slot_put(g->hash, g->hash_cap, g->nnodes, graph_tag(name, len));
+    graph_key k = graph_key_of(name, len);
+    graph_slot_put(g->hash, g->hash_cap, g->nnodes, &k);
     if (id)
         *id = g->nnodes;
     g->nnodes++;
@@ -335,8 +398,10 @@ uint32_t pm_graph_find_class(const pm_graph *g, const char *name, size_t len)
 static int graph_build_csr(const pm_graph *g, bool by_src, uint32_t **off_out,
                            uint32_t **list_out)
 {
-    uint32_t *off = calloc((size_t)g->nnodes + 1, sizeof *off);
-    uint32_t *list = malloc(((size_t)g->nedges + 1) * sizeof *list);
+    uint32_t *off = graph_alloc_table(((size_t)g->nnodes + 1) * sizeof *off);
+    uint32_t *list = graph_alloc_table(((size_t)g->nedges + 1) * sizeof *list);
+    if (off)
+        memset(off, 0, ((size_t)g->nnodes + 1) * sizeof *off);
     if (!off || !list) {
         free(off);
         free(list);

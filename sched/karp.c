@@ -205,7 +205,7 @@ int pm_bound_karp(const pm_graph *g, bool *has_loop, pm_rat *bound, pm_diag *dia
         return PM_EINVAL;
     *has_loop = false;
     int64_t *t, total;
-    int rc = bound_node_times(g, &t, &total, NULL, diag);
+    int rc = bound_node_times(g, &t, &total, NULL, NULL, diag);
     if (rc)
         return rc;
     karp k = { .g = g, .t = t };

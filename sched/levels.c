@@ -6,6 +6,7 @@
 #include "sched_internal.h"
 
 #include <stdlib.h>
+#include <string.h>
 
 bool sched_allowed(const pm_graph *g, uint32_t v, uint32_t c)
 {
@@ -32,60 +33,25 @@ int64_t sched_edge_cost(const pm_graph *g, uint32_t e, bool *overflow)
     return sched_add(c->latency, pw, overflow);
 }
 
-/* Kahn's algorithm over zero-delay edges with a min-heap of ready ids, so
- * the order is unique (smallest ready id first). */
-static void topo_heap_push(uint32_t *h, uint32_t *n, uint32_t v)
-{
-    uint32_t i = (*n)++;
-    while (i > 0 && h[(i - 1) / 2] > v) {
-        h[i] = h[(i - 1) / 2];
-        i = (i - 1) / 2;
-    }
-    h[i] = v;
-}
-
-static uint32_t topo_heap_pop(uint32_t *h, uint32_t *n)
-{
-    uint32_t top = h[0], last = h[--*n], i = 0;
-    for (;;) {
-        uint32_t c = 2 * i + 1;
-        if (c >= *n)
-            break;
-        if (c + 1 < *n && h[c + 1] < h[c])
-            c++;
-        if (h[c] >= last)
-            break;
-        h[i] = h[c];
-        i = c;
-    }
-    if (*n > 0)
-        h[i] = last;
-    return top;
-}
-
+/* Kahn's algorithm over zero-delay edges, first-in first-out: a fixed order. */
 int sched_topo(const pm_graph *g, uint32_t *order, pm_diag *diag)
 {
-    uint32_t n = g->nnodes, nh = 0, k = 0;
+    uint32_t n = g->nnodes, head = 0, k = 0;
     uint32_t *deg = calloc((size_t)n + 1, sizeof *deg);
-    uint32_t *heap = malloc(((size_t)n + 1) * sizeof *heap);
-    if (!deg || !heap) {
-        free(deg);
-        free(heap);
+    if (!deg)
         return PM_ENOMEM;
-    }
     for (uint32_t e = 0; e < g->nedges; e++)
         if (g->edges[e].delay == 0)
             deg[g->edges[e].dst]++;
-    for (uint32_t v = 0; v < n; v++)
+    for (uint32_t v = 0; v < n; v++) /* order[] doubles as the FIFO queue */
         if (deg[v] == 0)
-            topo_heap_push(heap, &nh, v);
-    while (nh > 0) {
-        uint32_t v = topo_heap_pop(heap, &nh);
-        order[k++] = v;
+            order[k++] = v;
+    while (head < k) {
+        uint32_t v = order[head++];
         for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
             const pm_edge *e = &g->edges[g->out_edge[i]];
             if (e->delay == 0 && --deg[e->dst] == 0)
-                topo_heap_push(heap, &nh, e->dst);
+                order[k++] = e->dst;
         }
     }
     int rc = PM_OK;
@@ -99,7 +65,6 @@ int sched_topo(const pm_graph *g, uint32_t *order, pm_diag *diag)
         rc = PM_EZERODELAY;
     }
     free(deg);
-    free(heap);
     return rc;
 }
 
@@ -234,7 +199,7 @@ static int check_runnable(const pm_graph *g, pm_diag *diag)
     return PM_OK;
 }
 
-int sched_check_graph(const pm_graph *g, pm_diag *diag)
+int sched_check_graph(const pm_graph *g, uint32_t *order, pm_diag *diag)
 {
     if (!g || !g->finalized || g->platform.ncores == 0) {
         pm_diag_set(diag, g ? g->file : "", 0, 0, "the graph is not finalized or has no core");
@@ -248,10 +213,73 @@ int sched_check_graph(const pm_graph *g, pm_diag *diag)
     int rc = check_runnable(g, diag);
     if (rc != PM_OK)
         return rc;
-    uint32_t *order = malloc(((size_t)g->nnodes + 1) * sizeof *order);
-    if (!order)
+    uint32_t *own = order ? NULL : malloc(((size_t)g->nnodes + 1) * sizeof *own);
+    if (!order && !own)
         return PM_ENOMEM;
-    rc = sched_topo(g, order, diag);
-    free(order);
+    rc = sched_topo(g, order ? order : own, diag);
+    free(own);
     return rc;
+}
+
+/* One direction of the compact adjacency, by a counting sort over the
+ * edges in index order (the graph's own adjacency order): one sequential
+ * pass over the edge array instead of a gather through it. */
+static int adj_side(const pm_graph *g, bool in, uint32_t **off, uint32_t **other,
+                    uint32_t **edge, int64_t **cost, bool *overflow)
+{
+    size_t m = 0;
+    *off = calloc((size_t)g->nnodes + 2, sizeof **off);
+    if (!*off)
+        return PM_ENOMEM;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        if (ed->delay == 0) {
+            (*off)[(in ? ed->dst : ed->src) + 2]++;
+            m++;
+        }
+    }
+    *other = malloc((m + 1) * sizeof **other);
+    *edge = malloc((m + 1) * sizeof **edge);
+    *cost = malloc((m + 1) * sizeof **cost);
+    if (!*other || !*edge || !*cost)
+        return PM_ENOMEM;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        (*off)[v + 2] += (*off)[v + 1];
+    for (uint32_t e = 0; e < g->nedges; e++) { /* off[v + 1] is v's fill point */
+        const pm_edge *ed = &g->edges[e];
+        if (ed->delay != 0)
+            continue;
+        uint32_t k = (*off)[(in ? ed->dst : ed->src) + 1]++;
+        (*other)[k] = in ? ed->src : ed->dst;
+        (*edge)[k] = e;
+        (*cost)[k] = sched_edge_cost(g, e, overflow);
+    }
+    return PM_OK;
+}
+
+int sched_adj_build(const pm_graph *g, sched_adj *a, bool *overflow)
+{
+    memset(a, 0, sizeof *a);
+    int rc = adj_side(g, true, &a->in_off, &a->in_src, &a->in_edge, &a->in_cost, overflow);
+    if (rc == PM_OK)
+        rc = adj_side(g, false, &a->out_off, &a->out_dst, &a->out_edge, &a->out_cost, overflow);
+    for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++)
+        if (a->in_off[v + 1] - a->in_off[v] > a->maxin)
+            a->maxin = a->in_off[v + 1] - a->in_off[v];
+    if (rc != PM_OK)
+        sched_adj_free(a);
+    return rc;
+}
+
+void sched_adj_free(sched_adj *a)
+{
+    free(a->in_off);
+    free(a->in_src);
+    free(a->in_edge);
+    free(a->in_cost);
+    free(a->out_off);
+    free(a->out_dst);
+    free(a->out_edge);
+    free(a->out_cost);
+    memset(a, 0, sizeof *a);
 }

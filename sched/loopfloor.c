@@ -15,39 +15,92 @@ typedef __int128 lf_wide; /* den * w - num * d cannot overflow 128 bits */
 
 typedef struct lf_ctx {
     const pm_graph *g;
-    uint32_t *edges;  /* edges inside cyclic parts */
-    uint32_t nedges;
     int64_t *w;       /* per graph edge: source time + transfer cost */
     lf_wide *dist;
     uint32_t *pred;   /* edge that last improved each node */
+    uint64_t budget;  /* node relaxations left before giving up */
+    uint32_t *walk;   /* pred-graph walk stamps */
+    uint32_t *q;      /* FIFO of nodes to relax (each queued at most once) */
+    bool *queued, *onloop, *inloop;
 } lf_ctx;
 
-/* Positive cycle under den*w - num*delay: returns its first edge or PM_NONE. */
-static uint32_t lf_find(lf_ctx *x, pm_rat r)
+/* A cycle among the predecessor links: an edge on it, or PM_NONE.  Such a
+ * cycle is positive (strict improvements only), so Bellman-Ford may stop
+ * long before its V passes (Cormen et al., Introduction to Algorithms,
+ * the predecessor subgraph lemma of Bellman-Ford). */
+static uint32_t lf_pred_cycle(lf_ctx *x)
 {
     const pm_graph *g = x->g;
-    uint32_t n = g->nnodes, last = PM_NONE;
+    uint32_t n = g->nnodes;
+    for (uint32_t v = 0; v < n; v++)
+        x->walk[v] = 0;
+    for (uint32_t v = 0; v < n; v++) {
+        uint32_t u = v;
+        while (x->walk[u] == 0 && x->pred[u] != PM_NONE) {
+            x->walk[u] = v + 1;
+            u = g->edges[x->pred[u]].src;
+        }
+        if (x->walk[u] == v + 1)
+            return x->pred[u];
+    }
+    return PM_NONE;
+}
+
+/* Work allowed in relaxed nodes: seconds, not hours, on any input. */
+#define LF_BUDGET (UINT64_C(1) << 30)
+
+/* Relax the loop edges out of u; queue the nodes that improve. */
+static void lf_relax(lf_ctx *x, pm_rat r, uint32_t u, uint32_t *q, uint32_t *tail, uint32_t n)
+{
+    const pm_graph *g = x->g;
+    for (uint32_t i = g->out_off[u]; i < g->out_off[u + 1]; i++) {
+        uint32_t ei = g->out_edge[i];
+        if (!x->inloop[ei])
+            continue;
+        const pm_edge *e = &g->edges[ei];
+        lf_wide c = (lf_wide)r.den * x->w[ei] - (lf_wide)r.num * e->delay;
+        if (x->dist[u] + c <= x->dist[e->dst])
+            continue;
+        x->dist[e->dst] = x->dist[u] + c;
+        x->pred[e->dst] = ei;
+        if (!x->queued[e->dst]) {
+            x->queued[e->dst] = true;
+            q[*tail % n] = e->dst;
+            (*tail)++;
+        }
+    }
+}
+
+/* Positive cycle under den*w - num*delay (Bellman-Ford with a FIFO queue,
+ * checking the predecessor links for a cycle every V relaxed nodes):
+ * returns an edge on one, PM_NONE when there is none, or sets *over when
+ * the budget runs out. */
+static uint32_t lf_find(lf_ctx *x, pm_rat r, bool *over)
+{
+    uint32_t n = x->g->nnodes, head = 0, tail = 0, since = 0;
     for (uint32_t v = 0; v < n; v++) {
         x->dist[v] = 0;
         x->pred[v] = PM_NONE;
+        x->queued[v] = x->onloop[v];
+        if (x->onloop[v])
+            x->q[tail++ % n] = v;
     }
-    for (uint32_t pass = 0; pass <= n; pass++) {
-        last = PM_NONE;
-        for (uint32_t i = 0; i < x->nedges; i++) {
-            const pm_edge *e = &g->edges[x->edges[i]];
-            lf_wide c = (lf_wide)r.den * x->w[x->edges[i]] - (lf_wide)r.num * e->delay;
-            if (x->dist[e->src] + c > x->dist[e->dst]) {
-                x->dist[e->dst] = x->dist[e->src] + c;
-                x->pred[e->dst] = x->edges[i];
-                last = e->dst;
-            }
-        }
-        if (last == PM_NONE)
+    while (head != tail) {
+        uint32_t u = x->q[head++ % n];
+        x->queued[u] = false;
+        lf_relax(x, r, u, x->q, &tail, n);
+        if (x->budget-- == 0) {
+            *over = true;
             return PM_NONE;
+        }
+        if (++since >= n) {
+            since = 0;
+            uint32_t e = lf_pred_cycle(x);
+            if (e != PM_NONE)
+                return e;
+        }
     }
-    for (uint32_t k = 0; k < n && x->pred[last] != PM_NONE; k++) /* into the cycle */
-        last = g->edges[x->pred[last]].src;
-    return x->pred[last];
+    return lf_pred_cycle(x); /* converged: a cycle can only remain if positive */
 }
 
 /* Ratio of the cycle through edge e0 along pred links; the nodes if wanted. */
@@ -69,13 +122,13 @@ static int lf_cycle(lf_ctx *x, uint32_t e0, pm_rat *ratio, uint32_t **loop, uint
     if (d == 0)
         return PM_EZERODELAY;
     int rc = pm_rat_make(w, d, ratio);
+    *nloop = len;
     if (rc != PM_OK || !loop)
         return rc;
     free(*loop);
     *loop = malloc((size_t)len * sizeof **loop);
     if (!*loop)
         return PM_ENOMEM;
-    *nloop = len;
     for (uint32_t i = len; i-- > 0;) { /* pred links run backwards */
         (*loop)[i] = v;
         v = g->edges[x->pred[v]].src;
@@ -90,9 +143,9 @@ static int lf_setup(lf_ctx *x, const pm_map *m)
     uint32_t ncomp = 0, *comp = malloc(((size_t)g->nnodes + 1) * sizeof *comp);
     bool *cyclic = NULL, ovf = false;
     int rc = comp ? sched_scc(g, comp, &ncomp, &cyclic) : PM_ENOMEM;
-    x->edges = malloc(((size_t)g->nedges + 1) * sizeof *x->edges);
+    x->inloop = calloc((size_t)g->nedges + 1, sizeof *x->inloop);
     x->w = malloc(((size_t)g->nedges + 1) * sizeof *x->w);
-    if (rc == PM_OK && (!x->edges || !x->w))
+    if (rc == PM_OK && (!x->inloop || !x->w))
         rc = PM_ENOMEM;
     for (uint32_t e = 0; rc == PM_OK && e < g->nedges; e++) {
         const pm_edge *ed = &g->edges[e];
@@ -102,7 +155,7 @@ static int lf_setup(lf_ctx *x, const pm_map *m)
             x->w[e] = sched_add(sched_add(x->w[e], cm->send + cm->recv, &ovf),
                                 sched_edge_cost(g, e, &ovf), &ovf);
         if (comp[ed->src] == comp[ed->dst] && cyclic[comp[ed->src]])
-            x->edges[x->nedges++] = e;
+            x->inloop[e] = x->onloop[ed->src] = true;
     }
     if (rc == PM_OK && ovf)
         rc = PM_ERANGE;
@@ -116,7 +169,10 @@ static int lf_improve(lf_ctx *x, pm_rat *floor, uint32_t **loop, uint32_t *nloop
     pm_rat r = pm_rat_int(-1); /* below every cycle's ratio: finds a first cycle */
     int rc = PM_OK;
     for (;;) {
-        uint32_t e = lf_find(x, r);
+        bool over = false;
+        uint32_t e = lf_find(x, r, &over);
+        if (over)
+            return PM_ELIMIT;
         if (e == PM_NONE)
             break;
         pm_rat next;
@@ -137,28 +193,39 @@ int pm_sched_loop_floor(const pm_graph *g, const pm_map *m, pm_rat *floor,
     *nloop = 0;
     if (loop)
         *loop = NULL;
-    int rc = sched_check_graph(g, diag);
+    int rc = sched_check_graph(g, NULL, diag);
     if (rc == PM_OK)
         rc = pm_map_check(m, g, diag);
     if (rc != PM_OK)
         return rc;
-    lf_ctx x = {.g = g};
+    lf_ctx x = {.g = g, .budget = LF_BUDGET};
     size_t n = (size_t)g->nnodes + 1;
     x.dist = malloc(n * sizeof *x.dist);
     x.pred = malloc(n * sizeof *x.pred);
-    rc = x.dist && x.pred ? lf_setup(&x, m) : PM_ENOMEM;
+    x.walk = malloc(n * sizeof *x.walk);
+    x.q = malloc(n * sizeof *x.q);
+    x.queued = calloc(n, sizeof *x.queued);
+    x.onloop = calloc(n, sizeof *x.onloop);
+    rc = x.dist && x.pred && x.walk && x.q && x.queued && x.onloop ? lf_setup(&x, m)
+                                                                    : PM_ENOMEM;
     if (rc == PM_OK)
         rc = lf_improve(&x, floor, loop, nloop);
     if (rc == PM_ERANGE)
         pm_diag_set(diag, g->file, 0, 0, "loop time exceeds 62 bits");
+    if (rc == PM_ELIMIT)
+        pm_diag_set(diag, g->file, 0, 0, "the loops are too large for the loop-time floor");
     if (rc != PM_OK && loop) {
         free(*loop);
         *loop = NULL;
         *nloop = 0;
     }
-    free(x.edges);
+    free(x.inloop);
+    free(x.q);
+    free(x.queued);
+    free(x.onloop);
     free(x.w);
     free(x.dist);
     free(x.pred);
+    free(x.walk);
     return rc;
 }

@@ -38,9 +38,10 @@ static int reader_init(reader_state *st, const char *name, const reader_limits *
     st->ref_col = malloc(refs * sizeof *st->ref_col);
     st->ref_id = malloc(refs * sizeof *st->ref_id);
     st->elines = malloc((READER_BATCH + 1) * sizeof *st->elines);
-    st->row = malloc(READER_MAX_CLASSES * sizeof *st->row);
+    st->nlines = malloc((READER_BATCH + 1) * sizeof *st->nlines);
+    st->rows = malloc((READER_BATCH + 1) * READER_MAX_CLASSES * sizeof *st->rows);
     if (st->g && st->ref_text && st->ref_len && st->ref_col && st->ref_id && st->elines &&
-        st->row)
+        st->nlines && st->rows)
         return PM_OK;
     pm_diag_set(diag, st->file, 0, 0, "out of memory");
     return st->rc = PM_ENOMEM;
@@ -54,7 +55,8 @@ static int reader_done(reader_state *st, pm_graph **out)
     free(st->ref_col);
     free(st->ref_id);
     free(st->elines);
-    free(st->row);
+    free(st->nlines);
+    free(st->rows);
     free(st->pins);
     free(st->class_col);
     if (st->rc == PM_OK) {
@@ -65,8 +67,9 @@ static int reader_done(reader_state *st, pm_graph **out)
     return st->rc;
 }
 
-/* An error stopped a line while earlier edge lines wait for their lookup:
- * an unknown name there comes first in the file, so it is the one reported. */
+/* An error stopped a line while earlier lines wait for their lookup: an
+ * error there (an unknown or duplicate name) comes first in the file, so it
+ * is the one reported. */
 static void reader_flush_before_error(reader_state *st)
 {
     pm_diag saved;
@@ -74,7 +77,7 @@ static void reader_flush_before_error(reader_state *st)
     if (st->diag)
         saved = *st->diag;
     st->rc = PM_OK;
-    if (reader_flush_edges(st) != PM_OK)
+    if (reader_flush(st) != PM_OK)
         return;
     st->rc = rc;
     if (st->diag)
@@ -102,13 +105,13 @@ static int reader_feed(reader_state *st, const char *buf, size_t len, bool eof, 
         st->line = buf + pos;
         st->line_len = n;
         st->pos = 0;
-        if (reader_parse_line(st) && st->nelines)
+        if (reader_parse_line(st) && (st->nelines || st->nnlines))
             reader_flush_before_error(st);
         pos = nl ? end + 1 : len;
     }
     *used = pos;
-    if (st->rc == PM_OK && st->nelines)
-        reader_flush_edges(st); /* the pending names point into buf */
+    if (st->rc == PM_OK)
+        reader_flush(st); /* the pending names point into buf */
     return st->rc;
 }
 

@@ -60,7 +60,22 @@ typedef struct reader_edge_line {
     pm_edge attrs;         /* delay, words, produce, consume */
 } reader_edge_line;
 
-/* Edge lines are looked up this many names at a time. */
+/* A node line waiting to be stored with its batch; its name is in the
+ * state's refs at the same index. */
+typedef struct reader_node_line {
+    uint32_t lineno, col;   /* of the name */
+    bool complete;          /* parsed to its end (else an error stopped it) */
+    bool has_cycles, per_class;
+    int64_t cycles, largest;
+    uint32_t cycles_col;
+    int64_t pin_core;       /* -1 = none */
+    uint32_t pin_class;     /* PM_NONE = none */
+    uint32_t pin_col;
+    pm_work_kind work;
+    uint32_t work_param;
+} reader_node_line;
+
+/* Node and edge lines are looked up this many names at a time. */
 #define READER_BATCH 1024u
 /* Most names one line can hold: a link takes at least 3 bytes ("->x"). */
 #define READER_MAX_CHAIN (PM_READER_MAX_LINE / 3 + 2)
@@ -90,9 +105,11 @@ typedef struct reader_state {
     size_t npins, pins_cap;
     uint64_t total_cycles;  /* sum over nodes of their largest cycles */
     uint64_t total_delay;   /* sum over edges of their delays */
-    int64_t *row;           /* scratch: per-class cycles of one node */
-    /* edge lines read but not yet resolved (see reader_flush_edges) */
-    const char **ref_text;  /* node names of their chains, into the text */
+    /* node or edge lines read but not yet looked up (reader_flush) */
+    reader_node_line *nlines;
+    size_t nnlines;
+    int64_t *rows;          /* per-class cycles of the pending node lines */
+    const char **ref_text;  /* names in the pending lines, into the text */
     size_t *ref_len;
     uint32_t *ref_col;
     uint32_t *ref_id;
@@ -120,12 +137,16 @@ const char *reader_found(reader_state *st);
 /* Parse the current line (lexer already positioned at its start). */
 int reader_parse_line(reader_state *st);
 
-/* Look up the names of the pending edge lines (all at once, so the memory
- * loads overlap), report the first unknown one, add the edges of the
- * complete lines in file order.  Called before any other statement, when the
- * batch is full, before the text under the pending names goes away, and on
- * an error (an unknown name on an earlier line is the error to report). */
+/* Node and edge lines are not stored one by one: their names are looked up
+ * in batches, so that the memory loads of many lookups overlap (reader_batch.c).
+ * Only one kind is pending at a time.  A flush looks the names up, reports
+ * the first error in file order (duplicate or unknown node, count limits)
+ * and stores the complete lines.  It happens before a statement of another
+ * kind, when a batch is full, before the text under the pending names goes
+ * away, and on an error (an error on an earlier line is the one to report). */
+int reader_flush_nodes(reader_state *st);
 int reader_flush_edges(reader_state *st);
+int reader_flush(reader_state *st);
 
 /* Whole-file checks after the last line; then the graph is finalized. */
 int reader_finish(reader_state *st);

@@ -2,10 +2,13 @@
  * reader_stmt.c - one parse function per `.pace` statement (docs/format.md).
  *
  * Each function opens with the grammar rule it implements, consumes the
- * tokens of the current line through the accept/expect helpers below, checks
- * values as it goes and stores them into the graph.  Checks that need the
- * whole file (pins against the final core count, classes that run nothing)
- * are in reader.c.  Every message names what was expected and what was found.
+ * tokens of the current line through the accept/expect helpers below and
+ * checks values as it goes.  Platform statements go straight into the graph;
+ * `node` and `edge` lines are kept pending and stored in batches by
+ * reader_batch.c (which checks duplicate and unknown names).  Checks that
+ * need the whole file (pins against the final core count, classes that run
+ * nothing) are in reader.c.  Every message names what was expected and what
+ * was found.
  */
 #include "reader_internal.h"
 
@@ -16,6 +19,7 @@
 #include <string.h>
 
 #define RD_MAX_STR "4611686018427387903" /* PM_MAX_VALUE, for messages */
+_Static_assert(PM_MAX_VALUE == INT64_C(4611686018427387903), "RD_MAX_STR is PM_MAX_VALUE");
 
 static bool rd_is(const reader_tok *t, const char *word)
 {
@@ -333,20 +337,16 @@ static int rd_interconnect(reader_state *st)
     return rd_end(st);
 }
 
-/* What one `node` line says, gathered before the node is stored. */
-typedef struct rd_nodeinfo {
-    const char *name;
-    size_t len;
-    uint32_t col;
-    bool has_cycles, per_class;
-    int64_t cycles, largest;
-    uint32_t cycles_col;
-    int64_t pin_core;       /* -1 = none */
-    uint32_t pin_class;     /* PM_NONE = none */
-    uint32_t pin_col;
-    pm_work_kind work;
-    uint32_t work_param;
-} rd_nodeinfo;
+/* The node line being read and its per-class cycles row. */
+static reader_node_line *rd_cur(reader_state *st)
+{
+    return &st->nlines[st->nnlines - 1];
+}
+
+static int64_t *rd_row(reader_state *st)
+{
+    return st->rows + (st->nnlines - 1) * READER_MAX_CLASSES;
+}
 
 /* A class name in a node line (the current token, a NAME); classes come
  * from an earlier `procs` line. */
@@ -366,11 +366,12 @@ static int rd_class_ref(reader_state *st, uint32_t *c)
 }
 
 /* per_class := NAME ':' INT { ',' NAME ':' INT } */
-static int rd_cycles_classes(reader_state *st, rd_nodeinfo *n)
+static int rd_cycles_classes(reader_state *st, reader_node_line *n)
 {
     uint32_t k = st->g->platform.nclasses, c;
+    int64_t *row = rd_row(st);
     for (uint32_t i = 0; i < k; i++)
-        st->row[i] = PM_CANNOT_RUN;
+        row[i] = PM_CANNOT_RUN;
     n->per_class = true;
     for (;;) {
         uint32_t col = st->tok.col;
@@ -379,22 +380,22 @@ static int rd_cycles_classes(reader_state *st, rd_nodeinfo *n)
         if (rd_class_ref(st, &c))
             return st->rc;
         const char *cname = st->g->platform.class_names[c];
-        if (st->row[c] != PM_CANNOT_RUN)
+        if (row[c] != PM_CANNOT_RUN)
             return reader_fail(st, PM_ESYNTAX, col, "class '%s' given twice in 'cycles'", cname);
         char after[PM_READER_MAX_NAME + 16];
         snprintf(after, sizeof after, "class '%s'", cname);
         rd_next(st);
-        if (rd_expect(st, TOK_COLON, "':'", after) || rd_int(st, cname, ':', &st->row[c]))
+        if (rd_expect(st, TOK_COLON, "':'", after) || rd_int(st, cname, ':', &row[c]))
             return st->rc;
-        if (st->row[c] > n->largest)
-            n->largest = st->row[c];
+        if (row[c] > n->largest)
+            n->largest = row[c];
         if (!rd_accept(st, TOK_COMMA))
             return st->rc;
     }
 }
 
 /* cycles := INT | per_class */
-static int rd_node_cycles(reader_state *st, rd_nodeinfo *n)
+static int rd_node_cycles(reader_state *st, reader_node_line *n)
 {
     n->has_cycles = true;
     n->cycles_col = st->tok.col;
@@ -408,7 +409,7 @@ static int rd_node_cycles(reader_state *st, rd_nodeinfo *n)
 }
 
 /* pin := INT | NAME */
-static int rd_node_pin(reader_state *st, rd_nodeinfo *n)
+static int rd_node_pin(reader_state *st, reader_node_line *n)
 {
     n->pin_col = st->tok.col;
     if (st->tok.kind == TOK_INT) {
@@ -424,7 +425,7 @@ static int rd_node_pin(reader_state *st, rd_nodeinfo *n)
 }
 
 /* work := 'spin' | 'fir' ':' INT | 'biquad' ':' INT | 'fft' ':' INT */
-static int rd_node_work(reader_state *st, rd_nodeinfo *n)
+static int rd_node_work(reader_state *st, reader_node_line *n)
 {
     static const char *const kinds[] = { "spin", "fir", "biquad", "fft" };
     static const char *const what[] = { "", "fir taps", "biquad sections", "fft size" };
@@ -458,16 +459,17 @@ static int rd_node_work(reader_state *st, rd_nodeinfo *n)
 }
 
 /* Checks once the whole node line is read. */
-static int rd_node_check(reader_state *st, const rd_nodeinfo *n)
+static int rd_node_check(reader_state *st, const reader_node_line *n)
 {
-    uint32_t name_col = n->col;
+    size_t i = st->nnlines - 1;
     if (!n->has_cycles)
-        return reader_fail(st, PM_ESYNTAX, name_col, "missing key 'cycles' for node '%.*s'",
-                           (int)n->len, n->name);
-    if (n->pin_class != PM_NONE && n->per_class && st->row[n->pin_class] == PM_CANNOT_RUN)
+        return reader_fail(st, PM_ESYNTAX, n->col, "missing key 'cycles' for node '%.*s'",
+                           (int)st->ref_len[i], st->ref_text[i]);
+    if (n->pin_class != PM_NONE && n->per_class && rd_row(st)[n->pin_class] == PM_CANNOT_RUN)
         return reader_fail(st, PM_EPLATFORM, n->pin_col,
                            "node '%.*s' is pinned to class '%s', but has no cycles for it",
-                           (int)n->len, n->name, st->g->platform.class_names[n->pin_class]);
+                           (int)st->ref_len[i], st->ref_text[i],
+                           st->g->platform.class_names[n->pin_class]);
     if ((uint64_t)n->largest > (uint64_t)PM_MAX_VALUE - st->total_cycles)
         return reader_fail(st, PM_ELIMIT, n->cycles_col,
                            "the cycles of all nodes add up to more than " RD_MAX_STR);
@@ -475,55 +477,20 @@ static int rd_node_check(reader_state *st, const rd_nodeinfo *n)
     return PM_OK;
 }
 
-static int rd_node_store(reader_state *st, const rd_nodeinfo *n)
-{
-    uint32_t v;
-    int rc = pm_graph_add_node(st->g, n->name, n->len, n->per_class ? 0 : n->cycles, &v);
-    if (rc == PM_OK && n->per_class)
-        rc = pm_graph_set_class_cycles(st->g, v, st->row);
-    if (rc == PM_OK && n->pin_core >= 0) {
-        reader_pin *p = st->pins;
-        if (st->npins == st->pins_cap) {
-            st->pins_cap = st->pins_cap ? 2 * st->pins_cap : 16;
-            p = realloc(st->pins, st->pins_cap * sizeof *p);
-        }
-        if (!p)
-            return reader_fail(st, PM_ENOMEM, n->pin_col, "out of memory");
-        st->pins = p;
-        p[st->npins++] = (reader_pin){ v, st->lineno, n->pin_col, n->pin_core };
-    }
-    if (rc)
-        return reader_fail(st, rc, n->col, rc == PM_ELIMIT ? "node names are too long in total"
-                                                           : "out of memory");
-    pm_node *nd = &st->g->nodes[v];
-    nd->line = st->lineno;
-    nd->col = n->col;
-    nd->pin_core = n->pin_core >= 0 && n->pin_core < READER_MAX_CORES ? (uint32_t)n->pin_core
-                                                                        : PM_NONE;
-    nd->pin_class = n->pin_class;
-    nd->work = n->work;
-    nd->work_param = n->work_param;
-    return PM_OK;
-}
-
-/* The node's name: valid, new, and within the node limit. */
-static int rd_node_name(reader_state *st, rd_nodeinfo *n)
+/* The node's name: a valid name, kept with the line for the batched lookup
+ * (where duplicates and the node limit are checked). */
+static int rd_node_name(reader_state *st)
 {
     if (st->tok.kind != TOK_NAME)
         return rd_expect(st, TOK_NAME, "a node name", "'node'");
     if (rd_check_name(st, "node"))
         return st->rc;
-    uint32_t old = pm_graph_find(st->g, st->tok.text, st->tok.len);
-    if (old != PM_NONE)
-        return reader_fail(st, PM_ENAME, st->tok.col,
-                           "duplicate node %s (first declared on line %u)", reader_found(st),
-                           st->g->nodes[old].line);
-    if (st->g->nnodes >= st->lim.max_nodes)
-        return reader_fail(st, PM_ELIMIT, st->tok.col, "too many nodes (at most %u)",
-                           st->lim.max_nodes);
-    n->name = st->tok.text;
-    n->len = st->tok.len;
-    n->col = st->tok.col;
+    size_t r = st->nrefs++;
+    st->ref_text[r] = st->tok.text;
+    st->ref_len[r] = st->tok.len;
+    st->nlines[st->nnlines++] = (reader_node_line){ .lineno = st->lineno, .col = st->tok.col,
+                                                    .pin_core = -1, .pin_class = PM_NONE,
+                                                    .work = PM_WORK_SPIN };
     return rd_next(st);
 }
 
@@ -531,21 +498,22 @@ static int rd_node_name(reader_state *st, rd_nodeinfo *n)
 static int rd_node(reader_state *st)
 {
     static const char *const keys[] = { "cycles", "pin", "work" };
-    rd_nodeinfo n = { .pin_core = -1, .pin_class = PM_NONE, .work = PM_WORK_SPIN };
     unsigned seen = 0, k;
-    if (rd_next(st) || rd_node_name(st, &n))
+    if (rd_next(st) || rd_node_name(st))
         return st->rc;
+    reader_node_line *n = rd_cur(st);
     while (st->tok.kind != TOK_END) {
         if (rd_key(st, "node", keys, 3, "cycles, pin or work", &seen, &k))
             return st->rc;
-        int rc = k == 0 ? rd_node_cycles(st, &n) : k == 1 ? rd_node_pin(st, &n)
-                                                           : rd_node_work(st, &n);
+        int rc = k == 0 ? rd_node_cycles(st, n) : k == 1 ? rd_node_pin(st, n)
+                                                          : rd_node_work(st, n);
         if (rc)
             return rc;
     }
-    if (rd_node_check(st, &n))
+    if (rd_node_check(st, n))
         return st->rc;
-    return rd_node_store(st, &n);
+    n->complete = true;
+    return st->nnlines >= READER_BATCH ? reader_flush_nodes(st) : PM_OK;
 }
 
 /* One node name of an edge chain, kept for the batched lookup. */
@@ -624,44 +592,6 @@ static int rd_edge(reader_state *st)
     return st->nrefs >= READER_BATCH ? reader_flush_edges(st) : PM_OK;
 }
 
-/* The edges of one pending line, its names known. */
-static int rd_edge_add(reader_state *st, const reader_edge_line *el)
-{
-    pm_edge e = el->attrs;
-    for (uint32_t i = el->first; i + 1 < el->first + el->count; i++) {
-        if (st->g->nedges >= st->lim.max_edges)
-            return reader_fail(st, PM_ELIMIT, st->ref_col[i], "too many edges (at most %u)",
-                               st->lim.max_edges);
-        e.src = st->ref_id[i];
-        e.dst = st->ref_id[i + 1];
-        e.line = el->lineno;
-        e.col = st->ref_col[i];
-        if (pm_graph_add_edge(st->g, &e, NULL))
-            return reader_fail(st, PM_ENOMEM, e.col, "out of memory");
-    }
-    return PM_OK;
-}
-
-int reader_flush_edges(reader_state *st)
-{
-    pm_graph_find_many(st->g, st->ref_text, st->ref_len, st->nrefs, st->ref_id);
-    uint32_t line = st->lineno;
-    for (size_t l = 0; l < st->nelines && st->rc == PM_OK; l++) {
-        const reader_edge_line *el = &st->elines[l];
-        st->lineno = el->lineno;
-        for (uint32_t i = el->first; i < el->first + el->count; i++)
-            if (st->ref_id[i] == PM_NONE)
-                return reader_fail(st, PM_ENAME, st->ref_col[i], "unknown node '%.*s' "
-                                   "(declare it with 'node' before this edge)",
-                                   (int)st->ref_len[i], st->ref_text[i]);
-        if (el->complete)
-            rd_edge_add(st, el);
-    }
-    st->lineno = line;
-    st->nrefs = st->nelines = 0;
-    return st->rc;
-}
-
 /* statement := title | clock | rate | procs | comm | interconnect | node | edge */
 int reader_parse_line(reader_state *st)
 {
@@ -673,8 +603,11 @@ int reader_parse_line(reader_state *st)
                   { "comm", rd_comm },   { "interconnect", rd_interconnect } };
     if (rd_next(st) || st->tok.kind == TOK_END)
         return st->rc;
-    if (st->nelines && !rd_is(&st->tok, "edge") && reader_flush_edges(st))
-        return st->rc; /* a node line must not change what earlier edges name */
+    /* a node line must not change what earlier edges name, nor an edge
+     * line miss the nodes before it */
+    if ((st->nelines && !rd_is(&st->tok, "edge")) || (st->nnlines && !rd_is(&st->tok, "node")))
+        if (reader_flush(st))
+            return st->rc;
     for (size_t i = 0; i < sizeof stmts / sizeof stmts[0]; i++)
         if (rd_is(&st->tok, stmts[i].word))
             return stmts[i].parse(st);

@@ -23,6 +23,7 @@ typedef struct sched_gap {
 
 typedef struct sched_lane {
     int64_t tail;
+    int64_t maxlen;  /* longest remembered gap: a longer job goes to the tail */
     uint32_t ngaps;
     sched_gap gaps[PM_SCHED_GAPS];
 } sched_lane;
@@ -33,13 +34,17 @@ int64_t sched_lane_fit(const sched_lane *l, int64_t r, int64_t w);
 /* Like sched_lane_fit for a send or receive: zero cycles occupy nothing,
  * so they happen at r itself. */
 int64_t sched_lane_fit_occ(const sched_lane *l, int64_t r, int64_t w);
-/* Mark [s, s + w) busy; s must come from sched_lane_fit(l, ., w). */
+/* Mark [s, s + w) busy; s must come from sched_lane_fit(l, ., w).  A
+ * zero-length job (a node of 0 cycles) splits the gap it falls in. */
 void sched_lane_reserve(sched_lane *l, int64_t s, int64_t w);
+/* For sends, receives and bus transfers: zero cycles reserve nothing. */
+void sched_lane_reserve_occ(sched_lane *l, int64_t s, int64_t w);
 
 /* a + b saturating at INT64_MAX; sets *overflow when it saturates. */
 int64_t sched_add(int64_t a, int64_t b, bool *overflow);
 
-/* Kahn order of the zero-delay edges into order[n] (ties: smaller id).
+/* Kahn order of the zero-delay edges into order[n] (sources by id, then
+ * first in, first out).
  * PM_EZERODELAY with diag naming a node on a zero-delay loop. */
 int sched_topo(const pm_graph *g, uint32_t *order, pm_diag *diag);
 
@@ -49,14 +54,40 @@ int sched_topo(const pm_graph *g, uint32_t *order, pm_diag *diag);
 int sched_scc(const pm_graph *g, uint32_t *comp, uint32_t *ncomp, bool **cyclic);
 
 /* Common input checks: finalized, single rate, zero-delay DAG, every node
- * runnable on some core, pins in range. */
-int sched_check_graph(const pm_graph *g, pm_diag *diag);
+ * runnable on some core, pins in range.  order (may be NULL) receives the
+ * topological order of sched_topo. */
+int sched_check_graph(const pm_graph *g, uint32_t *order, pm_diag *diag);
+
+/* An empty schedule for g (slots and busy zeroed, no transfers); NULL on
+ * ENOMEM. */
+pm_schedule *sched_schedule_alloc(const pm_graph *g);
+
+struct sched_adj;
+/* pm_sched_from_map without the input checks (g checked, m fits g); adj is
+ * g's compact adjacency or NULL (then built here). */
+int sched_time_map(const pm_graph *g, const pm_map *m, const struct sched_adj *adj,
+                   pm_schedule **out, pm_diag *diag);
 
 /* Whether core c may run v (pin and class). */
 bool sched_allowed(const pm_graph *g, uint32_t v, uint32_t c);
 
 /* Transfer cost latency + per_word * words of edge e (saturating). */
 int64_t sched_edge_cost(const pm_graph *g, uint32_t e, bool *overflow);
+
+/* The zero-delay edges in compact adjacency arrays (the hot loops of the
+ * scheduler touch nothing else): in-edges of v are [in_off[v], in_off[v+1])
+ * in the graph's in-edge order, out-edges likewise. */
+typedef struct sched_adj {
+    uint32_t *in_off, *in_src, *in_edge;
+    int64_t *in_cost;    /* latency + per_word * words */
+    uint32_t *out_off, *out_dst, *out_edge;
+    int64_t *out_cost;
+    uint32_t maxin;      /* largest zero-delay in-degree */
+} sched_adj;
+
+/* PM_ENOMEM; *overflow set when a cost saturates. */
+int sched_adj_build(const pm_graph *g, sched_adj *a, bool *overflow);
+void sched_adj_free(sched_adj *a);
 
 /* A binary min-heap of node ids ordered by a caller's "less" function. */
 typedef bool (*sched_less_fn)(const void *ctx, uint32_t a, uint32_t b);

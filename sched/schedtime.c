@@ -10,13 +10,22 @@
 #include <stdlib.h>
 #include <string.h>
 
+/* A ready node with its key inline: earliest start, core, id. */
+typedef struct tm_item {
+    int64_t est;
+    uint32_t core, v;
+} tm_item;
+
 typedef struct tm_ctx {
     const pm_graph *g;
+    const sched_adj *a;    /* zero-delay edges, compact */
+    sched_adj own;         /* built here when the caller has none */
+    tm_item *heap;
+    uint32_t nheap;
     const pm_map *m;
     pm_schedule *s;
     sched_lane *lanes;     /* one per core */
     sched_lane bus;
-    int64_t *est;          /* earliest possible start, set when ready */
     uint32_t *deps;        /* producers + core predecessor not yet timed */
     uint32_t *next;        /* next node on the same core, or PM_NONE */
     int64_t *last_end;     /* per core: end of the last timed node */
@@ -35,15 +44,41 @@ void pm_schedule_destroy(pm_schedule *s)
 }
 
 /* Ready nodes by earliest start, then core, then node id. */
-static bool tm_less(const void *ctx, uint32_t a, uint32_t b)
+static bool tm_before(tm_item a, tm_item b)
 {
-    const tm_ctx *t = ctx;
-    if (t->est[a] != t->est[b])
-        return t->est[a] < t->est[b];
-    uint32_t ca = t->m->core_of[a], cb = t->m->core_of[b];
-    if (ca != cb)
-        return ca < cb;
-    return a < b;
+    if (a.est != b.est)
+        return a.est < b.est;
+    return a.core != b.core ? a.core < b.core : a.v < b.v;
+}
+
+static void tm_heap_push(tm_ctx *t, tm_item it)
+{
+    uint32_t i = t->nheap++;
+    while (i > 0 && tm_before(it, t->heap[(i - 1) / 2])) {
+        t->heap[i] = t->heap[(i - 1) / 2];
+        i = (i - 1) / 2;
+    }
+    t->heap[i] = it;
+}
+
+static uint32_t tm_heap_pop(tm_ctx *t)
+{
+    tm_item *h = t->heap, last = h[--t->nheap];
+    uint32_t top = h[0].v, i = 0, n = t->nheap;
+    for (;;) {
+        uint32_t c = 2 * i + 1;
+        if (c >= n)
+            break;
+        if (c + 1 < n && tm_before(h[c + 1], h[c]))
+            c++;
+        if (!tm_before(h[c], last))
+            break;
+        h[i] = h[c];
+        i = c;
+    }
+    if (n > 0)
+        h[i] = last;
+    return top;
 }
 
 static int64_t tm_max(int64_t a, int64_t b)
@@ -51,17 +86,13 @@ static int64_t tm_max(int64_t a, int64_t b)
     return a > b ? a : b;
 }
 
-static void tm_push(tm_ctx *t, sched_heap *h, uint32_t v)
+static void tm_push(tm_ctx *t, uint32_t v)
 {
-    const pm_graph *g = t->g;
-    int64_t r = t->last_end[t->m->core_of[v]];
-    for (uint32_t i = g->in_off[v]; i < g->in_off[v + 1]; i++) {
-        const pm_edge *e = &g->edges[g->in_edge[i]];
-        if (e->delay == 0)
-            r = tm_max(r, t->s->slots[e->src].end);
-    }
-    t->est[v] = r;
-    sched_heap_push(h, v);
+    uint32_t c = t->m->core_of[v];
+    int64_t r = t->last_end[c];
+    for (uint32_t i = t->a->in_off[v]; i < t->a->in_off[v + 1]; i++)
+        r = tm_max(r, t->s->slots[t->a->in_src[i]].end);
+    tm_heap_push(t, (tm_item){r, c, v});
 }
 
 /* Receives of v's cross-core inputs; returns when all inputs are ready. */
@@ -69,18 +100,15 @@ static int64_t tm_inputs(tm_ctx *t, uint32_t v, uint32_t c)
 {
     const pm_graph *g = t->g;
     int64_t r = t->last_end[c], recv = g->platform.comm.recv;
-    for (uint32_t i = g->in_off[v]; i < g->in_off[v + 1]; i++) {
-        uint32_t ei = g->in_edge[i];
-        const pm_edge *e = &g->edges[ei];
-        if (e->delay != 0)
-            continue;
-        if (t->m->core_of[e->src] == c) {
-            r = tm_max(r, t->s->slots[e->src].end);
+    for (uint32_t i = t->a->in_off[v]; i < t->a->in_off[v + 1]; i++) {
+        const pm_slot *u = &t->s->slots[t->a->in_src[i]];
+        if (u->core == c) {
+            r = tm_max(r, u->end);
             continue;
         }
-        pm_transfer *tr = &t->s->transfers[t->tr_of_edge[ei]];
+        pm_transfer *tr = &t->s->transfers[t->tr_of_edge[t->a->in_edge[i]]];
         int64_t rs = sched_lane_fit_occ(&t->lanes[c], tr->arrival, recv);
-        sched_lane_reserve(&t->lanes[c], rs, recv);
+        sched_lane_reserve_occ(&t->lanes[c], rs, recv);
         tr->recv_start = rs;
         tr->recv_end = sched_add(rs, recv, &t->overflow);
         r = tm_max(r, tr->recv_end);
@@ -93,18 +121,18 @@ static void tm_outputs(tm_ctx *t, uint32_t v, uint32_t c)
 {
     const pm_graph *g = t->g;
     int64_t send = g->platform.comm.send, end = t->s->slots[v].end;
-    for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
-        uint32_t ei = g->out_edge[i];
+    for (uint32_t i = t->a->out_off[v]; i < t->a->out_off[v + 1]; i++) {
+        uint32_t ei = t->a->out_edge[i];
         if (t->tr_of_edge[ei] == PM_NONE)
             continue;
         pm_transfer *tr = &t->s->transfers[t->tr_of_edge[ei]];
         tr->send_start = sched_lane_fit_occ(&t->lanes[c], end, send);
-        sched_lane_reserve(&t->lanes[c], tr->send_start, send);
+        sched_lane_reserve_occ(&t->lanes[c], tr->send_start, send);
         tr->send_end = sched_add(tr->send_start, send, &t->overflow);
         tr->wire_start = tr->send_end;
         if (g->platform.interconnect == PM_BUS && tr->cost > 0) {
             tr->wire_start = sched_lane_fit(&t->bus, tr->send_end, tr->cost);
-            sched_lane_reserve(&t->bus, tr->wire_start, tr->cost);
+            sched_lane_reserve_occ(&t->bus, tr->wire_start, tr->cost);
         }
         tr->arrival = sched_add(tr->wire_start, tr->cost, &t->overflow);
     }
@@ -123,17 +151,14 @@ static void tm_node(tm_ctx *t, uint32_t v)
     tm_outputs(t, v, c);
 }
 
-static void tm_release(tm_ctx *t, sched_heap *h, uint32_t v)
+static void tm_release(tm_ctx *t, uint32_t v)
 {
-    const pm_graph *g = t->g;
-    for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
-        const pm_edge *e = &g->edges[g->out_edge[i]];
-        if (e->delay == 0 && --t->deps[e->dst] == 0)
-            tm_push(t, h, e->dst);
-    }
+    for (uint32_t i = t->a->out_off[v]; i < t->a->out_off[v + 1]; i++)
+        if (--t->deps[t->a->out_dst[i]] == 0)
+            tm_push(t, t->a->out_dst[i]);
     uint32_t nx = t->next[v];
     if (nx != PM_NONE && --t->deps[nx] == 0)
-        tm_push(t, h, nx);
+        tm_push(t, nx);
 }
 
 /* Transfers (one per cross-core zero-delay edge, by edge index) and the
@@ -185,21 +210,17 @@ static void tm_finish(tm_ctx *t)
 static int tm_run(tm_ctx *t, pm_diag *diag)
 {
     const pm_graph *g = t->g;
-    sched_heap h;
-    if (sched_heap_init(&h, g->nnodes, tm_less, t) != PM_OK)
-        return PM_ENOMEM;
     int rc = tm_setup(t);
     for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++)
         if (t->deps[v] == 0)
-            tm_push(t, &h, v);
+            tm_push(t, v);
     uint32_t done = 0;
-    while (rc == PM_OK && h.n > 0) {
-        uint32_t v = sched_heap_pop(&h);
+    while (rc == PM_OK && t->nheap > 0) {
+        uint32_t v = tm_heap_pop(t);
         tm_node(t, v);
-        tm_release(t, &h, v);
+        tm_release(t, v);
         done++;
     }
-    sched_heap_free(&h);
     if (rc == PM_OK && done < g->nnodes) {
         uint32_t v = 0;
         while (t->deps[v] == 0)
@@ -219,7 +240,7 @@ static int tm_run(tm_ctx *t, pm_diag *diag)
     return rc;
 }
 
-static pm_schedule *tm_alloc_schedule(const pm_graph *g)
+pm_schedule *sched_schedule_alloc(const pm_graph *g)
 {
     pm_schedule *s = calloc(1, sizeof *s);
     if (!s)
@@ -239,22 +260,30 @@ int pm_sched_from_map(const pm_graph *g, const pm_map *m, pm_schedule **out,
                       pm_diag *diag)
 {
     *out = NULL;
-    int rc = sched_check_graph(g, diag);
+    int rc = sched_check_graph(g, NULL, diag);
     if (rc == PM_OK)
         rc = pm_map_check(m, g, diag);
-    if (rc != PM_OK)
-        return rc;
+    return rc == PM_OK ? sched_time_map(g, m, NULL, out, diag) : rc;
+}
+
+int sched_time_map(const pm_graph *g, const pm_map *m, const sched_adj *adj,
+                   pm_schedule **out, pm_diag *diag)
+{
+    *out = NULL;
+    int rc;
     size_t n = (size_t)g->nnodes + 1, p = (size_t)g->platform.ncores + 1;
     tm_ctx t = {.g = g, .m = m};
-    t.s = tm_alloc_schedule(g);
+    t.s = sched_schedule_alloc(g);
     t.lanes = calloc(p, sizeof *t.lanes);
-    t.est = malloc(n * sizeof *t.est);
+    t.heap = malloc(n * sizeof *t.heap);
     t.deps = calloc(n, sizeof *t.deps);
     t.next = malloc(n * sizeof *t.next);
     t.last_end = calloc(p, sizeof *t.last_end);
     t.tr_of_edge = malloc(((size_t)g->nedges + 1) * sizeof *t.tr_of_edge);
     rc = PM_ENOMEM;
-    if (t.s && t.lanes && t.est && t.deps && t.next && t.last_end && t.tr_of_edge) {
+    t.a = adj ? adj : &t.own;
+    if (t.s && t.lanes && t.heap && t.deps && t.next && t.last_end && t.tr_of_edge &&
+        (adj || sched_adj_build(g, &t.own, &t.overflow) == PM_OK)) {
         for (uint32_t v = 0; v < g->nnodes; v++)
             t.next[v] = PM_NONE;
         rc = tm_run(&t, diag);
@@ -264,7 +293,8 @@ int pm_sched_from_map(const pm_graph *g, const pm_map *m, pm_schedule **out,
     else
         pm_schedule_destroy(t.s);
     free(t.lanes);
-    free(t.est);
+    free(t.heap);
+    sched_adj_free(&t.own);
     free(t.deps);
     free(t.next);
     free(t.last_end);

@@ -21,7 +21,17 @@ int64_t sched_add(int64_t a, int64_t b, bool *overflow)
 
 int64_t sched_lane_fit(const sched_lane *l, int64_t r, int64_t w)
 {
-    for (uint32_t i = 0; i < l->ngaps; i++) {
+    if (w > l->maxlen)
+        return l->tail > r ? l->tail : r;
+    uint32_t lo = 0, hi = l->ngaps; /* first gap ending at or after r */
+    while (lo < hi) {
+        uint32_t mid = (lo + hi) / 2;
+        if (l->gaps[mid].b < r)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    for (uint32_t i = lo; i < l->ngaps; i++) {
         const sched_gap *g = &l->gaps[i];
         int64_t s = g->a > r ? g->a : r;
         if (s < g->b && w <= g->b - s)
@@ -35,6 +45,12 @@ int64_t sched_lane_fit(const sched_lane *l, int64_t r, int64_t w)
 int64_t sched_lane_fit_occ(const sched_lane *l, int64_t r, int64_t w)
 {
     return w == 0 ? r : sched_lane_fit(l, r, w);
+}
+
+void sched_lane_reserve_occ(sched_lane *l, int64_t s, int64_t w)
+{
+    if (w > 0)
+        sched_lane_reserve(l, s, w);
 }
 
 /* Insert gap [a, b) at index i, forgetting the oldest gap when full. */
@@ -60,10 +76,16 @@ static void lane_remove_gap(sched_lane *l, uint32_t i)
     l->ngaps--;
 }
 
-void sched_lane_reserve(sched_lane *l, int64_t s, int64_t w)
+static void lane_update_max(sched_lane *l)
 {
-    if (w <= 0)
-        return;
+    l->maxlen = 0;
+    for (uint32_t i = 0; i < l->ngaps; i++)
+        if (l->gaps[i].b - l->gaps[i].a > l->maxlen)
+            l->maxlen = l->gaps[i].b - l->gaps[i].a;
+}
+
+static void lane_reserve(sched_lane *l, int64_t s, int64_t w)
+{
     if (s >= l->tail) {
         int64_t old = l->tail;
         l->tail = s + w;
@@ -79,6 +101,14 @@ void sched_lane_reserve(sched_lane *l, int64_t s, int64_t w)
         lane_insert_gap(l, i, g.a, s);
         return;
     }
+}
+
+void sched_lane_reserve(sched_lane *l, int64_t s, int64_t w)
+{
+    /* a zero-length job still splits its gap: nothing may later be
+     * inserted across it, or the core order would contradict the times */
+    lane_reserve(l, s, w < 0 ? 0 : w);
+    lane_update_max(l);
 }
 
 int sched_heap_init(sched_heap *h, uint32_t cap, sched_less_fn less, const void *ctx)

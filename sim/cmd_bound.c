@@ -1,12 +1,333 @@
 /*
- * cmd_bound.c - the 'bound' command (not written yet: exits with a usage error).
+ * cmd_bound.c - `pacemap bound FILE [-p N] [--loops N] [--json]`: the exact
+ * iteration bound, the loops that set it, the parts with loops worst first
+ * (the next bottlenecks), the floors for P cores and the real-time budget.
+ *
+ * Prints only; the numbers come from pm_bound_compute and pm_floors_compute
+ * (sched/bound.c, sched/floors.c).  What it does not do: schedule.
  */
 #include "cli.h"
 
+#include "pacemap/bound.h"
+#include "pacemap/json.h"
+
+#include <stdio.h>
+#include <string.h>
+
+#define BOUND_MAX_PARTS 20  /* parts listed, worst first */
+#define BOUND_LOOP_WIDTH 64 /* characters of a loop's node list in text */
+
+typedef struct bound_args {
+    uint32_t procs, loops;
+    bool procs_set, json;
+} bound_args;
+
+/* "37/2 = 18.5" or "40". */
+static const char *fmt_rat(char *buf, size_t len, pm_rat r)
+{
+    if (r.den == 1)
+        snprintf(buf, len, "%lld", (long long)r.num);
+    else
+        snprintf(buf, len, "%lld/%lld = %.6g", (long long)r.num, (long long)r.den,
+                 pm_rat_to_double(r));
+    return buf;
+}
+
+/* "a -> b -> c -> a", the middle left out past `width` characters. */
+static const char *fmt_loop(char *buf, size_t len, const pm_graph *g, const pm_loop *l,
+                            size_t width)
+{
+    size_t at = 0, cap = width < len ? width : len - 1;
+    buf[0] = '\0';
+    const char *last = pm_graph_node_name(g, l->nodes[0]);
+    for (uint32_t i = 0; i <= l->len; i++) {
+        const char *name = pm_graph_node_name(g, l->nodes[i % l->len]);
+        bool end = i == l->len;
+        if (!end && at + strlen(name) + strlen(last) + 16 > cap) {
+            snprintf(buf + at, len - at, "%s... (%u nodes) -> %s", i ? " -> " : "", l->len,
+                     last);
+            return buf;
+        }
+        int n = snprintf(buf + at, len - at, "%s%s", i ? " -> " : "", name);
+        at += n > 0 ? (size_t)n : 0;
+        if (at >= len)
+            break;
+    }
+    return buf;
+}
+
+static void text_critical(const pm_graph *g, const pm_bound *b)
+{
+    char lb[256];
+    printf("\ncritical loops (%u%s):\n", b->ncritical,
+           b->critical_truncated ? ", more exist" : "");
+    for (uint32_t i = 0; i < b->ncritical; i++) {
+        const pm_loop *l = &b->critical[i];
+        printf("  %-*s  %lld cycles / %lld delays\n", BOUND_LOOP_WIDTH,
+               fmt_loop(lb, sizeof lb, g, l, BOUND_LOOP_WIDTH), (long long)l->cycles,
+               (long long)l->delays);
+    }
+}
+
+static void text_parts(const pm_graph *g, const pm_bound *b)
+{
+    char rb[64], lb[256];
+    printf("\nparts with loops, worst first (%u of %u):\n", b->nparts, b->nparts_total);
+    printf("  %-24s %8s  %s\n", "bound", "nodes", "a loop that sets it");
+    for (uint32_t i = 0; i < b->nparts; i++) {
+        const pm_part *p = &b->parts[i];
+        printf("  %-24s %8u  %s\n", fmt_rat(rb, sizeof rb, p->bound), p->nnodes,
+               fmt_loop(lb, sizeof lb, g, &p->worst, 62));
+    }
+}
+
+static void text_floors(const pm_graph *g, const pm_bound *b, const pm_floors *f)
+{
+    char rb[64], what[160];
+    printf("\nfloors for %u core%s (cycles per iteration):\n", f->procs,
+           f->procs == 1 ? "" : "s");
+    if (f->has_loop)
+        printf("  %-40s %s\n", "loop (iteration bound)", fmt_rat(rb, sizeof rb, f->loop));
+    else
+        printf("  %-40s %s\n", "loop (iteration bound)", "none");
+    snprintf(what, sizeof what, "largest node (%.*s)", 24,
+             b->largest_node == PM_NONE ? "-" : pm_graph_node_name(g, b->largest_node));
+    printf("  %-40s %s\n", what, fmt_rat(rb, sizeof rb, f->node));
+    snprintf(what, sizeof what, "cores (%lld total / %u)", (long long)b->total_cycles,
+             f->procs);
+    printf("  %-40s %s\n", what, fmt_rat(rb, sizeof rb, f->cores));
+    printf("  %-40s %s   set by: %s\n", "lower bound", fmt_rat(rb, sizeof rb, f->lower_bound),
+           f->binding == PM_FLOOR_LOOP ? "the critical loop"
+           : f->binding == PM_FLOOR_NODE ? "the largest node" : "the total work on the cores");
+}
+
+static void text_budget(const pm_graph *g, const pm_floors *f)
+{
+    char rb[64];
+    double clock = (double)g->platform.clock_hz;
+    printf("\nbudget at %.6g MHz and %.6g kHz: %s cycles per iteration (%.3f us)\n",
+           clock / 1e6, (double)g->platform.rate_hz / 1e3, fmt_rat(rb, sizeof rb, f->budget),
+           pm_rat_to_double(f->budget) / clock * 1e6);
+    if (f->has_loop)
+        printf("  iteration bound: %s\n", f->loop_fits ? "fits" : "DOES NOT FIT");
+    printf("  lower bound:     %s, margin %s cycles (%.3f us)\n",
+           f->lower_fits ? "fits" : "DOES NOT FIT", fmt_rat(rb, sizeof rb, f->margin),
+           f->margin_us);
+}
+
+/* The caution, wrapped to 80 columns. */
+static void text_caution(void)
+{
+    const char *s = cli_caution;
+    while (*s) {
+        size_t n = strlen(s);
+        if (n > 80) {
+            n = 80;
+            while (n > 0 && s[n] != ' ')
+                n--;
+            if (n == 0)
+                n = 80;
+        }
+        printf("%.*s\n", (int)n, s);
+        s += n;
+        while (*s == ' ')
+            s++;
+    }
+}
+
+static void bound_text(const char *file, const pm_graph *g, const pm_bound *b,
+                       const pm_floors *f)
+{
+    char rb[64];
+    printf("%s: %u nodes, %u edges, %u part%s with loops\n\n", file, g->nnodes, g->nedges,
+           b->nparts_total, b->nparts_total == 1 ? "" : "s");
+    if (!b->has_loop) {
+        printf("iteration bound: none - the graph has no loop, so no loop bounds it;\n"
+               "the floor comes from the cores alone (work / P, the largest node)\n");
+    } else {
+        printf("iteration bound: %s cycles per iteration", fmt_rat(rb, sizeof rb,
+                                                                   b->iteration_bound));
+        if (g->platform.clock_hz)
+            printf(" (%.4g us at %.6g MHz)", pm_rat_to_double(b->iteration_bound) /
+                                                 (double)g->platform.clock_hz * 1e6,
+                   (double)g->platform.clock_hz / 1e6);
+        printf("\n");
+        text_critical(g, b);
+        text_parts(g, b);
+    }
+    text_floors(g, b, f);
+    if (f->has_budget)
+        text_budget(g, f);
+    printf("\n");
+    text_caution();
+}
+
+static void json_loop(pm_json *j, const pm_graph *g, const pm_loop *l)
+{
+    pm_json_object_begin(j);
+    pm_json_key(j, "nodes");
+    pm_json_array_begin(j);
+    for (uint32_t i = 0; i < l->len; i++)
+        pm_json_string(j, pm_graph_node_name(g, l->nodes[i]));
+    pm_json_array_end(j);
+    pm_json_key(j, "cycles");
+    pm_json_int(j, l->cycles);
+    pm_json_key(j, "delays");
+    pm_json_int(j, l->delays);
+    pm_json_object_end(j);
+}
+
+static void json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
+{
+    pm_json_key(j, "parts");
+    pm_json_array_begin(j);
+    for (uint32_t i = 0; i < b->nparts; i++) {
+        pm_json_object_begin(j);
+        pm_json_key(j, "nodes");
+        pm_json_uint(j, b->parts[i].nnodes);
+        pm_json_key(j, "first_node");
+        pm_json_string(j, pm_graph_node_name(g, b->parts[i].first_node));
+        pm_json_key(j, "bound");
+        pm_json_rat(j, b->parts[i].bound);
+        pm_json_key(j, "worst_loop");
+        json_loop(j, g, &b->parts[i].worst);
+        pm_json_object_end(j);
+    }
+    pm_json_array_end(j);
+    pm_json_key(j, "parts_total");
+    pm_json_uint(j, b->nparts_total);
+}
+
+static void json_floors(pm_json *j, const pm_graph *g, const pm_bound *b, const pm_floors *f)
+{
+    pm_json_key(j, "floors");
+    pm_json_object_begin(j);
+    pm_json_key(j, "loop");
+    if (f->has_loop)
+        pm_json_rat(j, f->loop);
+    else
+        pm_json_null(j);
+    pm_json_key(j, "node");
+    pm_json_rat(j, f->node);
+    pm_json_key(j, "largest_node");
+    if (b->largest_node == PM_NONE)
+        pm_json_null(j);
+    else
+        pm_json_string(j, pm_graph_node_name(g, b->largest_node));
+    pm_json_key(j, "cores");
+    pm_json_rat(j, f->cores);
+    pm_json_object_end(j);
+    pm_json_key(j, "binding");
+    pm_json_string(j, pm_floor_name(f->binding));
+}
+
+static void json_budget(pm_json *j, const pm_graph *g, const pm_floors *f)
+{
+    pm_json_key(j, "budget");
+    if (!f->has_budget) {
+        pm_json_null(j);
+        return;
+    }
+    pm_json_object_begin(j);
+    pm_json_key(j, "clock_hz");
+    pm_json_uint(j, g->platform.clock_hz);
+    pm_json_key(j, "rate_hz");
+    pm_json_uint(j, g->platform.rate_hz);
+    pm_json_key(j, "cycles");
+    pm_json_rat(j, f->budget);
+    pm_json_key(j, "loop_fits");
+    pm_json_bool(j, f->loop_fits);
+    pm_json_key(j, "lower_fits");
+    pm_json_bool(j, f->lower_fits);
+    pm_json_key(j, "margin_cycles");
+    pm_json_rat(j, f->margin);
+    pm_json_key(j, "margin_us");
+    pm_json_double(j, f->margin_us);
+    pm_json_object_end(j);
+}
+
+static void bound_json(const char *file, const pm_graph *g, const pm_bound *b,
+                       const pm_floors *f)
+{
+    pm_json j;
+    pm_json_init(&j, stdout, 2);
+    pm_json_object_begin(&j);
+    pm_json_key(&j, "file");
+    pm_json_string(&j, file);
+    pm_json_key(&j, "iteration_bound");
+    if (b->has_loop)
+        pm_json_rat(&j, b->iteration_bound);
+    else
+        pm_json_null(&j);
+    pm_json_key(&j, "critical_loops");
+    pm_json_array_begin(&j);
+    for (uint32_t i = 0; i < b->ncritical; i++)
+        json_loop(&j, g, &b->critical[i]);
+    pm_json_array_end(&j);
+    pm_json_key(&j, "critical_truncated");
+    pm_json_bool(&j, b->critical_truncated);
+    pm_json_key(&j, "total_cycles");
+    pm_json_int(&j, b->total_cycles);
+    pm_json_key(&j, "procs");
+    pm_json_uint(&j, f->procs);
+    pm_json_key(&j, "lower_bound");
+    pm_json_rat(&j, f->lower_bound);
+    json_floors(&j, g, b, f);
+    json_parts(&j, g, b);
+    json_budget(&j, g, f);
+    pm_json_object_end(&j);
+    pm_json_finish(&j);
+}
+
+static int bound_fail(const pm_graph *g, int rc, pm_diag *d)
+{
+    if (!d->msg[0])
+        pm_diag_set(d, g->file, 0, 0, "bound: %s", pm_strerror(rc));
+    cli_error(d);
+    return cli_exit_for(rc);
+}
+
 int pm_cmd_bound(int argc, char **argv)
 {
-    (void)argc;
-    (void)argv;
-    cli_usage_error("bound: not available yet");
-    return CLI_EXIT_USAGE;
+    bound_args a = { .loops = PM_BOUND_DEFAULT_MAX_CRITICAL };
+    const cli_opt opts[] = {
+        { "-p", "--procs", CLI_U32, &a.procs, &a.procs_set,
+          "cores for the floors (default: the scenario's procs)", "N" },
+        { "--loops", NULL, CLI_U32, &a.loops, NULL,
+          "critical loops listed at most (default 16)", "N" },
+        { "--json", NULL, CLI_FLAG, &a.json, NULL, "machine output (docs/json.md)", NULL },
+        { NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL },
+    };
+    const cli_cmd cmd = { "bound", "FILE [-p N] [--loops N] [--json]",
+                          "Exact iteration bound, the loops that set it, and the floors "
+                          "for P cores.", opts };
+    const char *file;
+    int st = cli_parse(&cmd, argc, argv, &file);
+    if (st >= 0)
+        return st;
+    if (a.loops == 0) {
+        cli_usage_error("bound: --loops must be at least 1");
+        return CLI_EXIT_USAGE;
+    }
+    pm_graph *g;
+    st = cli_load(file, a.procs_set, a.procs, &g);
+    if (st != CLI_EXIT_OK)
+        return st;
+    pm_bound b;
+    pm_floors f;
+    pm_diag d;
+    pm_diag_clear(&d);
+    pm_bound_opts bo = { .max_critical = a.loops, .max_parts = BOUND_MAX_PARTS };
+    int rc = pm_bound_compute(g, &bo, &b, &d);
+    if (rc == PM_OK)
+        rc = pm_floors_compute(g, &b, g->platform.ncores, &f);
+    if (rc == PM_OK && a.json)
+        bound_json(file, g, &b, &f);
+    else if (rc == PM_OK)
+        bound_text(file, g, &b, &f);
+    else
+        st = bound_fail(g, rc, &d);
+    pm_bound_free(&b);
+    pm_graph_destroy(g);
+    return st;
 }

@@ -328,8 +328,13 @@ static int sc_compute(const sc_args *a, sc_result *r)
     } else {
         rc = pm_sched_list(r->g, &o, &r->s, &r->m, &d);
     }
-    if (rc == PM_OK)
+    if (rc == PM_OK) {
         rc = pm_sched_loop_floor(r->g, r->m, &r->floor, &r->loop, &r->nloop, &d);
+        if (rc == PM_ELIMIT) { /* an extra, not worth failing the command */
+            cli_warning("%s", d.msg);
+            rc = PM_OK;
+        }
+    }
     if (rc != PM_OK) {
         if (!d.msg[0])
             pm_diag_set(&d, r->file, 0, 0, "%s", pm_strerror(rc));

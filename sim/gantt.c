@@ -98,9 +98,11 @@ static int tx_col(const tx_layout *l, int64_t t)
     return (int)((__int128)t * l->cols / l->span);
 }
 
-/* One lane row: '|' opens each box, then its label, then '-' padding. */
-static void tx_lane(const pm_gantt *c, const tx_layout *l, uint32_t lane, char *row)
+/* One lane row: '|' opens each box, then its label, then '-' padding; '#'
+ * where several boxes open in one column.  Returns whether '#' was used. */
+static bool tx_lane(const pm_gantt *c, const tx_layout *l, uint32_t lane, char *row)
 {
+    bool crowded = false;
     memset(row, ' ', (size_t)l->cols);
     row[l->cols] = '\0';
     for (size_t i = 0; i < c->nboxes; i++) {
@@ -115,10 +117,13 @@ static void tx_lane(const pm_gantt *c, const tx_layout *l, uint32_t lane, char *
         if (c1 > l->cols)
             c1 = l->cols;
         const char *s = b->label ? b->label : "";
-        row[c0] = '|';
+        bool again = row[c0] == '|' || row[c0] == '#';
+        crowded = crowded || again;
+        row[c0] = again ? '#' : '|';
         for (int k = c0 + 1; k < c1; k++)
             row[k] = *s ? *s++ : '-';
     }
+    return crowded;
 }
 
 /* Tick labels under the chart, left-aligned at their cell, never overlapping. */
@@ -167,14 +172,17 @@ int pm_gantt_write_text(const pm_gantt *c, FILE *out, int width)
         return PM_ENOMEM;
     if (c->title)
         fprintf(out, "%.*s\n", width, c->title);
+    bool crowded = false;
     for (uint32_t i = 0; i < c->nlanes; i++) {
-        tx_lane(c, &l, i, row);
+        crowded = tx_lane(c, &l, i, row) || crowded;
         fprintf(out, "%-*.*s |%s|\n", l.lw, l.lw, c->lane_names[i], row);
     }
     free(row);
     tx_ticks(&l, out, 0);
     if (c->clock_hz)
         tx_ticks(&l, out, c->clock_hz);
+    if (crowded)
+        gantt_wrap(out, "# marks several nodes starting within one column", width, NULL, NULL);
     if (c->caution)
         gantt_wrap(out, c->caution, width, NULL, NULL);
     return ferror(out) ? PM_EIO : PM_OK;

@@ -1,16 +1,17 @@
 /*
- * sim.c - the event engine of the self-timed simulator (sim.h).
+ * sim.c - the engines of the self-timed simulator (sim.h).
  *
- * Events are processed in time order from one binary heap, keyed
- * (time, phase, core, edge, iteration): phase 0 a core tries its next
- * firing, phase 1 a bus request is queued, phase 2 the bus is granted.
- * A firing is committed as soon as every time it depends on is known
- * (its begin may lie ahead of the clock; without contention that is
- * exact), so p2p runs are a max-plus recursion driven in time order, and
- * bus grants still see every earlier request.  A core that cannot go on
- * registers on the node it waits for and is woken when that node fires
- * (or its transfer is granted): no polling.  Steady state, critical chain
- * and deadlock reports are in sim_report.c.
+ * Three ways to run the same semantics (docs/simulation.md):
+ *  - the sweep: point-to-point links and no zero-delay cycle in the IPC
+ *    graph; the max-plus recursion evaluated iteration by iteration in one
+ *    topological order (fastest, cannot deadlock);
+ *  - the causal engine: a bus, or a map that deadlocks; cores fire
+ *    whatever is ready, sleep on wake-up lists, and the bus grants the
+ *    oldest request once nothing can fire any more;
+ *  - shared bookkeeping: sliding rings of begin times and causes, token
+ *    counts per cross-core edge, fingerprints for the steady state.
+ * The end-of-run analysis (period, chain, deadlock cycle) is in
+ * sim_report.c.  Nothing here prints.
  */
 #include "pacemap/sim.h"
 
@@ -20,8 +21,10 @@
 #include "sim_internal.h"
 
 #define SIM_MEM_LIMIT (UINT64_C(1) << 30) /* bytes of rings before PM_ELIMIT */
+#define SIM_LAG 8 /* p2p: iterations a core may run ahead of the slowest */
+#define SIM_PREFETCH 6 /* firings ahead whose data is prefetched */
 
-/* ---- heap ------------------------------------------------------------- */
+/* ---- heap of bus requests, keyed (time, phase, core, edge, iteration) --- */
 
 static bool sim_ev_less(const sim_ev *a, const sim_ev *b)
 {
@@ -81,20 +84,25 @@ static sim_ev sim_heap_pop(sim_heap *h)
 
 /* ---- token counts ----------------------------------------------------- */
 
-static int sim_occ_queue(sim_occ *o, int64_t t, bool pop)
+static int sim_occ_grow(sim_occ *o)
 {
-    if (o->len == o->cap) {
-        uint32_t nc = o->cap ? o->cap * 2 : 4;
-        int64_t *nq = malloc(nc * sizeof *nq);
-        if (!nq)
-            return PM_ENOMEM;
-        for (uint32_t i = 0; i < o->len; i++)
-            nq[i] = o->q[(o->head + i) & (o->cap - 1)];
-        free(o->q);
-        o->q = nq;
-        o->cap = nc;
-        o->head = 0;
-    }
+    uint32_t nc = o->cap ? o->cap * 2 : 4;
+    int64_t *nq = malloc(nc * sizeof *nq);
+    if (!nq)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < o->len; i++)
+        nq[i] = o->q[(o->head + i) & (o->cap - 1)];
+    free(o->q);
+    o->q = nq;
+    o->cap = nc;
+    o->head = 0;
+    return PM_OK;
+}
+
+static inline int sim_occ_queue(sim_occ *o, int64_t t, bool pop)
+{
+    if (o->len == o->cap && sim_occ_grow(o))
+        return PM_ENOMEM;
     o->q[(o->head + o->len++) & (o->cap - 1)] = t;
     o->pops = pop;
     return PM_OK;
@@ -119,7 +127,7 @@ static void sim_occ_apply_push(sim_occ *o)
 
 /* A token pushed at time t.  Pops at the same time go first: a slot
  * freed and refilled in the same cycle is one slot (docs/simulation.md). */
-static int sim_occ_push(sim_occ *o, int64_t t)
+static inline int sim_occ_push(sim_occ *o, int64_t t)
 {
     if (o->len && o->pops) {
         while (o->len && sim_occ_front(o) <= t) {
@@ -134,7 +142,7 @@ static int sim_occ_push(sim_occ *o, int64_t t)
     return sim_occ_queue(o, t, false);
 }
 
-static int sim_occ_pop(sim_occ *o, int64_t t)
+static inline int sim_occ_pop(sim_occ *o, int64_t t)
 {
     if (o->len && !o->pops) {
         while (o->len && sim_occ_front(o) < t) {
@@ -185,12 +193,12 @@ static int sim_alloc_nodes(sim *s)
     s->t = calloc(n + 1, sizeof *s->t);
     s->recv = calloc(n + 1, sizeof *s->recv);
     s->send = calloc(n + 1, sizeof *s->send);
+    s->nd = calloc(n + 1, sizeof *s->nd);
     s->in_off = calloc(n + 1, sizeof *s->in_off);
     s->ins = calloc(e + 1, sizeof *s->ins);
     s->xout_off = calloc(n + 1, sizeof *s->xout_off);
-    s->xin_off = calloc(n + 1, sizeof *s->xin_off);
     s->xout = calloc(e + 1, sizeof *s->xout);
-    s->xin = calloc(e + 1, sizeof *s->xin);
+    s->xs_of = calloc(e + 1, sizeof *s->xs_of);
     s->x = calloc(e + 1, sizeof *s->x);
     s->occ = calloc(e + 1, sizeof *s->occ);
     s->pos_of = calloc(n + 1, sizeof *s->pos_of);
@@ -207,11 +215,14 @@ static int sim_alloc_nodes(sim *s)
     s->wait_edge = calloc(P + 1, sizeof *s->wait_edge);
     s->wait_fifo = calloc(P + 1, sizeof *s->wait_fifo);
     s->queued = calloc(P + 1, sizeof *s->queued);
-    if (!s->t || !s->recv || !s->send || !s->in_off || !s->ins || !s->xout_off ||
-        !s->xin_off || !s->xout || !s->xin || !s->x || !s->occ || !s->pos_of || !s->done ||
+    s->lagged = calloc(P + 1, sizeof *s->lagged);
+    s->relax = calloc(P + 1, sizeof *s->relax);
+    s->runq = calloc(P + 1, sizeof *s->runq);
+    if (!s->t || !s->recv || !s->send || !s->nd || !s->in_off || !s->ins || !s->xout_off ||
+        !s->xout || !s->xs_of || !s->x || !s->occ || !s->pos_of || !s->done ||
         !s->wait_head || !s->half || !s->pos || !s->cnt || !s->first || !s->iter ||
         !s->free || !s->wait_next || !s->wait_node || !s->wait_edge || !s->wait_fifo ||
-        !s->queued)
+        !s->queued || !s->lagged || !s->relax || !s->runq)
         return PM_ENOMEM;
     for (uint32_t v = 0; v < s->n; v++)
         s->wait_head[v] = PM_NONE;
@@ -219,15 +230,18 @@ static int sim_alloc_nodes(sim *s)
 }
 
 /* Cross-core edges get an xslot; every node gets its input list. */
-static void sim_build_edges(sim *s, uint32_t fifo_cap)
+static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
 {
     const pm_graph *g = s->g;
     const pm_comm *cm = &g->platform.comm;
     const uint32_t *core = s->m->core_of;
-    uint32_t *xs_of = s->xin; /* scratch: xslot of each edge, rebuilt below */
     for (uint32_t e = 0; e < g->nedges; e++) {
         const pm_edge *ed = &g->edges[e];
-        xs_of[e] = PM_NONE;
+        s->xs_of[e] = PM_NONE;
+        if (ed->delay > INT32_MAX) {
+            pm_diag_set(diag, g->file, ed->line, ed->col, "too many delays for the simulator");
+            return PM_ELIMIT;
+        }
         if (ed->delay > s->span)
             s->span = ed->delay;
         if (core[ed->src] == core[ed->dst])
@@ -239,46 +253,41 @@ static void sim_build_edges(sim *s, uint32_t fifo_cap)
         if (x->cap > s->span)
             s->span = x->cap;
         s->occ[s->nx].occ = s->occ[s->nx].max = ed->delay;
-        xs_of[e] = s->nx++;
+        s->xs_of[e] = s->nx++;
         s->recv[ed->dst] += cm->recv;
         s->send[ed->src] += cm->send;
         s->xout_off[ed->src + 1]++;
-        s->xin_off[ed->dst + 1]++;
     }
     uint32_t k = 0;
     for (uint32_t v = 0; v < s->n; v++) {
         s->in_off[v] = k;
         for (uint32_t i = g->in_off[v]; i < g->in_off[v + 1]; i++) {
             uint32_t e = g->in_edge[i];
-            sim_in *in = &s->ins[k++];
-            in->src = g->edges[e].src, in->edge = e, in->delay = g->edges[e].delay;
-            in->xslot = s->bus ? xs_of[e] : PM_NONE;
-            in->cost = xs_of[e] == PM_NONE ? 0 : s->x[xs_of[e]].cost;
+            s->ins[k++] = (sim_in){ g->edges[e].src, e, s->xs_of[e], (uint32_t)g->edges[e].delay };
         }
     }
     s->in_off[s->n] = k;
+    return PM_OK;
 }
 
-/* Fill the cross-core in/out lists (counting sort by node). */
+/* Fill the cross-core out lists (counting sort by node) and the packed
+ * per-node records. */
 static int sim_build_xlists(sim *s)
 {
-    for (uint32_t v = 0; v < s->n; v++) {
+    for (uint32_t v = 0; v < s->n; v++)
         s->xout_off[v + 1] += s->xout_off[v];
-        s->xin_off[v + 1] += s->xin_off[v];
-    }
-    uint32_t *fo = calloc(s->n + 1, sizeof *fo), *fi = calloc(s->n + 1, sizeof *fi);
-    if (!fo || !fi) {
-        free(fo);
-        free(fi);
+    uint32_t *fo = calloc(s->n + 1, sizeof *fo);
+    if (!fo)
         return PM_ENOMEM;
-    }
     for (uint32_t i = 0; i < s->nx; i++) {
-        uint32_t u = s->x[i].src, v = s->x[i].dst;
+        uint32_t u = s->x[i].src;
         s->xout[s->xout_off[u] + fo[u]++] = i;
-        s->xin[s->xin_off[v] + fi[v]++] = i;
     }
     free(fo);
-    free(fi);
+    for (uint32_t v = 0; v < s->n; v++)
+        s->nd[v] = (sim_nd){ s->recv[v], s->recv[v] + s->t[v], s->recv[v] + s->t[v] + s->send[v],
+                             0, s->in_off[v], s->in_off[v + 1], s->xout_off[v],
+                             s->xout_off[v + 1] };
     return PM_OK;
 }
 
@@ -340,7 +349,7 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
     p[4] = malloc(W * nx * sizeof(uint32_t));
     p[5] = malloc(W * nx * sizeof(uint64_t));
     p[6] = calloc(W, sizeof(uint64_t));
-    p[7] = calloc(W, sizeof(uint64_t));
+    p[7] = malloc(1); /* unused slot */
     p[8] = malloc(W * sizeof(int64_t));
     p[9] = malloc(W * sizeof(int64_t));
     for (int i = 0; i < 10; i++)
@@ -355,9 +364,10 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
 static void sim_ring_install(sim *s, uint64_t W, void **p)
 {
     free(s->xr), free(s->cr), free(s->ar), free(s->gr), free(s->br), free(s->bi);
-    free(s->f1), free(s->f2), free(s->lmin), free(s->lmax);
+    free(s->f1), free(s->lmin), free(s->lmax);
     s->xr = p[0], s->cr = p[1], s->ar = p[2], s->gr = p[3], s->br = p[4], s->bi = p[5];
-    s->f1 = p[6], s->f2 = p[7], s->lmin = p[8], s->lmax = p[9];
+    s->f1 = p[6], s->lmin = p[8], s->lmax = p[9];
+    free(p[7]);
     s->W = (uint32_t)W;
     s->mask = W - 1;
 }
@@ -382,7 +392,6 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
     /* iteration max_iter is new (reset after the move); older ones live */
     uint64_t hi = s->max_iter, lo = hi > s->W ? hi - s->W : 0;
     sim_ring_move(p[6], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
-    sim_ring_move(p[7], s->f2, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[8], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[9], s->lmax, sizeof(int64_t), 1, lo, hi, om, nm, 0);
 }
@@ -431,20 +440,30 @@ static int sim_ring_fit(sim *s, pm_diag *diag)
     return PM_OK;
 }
 
+/* ---- cores ready to fire ----------------------------------------------- */
+
+static void sim_runnable(sim *s, uint32_t c)
+{
+    if (s->queued[c])
+        return;
+    s->queued[c] = true;
+    s->runq[(s->runq_head + s->runq_len++) % s->P] = c;
+}
+
 /* ---- iteration bookkeeping -------------------------------------------- */
 
-static uint64_t sim_mix(uint64_t z)
+/* Spread (node, begin difference) over 64 bits; one multiply is enough,
+ * since a collision can only hide a period, never report a wrong one. */
+static inline uint64_t sim_mix(uint64_t d, uint32_t v)
 {
-    z += UINT64_C(0x9e3779b97f4a7c15);
-    z = (z ^ (z >> 30)) * UINT64_C(0xbf58476d1ce4e5b9);
-    z = (z ^ (z >> 27)) * UINT64_C(0x94d049bb133111eb);
-    return z ^ (z >> 31);
+    uint64_t z = (d + ((uint64_t)v << 32) + v) * UINT64_C(0x9e3779b97f4a7c15);
+    return z ^ (z >> 29);
 }
 
 static void sim_slot_reset(sim *s, uint64_t k)
 {
     uint64_t i = k & s->mask;
-    s->f1[i] = s->f2[i] = 0;
+    s->f1[i] = 0;
     s->lmin[i] = INT64_MAX;
     s->lmax[i] = INT64_MIN;
 }
@@ -460,7 +479,7 @@ static void sim_iteration_done(sim *s, uint64_t k)
         return;
     for (uint32_t c = 1; c <= s->cmax && c < k; c++) {
         uint64_t j = (k - c) & s->mask;
-        if (s->f1[i] != s->f1[j] || s->f2[i] != s->f2[j])
+        if (s->f1[i] != s->f1[j])
             s->last_break[c] = k;
     }
 }
@@ -479,8 +498,13 @@ static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
     for (uint32_t d = 0; d < s->P; d++)
         if (s->iter[d] < lo)
             lo = s->iter[d];
+    if (s->completed == lo)
+        return PM_OK;
     while (s->completed < lo)
         sim_iteration_done(s, s->completed++);
+    for (uint32_t d = 0; d < s->P; d++)
+        if (s->lagged[d])
+            s->lagged[d] = false, sim_runnable(s, d);
     return PM_OK;
 }
 
@@ -495,46 +519,46 @@ static void sim_wait(sim *s, uint32_t c, uint32_t node, uint32_t edge, bool fifo
     s->wait_head[node] = c;
 }
 
-static int sim_wake(sim *s, uint32_t node)
+/* Cores waiting for `node` (its firing or its bus transfer) may go on. */
+static void sim_wake(sim *s, uint32_t node)
 {
     uint32_t c = s->wait_head[node];
     s->wait_head[node] = PM_NONE;
     while (c != PM_NONE) {
         uint32_t next = s->wait_next[c];
         s->wait_node[c] = PM_NONE;
-        if (!s->queued[c]) {
-            s->queued[c] = true;
-            sim_ev e = { s->now, 0, c, 0, 0, 0 };
-            if (sim_heap_push(&s->ev, e))
-                return PM_ENOMEM;
-        }
+        sim_runnable(s, c);
         c = next;
     }
-    return PM_OK;
 }
 
 /* Earliest begin of (v,k) from its inputs and output room; false (after
  * registering the wait) when something it needs is not known yet. */
 static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, uint32_t *cause)
 {
-    for (uint32_t i = s->in_off[v]; i < s->in_off[v + 1]; i++) {
+    const sim_nd *nd = &s->nd[v];
+    for (uint32_t i = nd->in_lo; i < nd->in_hi; i++) {
         const sim_in *in = &s->ins[i];
-        if ((int64_t)k < in->delay)
+        if (k < in->delay)
             continue;
-        uint64_t j = k - (uint64_t)in->delay;
-        if (s->done[in->src] <= j || (in->xslot != PM_NONE && s->granted[in->xslot] <= j)) {
+        uint64_t j = k - in->delay;
+        bool bus = s->bus && in->xslot != PM_NONE;
+        if (s->done[in->src] <= j || (bus && s->granted[in->xslot] <= j)) {
             sim_wait(s, c, in->src, in->edge, false);
             return false;
         }
-        int64_t a = in->xslot != PM_NONE
-                        ? s->ar[(size_t)(j & s->mask) * s->nx + in->xslot]
-                        : *sim_x_at(s, in->src, j) + s->recv[in->src] + s->t[in->src] + in->cost;
+        int64_t a;
+        if (bus)
+            a = s->ar[(size_t)(j & s->mask) * s->nx + in->xslot];
+        else
+            a = *sim_x_at(s, in->src, j) + s->nd[in->src].end_off +
+                (in->xslot != PM_NONE ? s->x[in->xslot].cost : 0);
         if (a > *x)
-            *x = a, *cause = (in->xslot != PM_NONE ? PM_CAUSE_BUS : PM_CAUSE_EDGE) | in->edge << 3;
+            *x = a, *cause = (bus ? PM_CAUSE_BUS : PM_CAUSE_EDGE) | in->edge << 3;
     }
     if (!s->fifo)
         return true;
-    for (uint32_t i = s->xout_off[v]; i < s->xout_off[v + 1]; i++) {
+    for (uint32_t i = nd->xo_lo; i < nd->xo_hi; i++) {
         const sim_x *xe = &s->x[s->xout[i]];
         int64_t jj = (int64_t)k + xe->delay - xe->cap;
         if (jj < 0)
@@ -584,32 +608,34 @@ static int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int
     return PM_OK;
 }
 
-/* Tokens leave (v,k) at `end`: count them, queue bus requests. */
-static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t end)
+/* Tokens leave (v,k) at `end`: count them, queue bus requests; tokens
+ * taken at its begin x leave their buffers. */
+static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, int64_t end)
 {
+    const sim_nd *nd = &s->nd[v];
     int rc = PM_OK;
-    for (uint32_t i = s->xout_off[v]; i < s->xout_off[v + 1] && !rc; i++) {
+    for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
         uint32_t xs = s->xout[i];
         rc = sim_occ_push(&s->occ[xs], end);
         if (!rc && s->bus)
-            rc = sim_heap_push(&s->ev, (sim_ev){ end, 1, c, xs, 0, k });
+            rc = sim_heap_push(&s->pend, (sim_ev){ end, 1, c, xs, 0, k });
         else if (!rc && k < s->record)
             rc = sim_record_transfer(s, xs, k, end, end);
     }
-    for (uint32_t i = s->xin_off[v]; i < s->xin_off[v + 1] && !rc; i++)
-        rc = sim_occ_pop(&s->occ[s->xin[i]], *sim_x_at(s, v, k));
+    for (uint32_t i = nd->in_lo; i < nd->in_hi && !rc; i++)
+        if (s->ins[i].xslot != PM_NONE)
+            rc = sim_occ_pop(&s->occ[s->ins[i].xslot], x);
     return rc;
 }
 
-static void sim_note_begin(sim *s, uint32_t v, uint64_t k, int64_t x)
+static inline void sim_note_begin(sim *s, uint32_t v, uint64_t k, int64_t x)
 {
-    int64_t st = x + s->recv[v], en = st + s->t[v];
+    sim_nd *nd = &s->nd[v];
+    int64_t st = x + nd->recv, en = x + nd->end_off;
     uint64_t i = k & s->mask;
-    if (k > 0) {
-        uint64_t d = (uint64_t)(x - *sim_x_at(s, v, k - 1));
-        s->f1[i] += sim_mix(d ^ ((uint64_t)v << 40));
-        s->f2[i] += sim_mix(d * UINT64_C(0xff51afd7ed558ccd) + v);
-    }
+    if (k > 0)
+        s->f1[i] += sim_mix((uint64_t)(x - nd->last_x), v);
+    nd->last_x = x;
     if (st < s->lmin[i])
         s->lmin[i] = st;
     if (en > s->lmax[i])
@@ -620,22 +646,22 @@ static void sim_note_begin(sim *s, uint32_t v, uint64_t k, int64_t x)
 
 static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uint32_t cause)
 {
-    *sim_x_at(s, v, k) = x;
-    s->cr[(size_t)(k & s->mask) * s->n + v] = cause;
+    size_t slot = (size_t)(k & s->mask) * s->n + v;
+    s->xr[slot] = x;
+    s->cr[slot] = cause;
     sim_note_begin(s, v, k, x);
     s->done[v]++;
     s->firings++;
-    int64_t end = x + s->recv[v] + s->t[v];
-    s->free[c] = end + s->send[v];
+    int64_t end = x + s->nd[v].end_off;
+    s->free[c] = x + s->nd[v].free_off;
     if (s->free[c] > s->makespan)
         s->makespan = s->free[c];
-    int rc = sim_outputs(s, c, v, k, end);
+    int rc = s->nx ? sim_outputs(s, c, v, k, x, end) : PM_OK;
     if (!rc && k < s->record)
         rc = sim_record_firing(s, c, v, k, x);
-    if (!rc)
-        rc = sim_wake(s, v);
     if (rc)
         return rc;
+    sim_wake(s, v);
     if (++s->pos[c] == s->cnt[c]) {
         s->pos[c] = 0;
         s->iter[c]++;
@@ -644,12 +670,49 @@ static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uin
     return PM_OK;
 }
 
-/* Fire core c's next firings for as long as it is the earliest event. */
-static int sim_try(sim *s, uint32_t c, pm_diag *diag)
+/* The causal engine, for a bus and for maps the sweep cannot run.  A
+ * firing whose inputs are all known has fixed times (max-plus), so cores
+ * fire in any order, each as far as it can: until it waits for a node (it
+ * then sits on that node's wake-up list), or until it is SIM_LAG
+ * iterations ahead of the slowest core (this bounds the rings).  Only the
+ * bus needs time order, and only when it grants: the oldest request is
+ * granted once no core can fire any more.  Then every core that waits
+ * does so, through data or room, for a transfer still queued (granted
+ * later) or for a core held by the lag limit; a held core whose free time
+ * is not after the grant is let go first, since it might still ask for the
+ * bus earlier.  Everything else can only ask later, so the grant is final.
+ * With nothing to fire and nothing to grant the run is over, or
+ * deadlocked: the core at the lowest iteration is never held by the lag
+ * limit and waits for data or room only. */
+
+/* Ask for the data of the firing `ahead` positions later on core c. */
+static void sim_prefetch(const sim *s, uint32_t c, uint32_t ahead)
 {
-    for (;;) {
-        if (s->iter[c] >= s->N)
+    uint32_t p = s->pos[c] + ahead;
+    if (p >= s->cnt[c])
+        p -= s->cnt[c];
+    if (p >= s->cnt[c])
+        return;
+    uint32_t v = s->m->order[s->first[c] + p];
+    const sim_nd *nd = &s->nd[v];
+    __builtin_prefetch(nd);
+    __builtin_prefetch(&s->ins[nd->in_lo]);
+    __builtin_prefetch(&s->done[v], 1);
+    __builtin_prefetch(sim_x_at(s, v, s->iter[c]), 1);
+}
+
+static int sim_run_core(sim *s, uint32_t c, pm_diag *diag)
+{
+    s->wait_node[c] = PM_NONE;
+    for (uint32_t a = 1; a <= SIM_PREFETCH; a++)
+        sim_prefetch(s, c, a);
+    while (s->iter[c] < s->N) {
+        if (s->iter[c] >= s->completed + SIM_LAG && !s->relax[c]) {
+            s->lagged[c] = true;
             return PM_OK;
+        }
+        s->relax[c] = false;
+        sim_prefetch(s, c, SIM_PREFETCH);
         uint32_t v = s->m->order[s->first[c] + s->pos[c]];
         uint64_t k = s->iter[c];
         int64_t x = s->free[c];
@@ -661,73 +724,273 @@ static int sim_try(sim *s, uint32_t c, pm_diag *diag)
             rc = sim_core_advanced(s, c, diag);
         if (rc)
             return rc;
-        sim_ev next = { s->free[c], 0, c, 0, 0, 0 };
-        if (s->ev.len && !sim_ev_less(&next, &s->ev.a[0])) {
-            s->queued[c] = true;
-            return sim_heap_push(&s->ev, next);
-        }
-        if (next.time > s->now)
-            s->now = next.time;
     }
+    return PM_OK;
+}
+
+/* Let held cores that are free by time g fire once more; true if any. */
+static bool sim_release_lagged(sim *s, int64_t g)
+{
+    bool any = false;
+    for (uint32_t c = 0; c < s->P; c++)
+        if (s->lagged[c] && s->free[c] <= g) {
+            s->lagged[c] = false;
+            s->relax[c] = true;
+            sim_runnable(s, c);
+            any = true;
+        }
+    return any;
+}
+
+/* ---- point-to-point sweep ---------------------------------------------- */
+
+/* Without a shared bus nothing but data, core order and FIFO room decides
+ * a begin time, so self-timed execution is the max-plus recursion of the
+ * IPC graph (Sriram & Bhattacharyya 2000): begin(v,k) = max over the
+ * predecessors p of v of begin(p, k - delay) + weight.  When the edges
+ * with no delay form no cycle the run cannot deadlock, and the recursion
+ * is evaluated iteration by iteration in one fixed topological order:
+ * no readiness checks, no waiting, one pass over a compiled array.  With a
+ * zero-delay cycle the round-robin engine runs instead and reports where
+ * it stalls.  Predecessors are listed core order first, then inputs in
+ * the graph's order, then FIFO room, and a later one wins only when
+ * strictly later: the same tie rule as the engines above. */
+typedef struct sim_pred {
+    uint32_t u, delay, cause;
+    uint32_t xslot; /* a cross-core input: its token leaves the buffer at begin */
+    int64_t w;
+} sim_pred;
+
+typedef struct sim_sweep {
+    uint32_t *step;       /* nodes in topological order of zero-delay edges */
+    uint32_t *p_off;      /* per node: preds[p_off[v] .. p_off[v+1]) */
+    sim_pred *preds;
+} sim_sweep;
+
+static uint32_t sim_sweep_count(const sim *s, uint32_t v)
+{
+    uint32_t k = 1 + s->nd[v].in_hi - s->nd[v].in_lo;
+    if (s->fifo)
+        k += s->nd[v].xo_hi - s->nd[v].xo_lo;
+    return k;
+}
+
+static void sim_sweep_preds(const sim *s, uint32_t v, sim_pred *p)
+{
+    uint32_t c = s->m->core_of[v], back;
+    uint32_t prev = sim_prev_on_core(s, c, s->pos_of[v], &back);
+    *p++ = (sim_pred){ prev, back, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off };
+    for (uint32_t i = s->nd[v].in_lo; i < s->nd[v].in_hi; i++) {
+        const sim_in *in = &s->ins[i];
+        int64_t cost = in->xslot != PM_NONE ? s->x[in->xslot].cost : 0;
+        *p++ = (sim_pred){ in->src, in->delay, PM_CAUSE_EDGE | in->edge << 3, in->xslot,
+                           s->nd[in->src].end_off + cost };
+    }
+    if (!s->fifo)
+        return;
+    for (uint32_t i = s->nd[v].xo_lo; i < s->nd[v].xo_hi; i++) {
+        const sim_x *xe = &s->x[s->xout[i]];
+        *p++ = (sim_pred){ xe->dst, (uint32_t)(xe->cap - xe->delay), PM_CAUSE_FIFO | xe->edge << 3,
+                           PM_NONE, 0 };
+    }
+}
+
+/* Kahn's algorithm over the zero-delay predecessors; false on a cycle. */
+static bool sim_sweep_order(const sim *s, sim_sweep *w, uint32_t *indeg, uint32_t *succ_off,
+                            uint32_t *succ)
+{
+    uint32_t n = s->n, head = 0, tail = 0;
+    for (uint32_t i = 0; i < w->p_off[n]; i++)
+        if (w->preds[i].delay == 0)
+            succ_off[w->preds[i].u + 1]++;
+    for (uint32_t v = 0; v < n; v++)
+        succ_off[v + 1] += succ_off[v];
+    for (uint32_t v = 0; v < n; v++)
+        for (uint32_t i = w->p_off[v]; i < w->p_off[v + 1]; i++)
+            if (w->preds[i].delay == 0) {
+                succ[succ_off[w->preds[i].u] + indeg[n + w->preds[i].u]++] = v;
+                indeg[v]++;
+            }
+    for (uint32_t v = 0; v < n; v++)
+        if (indeg[v] == 0)
+            w->step[tail++] = v;
+    while (head < tail) {
+        uint32_t u = w->step[head++];
+        for (uint32_t i = succ_off[u]; i < succ_off[u + 1]; i++)
+            if (--indeg[succ[i]] == 0)
+                w->step[tail++] = succ[i];
+    }
+    return tail == n;
+}
+
+/* PM_OK with the sweep built, 1 when zero-delay edges form a cycle. */
+static int sim_sweep_build(const sim *s, sim_sweep *w)
+{
+    uint32_t n = s->n;
+    w->p_off = calloc(n + 1, sizeof *w->p_off);
+    w->step = malloc((n + 1) * sizeof *w->step);
+    if (!w->p_off || !w->step)
+        return PM_ENOMEM;
+    for (uint32_t v = 0; v < n; v++)
+        w->p_off[v + 1] = w->p_off[v] + sim_sweep_count(s, v);
+    w->preds = malloc(((size_t)w->p_off[n] + 1) * sizeof *w->preds);
+    uint32_t *indeg = calloc(2 * (size_t)n + 1, sizeof *indeg);
+    uint32_t *succ_off = calloc(n + 2, sizeof *succ_off);
+    uint32_t *succ = malloc(((size_t)w->p_off[n] + 1) * sizeof *succ);
+    int rc = PM_ENOMEM;
+    if (w->preds && indeg && succ_off && succ) {
+        for (uint32_t v = 0; v < n; v++)
+            sim_sweep_preds(s, v, &w->preds[w->p_off[v]]);
+        rc = sim_sweep_order(s, w, indeg, succ_off, succ) ? PM_OK : 1;
+    }
+    free(indeg), free(succ_off), free(succ);
+    return rc;
+}
+
+static void sim_sweep_free(sim_sweep *w)
+{
+    free(w->step), free(w->p_off), free(w->preds);
+}
+
+/* Bookkeeping of firing (v,k) begun at x (what sim_commit does, minus the
+ * core state the sweep does not need); p..end are its predecessors. */
+static inline int sim_sweep_note(sim *s, uint32_t v, uint64_t k, int64_t x, uint32_t cause,
+                          const sim_pred *p, const sim_pred *end)
+{
+    size_t slot = (size_t)(k & s->mask) * s->n + v;
+    s->xr[slot] = x;
+    s->cr[slot] = cause;
+    sim_note_begin(s, v, k, x);
+    const sim_nd *nd = &s->nd[v];
+    if (x + nd->free_off > s->makespan)
+        s->makespan = x + nd->free_off;
+    int rc = PM_OK;
+    for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
+        rc = sim_occ_push(&s->occ[s->xout[i]], x + nd->end_off);
+        if (!rc && k < s->record)
+            rc = sim_record_transfer(s, s->xout[i], k, x + nd->end_off, x + nd->end_off);
+    }
+    for (; p < end && !rc; p++)
+        if (p->xslot != PM_NONE)
+            rc = sim_occ_pop(&s->occ[p->xslot], x);
+    if (!rc && k < s->record)
+        rc = sim_record_firing(s, s->m->core_of[v], v, k, x);
+    return rc;
+}
+
+static int sim_sweep_iteration(sim *s, const sim_sweep *w, uint64_t k)
+{
+    for (uint32_t i = 0; i < s->n; i++) {
+        if (i + SIM_PREFETCH < s->n) {
+            uint32_t f = w->step[i + SIM_PREFETCH];
+            __builtin_prefetch(&w->preds[w->p_off[f]]);
+            __builtin_prefetch(&s->nd[f]);
+        }
+        uint32_t v = w->step[i];
+        const sim_pred *p0 = &w->preds[w->p_off[v]], *end = &w->preds[w->p_off[v + 1]];
+        const sim_pred *p = p0;
+        int64_t x = 0;
+        uint32_t cause = PM_CAUSE_START;
+        if (k >= p->delay)
+            x = *sim_x_at(s, p->u, k - p->delay) + p->w, cause = p->cause;
+        for (p++; p < end; p++) {
+            if (k < p->delay)
+                continue;
+            int64_t a = *sim_x_at(s, p->u, k - p->delay) + p->w;
+            bool later = a > x; /* data-dependent: keep it free of branches */
+            x = later ? a : x;
+            cause = later ? p->cause : cause;
+        }
+        int rc = sim_sweep_note(s, v, k, x, cause, p0 + 1, end);
+        if (rc)
+            return rc;
+    }
+    return PM_OK;
+}
+
+/* 1: not usable (zero-delay cycle), the caller runs the other engine. */
+static int sim_loop_sweep(sim *s, pm_diag *diag)
+{
+    sim_sweep w = { 0 };
+    int rc = sim_sweep_build(s, &w);
+    for (uint64_t k = 0; rc == PM_OK && k < s->N; k++) {
+        s->max_iter = k;
+        if (k > 0) {
+            rc = sim_ring_fit(s, diag);
+            sim_slot_reset(s, k);
+        }
+        if (!rc)
+            rc = sim_sweep_iteration(s, &w, k);
+        if (!rc)
+            sim_iteration_done(s, s->completed++);
+    }
+    sim_sweep_free(&w);
+    if (rc)
+        return rc;
+    s->firings = s->N * s->n;
+    for (uint32_t v = 0; v < s->n; v++)
+        s->done[v] = s->N;
+    for (uint32_t c = 0; c < s->P; c++)
+        s->iter[c] = s->N, s->pos[c] = 0;
+    return PM_OK;
 }
 
 /* ---- bus ---------------------------------------------------------------- */
 
-static int sim_bus_grant(sim *s)
+/* Grant the oldest request (the head of the queue) at g. */
+static int sim_bus_grant(sim *s, int64_t g)
 {
     sim_ev r = sim_heap_pop(&s->pend);
     uint32_t xs = r.xslot;
     size_t slot = (size_t)(r.iter & s->mask) * s->nx + xs;
-    s->gr[slot] = s->now;
-    s->ar[slot] = s->now + s->x[xs].cost;
+    s->gr[slot] = g;
+    s->ar[slot] = g + s->x[xs].cost;
     s->br[slot] = s->bus_free > r.time ? s->bus_last : 0;
     s->bi[slot] = s->bus_last_iter;
     s->bus_free = s->ar[slot];
     s->bus_last = xs + 1;
     s->bus_last_iter = r.iter;
     s->granted[xs]++;
-    int rc = r.iter < s->record ? sim_record_transfer(s, xs, r.iter, r.time, s->now) : 0;
-    if (!rc && s->pend.len) {
-        s->grant_queued = true;
-        rc = sim_heap_push(&s->ev, (sim_ev){ s->bus_free, 2, 0, 0, 0, 0 });
-    }
-    return rc ? rc : sim_wake(s, s->x[xs].src);
-}
-
-static int sim_bus_request(sim *s, sim_ev e)
-{
-    int rc = sim_heap_push(&s->pend, e);
-    if (rc || s->grant_queued)
-        return rc;
-    s->grant_queued = true;
-    int64_t at = s->bus_free > e.time ? s->bus_free : e.time;
-    return sim_heap_push(&s->ev, (sim_ev){ at, 2, 0, 0, 0, 0 });
+    int rc = r.iter < s->record ? sim_record_transfer(s, xs, r.iter, r.time, g) : PM_OK;
+    sim_wake(s, s->x[xs].src);
+    return rc;
 }
 
 /* ---- main loop ---------------------------------------------------------- */
 
+static int sim_loop_causal(sim *s, pm_diag *diag)
+{
+    for (uint32_t c = 0; c < s->P; c++)
+        sim_runnable(s, c);
+    for (;;) {
+        while (s->runq_len) {
+            uint32_t c = s->runq[s->runq_head];
+            s->runq_head = (s->runq_head + 1) % s->P;
+            s->runq_len--;
+            s->queued[c] = false;
+            int rc = sim_run_core(s, c, diag);
+            if (rc)
+                return rc;
+        }
+        if (!s->pend.len)
+            return PM_OK; /* finished, or deadlocked (sim_collect tells) */
+        int64_t g = s->pend.a[0].time > s->bus_free ? s->pend.a[0].time : s->bus_free;
+        if (sim_release_lagged(s, g))
+            continue;
+        int rc = sim_bus_grant(s, g);
+        if (rc)
+            return rc;
+    }
+}
+
 static int sim_loop(sim *s, pm_diag *diag)
 {
-    for (uint32_t c = 0; c < s->P; c++) {
-        s->queued[c] = true;
-        if (sim_heap_push(&s->ev, (sim_ev){ 0, 0, c, 0, 0, 0 }))
-            return PM_ENOMEM;
+    if (!s->bus) {
+        int rc = sim_loop_sweep(s, diag);
+        if (rc != 1)
+            return rc;
     }
-    int rc = PM_OK;
-    while (s->ev.len && !rc) {
-        sim_ev e = sim_heap_pop(&s->ev);
-        s->now = e.time;
-        if (e.phase == 0) {
-            s->queued[e.core] = false;
-            rc = sim_try(s, e.core, diag);
-        } else if (e.phase == 1) {
-            rc = sim_bus_request(s, e);
-        } else {
-            s->grant_queued = false;
-            rc = sim_bus_grant(s);
-        }
-    }
-    return rc;
+    return sim_loop_causal(s, diag);
 }
 
 static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
@@ -747,9 +1010,11 @@ static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opt
         rc = sim_node_times(s, o, diag);
     if (rc)
         return rc;
-    sim_build_edges(s, o->fifo_cap);
-    if (sim_build_xlists(s))
-        return PM_ENOMEM;
+    rc = sim_build_edges(s, o->fifo_cap, diag);
+    if (!rc)
+        rc = sim_build_xlists(s);
+    if (rc)
+        return rc;
     sim_build_cores(s);
     s->granted = calloc(s->nx + 1, sizeof *s->granted);
     if (!s->granted)
@@ -764,12 +1029,12 @@ static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opt
 
 static void sim_free(sim *s)
 {
-    void *ps[] = { s->t, s->recv, s->send, s->in_off, s->ins, s->xout_off, s->xout,
-                   s->xin_off, s->xin, s->pos_of, s->done, s->wait_head, s->x, s->pos,
+    void *ps[] = { s->t, s->recv, s->send, s->nd, s->in_off, s->ins, s->xout_off, s->xout,
+                   s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
-                   s->wait_edge, s->wait_fifo, s->queued, s->xr, s->cr, s->ar, s->gr,
-                   s->br, s->bi, s->granted, s->f1, s->f2, s->lmin, s->lmax, s->half,
-                   s->ev.a, s->pend.a, s->trace, s->tr };
+                   s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->ar, s->gr,
+                   s->br, s->bi, s->granted, s->f1, s->lmin, s->lmax, s->half,
+                   s->pend.a, s->trace, s->tr };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);
     if (s->occ)

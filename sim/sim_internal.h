@@ -14,14 +14,20 @@
 
 #include "pacemap/sim.h"
 
-/* An input of a node: edge e from src with `delay`; `cost` is added to the
- * producer's end (0 on the same core, the transfer time across cores). */
+/* An input of a node: edge from src with `delay` delays; xslot is the
+ * edge's index among cross-core edges, or PM_NONE on the same core. */
 typedef struct sim_in {
-    uint32_t src, edge;
-    uint32_t xslot;  /* index among cross-core edges, or PM_NONE */
-    uint32_t pad;
-    int64_t delay, cost;
+    uint32_t src, edge, xslot, delay;
 } sim_in;
+
+/* What a firing of a node needs, packed for the hot loop (times are
+ * offsets from the firing's begin). */
+typedef struct sim_nd {
+    int64_t recv, end_off, free_off;
+    int64_t last_x;             /* begin of the previous firing */
+    uint32_t in_lo, in_hi;      /* inputs: ins[in_lo .. in_hi) */
+    uint32_t xo_lo, xo_hi;      /* cross-core outputs: xout[xo_lo .. xo_hi) */
+} sim_nd;
 
 /* A cross-core edge. */
 typedef struct sim_x {
@@ -63,10 +69,11 @@ typedef struct sim {
     uint32_t cmax;
     /* per node */
     int64_t *t, *recv, *send;
+    sim_nd *nd;
     uint32_t *in_off;
     sim_in *ins;
     uint32_t *xout_off, *xout;   /* cross-core out edges (xslots) */
-    uint32_t *xin_off, *xin;     /* cross-core in edges (xslots) */
+    uint32_t *xs_of;             /* per edge: its xslot or PM_NONE */
     uint32_t *pos_of;            /* position of v in its core's order */
     uint64_t *done;              /* firings begun */
     uint32_t *wait_head;         /* first core waiting for this node */
@@ -78,6 +85,8 @@ typedef struct sim {
     int64_t *free;
     uint32_t *wait_next, *wait_node, *wait_edge;
     bool *wait_fifo, *queued;
+    bool *lagged, *relax;        /* held by the lag limit / let go once */
+    uint32_t *runq, runq_head, runq_len; /* cores that may fire */
     /* rings */
     uint32_t W;
     uint64_t mask;
@@ -88,16 +97,15 @@ typedef struct sim {
     uint32_t *br;       /* bus grant cause: previous xslot + 1, or 0 */
     uint64_t *bi;       /* bus grant cause: previous transfer's iteration */
     uint64_t *granted;  /* per xslot */
-    uint64_t *f1, *f2;  /* fingerprints of each iteration's begin differences */
+    uint64_t *f1;       /* fingerprint of each iteration's begin differences */
     int64_t *lmin, *lmax;
     uint64_t completed, max_iter;
     uint64_t valid_lo;  /* every node's times from this iteration on are held */
     uint64_t last_break[PM_SIM_MAX_CYCLICITY + 1];
     int64_t *half;      /* begin times of iteration N/2 */
     /* events */
-    sim_heap ev, pend;
-    int64_t now, bus_free;
-    bool grant_queued;
+    sim_heap pend;               /* bus requests not granted yet */
+    int64_t bus_free;
     uint32_t bus_last;  /* xslot + 1 of the last granted transfer, 0 = none */
     uint64_t bus_last_iter;
     /* results gathered while running */

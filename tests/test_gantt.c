@@ -59,6 +59,8 @@ static void test_text_width(void **state)
             assert_non_null(strstr(t, "cycles"));
             if (w >= 79)
                 assert_non_null(strstr(t, "mixer"));
+            if (w == 30) /* src and mixer open in the same column */
+                assert_non_null(strstr(t, "# marks"));
             if (clock)
                 assert_non_null(strstr(t, " us"));
             free(t);

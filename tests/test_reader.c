@@ -554,6 +554,34 @@ static void test_error_order_with_batched_edges(void **state)
                  "frequency with a unit (Hz, kHz, MHz or GHz) after 'clock', found '1'");
 }
 
+/* Node lines are stored in batches too: a duplicate is still reported at
+ * its line, before any error on a later line, within a batch or across. */
+static void test_error_order_with_batched_nodes(void **state)
+{
+    (void)state;
+    expect_error("node a cycles=1\nnode a cycles=2\nnod\n", PM_ENAME,
+                 "t.pace:2:6: error: duplicate node 'a' (first declared on line 1)");
+    expect_error("node a cycles=1\nnode a cycles=dsp:1\n", PM_ENAME,
+                 "t.pace:2:6: error: duplicate node 'a' (first declared on line 1)");
+    expect_error("node a cycles=1\nnode b cycles=2\nnode a\n", PM_ENAME,
+                 "t.pace:3:6: error: duplicate node 'a' (first declared on line 1)");
+    size_t cap = 64 * 3000, len = 0;
+    char *text = malloc(cap);
+    assert_non_null(text);
+    for (int v = 0; v < 2500; v++)
+        len += (size_t)snprintf(text + len, cap - len, "node v%d cycles=1\n", v);
+    snprintf(text + len, cap - len, "node v7 cycles=1\n");
+    expect_error(text, PM_ENAME, "t.pace:2501:6: error: duplicate node 'v7' (first declared on "
+                 "line 8)");
+    snprintf(text + len, cap - len, "node v2400 cycles=1\n");
+    expect_error(text, PM_ENAME, "t.pace:2501:6: error: duplicate node 'v2400' (first declared "
+                 "on line 2401)");
+    snprintf(text + len, cap - len, "edge v0 -> v2499 -> v1\nnode v2499 cycles=1\n");
+    expect_error(text, PM_ENAME, "t.pace:2502:6: error: duplicate node 'v2499' (first declared "
+                 "on line 2500)");
+    free(text);
+}
+
 static void test_whole_file_errors(void **state)
 {
     (void)state;
@@ -593,6 +621,55 @@ static void test_count_limits(void **state)
     rc = reader_read_string_limited(t3, strlen(t3), "t.pace", &lim, &g, &d);
     assert_int_equal(rc, PM_OK);
     assert_int_equal(g->nedges, 3);
+    pm_graph_destroy(g);
+}
+
+/* The batched lookup the reader uses gives what single lookups give, for
+ * names of 8 bytes or less (recognised from the table slot), longer ones, and
+ * names that share a prefix. */
+static void test_find_many_matches_find(void **state)
+{
+    (void)state;
+    static const char *const names[] = { "a", "ab", "abcdefg", "abcdefgh", "abcdefghi",
+                                         "abcdefghij", "abcdefgi", "a_very_long_node_name.1",
+                                         "a_very_long_node_name.2", "x9" };
+    const size_t n = sizeof names / sizeof names[0];
+    pm_graph *g = pm_graph_create("t");
+    assert_non_null(g);
+    for (size_t i = 0; i < n; i += 2) /* every other name is in the graph */
+        assert_int_equal(pm_graph_add_node(g, names[i], strlen(names[i]), 1, NULL), PM_OK);
+    for (int v = 0; v < 3000; v++) { /* enough to rehash several times */
+        char buf[32];
+        int len = snprintf(buf, sizeof buf, v % 2 ? "n%d" : "node_with_long_name_%d", v);
+        assert_int_equal(pm_graph_add_node(g, buf, (size_t)len, 1, NULL), PM_OK);
+    }
+    const char *q[200];
+    size_t lens[200];
+    uint32_t ids[200];
+    char store[200][32];
+    for (size_t k = 0; k < 200; k++) {
+        if (k < n) {
+            q[k] = names[k];
+        } else {
+            int v = (int)(k * 37 % 3100); /* some beyond 3000: unknown */
+            snprintf(store[k], sizeof store[k], v % 2 ? "n%d" : "node_with_long_name_%d", v);
+            q[k] = store[k];
+        }
+        lens[k] = strlen(q[k]);
+    }
+    pm_graph_find_many(g, q, lens, 200, ids);
+    int found = 0;
+    for (size_t k = 0; k < 200; k++) {
+        uint32_t one = pm_graph_find(g, q[k], lens[k]);
+        assert_int_equal(ids[k], one);
+        if (one != PM_NONE) {
+            assert_string_equal(pm_graph_node_name(g, one), q[k]);
+            found++;
+        }
+    }
+    assert_true(found > 150 && found < 200);
+    for (size_t i = 0; i < n; i++)
+        assert_true((pm_graph_find(g, names[i], strlen(names[i])) != PM_NONE) == (i % 2 == 0));
     pm_graph_destroy(g);
 }
 
@@ -757,8 +834,10 @@ int main(void)
         cmocka_unit_test(test_work_errors),
         cmocka_unit_test(test_edge_errors),
         cmocka_unit_test(test_error_order_with_batched_edges),
+        cmocka_unit_test(test_error_order_with_batched_nodes),
         cmocka_unit_test(test_whole_file_errors),
         cmocka_unit_test(test_count_limits),
+        cmocka_unit_test(test_find_many_matches_find),
         cmocka_unit_test(test_file_errors),
         cmocka_unit_test(test_big_file_matches_string),
         cmocka_unit_test(test_refdata_scenarios),

@@ -250,7 +250,7 @@ static void test_random_checked(void **state)
 {
     (void)state;
     uint64_t seed = 12345;
-    for (int i = 0; i < 300; i++) {
+    for (int i = 0; i < 1000; i++) {
         uint32_t n = 2 + tl_rand(&seed, 40), P = 1 + tl_rand(&seed, 5);
         pm_graph *g = random_graph(&seed, n, P, i);
         for (int mode = 0; mode < 3; mode++) {
@@ -281,6 +281,63 @@ static void test_deterministic(void **state)
     pm_graph_destroy(g2);
 }
 
+/* Edge cases: an empty graph, one core, times that overflow 62 bits. */
+static void test_edge_cases(void **state)
+{
+    (void)state;
+    pm_graph *g = tl_graph(3);
+    pm_graph_finalize(g);
+    pm_schedule *s = run_checked(g, NULL, NULL);
+    assert_int_equal(s->makespan, 0);
+    pm_schedule_destroy(s);
+    pm_graph_destroy(g);
+
+    g = tl_graph(1);
+    uint32_t a = tl_node(g, "a", 3), b = tl_node(g, "b", 0), c = tl_node(g, "c", 4);
+    tl_edge(g, a, b, 0, 1);
+    tl_edge(g, b, c, 0, 1);
+    pm_graph_finalize(g);
+    s = run_checked(g, NULL, NULL);
+    expect_slot(s, b, 0, 3, 3); /* zero-cycle node between its neighbours */
+    assert_int_equal(s->makespan, 7);
+    pm_schedule_destroy(s);
+    pm_graph_destroy(g);
+
+    g = tl_graph(1);
+    a = tl_node(g, "a", PM_MAX_VALUE);
+    b = tl_node(g, "b", PM_MAX_VALUE);
+    tl_edge(g, a, b, 0, 1);
+    pm_graph_finalize(g);
+    pm_diag d;
+    assert_int_equal(pm_sched_list(g, NULL, &s, NULL, &d), PM_ERANGE);
+    assert_null(s);
+    pm_graph_destroy(g);
+}
+
+/* Random bytes as a map file: an error or a valid map, never a crash. */
+static void test_map_garbage(void **state)
+{
+    (void)state;
+    uint64_t seed = 7;
+    pm_graph *g = random_graph(&seed, 6, 2, 0);
+    static const char alphabet[] = "core 01:n2345#\n\t x";
+    for (int i = 0; i < 3000; i++) {
+        char buf[64];
+        size_t len = tl_rand(&seed, sizeof buf);
+        for (size_t k = 0; k < len; k++)
+            buf[k] = tl_rand(&seed, 8) ? alphabet[tl_rand(&seed, sizeof alphabet - 1)]
+                                       : (char)tl_rand(&seed, 256);
+        pm_map *m = NULL;
+        pm_diag d;
+        int rc = pm_map_read_string(buf, len, "junk.map", g, &m, &d);
+        assert_true(rc == PM_OK ? m != NULL : m == NULL);
+        if (rc == PM_OK)
+            assert_int_equal(pm_map_check(m, g, &d), PM_OK);
+        pm_map_destroy(m);
+    }
+    pm_graph_destroy(g);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -290,6 +347,8 @@ int main(void)
         cmocka_unit_test(test_graham_anomaly),
         cmocka_unit_test(test_random_checked),
         cmocka_unit_test(test_deterministic),
+        cmocka_unit_test(test_edge_cases),
+        cmocka_unit_test(test_map_garbage),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -6,6 +6,7 @@
 #include <setjmp.h>
 #include <stdarg.h>
 #include <stddef.h>
+#include <stdio.h>
 #include <stdlib.h>
 
 #include <cmocka.h>
@@ -164,9 +165,41 @@ static void test_loop_rule_respects_target(void **state)
     assert_int_equal(pm_sched_list(g, &o, &s, NULL, &d), PM_OK);
     assert_int_equal(pm_sched_list(g, &blind, &b, NULL, &d), PM_OK);
     assert_null(sched_checker_verify(g, s));
+    assert_null(sched_checker_verify(g, b));
     assert_memory_equal(s->slots, b->slots, g->nnodes * sizeof *s->slots);
     pm_schedule_destroy(s);
     pm_schedule_destroy(b);
+    pm_graph_destroy(g);
+}
+
+/* One ring of 100000 nodes, edges added against the ring's direction, 3
+ * delays: the only cycle is the ring, so on one core the floor is the sum
+ * of the node times over 3 (worked out here by the formula). */
+static void test_floor_large_ring(void **state)
+{
+    (void)state;
+    const uint32_t n = 100000;
+    pm_graph *g = tl_graph(1);
+    char name[16];
+    int64_t total = 0;
+    for (uint32_t i = 0; i < n; i++) {
+        snprintf(name, sizeof name, "r%u", i);
+        tl_node(g, name, (int64_t)(i % 7) + 1);
+        total += (int64_t)(i % 7) + 1;
+    }
+    for (uint32_t i = n; i-- > 0;)
+        tl_edge(g, i, (i + 1) % n, i % 40000 == 0 ? 1 : 0, 1);
+    pm_graph_finalize(g);
+    pm_map *m = NULL;
+    pm_diag d;
+    assert_int_equal(pm_sched_list(g, NULL, NULL, &m, &d), PM_OK);
+    pm_rat f, want;
+    uint32_t len = 0;
+    assert_int_equal(pm_sched_loop_floor(g, m, &f, NULL, &len, &d), PM_OK);
+    assert_int_equal(pm_rat_make(total, 3, &want), PM_OK);
+    assert_int_equal(pm_rat_cmp(f, want), 0);
+    assert_int_equal(len, n);
+    pm_map_destroy(m);
     pm_graph_destroy(g);
 }
 
@@ -177,6 +210,7 @@ int main(void)
         cmocka_unit_test(test_floor_fraction_and_none),
         cmocka_unit_test(test_loop_aware_beats_blind),
         cmocka_unit_test(test_loop_rule_respects_target),
+        cmocka_unit_test(test_floor_large_ring),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -443,6 +443,42 @@ static void test_bus_never_beats_p2p(void **state)
     }
 }
 
+/* A bus whose transfers take no time never makes anyone wait, so the
+ * event-driven bus engine must reproduce the point-to-point run exactly
+ * (send and receive occupancy still count on the cores). */
+static void test_free_bus_equals_p2p(void **state)
+{
+    (void)state;
+    for (int trial = 0; trial < 100; trial++) {
+        uint32_t n = 2 + rnd(10), procs = 1 + rnd(4);
+        uint64_t seed = rng_state;
+        pm_graph *g = mk_random(n, procs, PM_P2P);
+        rng_state = seed;
+        pm_graph *gb = mk_random(n, procs, PM_BUS);
+        pm_comm cm = { 0, 0, rnd(3), rnd(3) };
+        g->platform.comm = gb->platform.comm = cm;
+        pm_map *m = mk_random_map(g, procs);
+        pm_sim_opts o = { .iterations = 300, .record = 3, .fifo_cap = rnd(2) ? 0 : 2 + rnd(2) };
+        pm_sim_result r, rb;
+        int rc = pm_sim_run(g, m, &o, &r, NULL);
+        assert_int_equal(pm_sim_run(gb, m, &o, &rb, NULL), rc);
+        if (rc == PM_OK) {
+            assert_true(pm_rat_cmp(rb.period, r.period) == 0);
+            assert_int_equal(rb.makespan, r.makespan);
+            assert_int_equal(rb.ntrace, r.ntrace);
+            for (size_t i = 0; i < r.ntrace; i++)
+                assert_int_equal(rb.trace[i].begin, r.trace[i].begin);
+            for (uint32_t e = 0; e < g->nedges; e++)
+                assert_int_equal(rb.max_tokens[e], r.max_tokens[e]);
+        }
+        pm_sim_result_free(&r);
+        pm_sim_result_free(&rb);
+        pm_map_destroy(m);
+        pm_graph_destroy(g);
+        pm_graph_destroy(gb);
+    }
+}
+
 /* Same input, same output, down to every recorded time. */
 static void test_deterministic(void **state)
 {
@@ -498,6 +534,7 @@ int main(void)
         cmocka_unit_test(test_deadlock_fifo),
         cmocka_unit_test(test_one_core_period_is_total),
         cmocka_unit_test(test_bus_never_beats_p2p),
+        cmocka_unit_test(test_free_bus_equals_p2p),
         cmocka_unit_test(test_deterministic),
         cmocka_unit_test(test_bad_input),
     };

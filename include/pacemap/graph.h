@@ -91,8 +91,8 @@ typedef struct pm_graph {
     char *names;             /* NUL-separated node names */
     size_t names_len, names_cap;
     uint32_t nodes_cap, edges_cap;
-    /* name -> node hash table (open addressing), internal: slot i is
-     * hash[2i] (node or PM_NONE) and hash[2i+1] (a tag of its name) */
+    /* name -> node hash table (open addressing), internal: hash_cap slots
+     * of 4 words each, see graph.c */
     uint32_t *hash;
     uint32_t hash_cap;
     /* adjacency, built by pm_graph_finalize(): out-edges of v are

@@ -26,7 +26,9 @@
  *   nothing.  Same core: ready at the producer's end, no cost.
  * A node starts at the earliest time at or after max(end of the node before
  * it on its core, readiness of all its inputs) at which its core is free for
- * its whole execution (sends and receives may fill idle gaps).
+ * its whole execution (sends and receives may fill idle gaps).  A node of 0
+ * cycles occupies an instant: nothing is placed across it, and it never
+ * falls strictly inside another node's execution.
  *
  * Every schedule returned here - automatic or from a hand map - is timed by
  * that one rule from its map (pm_sched_from_map), so a map written with
@@ -91,7 +93,10 @@ typedef struct pm_sched_opts {
      * core with insertion into idle gaps.  true: Graham's plain list
      * scheduling (1969) - whenever a core falls idle it takes the first
      * ready node of the priority list (lowest core index first, no
-     * insertion, no look-ahead); meant for graphs without transfer costs. */
+     * insertion, no look-ahead); a node is ready when its producers have
+     * ended (transfer times are not waited for while choosing, but the
+     * returned times follow the map rule); meant for graphs without
+     * transfer costs. */
     bool greedy;
     /* For greedy: the priority list (all node ids, each once); NULL = by
      * decreasing upward rank.  Ignored otherwise. */
@@ -159,8 +164,10 @@ void pm_schedule_destroy(pm_schedule *s);
  * weights den*w - num*delay (Bellman-Ford), repeat (Dasdan, ACM TODAES
  * 2004, surveys such methods).  Exact integers.
  * Errors: PM_EZERODELAY (a cycle without delay), PM_EMAP, PM_ERANGE,
- * PM_ENOMEM.  Complexity: O(k * V * E) for k improvements; intended for
- * scenario-sized graphs.
+ * PM_ELIMIT (the work would exceed about 2^30 edge relaxations: very large
+ * loops), PM_ENOMEM.  Complexity: O(k * V * E) for k improvements, with V
+ * and E counted inside strongly connected parts; meant for scenario-sized
+ * graphs.
  */
 int pm_sched_loop_floor(const pm_graph *g, const pm_map *m, pm_rat *floor,
                         uint32_t **loop, uint32_t *nloop, pm_diag *diag);
