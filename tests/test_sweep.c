@@ -301,6 +301,87 @@ static void test_mapping_loop(void **state)
     pm_graph_destroy(g);
 }
 
+/* The same loop over a shared bus: the transfers are named as bus hops. */
+static void test_mapping_loop_bus(void **state)
+{
+    (void)state;
+    char text[512];
+    snprintf(text, sizeof text, "%sinterconnect bus\n", split_loop);
+    pm_graph *g = load(text);
+    pm_sweep s;
+    run(g, 2, 2, &s);
+    /* one transfer at a time, and there are never two at once: still
+     * 20 + 5 + 20 + 5 = 50 */
+    expect_period(&s, 2, 50, 1);
+    const pm_sweep_limit *l = &s.points[0].limit;
+    assert_int_equal(l->kind, PM_LIMIT_MAPPING);
+    assert_int_equal(l->nhops, 2);
+    assert_true(has_hop(g, l, "a", "b", 0, 1));
+    assert_true(has_hop(g, l, "b", "a", 1, 0));
+    assert_true(l->hops[0].bus && l->hops[1].bus);
+    assert_int_equal(l->nnodes, 2);
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+}
+
+/* ---- two loops: the what-if must follow the next loop -------------------- */
+
+/* Invented: loop A (a1 10 + a2 20, one delay: 30) and an independent
+ * stateful node b1 (25, self-loop with one delay: 25).  Total 55. */
+static const char two_loops[] =
+    "# invented for this test\n"
+    "node a1 cycles=10\nnode a2 cycles=20\nnode b1 cycles=25\n"
+    "edge a1 -> a2\nedge a2 -> a1 delay=1\nedge b1 -> b1 delay=1\n";
+
+static void test_two_loops(void **state)
+{
+    (void)state;
+    pm_graph *g = load(two_loops);
+    pm_sweep s;
+    run(g, 1, 3, &s);
+    dump(g, &s);
+    /* P=1: 55 (cores).  P=2: A on one core (30), b1 on the other: 30 = L. */
+    expect_period(&s, 1, 55, 1);
+    expect_period(&s, 2, 30, 1);
+    expect_period(&s, 3, 30, 1);
+    assert_int_equal(s.points[s.saturation].procs, 2);
+    const pm_sweep_whatif *w = &s.whatif;
+    assert_int_equal(w->kind, PM_LIMIT_LOOP);
+    assert_int_equal(w->nrows, 2);
+    /* a1 10 -> 0 alone would give loop A 20/1, but b1's loop 25 then
+     * binds: the recomputed bound is 25, not 20.  Same for a2 20 -> 10.
+     * Floor at 2 cores: max(25, node 25, 45/2) = 25. */
+    for (uint32_t i = 0; i < 2; i++) {
+        assert_int_equal(w->rows[i].loop_alone.num, 20);
+        assert_int_equal(w->rows[i].after.num, 25);
+        assert_int_equal(w->rows[i].after.den, 1);
+        assert_int_equal(w->rows[i].floor_after.num, 25);
+    }
+    /* one more delay on A: 30/2 = 15 alone, the bound falls to b1's 25,
+     * the floor at 2 cores to max(25, 25, 55/2) = 55/2 */
+    assert_true(w->has_delay);
+    assert_int_equal(w->delay_loop_alone.num, 15);
+    assert_int_equal(w->delay_bound.num, 25);
+    assert_int_equal(w->ndelay_next, 1);
+    assert_string_equal(name(g, w->delay_next[0]), "b1");
+    assert_int_equal(w->delay_floor.num, 55);
+    assert_int_equal(w->delay_floor.den, 2);
+    /* next behind loop A at P=2: b1's loop 25, the node 25, cores 55/2:
+     * the cores */
+    assert_int_equal(w->next_kind, PM_LIMIT_CORES);
+    assert_int_equal(w->next_value.num, 55);
+    assert_int_equal(w->next_value.den, 2);
+    pm_sweep_free(&s);
+    /* at P = 3 alone the cores give 55/3 < 25: the loop b1 is next */
+    run(g, 3, 3, &s);
+    assert_int_equal(s.whatif.next_kind, PM_LIMIT_LOOP);
+    assert_int_equal(s.whatif.next_value.num, 25);
+    assert_int_equal(s.whatif.nnext_nodes, 1);
+    assert_string_equal(name(g, s.whatif.next_nodes[0]), "b1");
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+}
+
 /* ---- saturation rule, refusals ------------------------------------------ */
 
 static void test_not_saturated(void **state)
@@ -385,6 +466,8 @@ int main(void)
         cmocka_unit_test(test_fork_join),
         cmocka_unit_test(test_recursive_loop),
         cmocka_unit_test(test_mapping_loop),
+        cmocka_unit_test(test_mapping_loop_bus),
+        cmocka_unit_test(test_two_loops),
         cmocka_unit_test(test_not_saturated),
         cmocka_unit_test(test_refusals),
         cmocka_unit_test(test_restores_procs),
