@@ -353,18 +353,18 @@ static void sw_plot_series(const sw_report *r, sw_plot_data *d)
 {
     const pm_floors *f = &r->s->points[0].floors;
     size_t t = 0, b = 0;
-    d->top[t++] = (pm_plot_series){"achieved period (simulated)", d->col[SW_PERIOD], true};
+    d->top[t++] = (pm_plot_series){"achieved period (simulated)", d->col[SW_PERIOD], true, 1};
     if (f->has_loop)
-        d->top[t++] = (pm_plot_series){"iteration bound (loops)", d->col[SW_LOOP], false};
-    d->top[t++] = (pm_plot_series){"total work / P", d->col[SW_CORES], false};
-    d->top[t++] = (pm_plot_series){"largest node", d->col[SW_NODE], false};
+        d->top[t++] = (pm_plot_series){"iteration bound (loops)", d->col[SW_LOOP], false, 2};
+    d->top[t++] = (pm_plot_series){"total work / P", d->col[SW_CORES], false, 3};
+    d->top[t++] = (pm_plot_series){"largest node", d->col[SW_NODE], false, 4};
     if (f->has_budget)
-        d->top[t++] = (pm_plot_series){"budget (clock / rate)", d->col[SW_BUDGET], false};
-    d->bottom[b++] = (pm_plot_series){"achieved throughput", d->col[SW_THR], true};
+        d->top[t++] = (pm_plot_series){"budget (clock / rate)", d->col[SW_BUDGET], false, 5};
+    d->bottom[b++] = (pm_plot_series){"achieved throughput", d->col[SW_THR], true, 1};
     d->bottom[b++] = (pm_plot_series){"best possible (1 / lower bound)", d->col[SW_THR_MAX],
-                                      false};
+                                      false, 6};
     if (f->has_budget)
-        d->bottom[b++] = (pm_plot_series){"required rate", d->col[SW_THR_NEED], false};
+        d->bottom[b++] = (pm_plot_series){"required rate", d->col[SW_THR_NEED], false, 5};
     d->panels[0] = (pm_plot_panel){"period (cycles per iteration)", d->top, t};
     d->panels[1] = (pm_plot_panel){d->ylabel, d->bottom, b};
 }

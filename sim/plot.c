@@ -194,10 +194,16 @@ static void pl_marker(FILE *f, size_t s, double x, double y)
     fprintf(f, " fill=\"%s\" stroke=\"%s\" stroke-width=\"1.5\"/>\n", fill, pl_colour[s]);
 }
 
+static size_t pl_style_of(const pm_plot_series *se, size_t pos)
+{
+    return (se->style ? se->style - 1 : pos) % PM_PLOT_MAX_SERIES;
+}
+
 /* One polyline per run of finite values. */
 static void pl_series(FILE *f, const pl_frame *fr, const pm_plot *p, const pm_plot_series *se,
-                      size_t s)
+                      size_t pos)
 {
+    size_t s = pl_style_of(se, pos);
     size_t i = 0;
     while (i < p->npoints) {
         while (i < p->npoints && !isfinite(se->y[i]))
@@ -218,14 +224,15 @@ static void pl_series(FILE *f, const pl_frame *fr, const pm_plot *p, const pm_pl
 
 static void pl_legend(FILE *f, const pl_frame *fr, const pm_plot_panel *pa)
 {
-    for (size_t s = 0; s < pa->nseries; s++) {
-        double y = fr->top + 14.0 + (double)s * 24.0, x = PL_LEGEND_X;
+    for (size_t k = 0; k < pa->nseries; k++) {
+        size_t s = pl_style_of(&pa->series[k], k);
+        double y = fr->top + 14.0 + (double)k * 24.0, x = PL_LEGEND_X;
         fprintf(f, "<line x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" y2=\"%.2f\"", x, y, x + 36.0, y);
         pl_style(f, s);
         fputs("/>\n", f);
-        if (pa->series[s].markers)
+        if (pa->series[k].markers)
             pl_marker(f, s, x + 18.0, y);
-        pl_text(f, x + 44.0, y + 4.0, "start", "", pa->series[s].label, PL_LABEL_MAX);
+        pl_text(f, x + 44.0, y + 4.0, "start", "", pa->series[k].label, PL_LABEL_MAX);
     }
 }
 

@@ -92,11 +92,11 @@ static const double gap[5] = {10, 12, NAN, 14, 15}; /* two runs: 2 + 2 points */
 static const double thr[5] = {1.0 / 120, 1.0 / 60, 1.0 / 40, 1.0 / 30, 1.0 / 30};
 
 static const pm_plot_series top[3] = {
-    {"achieved period", period, true},
-    {"iteration bound <loop> & co", floor_loop, false},
-    {"gappy", gap, true},
+    {"achieved period", period, true, 0},
+    {"iteration bound <loop> & co", floor_loop, false, 0},
+    {"gappy", gap, true, 0},
 };
-static const pm_plot_series bottom[1] = {{"throughput", thr, true}};
+static const pm_plot_series bottom[1] = {{"throughput", thr, true, 3}}; /* triangles */
 static const pm_plot_panel panels[2] = {
     {"cycles per iteration", top, 3},
     {"iterations per cycle", bottom, 1},
@@ -125,9 +125,9 @@ static void test_well_formed(void **state)
     assert_int_equal(pts[3], 5);
     assert_int_equal(pts[4], 5);
     /* markers: period 5 circles + legend 1; gappy 4 triangles + legend 1;
-     * throughput: series 0 of its panel, 5 circles + legend 1 */
-    assert_int_equal(count(svg, "<circle"), 12);
-    assert_int_equal(count(svg, "<path d="), 5);
+     * throughput in style 3 (triangles): 5 + legend 1 */
+    assert_int_equal(count(svg, "<circle"), 6);
+    assert_int_equal(count(svg, "<path d="), 11);
     /* labels escaped, axis labels present */
     assert_non_null(strstr(svg, "iteration bound &lt;loop&gt; &amp; co"));
     assert_non_null(strstr(svg, "Speedup of &quot;demo&quot;"));
@@ -156,7 +156,7 @@ static void test_single_point_and_zero(void **state)
 {
     (void)state;
     static const double x1[1] = {3}, zero[1] = {0};
-    static const pm_plot_series se[1] = {{"zero", zero, true}};
+    static const pm_plot_series se[1] = {{"zero", zero, true, 0}};
     static const pm_plot_panel pa[1] = {{"cycles", se, 1}};
     pm_plot p = {NULL, NULL, "cores", x1, 1, true, pa, 1, NULL};
     int rc;

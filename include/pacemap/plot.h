@@ -23,6 +23,9 @@ typedef struct pm_plot_series {
     const char *label;    /* legend text (escaped by the writer) */
     const double *y;      /* npoints values; NAN or infinity leaves a gap */
     bool markers;         /* draw a marker at each point */
+    unsigned style;       /* 0: the series' position picks colour, dash and
+                             marker; k (1..PM_PLOT_MAX_SERIES): style k, so a
+                             quantity keeps its look across charts */
 } pm_plot_series;
 
 typedef struct pm_plot_panel {
