@@ -209,8 +209,10 @@ static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
                m->nnodes ? pm_graph_node_name(g, m->nodes[0]) : "?", (long long)m->cycles);
         break;
     case PM_LIMIT_CORES:
-        sw_add(l, "%lld cycles of work / %u core%s: every core is busy all the time",
-               (long long)r->s->bound.total_cycles, p->procs, p->procs == 1 ? "" : "s");
+        sw_add(l, "%lld cycles of work / %u core%s: every core is busy%s",
+               (long long)r->s->bound.total_cycles, p->procs, p->procs == 1 ? "" : "s",
+               p->floors.cores.den == 1 ? " all the time"
+                                        : ", as evenly as whole nodes allow");
         break;
     case PM_LIMIT_MAPPING:
         sw_evidence_mapping(l, g, p);

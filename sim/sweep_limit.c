@@ -3,7 +3,8 @@
  *
  * The kind comes from comparing the achieved period T with the floors
  * (exact rationals): T == iteration bound -> loop; T == largest node ->
- * node; T == work / P -> cores; T above all of them -> mapping.  Ties go
+ * node; T == work / P, or its ceiling (node times are whole cycles and
+ * each core carries whole nodes) -> cores; T above all of them -> mapping.  Ties go
  * in that order, since more cores cannot move the first two.  The evidence
  * comes from the simulator's critical chain (the chain of firings, each
  * held back by the one before, that repeats one iteration or more later:
@@ -37,7 +38,10 @@ static pm_limit_kind limit_kind(const pm_sweep_point *pt)
         return PM_LIMIT_LOOP;
     if (pm_rat_cmp(pt->period, f->node) == 0)
         return PM_LIMIT_NODE;
-    if (pm_rat_cmp(pt->period, f->cores) == 0)
+    /* a map runs each node whole on one core, so some core carries at
+     * least ceil(W / P) integer cycles: that too is the cores' floor */
+    if (pm_rat_cmp(pt->period, f->cores) == 0 ||
+        pm_rat_cmp(pt->period, pm_rat_int(pm_rat_ceil(f->cores))) == 0)
         return PM_LIMIT_CORES;
     if (pm_rat_cmp(pt->period, f->lower_bound) > 0)
         return PM_LIMIT_MAPPING;

@@ -382,6 +382,24 @@ static void test_two_loops(void **state)
     pm_graph_destroy(g);
 }
 
+/* Whole nodes: 13 cycles of work cannot split 6.5 / 6.5 over 2 cores. */
+static void test_cores_ceiling(void **state)
+{
+    (void)state;
+    pm_graph *g = load("# invented for this test\n"
+                       "node a cycles=4\nnode b cycles=4\nnode c cycles=3\nnode d cycles=2\n");
+    pm_sweep s;
+    run(g, 2, 2, &s);
+    /* best split {4,3} | {4,2}: 7 = ceil(13 / 2), above W/P = 13/2 and the
+     * node 4; no map does better, so it is the cores, not the mapping */
+    expect_period(&s, 2, 7, 1);
+    assert_int_equal(s.points[0].floors.lower_bound.num, 13);
+    assert_int_equal(s.points[0].floors.lower_bound.den, 2);
+    assert_int_equal(s.points[0].limit.kind, PM_LIMIT_CORES);
+    pm_sweep_free(&s);
+    pm_graph_destroy(g);
+}
+
 /* ---- saturation rule, refusals ------------------------------------------ */
 
 static void test_not_saturated(void **state)
@@ -468,6 +486,7 @@ int main(void)
         cmocka_unit_test(test_mapping_loop),
         cmocka_unit_test(test_mapping_loop_bus),
         cmocka_unit_test(test_two_loops),
+        cmocka_unit_test(test_cores_ceiling),
         cmocka_unit_test(test_not_saturated),
         cmocka_unit_test(test_refusals),
         cmocka_unit_test(test_restores_procs),

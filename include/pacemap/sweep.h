@@ -12,7 +12,9 @@
  *            delays) - the simulator's critical chain when that chain is a
  *            loop of the graph on one core, else the bound's critical loop.
  *   node     T == N (and not L): the largest node; more cores cannot help.
- *   cores    T == W/P (and neither of the above): every core is full.
+ *   cores    T == W/P, or T == ceil(W/P) (a map puts whole nodes of whole
+ *            cycles on each core, so some core carries at least that):
+ *            every core is full, as far as whole nodes allow.
  *   mapping  T above every floor: the map made a loop of its own.  Evidence:
  *            the simulator's critical chain, a cycle of the inter-processor
  *            communication graph (Sriram & Bhattacharyya, "Embedded
