@@ -90,11 +90,17 @@ static void sw_print_wrapped(const char *head, const char *s, int indent)
         putchar('\n');
 }
 
+/* Names joined by sep (a loop closes on its first node); long lists are
+ * cut after SW_LIST_MAX names (--json lists them all). */
+#define SW_LIST_MAX 12
 static void sw_node_list(sw_line *l, const pm_graph *g, const uint32_t *v, uint32_t n,
                          const char *sep, bool close)
 {
-    for (uint32_t i = 0; i < n; i++)
+    uint32_t shown = n > SW_LIST_MAX + 2 ? SW_LIST_MAX : n;
+    for (uint32_t i = 0; i < shown; i++)
         sw_add(l, "%s%s", i ? sep : "", pm_graph_node_name(g, v[i]));
+    if (shown < n)
+        sw_add(l, "%s... %u more", sep, n - shown);
     if (close && n > 0)
         sw_add(l, "%s%s", sep, pm_graph_node_name(g, v[0]));
 }
