@@ -1,6 +1,6 @@
 /*
  * cmd_sweep.c - `pacemap sweep FILE [-p A..B] [-n ITER] [--faster N]
- * [--svg F] [--csv F] [--json] [--quiet]`: for each core count, schedule,
+ * [--map F] [--svg F] [--csv F] [--json] [--quiet]`: for each core count, schedule,
  * simulate and name the limit (pm_sweep_run); print the table, the
  * saturation point, the evidence per core count and the what-ifs; write
  * the SVG and CSV files through pm_outfile.  A progress line goes to
@@ -9,6 +9,7 @@
  * Range: default 1..16, but never more cores than nodes (extra cores would
  * idle) and never fewer than the pins need.  A platform with named core
  * classes is analysed at its own core count only; -p is refused for it.
+ * With --map F the one core count of the map is analysed (a hand map).
  */
 #include "cli.h"
 #include "cmd_sweep_internal.h"
@@ -31,7 +32,7 @@ typedef struct sw_args {
     uint32_t range[2];
     bool range_set, json, quiet;
     uint32_t iterations, faster;
-    const char *svg, *csv;
+    const char *svg, *csv, *map;
 } sw_args;
 
 const char *sw_rat_text(char *buf, size_t n, pm_rat r)
@@ -473,6 +474,27 @@ static int sw_range(const pm_graph *g, const char *file, sw_args *a)
     return CLI_EXIT_OK;
 }
 
+/* --map: the scenario at -p N (or its own cores) and the map for it. */
+static int sw_load_map(const char *file, sw_args *a, pm_graph **g, pm_map **m)
+{
+    if (a->range_set && a->range[0] != a->range[1]) {
+        cli_usage_error("sweep: --map fixes the core count: give -p N or no -p");
+        return CLI_EXIT_USAGE;
+    }
+    int ex = cli_load(file, a->range_set, a->range[0], g);
+    if (ex != CLI_EXIT_OK)
+        return ex;
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_map_read_file(a->map, *g, m, &d);
+    if (rc != PM_OK) {
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    a->range[0] = a->range[1] = (*g)->platform.ncores;
+    return CLI_EXIT_OK;
+}
+
 static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
 {
     if (a->svg && sw_outfile(r, a->svg, sw_write_svg) != PM_OK)
@@ -486,11 +508,11 @@ static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
     return CLI_EXIT_OK;
 }
 
-static int sw_run(pm_graph *g, const char *file, const sw_args *a)
+static int sw_run(pm_graph *g, const char *file, const sw_args *a, const pm_map *m)
 {
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
-                       .iterations = iterations, .faster = a->faster};
+                       .iterations = iterations, .faster = a->faster, .map = m};
     if (!a->quiet && isatty(STDERR_FILENO))
         o.progress = sw_progress;
     pm_sweep s;
@@ -512,7 +534,7 @@ static int sw_run(pm_graph *g, const char *file, const sw_args *a)
 
 int pm_cmd_sweep(int argc, char **argv)
 {
-    sw_args a = {{1, SW_DEFAULT_TO}, false, false, false, 0, 0, NULL, NULL};
+    sw_args a = {{1, SW_DEFAULT_TO}, false, false, false, 0, 0, NULL, NULL, NULL};
     const cli_opt opts[] = {
         {"-p", "--procs", CLI_RANGE, a.range, &a.range_set,
          "core counts to try (default 1..16, at most one core per node)", "A..B"},
@@ -520,13 +542,16 @@ int pm_cmd_sweep(int argc, char **argv)
          "iterations simulated per core count (default 1000)", "ITER"},
         {"--faster", NULL, CLI_U32, &a.faster, NULL,
          "cycles taken off one node at a time in the what-ifs (default 10)", "N"},
+        {"--map", NULL, CLI_STRING, &a.map, NULL,
+         "analyse this map (one core count) instead of scheduling", "F"},
         {"--svg", NULL, CLI_STRING, &a.svg, NULL, "write a plot of period, floors, throughput",
          "F"},
         {"--csv", NULL, CLI_STRING, &a.csv, NULL, "write one row per core count", "F"},
         {"--json", NULL, CLI_FLAG, &a.json, NULL, "machine output on stdout", NULL},
         {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL, "no progress line on stderr", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
-    const cli_cmd cmd = {"sweep", "FILE [-p A..B] [-n ITER] [--svg F] [--csv F] [--json]",
+    const cli_cmd cmd = {"sweep",
+                         "FILE [-p A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
                          "For each core count: schedule, simulate, and name what limits the "
                          "period (a loop, a loop the mapping made, the cores, the largest node).",
                          opts};
@@ -535,11 +560,16 @@ int pm_cmd_sweep(int argc, char **argv)
     if (ex >= 0)
         return ex;
     pm_graph *g = NULL;
-    ex = cli_load(file, false, 0, &g);
-    if (ex == CLI_EXIT_OK)
+    pm_map *m = NULL;
+    if (a.map)
+        ex = sw_load_map(file, &a, &g, &m);
+    else
+        ex = cli_load(file, false, 0, &g);
+    if (ex == CLI_EXIT_OK && !a.map)
         ex = sw_range(g, file, &a);
     if (ex == CLI_EXIT_OK)
-        ex = sw_run(g, file, &a);
+        ex = sw_run(g, file, &a, m);
+    pm_map_destroy(m);
     pm_graph_destroy(g);
     return ex;
 }

@@ -52,16 +52,22 @@ static int sweep_set_procs(pm_graph *g, uint32_t procs, pm_diag *diag)
 }
 
 int sweep_sched_sim(pm_graph *g, const pm_sweep_opts *o, uint32_t procs,
-                    const int64_t *node_cycles, pm_map **m, pm_sim_result *r,
-                    pm_diag *diag)
+                    const int64_t *node_cycles, pm_map **own, const pm_map **use,
+                    pm_sim_result *r, pm_diag *diag)
 {
+    *own = NULL;
+    *use = o->map;
     int rc = sweep_set_procs(g, procs, diag);
-    if (rc == PM_OK)
-        rc = pm_sched_list(g, o->sched, NULL, m, diag);
+    if (rc == PM_OK && o->map)
+        rc = pm_map_check(o->map, g, diag);
+    else if (rc == PM_OK)
+        rc = pm_sched_list(g, o->sched, NULL, own, diag);
     if (rc != PM_OK)
         return rc;
+    if (!o->map)
+        *use = *own;
     pm_sim_opts so = {.iterations = o->iterations, .node_cycles = node_cycles};
-    return pm_sim_run(g, *m, &so, r, diag);
+    return pm_sim_run(g, *use, &so, r, diag);
 }
 
 static uint32_t sweep_cross_edges(const pm_graph *g, const pm_map *m)
@@ -89,10 +95,11 @@ static int sweep_point(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, uint32_
 {
     pm_sweep_point *pt = &s->points[i];
     pt->procs = o->procs_from + i;
-    pm_map *m = NULL;
+    pm_map *own = NULL;
+    const pm_map *m = NULL;
     pm_sim_result r;
     memset(&r, 0, sizeof r);
-    int rc = sweep_sched_sim(g, o, pt->procs, NULL, &m, &r, diag);
+    int rc = sweep_sched_sim(g, o, pt->procs, NULL, &own, &m, &r, diag);
     if (rc == PM_OK)
         rc = pm_floors_compute(g, &s->bound, pt->procs, &pt->floors);
     if (rc == PM_OK) {
@@ -105,7 +112,7 @@ static int sweep_point(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, uint32_
         sweep_diag_procs(diag, pt->procs);
     }
     pm_sim_result_free(&r);
-    pm_map_destroy(m);
+    pm_map_destroy(own);
     return rc;
 }
 
@@ -152,6 +159,8 @@ static int sweep_check(const pm_graph *g, const pm_sweep_opts *o, pm_diag *diag)
         pm_diag_set(diag, g->file, 0, 0, "nothing to sweep: the graph has no nodes");
         return PM_EINVAL;
     }
+    if (o->map && (o->procs_from != o->procs_to || o->map->ncores != o->procs_from))
+        return PM_EINVAL;
     if (o->procs_to - o->procs_from >= PM_SWEEP_MAX_POINTS) {
         pm_diag_set(diag, g->file, 0, 0, "at most %d core counts per sweep",
                     PM_SWEEP_MAX_POINTS);

@@ -10,11 +10,12 @@
 #include "pacemap/sim.h"
 #include "pacemap/sweep.h"
 
-/* Set g to `procs` cores (unless it already has them), list-schedule it and
- * simulate the map.  *m and *r are the caller's to free, also on error. */
+/* Set g to `procs` cores (unless it already has them), list-schedule it
+ * (or take o->map) and simulate the map.  *use is the map simulated; *own
+ * is the caller's to destroy (NULL with o->map), like *r, also on error. */
 int sweep_sched_sim(pm_graph *g, const pm_sweep_opts *o, uint32_t procs,
-                    const int64_t *node_cycles, pm_map **m, pm_sim_result *r,
-                    pm_diag *diag);
+                    const int64_t *node_cycles, pm_map **own, const pm_map **use,
+                    pm_sim_result *r, pm_diag *diag);
 
 /* Fill pt->limit from the floors, the bound and the simulator's chain. */
 int sweep_limit_classify(const pm_graph *g, const pm_map *m, const pm_bound *b,

@@ -147,10 +147,11 @@ static int whatif_map_rows(pm_graph *g, pm_graph *c, const pm_sweep_opts *o,
                            const pm_sweep_point *pt, pm_sweep_whatif *w, pm_diag *diag)
 {
     const pm_sweep_limit *l = &pt->limit;
-    pm_map *m = NULL;
+    pm_map *own = NULL;
+    const pm_map *m = NULL;
     pm_sim_result r;
     memset(&r, 0, sizeof r);
-    int rc = sweep_sched_sim(g, o, pt->procs, NULL, &m, &r, diag);
+    int rc = sweep_sched_sim(g, o, pt->procs, NULL, &own, &m, &r, diag);
     pm_sim_result_free(&r);
     int64_t *t = rc == PM_OK ? whatif_times(g, m) : NULL;
     uint32_t n = l->nnodes < PM_SWEEP_MAX_WHATIF ? l->nnodes : PM_SWEEP_MAX_WHATIF;
@@ -165,7 +166,7 @@ static int whatif_map_rows(pm_graph *g, pm_graph *c, const pm_sweep_opts *o,
         rc = whatif_resim(g, c, o, m, t, pt, row, diag);
     }
     free(t);
-    pm_map_destroy(m);
+    pm_map_destroy(own);
     return rc;
 }
 

@@ -78,6 +78,20 @@ for p in d["points"]:
     assert hops == {("a", "b"), ("b", "a")}, hops
 PY
 
+# a hand map that puts the loop's two halves on different cores
+printf 'core 0: a\ncore 1: b\n' > "$dir/split.map"
+sed 's/ pin=[01]//' "$dir/pinned.pace" > "$dir/free.pace"
+"$bin" sweep "$dir/free.pace" --map "$dir/split.map" --json -n 200 > "$dir/map.json" ||
+    fail "map run"
+$py - "$dir/map.json" <<'PY' || fail "map json"
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert [p["procs"] for p in d["points"]] == [2]
+lim = d["points"][0]["limit"]
+assert lim["kind"] == "mapping" and len(lim["transfers"]) == 2, lim
+assert d["points"][0]["period"]["num"] == 50
+PY
+
 # ---- CSV and SVG ------------------------------------------------------------
 "$bin" sweep "$dir/rec.pace" -p 1..4 -n 200 --csv "$dir/out.csv" --svg "$dir/out.svg" \
     > "$dir/out.txt" || fail "csv/svg run"
@@ -137,5 +151,7 @@ expect 0 "$bin" sweep "$dir/rec.pace" -p 2..9 -n 50
 grep -q "warning: .*5 nodes" "$dir/err" || fail "no warning when capping at the node count"
 expect 1 "$bin" sweep "$dir/rec.pace" -n 50 --svg "$dir/no/such/dir/x.svg"
 [ -e "$dir/no/such/dir/x.svg" ] && fail "svg left behind"
+expect 2 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 2..3
+expect 1 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 1
 expect 0 "$bin" sweep -h
 exit 0

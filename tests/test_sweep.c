@@ -20,6 +20,7 @@
 #include <cmocka.h>
 
 #include "pacemap/graph.h"
+#include "pacemap/map.h"
 #include "pacemap/reader.h"
 #include "pacemap/sweep.h"
 
@@ -324,6 +325,49 @@ static void test_mapping_loop_bus(void **state)
     pm_graph_destroy(g);
 }
 
+/* A hand map that splits the recursive loop over two cores, transfers 10
+ * cycles each: add 10 + 10 + mul 20 + 10 = 50 per iteration, where the
+ * graph's bound is 30 and the core loads are 30, 40, 20. */
+static void test_hand_map(void **state)
+{
+    (void)state;
+    char text[512];
+    snprintf(text, sizeof text, "%sprocs 3\ncomm latency=10\n", recursive);
+    pm_graph *g = load(text);
+    static const char map_text[] = "core 0: add f1\ncore 1: mul f2\ncore 2: f3\n";
+    pm_map *m = NULL;
+    pm_diag d;
+    assert_int_equal(pm_map_read_string(map_text, strlen(map_text), "hand.map", g, &m, &d),
+                     PM_OK);
+    pm_sweep s;
+    pm_sweep_opts o = {.procs_from = 3, .procs_to = 3, .iterations = 200, .map = m};
+    assert_int_equal(pm_sweep_run(g, &o, &s, &d), PM_OK);
+    expect_period(&s, 3, 50, 1);
+    const pm_sweep_limit *l = &s.points[0].limit;
+    assert_int_equal(l->kind, PM_LIMIT_MAPPING);
+    assert_int_equal(l->cycles, 50);
+    assert_int_equal(l->nhops, 2);
+    for (uint32_t i = 0; i < 2; i++)
+        assert_int_equal(l->hops[i].cost, 10);
+    /* what-if on the same map: mul 20 -> 10 gives 40, still above the
+     * core 1 load 30 and the bound */
+    assert_int_equal(s.whatif.kind, PM_LIMIT_MAPPING);
+    bool seen = false;
+    for (uint32_t i = 0; i < s.whatif.nrows; i++)
+        if (strcmp(name(g, s.whatif.rows[i].node), "mul") == 0) {
+            assert_int_equal(s.whatif.rows[i].after.num, 40);
+            seen = true;
+        }
+    assert_true(seen);
+    pm_sweep_free(&s);
+    /* a map fixes the core count */
+    o.procs_from = 2;
+    assert_int_equal(pm_sweep_run(g, &o, &s, &d), PM_EINVAL);
+    pm_sweep_free(&s);
+    pm_map_destroy(m);
+    pm_graph_destroy(g);
+}
+
 /* ---- two loops: the what-if must follow the next loop -------------------- */
 
 /* Invented: loop A (a1 10 + a2 20, one delay: 30) and an independent
@@ -485,6 +529,7 @@ int main(void)
         cmocka_unit_test(test_recursive_loop),
         cmocka_unit_test(test_mapping_loop),
         cmocka_unit_test(test_mapping_loop_bus),
+        cmocka_unit_test(test_hand_map),
         cmocka_unit_test(test_two_loops),
         cmocka_unit_test(test_cores_ceiling),
         cmocka_unit_test(test_not_saturated),

@@ -45,6 +45,7 @@
 #include "pacemap/bound.h"
 #include "pacemap/error.h"
 #include "pacemap/graph.h"
+#include "pacemap/map.h"
 #include "pacemap/rational.h"
 #include "pacemap/sched.h"
 
@@ -165,6 +166,9 @@ typedef struct pm_sweep_opts {
     uint64_t iterations;           /* simulated per point; 0 = simulator default */
     int64_t faster;                /* what-if cycles; 0 = PM_SWEEP_DEFAULT_FASTER */
     const pm_sched_opts *sched;    /* NULL = scheduler defaults */
+    const pm_map *map;             /* NULL = list-schedule each point; else this map
+                                      (a hand map) for the one point procs_from ==
+                                      procs_to == map->ncores (borrowed) */
     pm_sweep_progress progress;    /* may be NULL */
     void *progress_ctx;
 } pm_sweep_opts;
@@ -174,7 +178,9 @@ typedef struct pm_sweep_opts {
  * opts->procs_to identical cores.  A platform with named core classes
  * sweeps only its own core count (from == to == its ncores, else
  * PM_EPLATFORM).  The graph's core count is set for each point with
- * pm_graph_set_procs_override and restored before returning.
+ * pm_graph_set_procs_override and restored before returning.  With
+ * opts->map, the one point uses that map instead of the list scheduler
+ * (PM_EINVAL unless from == to == map->ncores; PM_EMAP if it does not fit).
  * Errors: PM_EINVAL (bad options, empty graph), PM_ELIMIT (too many
  * points), PM_EPLATFORM (a pin beyond some P, classes; diag says which),
  * and any error of pm_bound_compute, pm_sched_list and pm_sim_run
