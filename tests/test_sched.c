@@ -147,7 +147,7 @@ static int64_t graham_makespan(uint32_t P, int64_t minus)
 {
     static const int64_t t[9] = {3, 2, 2, 2, 4, 4, 4, 4, 9};
     pm_graph *g = tl_graph(P);
-    char name[8];
+    char name[32];
     for (int i = 0; i < 9; i++) {
         snprintf(name, sizeof name, "T%d", i + 1);
         tl_node(g, name, t[i] - minus);
@@ -186,7 +186,7 @@ static pm_graph *random_graph(uint64_t *seed, uint32_t n, uint32_t P, int varian
     } else {
         g = tl_graph(P);
     }
-    char name[16];
+    char name[32];
     for (uint32_t v = 0; v < n; v++) {
         snprintf(name, sizeof name, "n%u", v);
         tl_node(g, name, tl_rand(seed, 20));

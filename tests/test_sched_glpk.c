@@ -112,7 +112,7 @@ static pm_graph *small_dag(uint64_t *seed, uint32_t P)
 {
     uint32_t n = 5 + tl_rand(seed, 5);
     pm_graph *g = tl_graph(P);
-    char name[8];
+    char name[32];
     for (uint32_t v = 0; v < n; v++) {
         snprintf(name, sizeof name, "t%u", v);
         tl_node(g, name, 1 + tl_rand(seed, 9));

@@ -180,7 +180,7 @@ static void test_floor_large_ring(void **state)
     (void)state;
     const uint32_t n = 100000;
     pm_graph *g = tl_graph(1);
-    char name[16];
+    char name[32];
     int64_t total = 0;
     for (uint32_t i = 0; i < n; i++) {
         snprintf(name, sizeof name, "r%u", i);

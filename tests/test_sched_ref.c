@@ -70,7 +70,7 @@ static void test_graham_file(void **state)
         assert_int_equal(rc, PM_OK);
         assert_int_equal(pm_graph_set_procs_override(g, procs[i], &d), PM_OK);
         uint32_t list[9];
-        char name[4];
+        char name[32];
         for (int k = 0; k < 9; k++) {
             snprintf(name, sizeof name, "T%d", k + 1);
             list[k] = pm_graph_find(g, name, strlen(name));
@@ -93,7 +93,7 @@ static pm_graph *read_stg(const char *path, uint32_t P)
     assert_int_equal(fscanf(f, "%u", &n), 1);
     assert_true(n > 0 && n < 100000);
     pm_graph *g = tl_graph(P);
-    char name[16];
+    char name[32];
     for (unsigned i = 0; i < n + 2; i++) {
         snprintf(name, sizeof name, "t%u", i);
         tl_node(g, name, 0);

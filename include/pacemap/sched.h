@@ -131,7 +131,7 @@ typedef struct pm_sched_opts {
  * PM_ENOMEM.  Complexity: O((V + E) log V + V * P * PM_SCHED_GAPS) time,
  * O(V + E + P * PM_SCHED_GAPS) memory.
  */
-#define PM_SCHED_GAPS 16
+#define PM_SCHED_GAPS 8
 int pm_sched_list(const pm_graph *g, const pm_sched_opts *opts, pm_schedule **out,
                   pm_map **map, pm_diag *diag);
 

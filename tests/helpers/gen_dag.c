@@ -56,7 +56,7 @@ static void pace_edge(void *ctx, uint32_t a, uint32_t b, int64_t words)
 
 static void mem_node(void *ctx, uint32_t v, int64_t cycles)
 {
-    char name[16];
+    char name[32];
     int len = snprintf(name, sizeof name, "n%u", v);
     pm_graph_add_node(ctx, name, (size_t)len, cycles, NULL);
 }
