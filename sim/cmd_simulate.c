@@ -181,8 +181,8 @@ static void sm_text_period(const sm_run *s)
         printf("               steady from iteration %llu, repeats every %u iteration%s\n",
                (unsigned long long)r->transient, r->cyclicity, r->cyclicity > 1 ? "s" : "");
     else
-        printf("               not steady within %llu iterations: average over the last half\n",
-               (unsigned long long)r->iterations);
+        printf("               not steady within %llu iteration%s: average over the last half\n",
+               (unsigned long long)r->iterations, r->iterations == 1 ? "" : "s");
     if (!r->uniform)
         printf("               parts run at different rates: tokens pile up on some edges"
                " (see --fifo)\n");
@@ -292,10 +292,11 @@ static void sm_text(const sm_run *s)
     printf("%s: %u nodes on %u cores, %s, ", s->file, s->g->nnodes, s->m->ncores,
            p->interconnect == PM_BUS ? "bus" : "point-to-point links");
     if (s->fifo)
-        printf("FIFOs of %u tokens, ", s->fifo);
+        printf("FIFOs of %u token%s, ", s->fifo, s->fifo == 1 ? "" : "s");
     else
         printf("unbounded FIFOs, ");
-    printf("%llu iterations\n", (unsigned long long)s->r.iterations);
+    printf("%llu iteration%s\n", (unsigned long long)s->r.iterations,
+           s->r.iterations == 1 ? "" : "s");
     sm_text_period(s);
     sm_text_cores(s);
     sm_text_edges(s);

@@ -21,7 +21,7 @@
 #include "sim_internal.h"
 
 #define SIM_MEM_LIMIT (UINT64_C(1) << 30) /* bytes of rings before PM_ELIMIT */
-#define SIM_LAG 8 /* p2p: iterations a core may run ahead of the slowest */
+#define SIM_LAG 8 /* causal engine: iterations a core may run ahead of the slowest */
 #define SIM_PREFETCH 6 /* firings ahead whose data is prefetched */
 
 /* ---- heap of bus requests, keyed (time, phase, core, edge, iteration) --- */
@@ -84,8 +84,12 @@ static sim_ev sim_heap_pop(sim_heap *h)
 
 /* ---- token counts ----------------------------------------------------- */
 
+#define SIM_OCC_LIMIT (UINT32_C(1) << 24) /* waiting times kept per edge */
+
 static int sim_occ_grow(sim_occ *o)
 {
+    if (o->cap >= SIM_OCC_LIMIT)
+        return PM_ELIMIT; /* tokens pile up without bound (pm_sim_run names the edge) */
     uint32_t nc = o->cap ? o->cap * 2 : 4;
     int64_t *nq = malloc(nc * sizeof *nq);
     if (!nq)
@@ -349,7 +353,7 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
     p[4] = malloc(W * nx * sizeof(uint32_t));
     p[5] = malloc(W * nx * sizeof(uint64_t));
     p[6] = calloc(W, sizeof(uint64_t));
-    p[7] = malloc(1); /* unused slot */
+    p[7] = calloc(W, SIM_LBR * sizeof(uint64_t));
     p[8] = malloc(W * sizeof(int64_t));
     p[9] = malloc(W * sizeof(int64_t));
     for (int i = 0; i < 10; i++)
@@ -364,10 +368,9 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
 static void sim_ring_install(sim *s, uint64_t W, void **p)
 {
     free(s->xr), free(s->cr), free(s->ar), free(s->gr), free(s->br), free(s->bi);
-    free(s->f1), free(s->lmin), free(s->lmax);
+    free(s->f1), free(s->lbr), free(s->lmin), free(s->lmax);
     s->xr = p[0], s->cr = p[1], s->ar = p[2], s->gr = p[3], s->br = p[4], s->bi = p[5];
-    s->f1 = p[6], s->lmin = p[8], s->lmax = p[9];
-    free(p[7]);
+    s->f1 = p[6], s->lbr = p[7], s->lmin = p[8], s->lmax = p[9];
     s->W = (uint32_t)W;
     s->mask = W - 1;
 }
@@ -392,6 +395,7 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
     /* iteration max_iter is new (reset after the move); older ones live */
     uint64_t hi = s->max_iter, lo = hi > s->W ? hi - s->W : 0;
     sim_ring_move(p[6], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[7], s->lbr, SIM_LBR * sizeof(uint64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[8], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);
     sim_ring_move(p[9], s->lmax, sizeof(int64_t), 1, lo, hi, om, nm, 0);
 }
@@ -482,6 +486,8 @@ static void sim_iteration_done(sim *s, uint64_t k)
         if (s->f1[i] != s->f1[j])
             s->last_break[c] = k;
     }
+    if (s->bus) /* the end of a bus run is disturbed: keep the past breaks */
+        memcpy(&s->lbr[i * SIM_LBR], s->last_break, sizeof s->last_break);
 }
 
 static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
@@ -1033,7 +1039,7 @@ static void sim_free(sim *s)
                    s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
                    s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->ar, s->gr,
-                   s->br, s->bi, s->granted, s->f1, s->lmin, s->lmax, s->half,
+                   s->br, s->bi, s->granted, s->f1, s->lbr, s->lmin, s->lmax, s->half,
                    s->pend.a, s->trace, s->tr };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);
@@ -1088,6 +1094,20 @@ static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
     return rc;
 }
 
+/* Name the edge whose token counts outgrew SIM_OCC_LIMIT. */
+static void sim_pile_up_message(const sim *s, pm_diag *diag)
+{
+    uint32_t best = 0;
+    for (uint32_t i = 1; i < s->nx; i++)
+        if (s->occ[i].len > s->occ[best].len)
+            best = i;
+    const pm_graph *g = s->g;
+    const pm_edge *e = &g->edges[s->x[best].edge];
+    pm_diag_set(diag, g->file, e->line, e->col,
+                "tokens pile up without bound on edge '%s' -> '%s'; give a FIFO capacity "
+                "or fewer iterations", pm_graph_node_name(g, e->src), pm_graph_node_name(g, e->dst));
+}
+
 int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
                pm_sim_result *out, pm_diag *diag)
 {
@@ -1103,6 +1123,8 @@ int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
     rc = sim_init(&s, g, m, o, diag);
     if (!rc)
         rc = sim_loop(&s, diag);
+    if (rc == PM_ELIMIT && diag && !diag->msg[0] && s.nx)
+        sim_pile_up_message(&s, diag);
     if (!rc)
         rc = sim_collect(&s, out, diag);
     sim_free(&s);

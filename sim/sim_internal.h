@@ -102,6 +102,8 @@ typedef struct sim {
     uint64_t completed, max_iter;
     uint64_t valid_lo;  /* every node's times from this iteration on are held */
     uint64_t last_break[PM_SIM_MAX_CYCLICITY + 1];
+    uint64_t *lbr;      /* bus: last_break as it was after each iteration */
+    uint64_t end;       /* iterations the analysis looks at (N minus the tail) */
     int64_t *half;      /* begin times of iteration N/2 */
     /* events */
     sim_heap pend;               /* bus requests not granted yet */
@@ -118,6 +120,7 @@ typedef struct sim {
     size_t ntr, tr_cap;
 } sim;
 
+#define SIM_LBR (PM_SIM_MAX_CYCLICITY + 1)
 #define SIM_CAUSE(c) ((pm_sim_cause)((c) & 7u))
 #define SIM_CAUSE_EDGE(c) ((c) >> 3)
 

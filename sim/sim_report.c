@@ -93,7 +93,7 @@ uint64_t sim_window_lo(const sim *s)
 
 static bool sim_verify(const sim *s, uint32_t c, uint64_t lo)
 {
-    uint64_t last = s->N - 1;
+    uint64_t last = s->end - 1;
     for (uint32_t v = 0; v < s->n; v++) {
         int64_t d = *sim_x_at(s, v, last) - *sim_x_at(s, v, last - c);
         for (uint64_t k = lo; k < last; k++)
@@ -125,33 +125,66 @@ static int64_t sim_latency_of(const sim *s, uint64_t k)
     return s->lmax[i] - s->lmin[i];
 }
 
+/* The breaks for cyclicity c up to the last analysed iteration. */
+static bool sim_break_at_end(const sim *s, uint32_t c, uint64_t *b)
+{
+    uint64_t last = s->end - 1;
+    if (s->end == s->N)
+        *b = s->last_break[c];
+    else if (last >= sim_window_lo(s))
+        *b = s->lbr[(last & s->mask) * SIM_LBR + c];
+    else
+        return false;
+    if (*b < c)
+        *b = c;
+    return true;
+}
+
 static bool sim_try_cyclicity(sim *s, pm_sim_result *r, uint32_t c)
 {
-    uint64_t N = s->N, winlo = sim_window_lo(s);
-    if (c >= N || N - 1 - c < winlo)
+    uint64_t E = s->end, winlo = sim_window_lo(s), b;
+    if (c >= E || E - 1 - c < winlo || !sim_break_at_end(s, c, &b))
         return false;
-    uint64_t b = s->last_break[c] > c ? s->last_break[c] : c;
     uint64_t need = (uint64_t)c * ((uint64_t)s->span + 2);
-    if (N - 1 - b < need)
+    if (E - 1 < b || E - 1 - b < need)
         return false;
     uint64_t lo = b > winlo + c ? b : winlo + c;
     if (!sim_verify(s, c, lo))
         return false;
-    int64_t adv = sim_max_advance(s, N - 1, N - 1 - c, NULL, &r->uniform);
+    int64_t adv = sim_max_advance(s, E - 1, E - 1 - c, NULL, &r->uniform);
     if (pm_rat_make(adv, c, &r->period))
         return false;
     r->steady = true;
     r->cyclicity = c;
     r->transient = b - c;
     r->latency_steady = 0;
-    for (uint64_t k = N - c; k < N; k++)
+    for (uint64_t k = E - c; k < E; k++)
         if (sim_latency_of(s, k) > r->latency_steady)
             r->latency_steady = sim_latency_of(s, k);
     return true;
 }
 
+/* On a bus the last iterations of a finite run see less contention (no
+ * later requests compete): leave out as many iterations as overlap in
+ * time, latency / average period, plus two. */
+static void sim_set_end(sim *s)
+{
+    uint64_t N = s->N, H = N / 2;
+    s->end = N;
+    if (!s->bus || N - 1 <= H)
+        return;
+    bool uniform;
+    int64_t adv = sim_max_advance(s, N - 1, H, s->half, &uniform);
+    if (adv <= 0)
+        return;
+    unsigned __int128 t = ((unsigned __int128)s->lat_max * (N - 1 - H) + (uint64_t)adv - 1) /
+                          (uint64_t)adv + 2;
+    s->end = t >= N / 2 ? N - N / 2 : N - (uint64_t)t;
+}
+
 int sim_report_steady(sim *s, pm_sim_result *r)
 {
+    sim_set_end(s);
     for (uint32_t c = 1; c <= s->cmax; c++)
         if (sim_try_cyclicity(s, r, c))
             return PM_OK;
@@ -305,7 +338,7 @@ static pm_sim_step sim_step_of(const sim *s, sim_walk w)
 static int sim_chain_walk(sim *s, pm_sim_result *r, uint32_t *mark, const uint32_t *xs_of,
                           pm_sim_step *steps, sim_walk *walk)
 {
-    uint64_t last = s->N - 1, winlo = sim_window_lo(s);
+    uint64_t last = s->end - 1, winlo = sim_window_lo(s);
     uint32_t v0 = 0;
     for (uint32_t v = 1; v < s->n; v++)
         if (*sim_x_at(s, v, last) + s->recv[v] + s->t[v] >
@@ -320,7 +353,7 @@ static int sim_chain_walk(sim *s, pm_sim_result *r, uint32_t *mark, const uint32
         if (*m != PM_NONE) {
             uint32_t from = *m;
             r->critical_cycles = sim_walk_time(s, walk[from]) - sim_walk_time(s, w);
-            r->critical_delays = walk[from].k - w.k;
+            r->critical_delays = walk[from].k > w.k ? walk[from].k - w.k : 0;
             steps[from].via = PM_CAUSE_START, steps[from].via_edge = PM_NONE;
             memmove(steps, steps + from, (len + 1 - from) * sizeof *steps);
             return (int)(len + 1 - from);
@@ -328,7 +361,7 @@ static int sim_chain_walk(sim *s, pm_sim_result *r, uint32_t *mark, const uint32
         *m = len;
         sim_walk p;
         pm_sim_step st;
-        if (!sim_walk_back(s, xs_of, w, &p, &st) || p.k < winlo || p.k > last)
+        if (!sim_walk_back(s, xs_of, w, &p, &st) || p.k < winlo || p.k >= s->N)
             return (int)(len + 1);
         pm_sim_step ps = sim_step_of(s, p);
         ps.via = st.via, ps.via_edge = st.via_edge;

@@ -8,6 +8,7 @@
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <cmocka.h>
@@ -479,6 +480,49 @@ static void test_free_bus_equals_p2p(void **state)
     }
 }
 
+/* Regression: the last iterations of a bus run see less contention (no
+ * later requests compete for the bus), which once hid the steady state of
+ * every bus run.  A chain over 4 cores with feedback, as in the bench. */
+static void test_bus_run_reaches_steady_state(void **state)
+{
+    (void)state;
+    uint32_t n = 300;
+    int64_t t[300];
+    for (uint32_t v = 0; v < n; v++)
+        t[v] = 5 + rnd(40);
+    pm_graph *g = pm_graph_create("chain");
+    uint32_t procs = 4;
+    assert_int_equal(pm_graph_set_cores(g, 1, NULL, &procs), PM_OK);
+    for (uint32_t v = 0; v < n; v++) {
+        char name[16];
+        int len = snprintf(name, sizeof name, "n%u", v);
+        assert_int_equal(pm_graph_add_node(g, name, (size_t)len, t[v], NULL), PM_OK);
+    }
+    g->platform.comm = (pm_comm){ 20, 1, 2, 2 };
+    g->platform.interconnect = PM_BUS;
+    for (uint32_t v = 1; v < n; v++) {
+        mk_edge(g, v - 1, v, 0);
+        mk_edge(g, v - 1 - rnd(v < 16 ? v : 16), v, 0);
+        if (v > 20 && rnd(25) == 0)
+            mk_edge(g, v, v - 1 - rnd(20), 1 + rnd(3));
+    }
+    assert_int_equal(pm_graph_finalize(g), PM_OK);
+    uint32_t lists[4][300], counts[4] = { 0 };
+    const uint32_t *ptr[4] = { lists[0], lists[1], lists[2], lists[3] };
+    for (uint32_t v = 0; v < n; v++)
+        lists[(v / 16) % 4][counts[(v / 16) % 4]++] = v;
+    pm_map *m = NULL;
+    assert_int_equal(pm_map_create(4, n, ptr, counts, &m), PM_OK);
+    pm_sim_opts o = { .iterations = 1500 };
+    pm_sim_result r;
+    assert_int_equal(pm_sim_run(g, m, &o, &r, NULL), PM_OK);
+    assert_true(r.steady);
+    assert_true(r.critical_matches);
+    pm_sim_result_free(&r);
+    pm_map_destroy(m);
+    pm_graph_destroy(g);
+}
+
 /* Same input, same output, down to every recorded time. */
 static void test_deterministic(void **state)
 {
@@ -535,6 +579,7 @@ int main(void)
         cmocka_unit_test(test_one_core_period_is_total),
         cmocka_unit_test(test_bus_never_beats_p2p),
         cmocka_unit_test(test_free_bus_equals_p2p),
+        cmocka_unit_test(test_bus_run_reaches_steady_state),
         cmocka_unit_test(test_deterministic),
         cmocka_unit_test(test_bad_input),
     };

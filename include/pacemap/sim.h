@@ -21,11 +21,12 @@
  * point-to-point links; on a bus it is requested at `end`, granted when the
  * bus is free, and arrives at grant + latency + per_word*words.
  *
- * Memory does not grow with the number of iterations as long as the cores
- * stay within a bounded number of iterations of each other (always the case
- * with a FIFO capacity; without one, tokens piling up on an edge whose
- * consumer is slower than its producer make the window grow, up to a limit:
- * PM_ELIMIT).
+ * Memory does not grow with the number of iterations: the simulator keeps
+ * a window of the last W iterations (W small: the deepest delay or FIFO
+ * plus the longest cyclicity looked for, plus a few iterations of slack
+ * between cores).  Only tokens that truly pile up on an unbounded edge (a
+ * consumer slower than its producer) take memory that grows with them;
+ * past a limit the run stops with PM_ELIMIT naming the edge.
  *
  * Ownership: a pm_sim_result owns its arrays; free with pm_sim_result_free()
  * (safe on a zeroed or already freed result).  The graph and the map are
@@ -164,12 +165,15 @@ typedef struct pm_sim_result {
  * (multirate graph), PM_EINVAL (bad options), PM_ERANGE (times overflow
  * 62 bits), PM_ELIMIT (tokens pile up past the memory limit; diag names
  * the edge), PM_ENOMEM.
- * Complexity: O(N * (V + E) * log P) time; memory O((V + E) * W) where W
- * is the window of iterations kept (small unless tokens pile up).
+ * Complexity: O(N * (V + E)) time with point-to-point links (a compiled
+ * sweep in topological order), plus O(log R) per transfer on a bus for R
+ * waiting requests; memory O((V + E) * W) for the window of W iterations.
  */
 int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
                pm_sim_result *out, pm_diag *diag);
 
+/* Free what a result owns and zero it; NULL, zeroed or freed results are
+ * fine. */
 void pm_sim_result_free(pm_sim_result *r);
 
 /* Stable lower-case name of a cause: "start", "order", "edge", "bus",
