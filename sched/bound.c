@@ -245,19 +245,43 @@ static int part_key_cmp(const void *a, const void *b)
     return (x->first > y->first) - (x->first < y->first);
 }
 
+/* The `want` worst parts, sorted, into keys[]: insertion into a short
+ * sorted list when few are wanted (the memory of a full sort of a million
+ * parts is saved), a full sort otherwise. */
+static void bound_top_parts(const howard *h, const uint32_t *first, uint32_t want,
+                            part_key *keys)
+{
+    uint32_t have = 0;
+    for (uint32_t k = 0; k < h->ncycles; k++) {
+        part_key key = { h->cycles[k].p, h->cycles[k].q, first[k], k };
+        if (want >= h->ncycles) {
+            keys[have++] = key;
+            continue;
+        }
+        if (have == want && part_key_cmp(&key, &keys[want - 1]) >= 0)
+            continue;
+        uint32_t at = have < want ? have++ : want - 1;
+        while (at > 0 && part_key_cmp(&key, &keys[at - 1]) < 0) {
+            keys[at] = keys[at - 1];
+            at--;
+        }
+        keys[at] = key;
+    }
+    if (want >= h->ncycles)
+        qsort(keys, have, sizeof *keys, part_key_cmp);
+}
+
 /* The parts, worst first, with one worst loop each (policy cycle). */
 static int bound_fill_parts(const howard *h, const uint32_t *first, const uint32_t *size,
                             uint32_t max, pm_bound *out)
 {
     uint32_t np = h->ncycles;
-    part_key *keys = malloc(((size_t)np + 1) * sizeof *keys);
-    if (!keys)
-        return PM_ENOMEM;
-    for (uint32_t k = 0; k < np; k++)
-        keys[k] = (part_key){ h->cycles[k].p, h->cycles[k].q, first[k], k };
-    qsort(keys, np, sizeof *keys, part_key_cmp);
     out->nparts_total = np;
     out->nparts = max && max < np ? max : np;
+    part_key *keys = malloc(((size_t)out->nparts + 1) * sizeof *keys);
+    if (!keys)
+        return PM_ENOMEM;
+    bound_top_parts(h, first, out->nparts, keys);
     size_t total = 0;
     for (uint32_t i = 0; i < out->nparts; i++)
         total += 2 * (size_t)howard_policy_len(h, h->cycles[keys[i].k].root);
@@ -340,6 +364,10 @@ static int bound_solve(const pm_graph *g, int64_t sum_t, int64_t sum_d,
         rc = bound_solve_parts(&h, &s, &first, &size);
     if (rc == PM_OK)
         rc = howard_certify(&h);
+    free(s.start); /* the part ranges are done with */
+    s.start = NULL;
+    if (rc == PM_OK)
+        rc = howard_map(&h);
     if (rc == PM_OK)
         rc = bound_fill_parts(&h, first, size, opts ? opts->max_parts : 0, out);
     free(first);

@@ -30,12 +30,19 @@
 
 /* ---- building the local arrays ------------------------------------------ */
 
-static int howard_alloc(howard *h)
+static int howard_alloc(howard *h, bool small_delays, bool small_times)
 {
     size_t n = (size_t)h->n + 1, m = (size_t)h->off[h->n] + 1;
-    h->adj = malloc(m * (h->wide ? sizeof(he_wide) : sizeof(he_narrow)));
-    h->t = malloc(n * sizeof *h->t);
-    return h->adj && h->t ? PM_OK : PM_ENOMEM;
+    h->dst = malloc(m * sizeof *h->dst);
+    if (small_delays)
+        h->d8 = malloc(m);
+    else
+        h->d64 = malloc(m * sizeof *h->d64);
+    if (small_times)
+        h->t32 = malloc(n * sizeof *h->t32);
+    else
+        h->t = malloc(n * sizeof *h->t);
+    return h->dst && (h->d8 || h->d64) && (h->t || h->t32) ? PM_OK : PM_ENOMEM;
 }
 
 /* Count, then copy, the edges whose ends share a part.  dst[k] is the
@@ -56,15 +63,19 @@ static void howard_copy(howard *h, const uint32_t *comp, const uint32_t *dst)
     const pm_graph *g = h->g;
     for (uint32_t i = 0; i < h->n; i++) {
         uint32_t u = h->order[i], at = h->off[i];
-        h->t[i] = pm_graph_min_cycles(g, u);
+        if (h->t32)
+            h->t32[i] = (uint32_t)pm_graph_min_cycles(g, u);
+        else
+            h->t[i] = pm_graph_min_cycles(g, u);
         for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
             if (comp[dst[k]] != comp[u])
                 continue;
             int64_t d = g->edges[g->out_edge[k]].delay;
-            if (h->wide)
-                ((he_wide *)h->adj)[at++] = (he_wide){ h->map[dst[k]], 0, d };
+            h->dst[at] = h->map[dst[k]];
+            if (h->d8)
+                h->d8[at++] = (uint8_t)d;
             else
-                ((he_narrow *)h->adj)[at++] = (he_narrow){ h->map[dst[k]], (uint32_t)d };
+                h->d64[at++] = d;
         }
     }
 }
@@ -78,7 +89,8 @@ int howard_alloc_state(howard *h)
     h->stack = malloc(n * sizeof *h->stack);
     h->seq = malloc(n * sizeof *h->seq);
     h->nxt = malloc(n * sizeof *h->nxt);
-    if (!h->st || !h->stack || !h->seq || !h->nxt)
+    h->dirty = calloc(n / 64 + 1, sizeof *h->dirty);
+    if (!h->st || !h->stack || !h->seq || !h->nxt || !h->dirty)
         return PM_ENOMEM;
     for (uint32_t i = 0; i < h->n; i++)
         *hw_cyc(h, i) = PM_NONE;
@@ -92,10 +104,14 @@ int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *d
     h->g = g;
     h->n = g->nnodes;
     h->order = s->order;
-    bool big_delay = false;
-    for (uint32_t e = 0; e < g->nedges && !big_delay; e++)
-        big_delay = g->edges[e].delay > (int64_t)UINT32_MAX;
-    h->wide = big_delay || (bnd_i128)sum_t * sum_d >= ((bnd_i128)1 << 60);
+    int64_t maxd = 0, maxt = 0;
+    for (uint32_t e = 0; e < g->nedges; e++)
+        maxd = g->edges[e].delay > maxd ? g->edges[e].delay : maxd;
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        int64_t tv = pm_graph_min_cycles(g, v);
+        maxt = tv > maxt ? tv : maxt;
+    }
+    h->wide = (bnd_i128)sum_t * sum_d >= ((bnd_i128)1 << 60);
     h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
     h->off = calloc((size_t)h->n + 1, sizeof *h->off);
     if (!h->map || !h->off) {
@@ -105,11 +121,13 @@ int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *d
     for (uint32_t i = 0; i < h->n; i++)
         h->map[h->order[i]] = i;
     howard_fill(h, s->comp, dst);
-    if (howard_alloc(h) != PM_OK) {
+    if (howard_alloc(h, maxd < 256, maxt <= (int64_t)UINT32_MAX) != PM_OK) {
         howard_free(h);
         return PM_ENOMEM;
     }
     howard_copy(h, s->comp, dst);
+    free(h->map); /* rebuilt by howard_map() when the loops are read */
+    h->map = NULL;
     return PM_OK;
 }
 
@@ -117,12 +135,17 @@ void howard_free(howard *h)
 {
     free(h->map);
     free(h->off);
-    free(h->adj);
+    free(h->dst);
+    free(h->d8);
+    free(h->d64);
     free(h->t);
+    free(h->t32);
     free(h->st);
     free(h->stack);
     free(h->seq);
     free(h->nxt);
+    free(h->dirty);
+    free(h->old);
     free(h->cycles);
     memset(h, 0, sizeof *h);
 }
@@ -155,7 +178,7 @@ static void howard_first_policy(howard *h, uint32_t a, uint32_t b)
         uint32_t best = h->off[i];
         for (uint32_t k = h->off[i] + 1; k < h->off[i + 1]; k++) {
             int64_t dk = he_delay(h, k), db = he_delay(h, best);
-            if (dk < db || (dk == db && h->t[he_dst(h, k)] > h->t[he_dst(h, best)]))
+            if (dk < db || (dk == db && ht(h, he_dst(h, k)) > ht(h, he_dst(h, best))))
                 best = k;
         }
         howard_set_pol(h, i, best); /* a part with a loop: every node has an edge */
@@ -181,7 +204,26 @@ static int howard_push_cycle(howard *h, int64_t w, int64_t d, uint32_t root)
 static inline bnd_i128 howard_step(const howard *h, uint32_t i, uint32_t k,
                                    const howard_cycle *c)
 {
-    return (bnd_i128)c->q * h->t[i] - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
+    return (bnd_i128)c->q * ht(h, i) - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
+}
+
+/* Set node i's cycle entry and bias, and mark it dirty when its ratio or
+ * bias differs from the previous policy's (h->old holds that table). */
+static inline void howard_assign(howard *h, uint32_t i, uint32_t k, bnd_i128 x)
+{
+    uint32_t o = *hw_cyc(h, i);
+    bool same = o != PM_NONE && o - h->old_base < h->nold &&
+                h->old[o - h->old_base].p == h->cycles[k].p &&
+                h->old[o - h->old_base].q == h->cycles[k].q && hw_x(h, i) == x;
+    if (!same)
+        h->dirty[i >> 6] |= UINT64_C(1) << (i & 63);
+    *hw_cyc(h, i) = k;
+    hw_set_x(h, i, x);
+}
+
+static inline bool howard_is_dirty(const howard *h, uint32_t i)
+{
+    return h->dirty[i >> 6] >> (i & 63) & 1;
 }
 
 /* The policy cycle nodes[0..len) in policy order: record it and set its
@@ -192,7 +234,7 @@ static int howard_close_cycle(howard *h, const uint32_t *nodes, uint32_t len)
     uint32_t at = 0;
     for (uint32_t j = 0; j < len; j++) {
         uint32_t i = nodes[j];
-        w += h->t[i];
+        w += ht(h, i);
         d += he_delay(h, *hw_pol(h, i));
         if (h->order[i] < h->order[nodes[at]])
             at = j;
@@ -201,12 +243,10 @@ static int howard_close_cycle(howard *h, const uint32_t *nodes, uint32_t len)
     if (rc)
         return rc;
     uint32_t k = h->ncycles - 1;
-    hw_set_x(h, nodes[at], 0);
-    *hw_cyc(h, nodes[at]) = k;
+    howard_assign(h, nodes[at], k, 0);
     for (uint32_t j = 1; j < len; j++) {
         uint32_t i = nodes[(at + len - j) % len];
-        hw_set_x(h, i, howard_step(h, i, *hw_pol(h, i), &h->cycles[k]));
-        *hw_cyc(h, i) = k;
+        howard_assign(h, i, k, howard_step(h, i, *hw_pol(h, i), &h->cycles[k]));
     }
     return PM_OK;
 }
@@ -241,6 +281,8 @@ static uint32_t howard_peel(howard *h, uint32_t a, uint32_t b, uint32_t *indeg)
  * successor). */
 static int howard_values(howard *h, uint32_t a, uint32_t b)
 {
+    for (uint32_t w = a >> 6; w <= (b - 1) >> 6; w++)
+        h->dirty[w] = 0;
     uint32_t *indeg = h->stack;
     uint32_t tail = howard_peel(h, a, b, indeg);
     for (uint32_t i = a; i < b; i++) {
@@ -265,8 +307,7 @@ static int howard_values(howard *h, uint32_t a, uint32_t b)
                                        : (void *)&((hw_narrow *)h->st)[f]);
         }
         uint32_t k = *hw_cyc(h, howard_next(h, u));
-        *hw_cyc(h, u) = k;
-        hw_set_x(h, u, howard_step(h, u, *hw_pol(h, u), &h->cycles[k]));
+        howard_assign(h, u, k, howard_step(h, u, *hw_pol(h, u), &h->cycles[k]));
     }
     return PM_OK;
 }
@@ -280,12 +321,12 @@ howard_best(const howard *h, uint32_t i, bool wide)
     uint32_t bc = wide ? ((hw_wide *)h->st)[i].cyc : ((hw_narrow *)h->st)[i].cyc;
     uint32_t best = wide ? ((hw_wide *)h->st)[i].pol : ((hw_narrow *)h->st)[i].pol;
     bnd_i128 bx = wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
-    int64_t ti = h->t[i];
+    int64_t ti = ht(h, i);
     for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
-        uint32_t v = wide ? ((he_wide *)h->adj)[k].dst : ((he_narrow *)h->adj)[k].dst;
+        uint32_t v = h->dst[k];
         if (!wide && k + 16 < h->off[h->n]) /* overlap the cache misses */
-            __builtin_prefetch(&((hw_narrow *)h->st)[((he_narrow *)h->adj)[k + 16].dst]);
-        int64_t d = wide ? ((he_wide *)h->adj)[k].delay : ((he_narrow *)h->adj)[k].delay;
+            __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);
+        int64_t d = he_delay(h, k);
         uint32_t vc = wide ? ((hw_wide *)h->st)[v].cyc : ((hw_narrow *)h->st)[v].cyc;
         int r = vc == bc ? 0 : howard_cmp(&cy[vc], &cy[bc]);
         if (r < 0)
@@ -312,6 +353,12 @@ static bool howard_improve(howard *h, uint32_t a, uint32_t b)
 {
     bool changed = false;
     for (uint32_t i = a; i < b; i++) {
+        /* no value around i moved: it still has no strict improvement */
+        bool look = howard_is_dirty(h, i);
+        for (uint32_t k = h->off[i]; !look && k < h->off[i + 1]; k++)
+            look = howard_is_dirty(h, h->dst[k]);
+        if (!look)
+            continue;
         uint32_t best = h->wide ? howard_best(h, i, true) : howard_best(h, i, false);
         if (best != *hw_pol(h, i)) {
             howard_set_pol(h, i, best);
@@ -321,13 +368,35 @@ static bool howard_improve(howard *h, uint32_t a, uint32_t b)
     return changed;
 }
 
+/* Remember the ratios of the current policy's cycles (entries from base)
+ * so that the next value determination can tell what changed. */
+static int howard_keep_old(howard *h, uint32_t base)
+{
+    uint32_t n = h->ncycles - base;
+    if (n > h->old_cap) {
+        howard_cycle *p = realloc(h->old, n * sizeof *p);
+        if (!p)
+            return PM_ENOMEM;
+        h->old = p;
+        h->old_cap = n;
+    }
+    if (n)
+        memcpy(h->old, h->cycles + base, n * sizeof *h->old);
+    h->old_base = base;
+    h->nold = n;
+    return PM_OK;
+}
+
 int howard_solve_part(howard *h, uint32_t a, uint32_t b)
 {
     uint32_t base = h->ncycles;
     howard_first_policy(h, a, b);
     for (;;) {
+        int rc = howard_keep_old(h, base);
+        if (rc)
+            return rc;
         h->ncycles = base;
-        int rc = howard_values(h, a, b);
+        rc = howard_values(h, a, b);
         if (rc)
             return rc;
         if (!howard_improve(h, a, b))
@@ -350,7 +419,7 @@ int howard_certify(const howard *h)
         bnd_i128 xi = hw_x(h, i);
         for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
             if (!h->wide && k + 16 < h->off[h->n])
-                __builtin_prefetch(&((hw_narrow *)h->st)[((he_narrow *)h->adj)[k + 16].dst]);
+                __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);
             /* an edge inside a part: both ends carry the part's entry */
             if (cu == PM_NONE || *hw_cyc(h, he_dst(h, k)) != cu)
                 return PM_EINVAL;
@@ -365,6 +434,17 @@ bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q)
 {
     const howard_cycle *c = &h->cycles[*hw_cyc(h, i)];
     return c->p == p && c->q == q && howard_step(h, i, k, c) == hw_x(h, i);
+}
+
+int howard_map(howard *h)
+{
+    if (!h->map)
+        h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
+    if (!h->map)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < h->n; i++)
+        h->map[h->order[i]] = i;
+    return PM_OK;
 }
 
 uint32_t howard_policy_len(const howard *h, uint32_t root)

@@ -38,13 +38,6 @@ typedef struct hw_wide {
     uint32_t cyc, pol;
     uint64_t pad;
 } hw_wide;
-typedef struct he_narrow {
-    uint32_t dst, delay;
-} he_narrow;
-typedef struct he_wide {
-    uint32_t dst, pad;
-    int64_t delay;
-} he_wide;
 
 /* Policy iteration state.  Nodes are renumbered ("local" index) in the
  * order of their strongly connected part, and the edges inside parts are
@@ -55,12 +48,18 @@ typedef struct howard {
     const uint32_t *order; /* local -> node (the SCC order) */
     uint32_t *map;         /* node -> local */
     uint32_t *off;         /* local CSR of the edges inside parts */
-    void *adj;             /* he_narrow or he_wide */
-    int64_t *t;            /* local node times */
+    uint32_t *dst;         /* local target of each local edge */
+    uint8_t *d8;           /* its delays when all are below 256 ... */
+    int64_t *d64;          /* ... else here */
+    int64_t *t;            /* local node times ... */
+    uint32_t *t32;         /* ... or here when all fit in 32 bits */
     void *st;              /* hw_narrow or hw_wide per local node */
     uint32_t *stack;
     uint32_t *seq;         /* scratch: peeling order of the policy graph */
     uint32_t *nxt;         /* policy successor of each local node */
+    uint64_t *dirty;       /* bit per node: values changed in the last pass */
+    howard_cycle *old;     /* the previous policy's cycles ... */
+    uint32_t old_base, nold, old_cap; /* ... entries from old_base on */
     bool wide;
     howard_cycle *cycles;  /* after solving: one entry per part */
     uint32_t ncycles, cycles_cap;
@@ -91,14 +90,19 @@ static inline void hw_set_x(const howard *h, uint32_t i, bnd_i128 x)
         ((hw_narrow *)h->st)[i].x = (int64_t)x;
 }
 
+static inline int64_t ht(const howard *h, uint32_t i)
+{
+    return h->t32 ? h->t32[i] : h->t[i];
+}
+
 static inline uint32_t he_dst(const howard *h, uint32_t k)
 {
-    return h->wide ? ((he_wide *)h->adj)[k].dst : ((he_narrow *)h->adj)[k].dst;
+    return h->dst[k];
 }
 
 static inline int64_t he_delay(const howard *h, uint32_t k)
 {
-    return h->wide ? ((he_wide *)h->adj)[k].delay : ((he_narrow *)h->adj)[k].delay;
+    return h->d8 ? h->d8[k] : h->d64[k];
 }
 
 /* Build the local CSR from the parts of s (s->comp and dst are used, then
@@ -123,6 +127,10 @@ int howard_certify(const howard *h);
 /* Local edge k of local node i is tight under the certified potentials and
  * its part's bound is p/q (i must lie in a part with a loop). */
 bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q);
+
+/* (Re)build h->map, which howard_graph_edge needs; it is not kept during
+ * the iteration to save memory.  PM_ENOMEM. */
+int howard_map(howard *h);
 
 /* The graph edge behind local edge position k of local node i. */
 uint32_t howard_graph_edge(const howard *h, uint32_t i, uint32_t k);

@@ -7,9 +7,8 @@
  * q*W - p*D and none is positive).  So the critical loops are the simple
  * cycles of the tight subgraph.  They are listed with Johnson's algorithm
  * ("Finding all the elementary circuits of a directed graph", SIAM J.
- * Computing 4(1), 1975), without recursion, on a local copy of the
- * nontrivial strongly connected parts of the tight subgraph (usually a few
- * nodes).  Each start node s is the smallest node of the cycles found from
+ * Computing 4(1), 1975), without recursion, on a local copy of the nodes
+ * that lie on tight cycles (found by peeling, usually a few nodes).  Each start node s is the smallest node of the cycles found from
  * it, so every loop starts at its smallest node id.  Johnson's bound,
  * O((V + E) per loop), holds because each round starts at the smallest node
  * of a nontrivial part of the nodes >= s, and we stop after max + 1 loops.
@@ -20,51 +19,38 @@
 #include <stdlib.h>
 #include <string.h>
 
-/* The tight subgraph on local indices: tight edges of the critical parts,
- * as targets (tdst) and local edge positions (tpos). */
-typedef struct tight_graph {
-    uint32_t *off, *dst, *pos;
-} tight_graph;
-
-static void tight_free(tight_graph *t)
+static bool loops_critical(const howard *h, uint32_t i, int64_t p, int64_t q)
 {
-    free(t->off);
-    free(t->dst);
-    free(t->pos);
+    uint32_t c = *hw_cyc(h, i);
+    return c != PM_NONE && h->cycles[c].p == p && h->cycles[c].q == q;
 }
 
-static int tight_build(const howard *h, int64_t p, int64_t q, tight_graph *t)
+/* Peel the tight subgraph of the critical parts from its sources (Kahn).
+ * Every node of a critical part leads along tight policy edges to a tight
+ * cycle, so a node left over (indeg > 0) lies on a tight cycle itself: the
+ * leftovers are exactly the nodes of the critical loops, usually a few.
+ * indeg and queue are scratch arrays of h->n entries. */
+static void loops_peel(const howard *h, int64_t p, int64_t q, uint32_t *indeg, uint32_t *queue)
 {
-    memset(t, 0, sizeof *t);
-    t->off = calloc((size_t)h->n + 1, sizeof *t->off);
-    if (!t->off)
-        return PM_ENOMEM;
-    for (int pass = 0; pass < 2; pass++) {
-        for (uint32_t i = 0, at = 0; i < h->n; i++) {
-            for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
-                if (!howard_tight(h, i, k, p, q))
-                    continue;
-                if (pass) {
-                    t->dst[at] = he_dst(h, k);
-                    t->pos[at] = k;
-                }
-                at++;
-            }
-            if (!pass)
-                t->off[i + 1] = at;
-        }
-        if (!pass) {
-            t->dst = malloc(((size_t)t->off[h->n] + 1) * sizeof *t->dst);
-            t->pos = malloc(((size_t)t->off[h->n] + 1) * sizeof *t->pos);
-            if (!t->dst || !t->pos)
-                return PM_ENOMEM;
-        }
+    uint32_t tail = 0;
+    memset(indeg, 0, (size_t)h->n * sizeof *indeg);
+    for (uint32_t i = 0; i < h->n; i++)
+        if (loops_critical(h, i, p, q))
+            for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+                indeg[he_dst(h, k)] += howard_tight(h, i, k, p, q);
+    for (uint32_t i = 0; i < h->n; i++)
+        if (indeg[i] == 0 && loops_critical(h, i, p, q))
+            queue[tail++] = i;
+    for (uint32_t head = 0; head < tail; head++) {
+        uint32_t i = queue[head];
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+            if (howard_tight(h, i, k, p, q) && --indeg[he_dst(h, k)] == 0)
+                queue[tail++] = he_dst(h, k);
     }
-    return PM_OK;
 }
 
-/* The local graph of Johnson's search: nodes of nontrivial tight parts,
- * in ascending local index (ascending node id inside a part). */
+/* The local graph of Johnson's search: the nodes left by loops_peel, in
+ * ascending local index (ascending node id inside a part). */
 typedef struct loops_local {
     uint32_t n, m;
     uint32_t *glob;   /* Johnson index -> howard local index */
@@ -82,24 +68,21 @@ static void loops_local_free(loops_local *l)
     memset(l, 0, sizeof *l);
 }
 
-static bool loops_cyclic(const tight_graph *t, const pm_scc *ts, uint32_t i)
+/* Tight edge k of i whose target is kept (map != PM_NONE). */
+static bool loops_keep(const howard *h, const uint32_t *map, uint32_t i, uint32_t k,
+                       int64_t p, int64_t q)
 {
-    uint32_t c = ts->comp[i];
-    if (ts->start[c + 1] - ts->start[c] > 1)
-        return true;
-    for (uint32_t k = t->off[i]; k < t->off[i + 1]; k++)
-        if (t->dst[k] == i)
-            return true;
-    return false;
+    return map[he_dst(h, k)] != PM_NONE && howard_tight(h, i, k, p, q);
 }
 
-/* Build the local graph; map[] (h->n entries) is scratch. */
-static int loops_local_build(const howard *h, const tight_graph *t, const pm_scc *ts,
+/* Build the local graph from the kept nodes (left[i] > 0); map[] (h->n
+ * entries) is scratch. */
+static int loops_local_build(const howard *h, int64_t p, int64_t q, const uint32_t *left,
                              uint32_t *map, loops_local *l)
 {
     memset(l, 0, sizeof *l);
     for (uint32_t i = 0; i < h->n; i++)
-        map[i] = loops_cyclic(t, ts, i) ? l->n++ : PM_NONE;
+        map[i] = left[i] > 0 && loops_critical(h, i, p, q) ? l->n++ : PM_NONE;
     l->glob = malloc(((size_t)l->n + 1) * sizeof *l->glob);
     l->off = calloc((size_t)l->n + 1, sizeof *l->off);
     if (!l->glob || !l->off)
@@ -107,8 +90,8 @@ static int loops_local_build(const howard *h, const tight_graph *t, const pm_scc
     for (uint32_t i = 0; i < h->n; i++)
         if (map[i] != PM_NONE) {
             l->glob[map[i]] = i;
-            for (uint32_t k = t->off[i]; k < t->off[i + 1]; k++)
-                l->off[map[i] + 1] += ts->comp[t->dst[k]] == ts->comp[i];
+            for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+                l->off[map[i] + 1] += loops_keep(h, map, i, k, p, q);
         }
     for (uint32_t j = 0; j < l->n; j++)
         l->off[j + 1] += l->off[j];
@@ -119,10 +102,10 @@ static int loops_local_build(const howard *h, const tight_graph *t, const pm_scc
         return PM_ENOMEM;
     for (uint32_t j = 0, at = 0; j < l->n; j++) {
         uint32_t i = l->glob[j];
-        for (uint32_t k = t->off[i]; k < t->off[i + 1]; k++)
-            if (ts->comp[t->dst[k]] == ts->comp[i]) {
-                l->adj[at] = map[t->dst[k]];
-                l->eid[at++] = howard_graph_edge(h, i, t->pos[k]);
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+            if (loops_keep(h, map, i, k, p, q)) {
+                l->adj[at] = map[he_dst(h, k)];
+                l->eid[at++] = howard_graph_edge(h, i, k);
             }
     }
     return PM_OK;
@@ -359,19 +342,10 @@ static int loops_enumerate(const loops_local *l, const howard *h, uint32_t max,
 int bound_critical_loops(const howard *h, int64_t p, int64_t q, uint32_t max,
                          pm_bound *out)
 {
-    tight_graph t;
-    int rc = tight_build(h, p, q, &t);
-    pm_scc ts = { 0 };
-    if (rc == PM_OK) {
-        scc_csr c = { .n = h->n, .off = t.off, .list = t.dst };
-        rc = scc_run(&c, &ts);
-    }
-    loops_local l = { 0 };
-    /* the peeling scratch is no longer needed: reuse it as the local map */
-    if (rc == PM_OK)
-        rc = loops_local_build(h, &t, &ts, h->stack, &l);
-    pm_scc_free(&ts);
-    tight_free(&t);
+    /* the iteration's scratch arrays are free now */
+    loops_peel(h, p, q, h->stack, h->seq);
+    loops_local l;
+    int rc = loops_local_build(h, p, q, h->stack, h->nxt, &l);
     if (rc == PM_OK)
         rc = loops_enumerate(&l, h, max, out);
     loops_local_free(&l);

@@ -84,12 +84,25 @@ typedef struct graph_key {
     uint32_t pre[2];
 } graph_key;
 
+static uint64_t graph_le64(uint64_t w)
+{
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_BIG_ENDIAN__
+    return __builtin_bswap64(w);
+#else
+    return w;
+#endif
+}
+
 /* Up to 8 bytes of s as a little-endian word (a byte loop: no read past
  * the name, and no serial multiply chain as in byte-wise hashes). */
 static uint64_t graph_word(const char *s, size_t n)
 {
     uint64_t w = 0;
-    for (size_t i = 0; i < n && i < 8; i++)
+    if (n >= 8) {
+        memcpy(&w, s, 8); /* one load; the table's words are little-endian */
+        return graph_le64(w);
+    }
+    for (size_t i = 0; i < n; i++)
         w |= (uint64_t)(unsigned char)s[i] << (8 * i);
     return w;
 }

@@ -16,6 +16,9 @@
 
 #include <stdarg.h>
 #include <stdio.h>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 
 enum { CH_BLANK = 1, CH_START = 2, CH_NAME = 4, CH_DIGIT = 8, CH_ALPHA = 16 };
 
@@ -98,17 +101,45 @@ static int lex_comment(reader_state *st, size_t i)
     return PM_OK;
 }
 
+#ifdef __SSE2__
+/* Index of the first byte at or after i that cannot be in a name, looking
+ * at 16 bytes per step while they lie inside the line: names end at
+ * unpredictable places, and a byte loop pays a mispredicted branch for each. */
+static size_t lex_name_end(const unsigned char *p, size_t i, size_t n)
+{
+    const __m128i a1 = _mm_set1_epi8('a' - 1), z1 = _mm_set1_epi8('z' + 1);
+    const __m128i d1 = _mm_set1_epi8('0' - 1), d9 = _mm_set1_epi8('9' + 1);
+    const __m128i lo = _mm_set1_epi8(0x20), us = _mm_set1_epi8('_'), dot = _mm_set1_epi8('.');
+    for (; i + 16 <= n; i += 16) {
+        __m128i c = _mm_loadu_si128((const __m128i *)(const void *)(p + i));
+        __m128i l = _mm_or_si128(c, lo);
+        __m128i ok = _mm_and_si128(_mm_cmpgt_epi8(l, a1), _mm_cmpgt_epi8(z1, l));
+        ok = _mm_or_si128(ok, _mm_and_si128(_mm_cmpgt_epi8(c, d1), _mm_cmpgt_epi8(d9, c)));
+        ok = _mm_or_si128(ok, _mm_or_si128(_mm_cmpeq_epi8(c, us), _mm_cmpeq_epi8(c, dot)));
+        unsigned bad = ~(unsigned)_mm_movemask_epi8(ok) & 0xffffu;
+        if (bad)
+            return i + (size_t)__builtin_ctz(bad);
+    }
+    while (i < n && lex_namechar(p[i]))
+        i++;
+    return i;
+}
+#else
+static size_t lex_name_end(const unsigned char *p, size_t i, size_t n)
+{
+    while (i < n && lex_namechar(p[i]))
+        i++;
+    return i;
+}
+#endif
+
 static int lex_name(reader_state *st, size_t i)
 {
     size_t s = i, n = st->line_len;
     const unsigned char *p = (const unsigned char *)st->line;
     for (;;) {
-        while (i < n && lex_namechar(p[i]))
-            i++;
-        unsigned char c = lex_at(st, i);
-        if (lex_namechar(c))
-            i++;
-        else if (c == '-' && lex_start(lex_at(st, i + 1)))
+        i = lex_name_end(p, i, n);
+        if (lex_at(st, i) == '-' && lex_start(lex_at(st, i + 1)))
             i++; /* per-word; never `->` */
         else
             break;

@@ -15,7 +15,7 @@
 #include <string.h>
 
 #define BOUND_MAX_PARTS 20  /* parts listed, worst first */
-#define BOUND_LOOP_WIDTH 64 /* characters of a loop's node list in text */
+#define BOUND_LOOP_WIDTH 60 /* characters of a loop's node list in text */
 
 typedef struct bound_args {
     uint32_t procs, loops;
@@ -43,7 +43,8 @@ static const char *fmt_loop(char *buf, size_t len, const pm_graph *g, const pm_l
     for (uint32_t i = 0; i <= l->len; i++) {
         const char *name = pm_graph_node_name(g, l->nodes[i % l->len]);
         bool end = i == l->len;
-        if (!end && at + strlen(name) + strlen(last) + 16 > cap) {
+        /* room for this name and a closing " -> ... (N nodes) -> last" */
+        if (!end && at + strlen(name) + strlen(last) + 32 > cap) {
             snprintf(buf + at, len - at, "%s... (%u nodes) -> %s", i ? " -> " : "", l->len,
                      last);
             return buf;
@@ -63,7 +64,7 @@ static void text_critical(const pm_graph *g, const pm_bound *b)
            b->critical_truncated ? ", more exist" : "");
     for (uint32_t i = 0; i < b->ncritical; i++) {
         const pm_loop *l = &b->critical[i];
-        printf("  %-*s  %lld cycles / %lld delays\n", BOUND_LOOP_WIDTH,
+        printf("  %-*s %lld cycles / %lld delays\n", BOUND_LOOP_WIDTH,
                fmt_loop(lb, sizeof lb, g, l, BOUND_LOOP_WIDTH), (long long)l->cycles,
                (long long)l->delays);
     }
@@ -77,7 +78,7 @@ static void text_parts(const pm_graph *g, const pm_bound *b)
     for (uint32_t i = 0; i < b->nparts; i++) {
         const pm_part *p = &b->parts[i];
         printf("  %-24s %8u  %s\n", fmt_rat(rb, sizeof rb, p->bound), p->nnodes,
-               fmt_loop(lb, sizeof lb, g, &p->worst, 62));
+               fmt_loop(lb, sizeof lb, g, &p->worst, 64));
     }
 }
 
@@ -295,7 +296,7 @@ int pm_cmd_bound(int argc, char **argv)
           "cores for the floors (default: the scenario's procs)", "N" },
         { "--loops", NULL, CLI_U32, &a.loops, NULL,
           "critical loops listed at most (default 16)", "N" },
-        { "--json", NULL, CLI_FLAG, &a.json, NULL, "machine output (docs/json.md)", NULL },
+        { "--json", NULL, CLI_FLAG, &a.json, NULL, "machine output (JSON)", NULL },
         { NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL },
     };
     const cli_cmd cmd = { "bound", "FILE [-p N] [--loops N] [--json]",
