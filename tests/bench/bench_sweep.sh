@@ -25,10 +25,10 @@ for spec in "1000 16" "10000 8"; do
         t0=$(now)
         "$BIN" sweep "$dir/g.pace" -p "1..$p" -n 200 -q > /dev/null || exit 1
         t1=$(now)
-        times="$times $(echo "$t1 - $t0" | bc -l | sed 's/^\./0./' | cut -c1-6)"
+        times="$times $(awk -v a="$t0" -v b="$t1" 'BEGIN { printf "%.3f", b - a }')"
     done
     med=$(for t in $times; do echo "$t"; done | median)
-    per=$(echo "$med / $p" | bc -l | sed 's/^\./0./' | cut -c1-6)
+    per=$(awk -v m="$med" -v p="$p" 'BEGIN { printf "%.3f", m / p }')
     printf '  %6s nodes, P = 1..%-2s  %8s s  (%s s per core count; runs:%s)\n' \
         "$n" "$p" "$med" "$per" "$times"
 done
