@@ -552,8 +552,7 @@ int pm_cmd_sweep(int argc, char **argv)
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
     const cli_cmd cmd = {"sweep",
                          "FILE [-p A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
-                         "For each core count: schedule, simulate, and name what limits the "
-                         "period (a loop, a loop the mapping made, the cores, the largest node).",
+                         "For each core count: schedule, simulate, name what limits the period.",
                          opts};
     const char *file;
     int ex = cli_parse(&cmd, argc, argv, &file);

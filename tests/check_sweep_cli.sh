@@ -154,4 +154,5 @@ expect 1 "$bin" sweep "$dir/rec.pace" -n 50 --svg "$dir/no/such/dir/x.svg"
 expect 2 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 2..3
 expect 1 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 1
 expect 0 "$bin" sweep -h
+"$bin" sweep -h | awk 'length($0) > 100 { bad = 1 } END { exit bad }' || fail "help over 100"
 exit 0
