@@ -296,7 +296,7 @@ int pm_cmd_bound(int argc, char **argv)
           "cores for the floors (default: the scenario's procs)", "N" },
         { "--loops", NULL, CLI_U32, &a.loops, NULL,
           "critical loops listed at most (default 16)", "N" },
-        { "--json", NULL, CLI_FLAG, &a.json, NULL, "machine output (docs/json.md)", NULL },
+        { "--json", NULL, CLI_FLAG, &a.json, NULL, "machine output (JSON)", NULL },
         { NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL },
     };
     const cli_cmd cmd = { "bound", "FILE [-p N] [--loops N] [--json]",

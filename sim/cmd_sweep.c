@@ -1,12 +1,574 @@
 /*
- * cmd_sweep.c - the 'sweep' command (not written yet: exits with a usage error).
+ * cmd_sweep.c - `pacemap sweep FILE [-p A..B] [-n ITER] [--faster N]
+ * [--map F] [--svg F] [--csv F] [--json] [--quiet]`: for each core count, schedule,
+ * simulate and name the limit (pm_sweep_run); print the table, the
+ * saturation point, the evidence per core count and the what-ifs; write
+ * the SVG and CSV files through pm_outfile.  A progress line goes to
+ * stderr when it is a terminal (never with --quiet).
+ *
+ * Range: default 1..16, but never more cores than nodes (extra cores would
+ * idle) and never fewer than the pins need.  A platform with named core
+ * classes is analysed at its own core count only; -p is refused for it.
+ * With --map F the one core count of the map is analysed (a hand map).
  */
 #include "cli.h"
+#include "cmd_sweep_internal.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "pacemap/outfile.h"
+#include "pacemap/sim.h"
+
+#define SW_DEFAULT_TO 16
+#define SW_WIDTH 100
+#define SW_INDENT 16
+
+typedef struct sw_args {
+    uint32_t range[2];
+    bool range_set, json, quiet;
+    uint32_t iterations, faster;
+    const char *svg, *csv, *map;
+} sw_args;
+
+const char *sw_rat_text(char *buf, size_t n, pm_rat r)
+{
+    if (r.den == 1) {
+        snprintf(buf, n, "%lld", (long long)r.num);
+        return buf;
+    }
+    /* two decimals, trailing zeros dropped: 22.5, 33.33 */
+    int len = snprintf(buf, n, "%.2f", pm_rat_to_double(r));
+    while (len > 0 && (size_t)len < n && buf[len - 1] == '0')
+        buf[--len] = '\0';
+    return buf;
+}
+
+/* ---- wrapped lines ------------------------------------------------------ */
+
+typedef struct sw_line {
+    char buf[2048];
+    size_t len;
+} sw_line;
+
+static void sw_add(sw_line *l, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void sw_add(sw_line *l, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    if (l->len < sizeof l->buf) {
+        int n = vsnprintf(l->buf + l->len, sizeof l->buf - l->len, fmt, ap);
+        l->len += n > 0 ? (size_t)n : 0;
+        if (l->len >= sizeof l->buf)
+            l->len = sizeof l->buf - 1;
+    }
+    va_end(ap);
+}
+
+/* Print `head` then the text wrapped at SW_WIDTH, later lines indented. */
+static void sw_print_wrapped(const char *head, const char *s, int indent)
+{
+    int col = printf("%s", head);
+    while (*s) {
+        int room = SW_WIDTH - col, n = (int)strlen(s);
+        if (n > room) {
+            for (n = room; n > 0 && s[n] != ' '; n--)
+                ;
+            if (n == 0)
+                n = room > 0 ? room : 1;
+        }
+        printf("%.*s\n", n, s);
+        s += n;
+        while (*s == ' ')
+            s++;
+        col = *s ? printf("%*s", indent, "") : 0;
+    }
+    if (col == (int)strlen(head) && col > 0)
+        putchar('\n');
+}
+
+/* Names joined by sep (a loop closes on its first node); long lists are
+ * cut after SW_LIST_MAX names (--json lists them all). */
+#define SW_LIST_MAX 12
+static void sw_node_list(sw_line *l, const pm_graph *g, const uint32_t *v, uint32_t n,
+                         const char *sep, bool close)
+{
+    uint32_t shown = n > SW_LIST_MAX + 2 ? SW_LIST_MAX : n;
+    for (uint32_t i = 0; i < shown; i++)
+        sw_add(l, "%s%s", i ? sep : "", pm_graph_node_name(g, v[i]));
+    if (shown < n)
+        sw_add(l, "%s... %u more", sep, n - shown);
+    if (close && n > 0)
+        sw_add(l, "%s%s", sep, pm_graph_node_name(g, v[0]));
+}
+
+/* ---- the table ---------------------------------------------------------- */
+
+static void sw_text_head(const sw_report *r, uint64_t iterations)
+{
+    const pm_graph *g = r->g;
+    const pm_sweep *s = r->s;
+    char a[48];
+    sw_line l = {{0}, 0};
+    sw_add(&l, "sweep of %s: %u nodes, %u edges, %s, P = %u..%u, %llu iterations per point",
+           r->file, g->nnodes, g->nedges,
+           g->platform.interconnect == PM_BUS ? "shared bus" : "point-to-point links",
+           s->points[0].procs, s->points[s->npoints - 1].procs, (unsigned long long)iterations);
+    if (g->platform.classes_named)
+        sw_add(&l, " (core classes: the scenario's own cores only)");
+    sw_print_wrapped("", l.buf, 2);
+    l.len = 0;
+    l.buf[0] = '\0';
+    if (s->bound.has_loop) {
+        const pm_loop *lp = &s->bound.critical[0];
+        sw_add(&l, "iteration bound %s (loop ", sw_rat_text(a, sizeof a, s->bound.iteration_bound));
+        sw_node_list(&l, g, lp->nodes, lp->len, " -> ", true);
+        sw_add(&l, ": %lld cycles / %lld delay%s); ", (long long)lp->cycles, (long long)lp->delays,
+               lp->delays == 1 ? "" : "s");
+    } else {
+        sw_add(&l, "no loop (feed-forward graph); ");
+    }
+    sw_add(&l, "total work %lld cycles; largest node %s (%lld)", (long long)s->bound.total_cycles,
+           pm_graph_node_name(g, s->bound.largest_node), (long long)s->bound.largest_cycles);
+    sw_print_wrapped("", l.buf, 2);
+}
+
+static void sw_text_table(const sw_report *r)
+{
+    const pm_sweep *s = r->s;
+    char a[48], b[48], c[48];
+    printf("\n%5s %12s %12s %12s %8s %11s  %s\n", "P", "period", "lower bound", "iter. bound",
+           "speedup", "efficiency", "limit");
+    for (uint32_t i = 0; i < s->npoints; i++) {
+        const pm_sweep_point *p = &s->points[i];
+        char sp[24] = "-", ef[24] = "-"; /* a zero period has no speedup */
+        if (isfinite(p->speedup)) {
+            snprintf(sp, sizeof sp, "%.2f", p->speedup);
+            snprintf(ef, sizeof ef, "%.1f%%", 100.0 * p->efficiency);
+        }
+        printf("%5u %11s%c %12s %12s %8s %11s  %s\n", p->procs,
+               sw_rat_text(a, sizeof a, p->period), p->steady ? ' ' : '~',
+               sw_rat_text(b, sizeof b, p->floors.lower_bound),
+               p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-", sp, ef,
+               pm_limit_name(p->limit.kind));
+    }
+    for (uint32_t i = 0; i < s->npoints; i++)
+        if (!s->points[i].steady) {
+            printf("~ no periodic regime within the iterations run: an average (use -n)\n");
+            break;
+        }
+}
+
+/* ---- evidence ----------------------------------------------------------- */
+
+static void sw_evidence_mapping(sw_line *l, const pm_graph *g, const pm_sweep_point *p)
+{
+    const pm_sweep_limit *m = &p->limit;
+    char a[48];
+    if (m->single_core != PM_NONE && m->nnodes == g->nnodes) {
+        sw_add(l, "the map puts all %u nodes on core %u: %lld cycles per iteration, "
+                  "above work / P = %s", g->nnodes, m->single_core, (long long)m->cycles,
+               sw_rat_text(a, sizeof a, p->floors.cores));
+        return;
+    }
+    if (m->single_core != PM_NONE) {
+        sw_add(l, "core %u carries ", m->single_core);
+        sw_node_list(l, g, m->nodes, m->nnodes, " ", false);
+        sw_add(l, ": %lld cycles per iteration, above work / P = %s (uneven split)",
+               (long long)m->cycles, sw_rat_text(a, sizeof a, p->floors.cores));
+        return;
+    }
+    sw_add(l, "a loop the map made: ");
+    sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
+    sw_add(l, ", %lld cycles over %lld iteration%s%s", (long long)m->cycles, (long long)m->delays,
+           m->delays == 1 ? "" : "s", m->exact ? "" : " (chain incomplete)");
+    for (uint32_t i = 0; i < m->nhops; i++) {
+        const pm_sweep_hop *h = &m->hops[i];
+        sw_add(l, "%s%s -> %s core %u>%u (%lld cycles%s)", i ? ", " : "; transfers ",
+               pm_graph_node_name(g, g->edges[h->edge].src),
+               pm_graph_node_name(g, g->edges[h->edge].dst), h->from_core, h->to_core,
+               (long long)h->cost, h->bus ? ", bus" : "");
+    }
+    for (uint32_t i = 0; i < m->norders; i++)
+        sw_add(l, "%score %u: %s then %s%s", i ? ", " : "; core order ", m->orders[i].core,
+               pm_graph_node_name(g, m->orders[i].from), pm_graph_node_name(g, m->orders[i].to),
+               m->orders[i].wraps ? " (next iteration)" : "");
+    if (m->nbus_waits)
+        sw_add(l, "; %u wait%s for the bus", m->nbus_waits, m->nbus_waits == 1 ? "" : "s");
+}
+
+static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
+{
+    const pm_graph *g = r->g;
+    const pm_sweep_limit *m = &p->limit;
+    switch (m->kind) {
+    case PM_LIMIT_LOOP:
+        sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
+        sw_add(l, ": %lld cycles / %lld delay%s, the iteration bound", (long long)m->cycles,
+               (long long)m->delays, m->delays == 1 ? "" : "s");
+        break;
+    case PM_LIMIT_NODE:
+        sw_add(l, "node %s takes %lld cycles; it runs whole on one core",
+               m->nnodes ? pm_graph_node_name(g, m->nodes[0]) : "?", (long long)m->cycles);
+        break;
+    case PM_LIMIT_CORES:
+        sw_add(l, "%lld cycles of work / %u core%s: every core is busy%s",
+               (long long)r->s->bound.total_cycles, p->procs, p->procs == 1 ? "" : "s",
+               p->floors.cores.den == 1 ? " all the time"
+                                        : ", as evenly as whole nodes allow");
+        break;
+    case PM_LIMIT_MAPPING:
+        sw_evidence_mapping(l, g, p);
+        break;
+    }
+}
+
+static bool sw_same_limit(const pm_sweep_limit *a, const pm_sweep_limit *b)
+{
+    if (a->kind != b->kind || a->nnodes != b->nnodes || a->cycles != b->cycles ||
+        a->kind == PM_LIMIT_CORES || a->nhops != b->nhops)
+        return false;
+    return memcmp(a->nodes, b->nodes, a->nnodes * sizeof *a->nodes) == 0;
+}
+
+static void sw_text_limits(const sw_report *r)
+{
+    printf("\nWhat limits each core count:\n");
+    for (uint32_t i = 0; i < r->s->npoints; i++) {
+        const pm_sweep_point *p = &r->s->points[i];
+        char head[48];
+        snprintf(head, sizeof head, "%5u  %-8s ", p->procs, pm_limit_name(p->limit.kind));
+        sw_line l = {{0}, 0};
+        if (i > 0 && sw_same_limit(&p->limit, &r->s->points[i - 1].limit))
+            sw_add(&l, "as above");
+        else
+            sw_evidence(&l, r, p);
+        sw_print_wrapped(head, l.buf, SW_INDENT);
+    }
+}
+
+/* ---- saturation and what-ifs -------------------------------------------- */
+
+static void sw_text_saturation(const sw_report *r)
+{
+    const pm_sweep *s = r->s;
+    const pm_sweep_point *p = &s->points[s->saturation];
+    char a[48];
+    sw_line l = {{0}, 0};
+    if (s->npoints == 1 && !s->saturation_reached) {
+        sw_add(&l, "one core count only (P = %u): nothing to compare", p->procs);
+    } else if (!s->saturation_reached) {
+        sw_add(&l, "the period still falls at P = %u (%s): more cores may help; "
+                   "widen the range with -p", p->procs, sw_rat_text(a, sizeof a, p->period));
+    } else {
+        sw_add(&l, "from P = %u on the period stays at %s%s. Limit (%s): ", p->procs,
+               sw_rat_text(a, sizeof a, p->period),
+               s->saturation_proven ? ", a floor no core count can move" : "",
+               pm_limit_name(p->limit.kind));
+        sw_evidence(&l, r, p);
+        sw_add(&l, ".");
+    }
+    sw_print_wrapped("\nSaturation: ", l.buf, 2);
+    const pm_floors *f = &p->floors;
+    if (f->has_budget) {
+        uint32_t meets = PM_NONE;
+        for (uint32_t i = 0; i < s->npoints && meets == PM_NONE; i++)
+            if (pm_rat_cmp(s->points[i].period, f->budget) <= 0)
+                meets = s->points[i].procs;
+        printf("Budget: %s cycles per iteration (clock / rate); ", sw_rat_text(a, sizeof a, f->budget));
+        if (meets != PM_NONE)
+            printf("met from P = %u\n", meets);
+        else
+            printf("not met by any core count swept\n");
+    }
+}
+
+/* The "node faster" rows as a table: node, cycles before and after, the
+ * new value (iteration bound, or period of the same map), the binding
+ * loop's own ratio, and the lower bound at that core count. */
+static void sw_whatif_rows(const sw_report *r)
+{
+    const pm_sweep_whatif *w = &r->s->whatif;
+    const pm_sweep_point *p = &r->s->points[w->point];
+    char a[48], b[48], c[48], lb[40];
+    if (w->nrows == 0)
+        return;
+    bool ratio = w->kind != PM_LIMIT_NODE;
+    snprintf(lb, sizeof lb, "lower bound at P = %u", p->procs);
+    printf("  %-20s %8s %8s %16s %16s %22s\n", "node made faster", "cycles", "now",
+           w->kind == PM_LIMIT_LOOP ? "iteration bound" : ratio ? "period (map)" : "",
+           ratio ? "this loop alone" : "", lb);
+    for (uint32_t i = 0; i < w->nrows; i++) {
+        const pm_sweep_faster *row = &w->rows[i];
+        printf("  %-20.20s %8lld %8lld %16s %16s %22s\n", pm_graph_node_name(r->g, row->node),
+               (long long)row->cycles, (long long)row->new_cycles,
+               ratio ? sw_rat_text(a, sizeof a, row->after) : "",
+               ratio ? sw_rat_text(b, sizeof b, row->loop_alone) : "",
+               sw_rat_text(c, sizeof c, row->floor_after));
+    }
+}
+
+static void sw_whatif_delay(const sw_report *r)
+{
+    const pm_sweep_whatif *w = &r->s->whatif;
+    const pm_edge *e = &r->g->edges[w->delay_edge];
+    char a[48], b[48], c[48], head[96];
+    sw_line l = {{0}, 0};
+    snprintf(head, sizeof head, "  one more delay on %.24s -> %.24s: ",
+             pm_graph_node_name(r->g, e->src), pm_graph_node_name(r->g, e->dst));
+    sw_add(&l, "iteration bound %s (this loop alone %s), then set by ",
+           sw_rat_text(a, sizeof a, w->delay_bound), sw_rat_text(b, sizeof b, w->delay_loop_alone));
+    sw_node_list(&l, r->g, w->delay_next, w->ndelay_next, " -> ", true);
+    sw_add(&l, "; lower bound at P = %u: %s. Caution: an extra delay in a feedback loop "
+               "changes the algorithm's response (re-derive it, e.g. by look-ahead, first).",
+           r->s->points[w->point].procs, sw_rat_text(c, sizeof c, w->delay_floor));
+    sw_print_wrapped(head, l.buf, 6);
+}
+
+static void sw_whatif_next(const sw_report *r)
+{
+    const pm_sweep_whatif *w = &r->s->whatif;
+    char a[48];
+    sw_line l = {{0}, 0};
+    switch (w->next_kind) {
+    case PM_LIMIT_LOOP:
+        sw_add(&l, "the loop ");
+        sw_node_list(&l, r->g, w->next_nodes, w->nnext_nodes, " -> ", true);
+        break;
+    case PM_LIMIT_NODE:
+        sw_add(&l, "the node %s", w->nnext_nodes ? pm_graph_node_name(r->g, w->next_nodes[0]) : "?");
+        break;
+    default:
+        sw_add(&l, "the work per core (work / P)");
+        break;
+    }
+    sw_add(&l, " at %s cycles per iteration", sw_rat_text(a, sizeof a, w->next_value));
+    sw_print_wrapped(w->kind == PM_LIMIT_MAPPING ? "  the floors (what a better map could reach): "
+                                                   : "  next bottleneck: ", l.buf, 6);
+}
+
+static void sw_text_whatif(const sw_report *r)
+{
+    const pm_sweep_whatif *w = &r->s->whatif;
+    if (!w->present)
+        return;
+    const pm_sweep_point *p = &r->s->points[w->point];
+    printf("\nWhat would move it at P = %u (limit: %s", p->procs, pm_limit_name(w->kind));
+    if (w->nrows)
+        printf("; each node %lld cycles faster in turn", (long long)w->faster);
+    printf("):\n");
+    sw_whatif_rows(r);
+    if (w->kind == PM_LIMIT_MAPPING)
+        printf("  (the same map, re-simulated; a different map may avoid the loop altogether)\n");
+    if (w->kind == PM_LIMIT_CORES)
+        printf("  %s\n", w->point + 1 < r->s->npoints
+                              ? "more cores did not help with the maps found (see the limits above)"
+                              : "more cores: the period still follows work / P");
+    if (w->has_delay)
+        sw_whatif_delay(r);
+    if (w->has_next)
+        sw_whatif_next(r);
+}
+
+static void sw_text(const sw_report *r, uint64_t iterations)
+{
+    sw_text_head(r, iterations);
+    sw_text_table(r);
+    sw_text_saturation(r);
+    sw_text_limits(r);
+    sw_text_whatif(r);
+    putchar('\n');
+    sw_print_wrapped("", cli_caution, 0);
+}
+
+/* ---- progress ----------------------------------------------------------- */
+
+static void sw_progress(void *ctx, uint32_t procs, uint32_t done, uint32_t total)
+{
+    (void)ctx;
+    fprintf(stderr, "\rsweep: P = %u done (%u of %u)  ", procs, done, total);
+    if (done == total)
+        fprintf(stderr, "\r%40s\r", "");
+    fflush(stderr);
+}
+
+/* ---- output files ------------------------------------------------------- */
+
+static int sw_outfile(const sw_report *r, const char *path,
+                      int (*write)(const sw_report *, FILE *))
+{
+    pm_outfile f;
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_outfile_open(&f, path, &d);
+    if (rc == PM_OK) {
+        rc = write(r, f.fp);
+        if (rc == PM_OK)
+            rc = pm_outfile_commit(&f, &d);
+        else
+            pm_outfile_abort(&f);
+    }
+    if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_strerror(rc));
+        cli_error(&d);
+    }
+    return rc;
+}
+
+/* ---- the command -------------------------------------------------------- */
+
+/* The pinned node that needs the most cores. */
+static uint32_t sw_pinned_node(const pm_graph *g)
+{
+    uint32_t best = PM_NONE;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        if (g->nodes[v].pin_core != PM_NONE &&
+            (best == PM_NONE || g->nodes[v].pin_core > g->nodes[best].pin_core))
+            best = v;
+    return best;
+}
+
+/* Decide the range of core counts; a usage error prints and returns 2. */
+static int sw_range(const pm_graph *g, const char *file, sw_args *a)
+{
+    if (g->platform.classes_named) {
+        if (a->range_set) {
+            cli_usage_error("sweep: %s declares core classes; -p cannot change them "
+                            "(drop -p to analyse its own %u cores)", file, g->platform.ncores);
+            return CLI_EXIT_USAGE;
+        }
+        a->range[0] = a->range[1] = g->platform.ncores;
+        return CLI_EXIT_OK;
+    }
+    uint32_t need = pm_sweep_min_procs(g), cap = g->nnodes > need ? g->nnodes : need;
+    if (!a->range_set) {
+        a->range[0] = need;
+        a->range[1] = SW_DEFAULT_TO < cap ? SW_DEFAULT_TO : cap;
+        if (a->range[1] < need)
+            a->range[1] = need;
+        return CLI_EXIT_OK;
+    }
+    if (a->range[0] < need) {
+        uint32_t v = sw_pinned_node(g);
+        cli_usage_error("sweep: -p %u..%u: node '%s' is pinned to core %u; start at %u", a->range[0],
+                        a->range[1], pm_graph_node_name(g, v), g->nodes[v].pin_core, need);
+        return CLI_EXIT_USAGE;
+    }
+    if (a->range[1] - a->range[0] >= PM_SWEEP_MAX_POINTS) {
+        cli_usage_error("sweep: -p %u..%u: at most %d core counts per sweep", a->range[0],
+                        a->range[1], PM_SWEEP_MAX_POINTS);
+        return CLI_EXIT_USAGE;
+    }
+    if (a->range[1] > cap) {
+        cli_warning("sweep: %s has %u nodes; more cores would idle: sweeping %u..%u", file,
+                    g->nnodes, a->range[0] < cap ? a->range[0] : cap, cap);
+        a->range[1] = cap;
+        if (a->range[0] > cap)
+            a->range[0] = cap;
+    }
+    return CLI_EXIT_OK;
+}
+
+/* --map: the scenario at -p N (or its own cores) and the map for it. */
+static int sw_load_map(const char *file, sw_args *a, pm_graph **g, pm_map **m)
+{
+    if (a->range_set && a->range[0] != a->range[1]) {
+        cli_usage_error("sweep: --map fixes the core count: give -p N or no -p");
+        return CLI_EXIT_USAGE;
+    }
+    int ex = cli_load(file, a->range_set, a->range[0], g);
+    if (ex != CLI_EXIT_OK)
+        return ex;
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_map_read_file(a->map, *g, m, &d);
+    if (rc != PM_OK) {
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    a->range[0] = a->range[1] = (*g)->platform.ncores;
+    return CLI_EXIT_OK;
+}
+
+static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
+{
+    if (a->svg && sw_outfile(r, a->svg, sw_write_svg) != PM_OK)
+        return CLI_EXIT_INPUT;
+    if (a->csv && sw_outfile(r, a->csv, sw_write_csv) != PM_OK)
+        return CLI_EXIT_INPUT;
+    if (a->json)
+        sw_write_json(r, stdout);
+    else
+        sw_text(r, iterations);
+    return CLI_EXIT_OK;
+}
+
+static int sw_run(pm_graph *g, const char *file, const sw_args *a, const pm_map *m)
+{
+    uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
+    pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
+                       .iterations = iterations, .faster = a->faster, .map = m};
+    if (!a->quiet && isatty(STDERR_FILENO))
+        o.progress = sw_progress;
+    pm_sweep s;
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_sweep_run(g, &o, &s, &d);
+    if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, file, 0, 0, "sweep failed: %s", pm_strerror(rc));
+        cli_error(&d);
+        pm_sweep_free(&s);
+        return rc == PM_EINVAL ? CLI_EXIT_INPUT : cli_exit_for(rc);
+    }
+    sw_report r = {g, &s, file};
+    int ex = sw_outputs(&r, a, iterations);
+    pm_sweep_free(&s);
+    return ex;
+}
 
 int pm_cmd_sweep(int argc, char **argv)
 {
-    (void)argc;
-    (void)argv;
-    cli_usage_error("sweep: not available yet");
-    return CLI_EXIT_USAGE;
+    sw_args a = {{1, SW_DEFAULT_TO}, false, false, false, 0, 0, NULL, NULL, NULL};
+    const cli_opt opts[] = {
+        {"-p", "--procs", CLI_RANGE, a.range, &a.range_set,
+         "core counts to try (default 1..16, at most one core per node)", "A..B"},
+        {"-n", "--iterations", CLI_U32, &a.iterations, NULL,
+         "iterations simulated per core count (default 1000)", "ITER"},
+        {"--faster", NULL, CLI_U32, &a.faster, NULL,
+         "cycles taken off one node at a time in the what-ifs (default 10)", "N"},
+        {"--map", NULL, CLI_STRING, &a.map, NULL,
+         "analyse this map (one core count) instead of scheduling", "F"},
+        {"--svg", NULL, CLI_STRING, &a.svg, NULL, "write a plot of period, floors, throughput",
+         "F"},
+        {"--csv", NULL, CLI_STRING, &a.csv, NULL, "write one row per core count", "F"},
+        {"--json", NULL, CLI_FLAG, &a.json, NULL, "machine output on stdout", NULL},
+        {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL, "no progress line on stderr", NULL},
+        {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
+    const cli_cmd cmd = {"sweep",
+                         "FILE [-p A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
+                         "For each core count: schedule, simulate, name what limits the period.",
+                         opts};
+    const char *file;
+    int ex = cli_parse(&cmd, argc, argv, &file);
+    if (ex >= 0)
+        return ex;
+    pm_graph *g = NULL;
+    pm_map *m = NULL;
+    if (a.map)
+        ex = sw_load_map(file, &a, &g, &m);
+    else
+        ex = cli_load(file, false, 0, &g);
+    if (ex == CLI_EXIT_OK && !a.map)
+        ex = sw_range(g, file, &a);
+    if (ex == CLI_EXIT_OK)
+        ex = sw_run(g, file, &a, m);
+    pm_map_destroy(m);
+    pm_graph_destroy(g);
+    return ex;
 }

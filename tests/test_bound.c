@@ -84,6 +84,33 @@ static void test_zero_delay_loop_is_named_in_order(void **state)
     pm_graph_destroy(g);
 }
 
+/* A zero-delay loop of 200 long names: the middle is left out, the message
+ * still starts at the smallest node and closes on it. */
+static void test_zero_delay_long_loop_is_shortened(void **state)
+{
+    (void)state;
+    pm_graph *g = pm_graph_create("long.pace");
+    char name[64];
+    for (uint32_t i = 0; i < 200; i++) {
+        int len = snprintf(name, sizeof name, "stage_with_a_long_name_%03u", i);
+        assert_int_equal(pm_graph_add_node(g, name, (size_t)len, 1, NULL), PM_OK);
+    }
+    for (uint32_t i = 0; i < 200; i++) {
+        pm_edge e = pm_edge_default(i, (i + 1) % 200);
+        assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
+    }
+    pm_graph_finalize(g);
+    pm_bound b;
+    pm_diag d;
+    assert_int_equal(pm_bound_compute(g, NULL, &b, &d), PM_EZERODELAY);
+    const char *want = "loop without delay: stage_with_a_long_name_000 -> ";
+    assert_memory_equal(d.msg, want, strlen(want));
+    assert_non_null(strstr(d.msg, " -> ... -> stage_with_a_long_name_000 "
+                                  "(add a delay on one of its edges)"));
+    assert_true(strlen(d.msg) < sizeof d.msg - 1);
+    pm_graph_destroy(g);
+}
+
 static void test_feed_forward_graph_has_no_loop(void **state)
 {
     (void)state;
@@ -432,6 +459,7 @@ int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_zero_delay_loop_is_named_in_order),
+        cmocka_unit_test(test_zero_delay_long_loop_is_shortened),
         cmocka_unit_test(test_feed_forward_graph_has_no_loop),
         cmocka_unit_test(test_self_loops_parallel_edges_and_zero_times),
         cmocka_unit_test(test_all_loops_critical_and_the_limit),

@@ -1,0 +1,30 @@
+/*
+ * cmd_sweep_internal.h - what the sweep command's text report
+ * (cmd_sweep.c) shares with its machine and file outputs
+ * (cmd_sweep_out.c).  Internal to the pacemap program.
+ */
+#ifndef PACEMAP_CMD_SWEEP_INTERNAL_H
+#define PACEMAP_CMD_SWEEP_INTERNAL_H
+
+#include <stdio.h>
+
+#include "pacemap/graph.h"
+#include "pacemap/sweep.h"
+
+typedef struct sw_report {
+    const pm_graph *g;
+    const pm_sweep *s;
+    const char *file;
+} sw_report;
+
+/* "30", "45/2" style exact text of a rational into buf. */
+const char *sw_rat_text(char *buf, size_t n, pm_rat r);
+
+/* --json on stdout (DESIGN §6 `sweep` plus extras). */
+void sw_write_json(const sw_report *r, FILE *out);
+/* --csv: a header row, then one row per core count.  PM_EIO on failure. */
+int sw_write_csv(const sw_report *r, FILE *out);
+/* --svg: period and floors, and throughput, against the core count. */
+int sw_write_svg(const sw_report *r, FILE *out);
+
+#endif

@@ -1,0 +1,158 @@
+#!/bin/sh
+# check_sweep_cli.sh - `pacemap sweep` end to end on a scenario invented
+# here (a recursive smoother beside three filters; its answers are derived
+# by hand in tests/test_sweep.c): JSON keys of DESIGN §6 and values, CSV
+# rows, SVG well-formed (parsed by Python's xml.etree), human text within
+# 100 columns with the caution, no progress line when stderr is not a
+# terminal, a progress line on a pseudo-terminal (util-linux `script`,
+# skipped when absent), usage and input errors with their exit codes, and
+# no output file left behind on an error.
+bin="$PM_BIN"
+py=/usr/bin/python3
+dir=$(mktemp -d)
+trap 'rm -rf "$dir"' EXIT
+fail() { echo "FAIL: $*"; exit 1; }
+
+cat > "$dir/rec.pace" <<'EOF'
+# invented for this check: channel 0 is a first-order recursive smoother
+node add cycles=10
+node mul cycles=20
+node f1 cycles=20
+node f2 cycles=20
+node f3 cycles=20
+edge add -> mul
+edge mul -> add delay=1
+EOF
+cat > "$dir/pinned.pace" <<'EOF'
+# invented for this check: a loop split across two cores by pins
+procs 2
+comm latency=5
+node a cycles=20 pin=0
+node b cycles=20 pin=1
+edge a -> b
+edge b -> a delay=1
+EOF
+cat > "$dir/classes.pace" <<'EOF'
+# invented for this check: named core classes
+procs dsp:1 host:1
+node a cycles=dsp:4,host:9
+node b cycles=dsp:4,host:9
+edge a -> b
+EOF
+
+# ---- JSON -------------------------------------------------------------------
+"$bin" sweep "$dir/rec.pace" --json -n 200 > "$dir/out.json" 2> "$dir/err" || fail "json run"
+[ -s "$dir/err" ] && fail "stderr not empty without a terminal: $(cat "$dir/err")"
+$py - "$dir/out.json" <<'PY' || fail "json content"
+import json, sys
+d = json.load(open(sys.argv[1]))
+pts = d["points"]
+# default range 1..16, capped at the 5 nodes
+assert [p["procs"] for p in pts] == [1, 2, 3, 4, 5], pts
+for p in pts:
+    for k in ("procs", "period", "lower_bound", "limit"):
+        assert k in p, k
+    for r in (p["period"], p["lower_bound"]):
+        assert set(r) >= {"num", "den", "value"}, r
+    assert p["limit"]["kind"] in ("loop", "mapping", "cores", "node")
+    assert isinstance(p["limit"]["nodes"], list)
+per = [(p["period"]["num"], p["period"]["den"]) for p in pts]
+assert per == [(90, 1), (50, 1), (40, 1), (30, 1), (30, 1)], per
+assert pts[3]["limit"]["kind"] == "loop"
+assert sorted(pts[3]["limit"]["nodes"]) == ["add", "mul"]
+assert d["saturation"]["procs"] == 4 and d["saturation"]["proven"] is True
+w = d["what_if"]
+assert w["procs"] == 4 and w["kind"] == "loop"
+assert w["one_more_delay"]["iteration_bound"]["num"] == 15
+assert "caution" in d
+PY
+
+"$bin" sweep "$dir/pinned.pace" -p 2..3 --json -n 200 > "$dir/pin.json" || fail "pinned run"
+$py - "$dir/pin.json" <<'PY' || fail "pinned json"
+import json, sys
+d = json.load(open(sys.argv[1]))
+for p in d["points"]:
+    lim = p["limit"]
+    assert lim["kind"] == "mapping", lim
+    hops = {(t["from"], t["to"]) for t in lim["transfers"]}
+    assert hops == {("a", "b"), ("b", "a")}, hops
+PY
+
+# a hand map that puts the loop's two halves on different cores
+printf 'core 0: a\ncore 1: b\n' > "$dir/split.map"
+sed 's/ pin=[01]//' "$dir/pinned.pace" > "$dir/free.pace"
+"$bin" sweep "$dir/free.pace" --map "$dir/split.map" --json -n 200 > "$dir/map.json" ||
+    fail "map run"
+$py - "$dir/map.json" <<'PY' || fail "map json"
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert [p["procs"] for p in d["points"]] == [2]
+lim = d["points"][0]["limit"]
+assert lim["kind"] == "mapping" and len(lim["transfers"]) == 2, lim
+assert d["points"][0]["period"]["num"] == 50
+PY
+
+# ---- CSV and SVG ------------------------------------------------------------
+"$bin" sweep "$dir/rec.pace" -p 1..4 -n 200 --csv "$dir/out.csv" --svg "$dir/out.svg" \
+    > "$dir/out.txt" || fail "csv/svg run"
+[ "$(wc -l < "$dir/out.csv")" -eq 5 ] || fail "csv rows"
+head -n 1 "$dir/out.csv" | grep -q '^procs,period,' || fail "csv header"
+grep -q '^4,30,30/1,' "$dir/out.csv" || fail "csv row for P=4"
+$py - "$dir/out.svg" <<'PY' || fail "svg"
+import sys, xml.etree.ElementTree as ET
+root = ET.parse(sys.argv[1]).getroot()
+ns = "{http://www.w3.org/2000/svg}"
+assert root.tag == ns + "svg"
+lines = root.findall(ns + "polyline")
+# period, iteration bound, work / P, largest node; throughput and its best
+assert len(lines) == 6, len(lines)
+for l in lines:
+    assert len(l.get("points").split()) == 4
+texts = [t.text for t in root.iter(ns + "text")]
+assert "cores (P)" in texts and "period (cycles per iteration)" in texts
+PY
+cp "$dir/out.svg" "$dir/first.svg"
+"$bin" sweep "$dir/rec.pace" -p 1..4 -n 200 --svg "$dir/out.svg" > /dev/null || fail "svg again"
+cmp -s "$dir/out.svg" "$dir/first.svg" || fail "svg bytes differ between runs"
+
+# ---- human text -------------------------------------------------------------
+awk 'length($0) > 100 { bad = 1 } END { exit bad }' "$dir/out.txt" || fail "line over 100"
+grep -q '^Caution' "$dir/out.txt" || fail "no caution"
+grep -q 'Saturation: from P = 4' "$dir/out.txt" || fail "no saturation line"
+
+# ---- progress on a terminal -------------------------------------------------
+if command -v script > /dev/null 2>&1; then
+    script -qec "$bin sweep $dir/rec.pace -n 50 > /dev/null" /dev/null > "$dir/tty" 2>&1
+    grep -q 'sweep: P = 5 done (5 of 5)' "$dir/tty" || fail "no progress line on a terminal"
+    script -qec "$bin sweep $dir/rec.pace -n 50 --quiet > /dev/null" /dev/null > "$dir/tty" 2>&1
+    grep -q 'sweep: P =' "$dir/tty" && fail "progress line despite --quiet"
+else
+    echo "note: util-linux script absent, progress on a terminal not checked"
+fi
+
+# ---- errors -----------------------------------------------------------------
+expect() { # expected exit status, then the command
+    want=$1
+    shift
+    "$@" > /dev/null 2> "$dir/err"
+    got=$?
+    [ "$got" -eq "$want" ] || fail "exit $got, expected $want: $*"
+}
+expect 2 "$bin" sweep "$dir/rec.pace" -p 0..3
+expect 2 "$bin" sweep "$dir/rec.pace" -p 3..2
+expect 2 "$bin" sweep "$dir/rec.pace" -p 1..300
+expect 2 "$bin" sweep "$dir/pinned.pace" -p 1..3
+grep -q "node 'b' is pinned to core 1" "$dir/err" || fail "pin message: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/classes.pace" -p 1..2
+grep -q "core classes" "$dir/err" || fail "classes message"
+expect 0 "$bin" sweep "$dir/classes.pace"
+expect 1 "$bin" sweep "$dir/missing.pace"
+expect 0 "$bin" sweep "$dir/rec.pace" -p 2..9 -n 50
+grep -q "warning: .*5 nodes" "$dir/err" || fail "no warning when capping at the node count"
+expect 1 "$bin" sweep "$dir/rec.pace" -n 50 --svg "$dir/no/such/dir/x.svg"
+[ -e "$dir/no/such/dir/x.svg" ] && fail "svg left behind"
+expect 2 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 2..3
+expect 1 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 1
+expect 0 "$bin" sweep -h
+"$bin" sweep -h | awk 'length($0) > 100 { bad = 1 } END { exit bad }' || fail "help over 100"
+exit 0
