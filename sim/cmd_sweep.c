@@ -475,24 +475,29 @@ static int sw_range(const pm_graph *g, const char *file, sw_args *a)
 }
 
 /* --map: the scenario at -p N (or its own cores) and the map for it. */
-static int sw_load_map(const char *file, sw_args *a, pm_graph **g, pm_map **m)
+static int sw_load_map(const char *file, sw_args *a, cli_scenario *s, pm_map **m)
 {
     if (a->range_set && a->range[0] != a->range[1]) {
         cli_usage_error("sweep: --map fixes the core count: give -p N or no -p");
         return CLI_EXIT_USAGE;
     }
-    int ex = cli_load(file, a->range_set, a->range[0], g);
-    if (ex != CLI_EXIT_OK)
-        return ex;
-    pm_diag d;
-    pm_diag_clear(&d);
-    int rc = pm_map_read_file(a->map, *g, m, &d);
-    if (rc != PM_OK) {
-        cli_error(&d);
-        return cli_exit_for(rc);
-    }
-    a->range[0] = a->range[1] = (*g)->platform.ncores;
-    return CLI_EXIT_OK;
+    int ex = cli_load_scenario(file, a->range_set, a->range[0], s);
+    if (ex == CLI_EXIT_OK)
+        ex = cli_read_map(s, a->map, m);
+    if (ex == CLI_EXIT_OK)
+        a->range[0] = a->range[1] = s->graph->platform.ncores;
+    return ex;
+}
+
+/* The map of one point of a multirate scenario: the scenario's own cores
+ * follow the point's, then all firings of a node go to one core. */
+static int sw_multirate_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag)
+{
+    cli_scenario *s = ctx;
+    int rc = pm_graph_set_procs_override(s->source, g->platform.ncores, diag);
+    if (rc == PM_OK)
+        rc = cli_schedule(s, NULL, NULL, out, diag);
+    return rc;
 }
 
 static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
@@ -508,11 +513,16 @@ static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
     return CLI_EXIT_OK;
 }
 
-static int sw_run(pm_graph *g, const char *file, const sw_args *a, const pm_map *m)
+static int sw_run(cli_scenario *scn, const char *file, const sw_args *a, const pm_map *m)
 {
+    pm_graph *g = scn->graph;
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
                        .iterations = iterations, .faster = a->faster, .map = m};
+    if (scn->multirate) {
+        o.mapper = sw_multirate_map;
+        o.mapper_ctx = scn;
+    }
     if (!a->quiet && isatty(STDERR_FILENO))
         o.progress = sw_progress;
     pm_sweep s;
@@ -558,17 +568,18 @@ int pm_cmd_sweep(int argc, char **argv)
     int ex = cli_parse(&cmd, argc, argv, &file);
     if (ex >= 0)
         return ex;
-    pm_graph *g = NULL;
+    cli_scenario scn;
     pm_map *m = NULL;
+    memset(&scn, 0, sizeof scn);
     if (a.map)
-        ex = sw_load_map(file, &a, &g, &m);
+        ex = sw_load_map(file, &a, &scn, &m);
     else
-        ex = cli_load(file, false, 0, &g);
+        ex = cli_load_scenario(file, false, 0, &scn);
     if (ex == CLI_EXIT_OK && !a.map)
-        ex = sw_range(g, file, &a);
+        ex = sw_range(scn.graph, file, &a);
     if (ex == CLI_EXIT_OK)
-        ex = sw_run(g, file, &a, m);
+        ex = sw_run(&scn, file, &a, m);
     pm_map_destroy(m);
-    pm_graph_destroy(g);
+    cli_scenario_free(&scn);
     return ex;
 }

@@ -60,6 +60,8 @@ int sweep_sched_sim(pm_graph *g, const pm_sweep_opts *o, uint32_t procs,
     int rc = sweep_set_procs(g, procs, diag);
     if (rc == PM_OK && o->map)
         rc = pm_map_check(o->map, g, diag);
+    else if (rc == PM_OK && o->mapper)
+        rc = o->mapper(g, o->mapper_ctx, own, diag);
     else if (rc == PM_OK)
         rc = pm_sched_list(g, o->sched, NULL, own, diag);
     if (rc != PM_OK)

@@ -161,6 +161,12 @@ typedef struct pm_sweep {
 /* Called after each point (done of total), e.g. to show progress. */
 typedef void (*pm_sweep_progress)(void *ctx, uint32_t procs, uint32_t done, uint32_t total);
 
+/* Makes the map of one point when the list scheduler alone does not fit
+ * (e.g. a multirate expansion whose firings must share their node's core):
+ * g has its core count set for the point; PM_OK with *out set, or an error
+ * with diag filled. */
+typedef int (*pm_sweep_mapper)(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag);
+
 typedef struct pm_sweep_opts {
     uint32_t procs_from, procs_to; /* 1 <= from <= to; to - from < PM_SWEEP_MAX_POINTS */
     uint64_t iterations;           /* simulated per point; 0 = simulator default */
@@ -169,6 +175,8 @@ typedef struct pm_sweep_opts {
     const pm_map *map;             /* NULL = list-schedule each point; else this map
                                       (a hand map) for the one point procs_from ==
                                       procs_to == map->ncores (borrowed) */
+    pm_sweep_mapper mapper;        /* NULL = pm_sched_list with `sched` */
+    void *mapper_ctx;
     pm_sweep_progress progress;    /* may be NULL */
     void *progress_ctx;
 } pm_sweep_opts;
