@@ -478,12 +478,6 @@ int howard_certify(const howard *h)
     return PM_OK;
 }
 
-bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q)
-{
-    const howard_cycle *c = &h->cycles[*hw_cyc(h, i)];
-    return c->p == p && c->q == q && howard_step(h, i, k, c) == hw_x(h, i);
-}
-
 int howard_map(howard *h)
 {
     if (!h->map)
@@ -493,6 +487,27 @@ int howard_map(howard *h)
     for (uint32_t i = 0; i < h->n; i++)
         h->map[h->order[i]] = i;
     return PM_OK;
+}
+
+uint64_t *howard_tight_bits(const howard *h, int64_t p, int64_t q)
+{
+    uint32_t m = h->off[h->n];
+    uint64_t *bits = calloc((size_t)m / 64 + 1, sizeof *bits);
+    if (!bits)
+        return NULL;
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t c = *hw_cyc(h, i);
+        if (c == PM_NONE || h->cycles[c].p != p || h->cycles[c].q != q)
+            continue;
+        bnd_i128 xi = hw_x(h, i);
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
+            if (!h->wide && k + 16 < m)
+                __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);
+            if (howard_step(h, i, k, &h->cycles[c]) == xi)
+                bits[k >> 6] |= UINT64_C(1) << (k & 63);
+        }
+    }
+    return bits;
 }
 
 uint32_t howard_policy_len(const howard *h, uint32_t root)

@@ -125,9 +125,9 @@ int howard_solve_part(howard *h, uint32_t a, uint32_t b);
  * bug).  One pass over the edges, O(E). */
 int howard_certify(const howard *h);
 
-/* Local edge k of local node i is tight under the certified potentials and
- * its part's bound is p/q (i must lie in a part with a loop). */
-bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q);
+/* Bit per local edge: tight, inside a part whose bound is p/q.  NULL on
+ * ENOMEM; the caller frees.  One pass with prefetching, O(E). */
+uint64_t *howard_tight_bits(const howard *h, int64_t p, int64_t q);
 
 /* (Re)build h->map, which howard_graph_edge needs; it is not kept during
  * the iteration to save memory.  PM_ENOMEM. */
