@@ -90,7 +90,11 @@ int howard_alloc_state(howard *h)
     h->seq = malloc(n * sizeof *h->seq);
     h->nxt = malloc(n * sizeof *h->nxt);
     h->dirty = calloc(n / 64 + 1, sizeof *h->dirty);
-    if (!h->st || !h->stack || !h->seq || !h->nxt || !h->dirty)
+    h->aff = calloc(n / 64 + 1, sizeof *h->aff);
+    h->sw = calloc(n / 64 + 1, sizeof *h->sw);
+    h->oncyc = calloc(n / 64 + 1, sizeof *h->oncyc);
+    if (!h->st || !h->stack || !h->seq || !h->nxt || !h->dirty || !h->aff || !h->sw ||
+        !h->oncyc)
         return PM_ENOMEM;
     for (uint32_t i = 0; i < h->n; i++)
         *hw_cyc(h, i) = PM_NONE;
@@ -145,7 +149,9 @@ void howard_free(howard *h)
     free(h->seq);
     free(h->nxt);
     free(h->dirty);
-    free(h->old);
+    free(h->aff);
+    free(h->sw);
+    free(h->oncyc);
     free(h->cycles);
     memset(h, 0, sizeof *h);
 }
@@ -196,7 +202,7 @@ static int howard_push_cycle(howard *h, int64_t w, int64_t d, uint32_t root)
         h->cycles_cap = cap;
     }
     uint64_t gcd = pm_gcd_u64((uint64_t)w, (uint64_t)d);
-    h->cycles[h->ncycles++] = (howard_cycle){ w / (int64_t)gcd, d / (int64_t)gcd, root };
+    h->cycles[h->ncycles++] = (howard_cycle){ w / (int64_t)gcd, d / (int64_t)gcd, root, 0 };
     return PM_OK;
 }
 
@@ -207,23 +213,46 @@ static inline bnd_i128 howard_step(const howard *h, uint32_t i, uint32_t k,
     return (bnd_i128)c->q * ht(h, i) - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
 }
 
+static inline bool bit_get(const uint64_t *b, uint32_t i)
+{
+    return b[i >> 6] >> (i & 63) & 1;
+}
+
+static inline void bit_set(uint64_t *b, uint32_t i)
+{
+    b[i >> 6] |= UINT64_C(1) << (i & 63);
+}
+
+static inline void bit_clear(uint64_t *b, uint32_t i)
+{
+    b[i >> 6] &= ~(UINT64_C(1) << (i & 63));
+}
+
+/* Clear the bits of [a, b) (and maybe some of neighbouring parts, which
+ * are either solved or not started and do not read them). */
+static void bits_clear_range(uint64_t *b, uint32_t lo, uint32_t hi)
+{
+    for (uint32_t w = lo >> 6; w <= (hi - 1) >> 6; w++)
+        b[w] = 0;
+}
+
 /* Set node i's cycle entry and bias, and mark it dirty when its ratio or
- * bias differs from the previous policy's (h->old holds that table). */
+ * bias differs from before (cycle entries of a part are never reused
+ * while it is solved, so the old entry is still there). */
 static inline void howard_assign(howard *h, uint32_t i, uint32_t k, bnd_i128 x)
 {
     uint32_t o = *hw_cyc(h, i);
-    bool same = o != PM_NONE && o - h->old_base < h->nold &&
-                h->old[o - h->old_base].p == h->cycles[k].p &&
-                h->old[o - h->old_base].q == h->cycles[k].q && hw_x(h, i) == x;
+    bool same = o != PM_NONE && h->cycles[o].p == h->cycles[k].p &&
+                h->cycles[o].q == h->cycles[k].q && hw_x(h, i) == x;
     if (!same)
-        h->dirty[i >> 6] |= UINT64_C(1) << (i & 63);
+        bit_set(h->dirty, i);
     *hw_cyc(h, i) = k;
     hw_set_x(h, i, x);
 }
 
 static inline bool howard_is_dirty(const howard *h, uint32_t i)
 {
-    return h->dirty[i >> 6] >> (i & 63) & 1;
+    return bit_get(h->dirty, i);
 }
 
 /* The policy cycle nodes[0..len) in policy order: record it and set its
@@ -244,71 +273,110 @@ static int howard_close_cycle(howard *h, const uint32_t *nodes, uint32_t len)
         return rc;
     uint32_t k = h->ncycles - 1;
     howard_assign(h, nodes[at], k, 0);
+    bit_set(h->oncyc, nodes[at]);
     for (uint32_t j = 1; j < len; j++) {
         uint32_t i = nodes[(at + len - j) % len];
         howard_assign(h, i, k, howard_step(h, i, *hw_pol(h, i), &h->cycles[k]));
+        bit_set(h->oncyc, i);
     }
     return PM_OK;
 }
 
-/* Peel the policy graph of [a, b) like Kahn's topological sort: nodes with
- * no policy predecessor left go first.  What stays (indeg > 0) lies on
- * policy cycles.  seq[a..) gets the peeled nodes; returns the end.  The
- * accesses are independent of each other, so the memory system overlaps
- * them (a walk along policy pointers would wait on each miss in turn). */
-static uint32_t howard_peel(howard *h, uint32_t a, uint32_t b, uint32_t *indeg)
+/*
+ * Value determination, incremental.  R = seq[a..b) lists the part's nodes
+ * so that each comes after its policy successor (policy cycles before the
+ * trees that lead to them).  After an improvement only the nodes whose
+ * policy path meets a switched node ("affected", bit in h->aff) can change:
+ * one sweep along R finds them (a node is affected when it switched, when
+ * its successor is, or when its old policy cycle lost a node).  They are
+ * peeled like Kahn's topological sort among themselves - the accesses are
+ * independent, so the memory system overlaps them - what stays forms the
+ * new cycles, and R is rebuilt as [unaffected, in old order] [new cycles]
+ * [affected trees, successor first].  The first pass treats every node as
+ * affected.
+ */
+static void howard_mark_affected(howard *h, uint32_t a, uint32_t b, bool first)
 {
-    for (uint32_t i = a; i < b; i++)
-        indeg[i] = 0;
-    for (uint32_t i = a; i < b; i++)
-        indeg[howard_next(h, i)]++;
-    uint32_t tail = a;
-    for (uint32_t i = a; i < b; i++)
-        if (indeg[i] == 0)
-            h->seq[tail++] = i;
-    for (uint32_t head = a; head < tail; head++) {
-        if (head + 8 < tail)
-            __builtin_prefetch(&h->nxt[h->seq[head + 8]]);
-        uint32_t v = howard_next(h, h->seq[head]);
-        if (--indeg[v] == 0)
-            h->seq[tail++] = v;
+    bits_clear_range(h->aff, a, b);
+    if (first) {
+        for (uint32_t i = a; i < b; i++)
+            bit_set(h->aff, i);
+        return;
     }
-    return tail;
+    for (uint32_t i = a; i < b; i++) /* cycles that lost a node */
+        if (bit_get(h->sw, i) && bit_get(h->oncyc, i))
+            h->cycles[*hw_cyc(h, i)].broken = 1;
+    for (uint32_t j = a; j < b; j++) {
+        uint32_t u = h->seq[j];
+        bool aff = bit_get(h->oncyc, u) ? h->cycles[*hw_cyc(h, u)].broken
+                                         : bit_get(h->sw, u) || bit_get(h->aff, h->nxt[u]);
+        if (aff)
+            bit_set(h->aff, u);
+    }
 }
 
-/* Value determination: ratio and bias of every node of [a, b).  Cycles
- * first, then the peeled nodes in reverse order (each after its
- * successor). */
-static int howard_values(howard *h, uint32_t a, uint32_t b)
+/* Peel the affected nodes from their sources; the queue grows downwards
+ * from seq[b - 1].  Returns the lowest queue position. */
+static uint32_t howard_peel(howard *h, uint32_t a, uint32_t b)
 {
-    for (uint32_t w = a >> 6; w <= (b - 1) >> 6; w++)
-        h->dirty[w] = 0;
-    uint32_t *indeg = h->stack;
-    uint32_t tail = howard_peel(h, a, b, indeg);
+    uint32_t *indeg = h->stack, qt = b;
+    for (uint32_t i = a; i < b; i++)
+        if (bit_get(h->aff, i))
+            indeg[i] = 0;
+    for (uint32_t i = a; i < b; i++)
+        if (bit_get(h->aff, i) && bit_get(h->aff, h->nxt[i]))
+            indeg[h->nxt[i]]++;
+    for (uint32_t i = a; i < b; i++)
+        if (bit_get(h->aff, i) && indeg[i] == 0)
+            h->seq[--qt] = i;
+    for (uint32_t head = b; head > qt;) {
+        uint32_t v = h->nxt[h->seq[--head]];
+        if (head >= qt + 8)
+            __builtin_prefetch(&h->nxt[h->seq[head - 8]]);
+        if (bit_get(h->aff, v) && --indeg[v] == 0)
+            h->seq[--qt] = v;
+    }
+    return qt;
+}
+
+static int howard_values(howard *h, uint32_t a, uint32_t b, bool first)
+{
+    bits_clear_range(h->dirty, a, b);
+    howard_mark_affected(h, a, b, first);
+    uint32_t w = a;
+    if (!first)
+        for (uint32_t j = a; j < b; j++) /* unaffected first, in old order */
+            if (!bit_get(h->aff, h->seq[j]))
+                h->seq[w++] = h->seq[j];
+    for (uint32_t i = a; i < b; i++)
+        if (bit_get(h->aff, i))
+            bit_clear(h->oncyc, i);
+    uint32_t qt = howard_peel(h, a, b);
     for (uint32_t i = a; i < b; i++) {
-        if (indeg[i] == 0)
+        if (!bit_get(h->aff, i) || h->stack[i] == 0)
             continue;
-        uint32_t len = 0, v = i;
-        do { /* collect the cycle in the free end of seq */
-            h->seq[tail + len++] = v;
-            indeg[v] = 0;
-            v = howard_next(h, v);
+        uint32_t from = w, v = i;
+        do { /* a new cycle: its nodes go right after the unaffected ones */
+            h->seq[w++] = v;
+            h->stack[v] = 0;
+            v = h->nxt[v];
         } while (v != i);
-        int rc = howard_close_cycle(h, h->seq + tail, len);
+        int rc = howard_close_cycle(h, h->seq + from, w - from);
         if (rc)
             return rc;
     }
-    for (uint32_t j = tail; j-- > a;) {
+    for (uint32_t j = qt; j < b; j++) {
         uint32_t u = h->seq[j];
-        if (j >= a + 8) { /* overlap the misses of the coming nodes */
-            uint32_t f = h->seq[j - 8];
+        if (j + 8 < b) { /* overlap the misses of the coming nodes */
+            uint32_t f = h->seq[j + 8];
             __builtin_prefetch(&h->nxt[f]);
             __builtin_prefetch(h->wide ? (void *)&((hw_wide *)h->st)[f]
                                        : (void *)&((hw_narrow *)h->st)[f]);
         }
-        uint32_t k = *hw_cyc(h, howard_next(h, u));
+        uint32_t k = *hw_cyc(h, h->nxt[u]);
         howard_assign(h, u, k, howard_step(h, u, *hw_pol(h, u), &h->cycles[k]));
     }
+    bits_clear_range(h->sw, a, b);
     return PM_OK;
 }
 
@@ -362,41 +430,19 @@ static bool howard_improve(howard *h, uint32_t a, uint32_t b)
         uint32_t best = h->wide ? howard_best(h, i, true) : howard_best(h, i, false);
         if (best != *hw_pol(h, i)) {
             howard_set_pol(h, i, best);
+            bit_set(h->sw, i);
             changed = true;
         }
     }
     return changed;
 }
 
-/* Remember the ratios of the current policy's cycles (entries from base)
- * so that the next value determination can tell what changed. */
-static int howard_keep_old(howard *h, uint32_t base)
-{
-    uint32_t n = h->ncycles - base;
-    if (n > h->old_cap) {
-        howard_cycle *p = realloc(h->old, n * sizeof *p);
-        if (!p)
-            return PM_ENOMEM;
-        h->old = p;
-        h->old_cap = n;
-    }
-    if (n)
-        memcpy(h->old, h->cycles + base, n * sizeof *h->old);
-    h->old_base = base;
-    h->nold = n;
-    return PM_OK;
-}
-
 int howard_solve_part(howard *h, uint32_t a, uint32_t b)
 {
     uint32_t base = h->ncycles;
     howard_first_policy(h, a, b);
-    for (;;) {
-        int rc = howard_keep_old(h, base);
-        if (rc)
-            return rc;
-        h->ncycles = base;
-        rc = howard_values(h, a, b);
+    for (bool first = true;; first = false) {
+        int rc = howard_values(h, a, b, first);
         if (rc)
             return rc;
         if (!howard_improve(h, a, b))
@@ -404,6 +450,8 @@ int howard_solve_part(howard *h, uint32_t a, uint32_t b)
     }
     /* converged: one ratio for the whole part; keep the cycle reached from
      * the part's first node as its worst loop */
+    h->cycles[base] = h->cycles[*hw_cyc(h, a)];
+    h->cycles[base].broken = 0;
     h->ncycles = base + 1;
     for (uint32_t i = a; i < b; i++)
         *hw_cyc(h, i) = base;
@@ -430,12 +478,6 @@ int howard_certify(const howard *h)
     return PM_OK;
 }
 
-bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q)
-{
-    const howard_cycle *c = &h->cycles[*hw_cyc(h, i)];
-    return c->p == p && c->q == q && howard_step(h, i, k, c) == hw_x(h, i);
-}
-
 int howard_map(howard *h)
 {
     if (!h->map)
@@ -445,6 +487,27 @@ int howard_map(howard *h)
     for (uint32_t i = 0; i < h->n; i++)
         h->map[h->order[i]] = i;
     return PM_OK;
+}
+
+uint64_t *howard_tight_bits(const howard *h, int64_t p, int64_t q)
+{
+    uint32_t m = h->off[h->n];
+    uint64_t *bits = calloc((size_t)m / 64 + 1, sizeof *bits);
+    if (!bits)
+        return NULL;
+    for (uint32_t i = 0; i < h->n; i++) {
+        uint32_t c = *hw_cyc(h, i);
+        if (c == PM_NONE || h->cycles[c].p != p || h->cycles[c].q != q)
+            continue;
+        bnd_i128 xi = hw_x(h, i);
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
+            if (!h->wide && k + 16 < m)
+                __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);
+            if (howard_step(h, i, k, &h->cycles[c]) == xi)
+                bits[k >> 6] |= UINT64_C(1) << (k & 63);
+        }
+    }
+    return bits;
 }
 
 uint32_t howard_policy_len(const howard *h, uint32_t root)

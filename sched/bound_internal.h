@@ -25,6 +25,7 @@ int bound_check_zero_delay(const pm_graph *g, pm_diag *diag);
 typedef struct howard_cycle {
     int64_t p, q;
     uint32_t root;
+    uint32_t broken;     /* the policy no longer contains this cycle */
 } howard_cycle;
 
 /* Node state, packed so that the improvement step touches one cache line
@@ -55,11 +56,11 @@ typedef struct howard {
     uint32_t *t32;         /* ... or here when all fit in 32 bits */
     void *st;              /* hw_narrow or hw_wide per local node */
     uint32_t *stack;
-    uint32_t *seq;         /* scratch: peeling order of the policy graph */
+    uint32_t *seq;         /* nodes, each after its policy successor */
     uint32_t *nxt;         /* policy successor of each local node */
     uint64_t *dirty;       /* bit per node: values changed in the last pass */
-    howard_cycle *old;     /* the previous policy's cycles ... */
-    uint32_t old_base, nold, old_cap; /* ... entries from old_base on */
+    uint64_t *aff, *sw;    /* bits: affected by / switched in the last step */
+    uint64_t *oncyc;       /* bit: the node lies on its policy cycle */
     bool wide;
     howard_cycle *cycles;  /* after solving: one entry per part */
     uint32_t ncycles, cycles_cap;
@@ -124,9 +125,9 @@ int howard_solve_part(howard *h, uint32_t a, uint32_t b);
  * bug).  One pass over the edges, O(E). */
 int howard_certify(const howard *h);
 
-/* Local edge k of local node i is tight under the certified potentials and
- * its part's bound is p/q (i must lie in a part with a loop). */
-bool howard_tight(const howard *h, uint32_t i, uint32_t k, int64_t p, int64_t q);
+/* Bit per local edge: tight, inside a part whose bound is p/q.  NULL on
+ * ENOMEM; the caller frees.  One pass with prefetching, O(E). */
+uint64_t *howard_tight_bits(const howard *h, int64_t p, int64_t q);
 
 /* (Re)build h->map, which howard_graph_edge needs; it is not kept during
  * the iteration to save memory.  PM_ENOMEM. */

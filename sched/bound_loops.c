@@ -30,21 +30,26 @@ static bool loops_critical(const howard *h, uint32_t i, int64_t p, int64_t q)
  * cycle, so a node left over (indeg > 0) lies on a tight cycle itself: the
  * leftovers are exactly the nodes of the critical loops, usually a few.
  * indeg and queue are scratch arrays of h->n entries. */
-static void loops_peel(const howard *h, int64_t p, int64_t q, uint32_t *indeg, uint32_t *queue)
+static inline bool loops_tight(const uint64_t *tb, uint32_t k)
+{
+    return tb[k >> 6] >> (k & 63) & 1;
+}
+
+static void loops_peel(const howard *h, int64_t p, int64_t q, const uint64_t *tb,
+                       uint32_t *indeg, uint32_t *queue)
 {
     uint32_t tail = 0;
     memset(indeg, 0, (size_t)h->n * sizeof *indeg);
     for (uint32_t i = 0; i < h->n; i++)
-        if (loops_critical(h, i, p, q))
-            for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
-                indeg[he_dst(h, k)] += howard_tight(h, i, k, p, q);
+        for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
+            indeg[he_dst(h, k)] += loops_tight(tb, k);
     for (uint32_t i = 0; i < h->n; i++)
         if (indeg[i] == 0 && loops_critical(h, i, p, q))
             queue[tail++] = i;
     for (uint32_t head = 0; head < tail; head++) {
         uint32_t i = queue[head];
         for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
-            if (howard_tight(h, i, k, p, q) && --indeg[he_dst(h, k)] == 0)
+            if (loops_tight(tb, k) && --indeg[he_dst(h, k)] == 0)
                 queue[tail++] = he_dst(h, k);
     }
 }
@@ -68,17 +73,16 @@ static void loops_local_free(loops_local *l)
     memset(l, 0, sizeof *l);
 }
 
-/* Tight edge k of i whose target is kept (map != PM_NONE). */
-static bool loops_keep(const howard *h, const uint32_t *map, uint32_t i, uint32_t k,
-                       int64_t p, int64_t q)
+/* Tight edge k whose target is kept (map != PM_NONE). */
+static bool loops_keep(const howard *h, const uint32_t *map, const uint64_t *tb, uint32_t k)
 {
-    return map[he_dst(h, k)] != PM_NONE && howard_tight(h, i, k, p, q);
+    return map[he_dst(h, k)] != PM_NONE && loops_tight(tb, k);
 }
 
 /* Build the local graph from the kept nodes (left[i] > 0); map[] (h->n
  * entries) is scratch. */
-static int loops_local_build(const howard *h, int64_t p, int64_t q, const uint32_t *left,
-                             uint32_t *map, loops_local *l)
+static int loops_local_build(const howard *h, int64_t p, int64_t q, const uint64_t *tb,
+                             const uint32_t *left, uint32_t *map, loops_local *l)
 {
     memset(l, 0, sizeof *l);
     for (uint32_t i = 0; i < h->n; i++)
@@ -91,7 +95,7 @@ static int loops_local_build(const howard *h, int64_t p, int64_t q, const uint32
         if (map[i] != PM_NONE) {
             l->glob[map[i]] = i;
             for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
-                l->off[map[i] + 1] += loops_keep(h, map, i, k, p, q);
+                l->off[map[i] + 1] += loops_keep(h, map, tb, k);
         }
     for (uint32_t j = 0; j < l->n; j++)
         l->off[j + 1] += l->off[j];
@@ -103,7 +107,7 @@ static int loops_local_build(const howard *h, int64_t p, int64_t q, const uint32
     for (uint32_t j = 0, at = 0; j < l->n; j++) {
         uint32_t i = l->glob[j];
         for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++)
-            if (loops_keep(h, map, i, k, p, q)) {
+            if (loops_keep(h, map, tb, k)) {
                 l->adj[at] = map[he_dst(h, k)];
                 l->eid[at++] = howard_graph_edge(h, i, k);
             }
@@ -342,10 +346,14 @@ static int loops_enumerate(const loops_local *l, const howard *h, uint32_t max,
 int bound_critical_loops(const howard *h, int64_t p, int64_t q, uint32_t max,
                          pm_bound *out)
 {
+    uint64_t *tb = howard_tight_bits(h, p, q);
+    if (!tb)
+        return PM_ENOMEM;
     /* the iteration's scratch arrays are free now */
-    loops_peel(h, p, q, h->stack, h->seq);
+    loops_peel(h, p, q, tb, h->stack, h->seq);
     loops_local l;
-    int rc = loops_local_build(h, p, q, h->stack, h->nxt, &l);
+    int rc = loops_local_build(h, p, q, tb, h->stack, h->nxt, &l);
+    free(tb);
     if (rc == PM_OK)
         rc = loops_enumerate(&l, h, max, out);
     loops_local_free(&l);

@@ -37,9 +37,13 @@ static const char *fmt_rat(char *buf, size_t len, pm_rat r)
 static const char *fmt_loop(char *buf, size_t len, const pm_graph *g, const pm_loop *l,
                             size_t width)
 {
-    size_t at = 0, cap = width < len ? width : len - 1;
+    size_t at = 0, cap = width < len ? width : len - 1, full = 0;
     buf[0] = '\0';
     const char *last = pm_graph_node_name(g, l->nodes[0]);
+    for (uint32_t i = 0; i <= l->len && full <= cap; i++)
+        full += strlen(pm_graph_node_name(g, l->nodes[i % l->len])) + (i ? 4 : 0);
+    if (full <= cap)
+        cap = len - 1; /* it all fits: no shortening */
     for (uint32_t i = 0; i <= l->len; i++) {
         const char *name = pm_graph_node_name(g, l->nodes[i % l->len]);
         bool end = i == l->len;

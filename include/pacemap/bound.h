@@ -8,8 +8,9 @@
  * strongly connected part (Cochet-Terrasson et al. 1998; Dasdan, ACM TODAES
  * 2004) and certified: integer potentials, scaled by the denominator, show
  * that no cycle exceeds it.  A second, independent method (Karp's minimum
- * cycle mean theorem, Discrete Math. 1978, applied parametrically) serves
- * the tests as a cross-check.
+ * cycle mean theorem, Discrete Math. 1978, as the oracle of an exact
+ * Stern-Brocot search) serves the tests as a cross-check.  Method notes:
+ * docs/methods.md.
  *
  * Node times are the smallest over the core classes that can run the node:
  * a floor must hold on every mapping.  Multirate graphs must be expanded to
@@ -83,7 +84,8 @@ typedef struct pm_bound_opts {
  * PM_EPLATFORM when a node can run on no core class; PM_ENOMEM.  On error
  * *out is left empty (pm_bound_free() is still safe).
  * Complexity: O(iterations * E) time (policy iteration; in practice a few
- * dozen passes), O(V + E) memory: about 50 bytes per node beyond the graph.
+ * dozen passes), O(V + E) memory: about 60 bytes per node and 5 per edge
+ * beyond the graph (docs/performance.md).
  */
 int pm_bound_compute(const pm_graph *g, const pm_bound_opts *opts, pm_bound *out,
                      pm_diag *diag);
