@@ -68,9 +68,9 @@ static void text_critical(const pm_graph *g, const pm_bound *b)
            b->critical_truncated ? ", more exist" : "");
     for (uint32_t i = 0; i < b->ncritical; i++) {
         const pm_loop *l = &b->critical[i];
-        printf("  %-*s %lld cycles / %lld delays\n", BOUND_LOOP_WIDTH,
+        printf("  %-*s %lld cycles / %lld %s\n", BOUND_LOOP_WIDTH,
                fmt_loop(lb, sizeof lb, g, l, BOUND_LOOP_WIDTH), (long long)l->cycles,
-               (long long)l->delays);
+               (long long)l->delays, l->delays == 1 ? "delay" : "delays");
     }
 }
 
