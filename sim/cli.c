@@ -4,7 +4,10 @@
  */
 #include "cli.h"
 
+#include "pacemap/bound.h"
+#include "pacemap/json.h"
 #include "pacemap/map.h"
+#include "pacemap/outfile.h"
 #include "pacemap/reader.h"
 #include "pacemap/sched.h"
 #include "pacemap/sdf.h"
@@ -335,4 +338,40 @@ int cli_write_map(const cli_scenario *s, const pm_map *m, FILE *out)
         rc = pm_map_write(nodes, s->source, out);
     pm_map_destroy(nodes);
     return rc;
+}
+
+int cli_write_file(const char *path, cli_writer write, const void *ctx)
+{
+    pm_outfile f;
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_outfile_open(&f, path, &d);
+    if (rc == PM_OK) {
+        rc = write(ctx, f.fp);
+        if (rc == PM_OK)
+            rc = pm_outfile_commit(&f, &d);
+        else
+            pm_outfile_abort(&f);
+    }
+    if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_strerror(rc));
+        cli_error(&d);
+    }
+    return rc;
+}
+
+void cli_json_loop(pm_json *j, const pm_graph *g, const pm_loop *l)
+{
+    pm_json_object_begin(j);
+    pm_json_key(j, "nodes");
+    pm_json_array_begin(j);
+    for (uint32_t i = 0; i < l->len; i++)
+        pm_json_string(j, pm_graph_node_name(g, l->nodes[i]));
+    pm_json_array_end(j);
+    pm_json_key(j, "cycles");
+    pm_json_int(j, l->cycles);
+    pm_json_key(j, "delays");
+    pm_json_int(j, l->delays);
+    pm_json_object_end(j);
 }

@@ -105,6 +105,17 @@ int cli_schedule(const cli_scenario *s, const struct pm_sched_opts *opts,
 /* Write map m of s->graph as a `.map` file naming the scenario's nodes. */
 int cli_write_map(const cli_scenario *s, const struct pm_map *m, FILE *out);
 
+/* Write an output file whole or not at all (pm_outfile): `write` fills the
+ * stream from ctx.  On failure prints the error (nothing is left behind)
+ * and returns the library error code. */
+typedef int (*cli_writer)(const void *ctx, FILE *out);
+int cli_write_file(const char *path, cli_writer write, const void *ctx);
+
+/* A loop as {"nodes": [...], "cycles": N, "delays": N} (DESIGN §6). */
+struct pm_json;
+struct pm_loop;
+void cli_json_loop(struct pm_json *j, const pm_graph *g, const struct pm_loop *l);
+
 /* Safety caution of DESIGN §9, one short paragraph for reports. */
 extern const char cli_caution[];
 

@@ -167,21 +167,6 @@ static void bound_text(const char *file, const pm_graph *g, const pm_bound *b,
     text_caution();
 }
 
-static void json_loop(pm_json *j, const pm_graph *g, const pm_loop *l)
-{
-    pm_json_object_begin(j);
-    pm_json_key(j, "nodes");
-    pm_json_array_begin(j);
-    for (uint32_t i = 0; i < l->len; i++)
-        pm_json_string(j, pm_graph_node_name(g, l->nodes[i]));
-    pm_json_array_end(j);
-    pm_json_key(j, "cycles");
-    pm_json_int(j, l->cycles);
-    pm_json_key(j, "delays");
-    pm_json_int(j, l->delays);
-    pm_json_object_end(j);
-}
-
 static void json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
 {
     pm_json_key(j, "parts");
@@ -195,7 +180,7 @@ static void json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
         pm_json_key(j, "bound");
         pm_json_rat(j, b->parts[i].bound);
         pm_json_key(j, "worst_loop");
-        json_loop(j, g, &b->parts[i].worst);
+        cli_json_loop(j, g, &b->parts[i].worst);
         pm_json_object_end(j);
     }
     pm_json_array_end(j);
@@ -267,7 +252,7 @@ static void bound_json(const char *file, const pm_graph *g, const pm_bound *b,
     pm_json_key(&j, "critical_loops");
     pm_json_array_begin(&j);
     for (uint32_t i = 0; i < b->ncritical; i++)
-        json_loop(&j, g, &b->critical[i]);
+        cli_json_loop(&j, g, &b->critical[i]);
     pm_json_array_end(&j);
     pm_json_key(&j, "critical_truncated");
     pm_json_bool(&j, b->critical_truncated);

@@ -260,20 +260,8 @@ static void dot_json_loops(pm_json *j, const pm_graph *g, const pm_bound *b)
 {
     pm_json_key(j, "critical_loops");
     pm_json_array_begin(j);
-    for (uint32_t i = 0; b && i < b->ncritical; i++) {
-        const pm_loop *l = &b->critical[i];
-        pm_json_object_begin(j);
-        pm_json_key(j, "nodes");
-        pm_json_array_begin(j);
-        for (uint32_t k = 0; k < l->len; k++)
-            pm_json_string(j, pm_graph_node_name(g, l->nodes[k]));
-        pm_json_array_end(j);
-        pm_json_key(j, "cycles");
-        pm_json_int(j, l->cycles);
-        pm_json_key(j, "delays");
-        pm_json_int(j, l->delays);
-        pm_json_object_end(j);
-    }
+    for (uint32_t i = 0; b && i < b->ncritical; i++)
+        cli_json_loop(j, g, &b->critical[i]);
     pm_json_array_end(j);
 }
 

@@ -84,40 +84,20 @@ static int sc_chart_make(const sc_result *r, sc_chart *c)
 
 /* ---- output files ------------------------------------------------------- */
 
-static int sc_write_map(const sc_result *r, FILE *f)
+static int sc_write_map(const void *ctx, FILE *f)
 {
+    const sc_result *r = ctx;
     return cli_write_map(r->scn, r->m, f);
 }
 
-static int sc_write_svg(const sc_result *r, FILE *f)
+static int sc_write_svg(const void *ctx, FILE *f)
 {
+    const sc_result *r = ctx;
     sc_chart c;
     int rc = sc_chart_make(r, &c);
     if (rc == PM_OK)
         rc = pm_gantt_write_svg(&c.chart, f);
     sc_chart_free(&c, r->s->ncores);
-    return rc;
-}
-
-static int sc_outfile(const sc_result *r, const char *path,
-                      int (*write)(const sc_result *, FILE *))
-{
-    pm_outfile f;
-    pm_diag d;
-    pm_diag_clear(&d);
-    int rc = pm_outfile_open(&f, path, &d);
-    if (rc == PM_OK) {
-        rc = write(r, f.fp);
-        if (rc == PM_OK)
-            rc = pm_outfile_commit(&f, &d);
-        else
-            pm_outfile_abort(&f);
-    }
-    if (rc != PM_OK) {
-        if (!d.msg[0])
-            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_strerror(rc));
-        cli_error(&d);
-    }
     return rc;
 }
 
@@ -348,9 +328,9 @@ static int sc_run(const sc_args *a, sc_result *r)
 {
     int rc = sc_compute(a, r);
     if (rc == PM_OK && a->emit_map)
-        rc = sc_outfile(r, a->emit_map, sc_write_map);
+        rc = cli_write_file(a->emit_map, sc_write_map, r);
     if (rc == PM_OK && a->svg)
-        rc = sc_outfile(r, a->svg, sc_write_svg);
+        rc = cli_write_file(a->svg, sc_write_svg, r);
     if (rc != PM_OK)
         return cli_exit_for(rc);
     if (a->json) {

@@ -127,8 +127,9 @@ static int sm_chart_make(const sm_run *s, sm_chart *c)
     return PM_OK;
 }
 
-static int sm_write_svg(const sm_run *s, FILE *f)
+static int sm_write_svg(const void *ctx, FILE *f)
 {
+    const sm_run *s = ctx;
     sm_chart c;
     int rc = sm_chart_make(s, &c);
     if (rc == PM_OK)
@@ -137,30 +138,10 @@ static int sm_write_svg(const sm_run *s, FILE *f)
     return rc;
 }
 
-static int sm_write_vcd(const sm_run *s, FILE *f)
+static int sm_write_vcd(const void *ctx, FILE *f)
 {
+    const sm_run *s = ctx;
     return pm_vcd_write(s->g, s->m, &s->r, f);
-}
-
-static int sm_outfile(const sm_run *s, const char *path, int (*write)(const sm_run *, FILE *))
-{
-    pm_outfile f;
-    pm_diag d;
-    pm_diag_clear(&d);
-    int rc = pm_outfile_open(&f, path, &d);
-    if (rc == PM_OK) {
-        rc = write(s, f.fp);
-        if (rc == PM_OK)
-            rc = pm_outfile_commit(&f, &d);
-        else
-            pm_outfile_abort(&f);
-    }
-    if (rc != PM_OK) {
-        if (!d.msg[0])
-            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_strerror(rc));
-        cli_error(&d);
-    }
-    return rc;
 }
 
 /* ---- human text --------------------------------------------------------- */
@@ -470,9 +451,9 @@ static int sm_main(const sm_args *a, sm_run *s)
 {
     int rc = sm_compute(a, s);
     if (rc == PM_OK && a->vcd)
-        rc = sm_outfile(s, a->vcd, sm_write_vcd);
+        rc = cli_write_file(a->vcd, sm_write_vcd, s);
     if (rc == PM_OK && a->svg)
-        rc = sm_outfile(s, a->svg, sm_write_svg);
+        rc = cli_write_file(a->svg, sm_write_svg, s);
     if (rc != PM_OK)
         return cli_exit_for(rc == PM_EDEADLOCK ? PM_EDEADLOCK : rc);
     if (a->json)

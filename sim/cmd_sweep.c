@@ -398,28 +398,6 @@ static void sw_progress(void *ctx, uint32_t procs, uint32_t done, uint32_t total
 
 /* ---- output files ------------------------------------------------------- */
 
-static int sw_outfile(const sw_report *r, const char *path,
-                      int (*write)(const sw_report *, FILE *))
-{
-    pm_outfile f;
-    pm_diag d;
-    pm_diag_clear(&d);
-    int rc = pm_outfile_open(&f, path, &d);
-    if (rc == PM_OK) {
-        rc = write(r, f.fp);
-        if (rc == PM_OK)
-            rc = pm_outfile_commit(&f, &d);
-        else
-            pm_outfile_abort(&f);
-    }
-    if (rc != PM_OK) {
-        if (!d.msg[0])
-            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_strerror(rc));
-        cli_error(&d);
-    }
-    return rc;
-}
-
 /* ---- the command -------------------------------------------------------- */
 
 /* The pinned node that needs the most cores. */
@@ -502,9 +480,9 @@ static int sw_multirate_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag 
 
 static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
 {
-    if (a->svg && sw_outfile(r, a->svg, sw_write_svg) != PM_OK)
+    if (a->svg && cli_write_file(a->svg, sw_write_svg, r) != PM_OK)
         return CLI_EXIT_INPUT;
-    if (a->csv && sw_outfile(r, a->csv, sw_write_csv) != PM_OK)
+    if (a->csv && cli_write_file(a->csv, sw_write_csv, r) != PM_OK)
         return CLI_EXIT_INPUT;
     if (a->json)
         sw_write_json(r, stdout);

@@ -23,8 +23,8 @@ const char *sw_rat_text(char *buf, size_t n, pm_rat r);
 /* --json on stdout (DESIGN §6 `sweep` plus extras). */
 void sw_write_json(const sw_report *r, FILE *out);
 /* --csv: a header row, then one row per core count.  PM_EIO on failure. */
-int sw_write_csv(const sw_report *r, FILE *out);
+int sw_write_csv(const void *ctx, FILE *out);
 /* --svg: period and floors, and throughput, against the core count. */
-int sw_write_svg(const sw_report *r, FILE *out);
+int sw_write_svg(const void *ctx, FILE *out);
 
 #endif

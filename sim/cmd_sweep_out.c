@@ -267,8 +267,9 @@ static void sw_csv_rat(FILE *out, pm_rat r)
     fprintf(out, ",%.17g,%lld/%lld", pm_rat_to_double(r), (long long)r.num, (long long)r.den);
 }
 
-int sw_write_csv(const sw_report *r, FILE *out)
+int sw_write_csv(const void *ctx, FILE *out)
 {
+    const sw_report *r = ctx;
     fputs("procs,period,period_exact,lower_bound,lower_bound_exact,iteration_bound,"
           "iteration_bound_exact,speedup,efficiency,steady,limit,limit_nodes\n", out);
     for (uint32_t i = 0; i < r->s->npoints; i++) {
@@ -384,8 +385,9 @@ static void sw_plot_titles(const sw_report *r, sw_plot_data *d)
                  "Period against the core count. Still falling at P = %u.", p->procs);
 }
 
-int sw_write_svg(const sw_report *r, FILE *out)
+int sw_write_svg(const void *ctx, FILE *out)
 {
+    const sw_report *r = ctx;
     size_t n = r->s->npoints;
     sw_plot_data d;
     memset(&d, 0, sizeof d);
