@@ -2,9 +2,9 @@
  * fuzz_map.c - libFuzzer target for the map reader (pm_map_read_string,
  * include/pacemap/map.h).
  *
- * Each input is read against two fixed graphs read once from built-in
- * scenarios: one with core classes, per-class cycles and pins, one with
- * identical cores.  A map that reads must pass pm_map_check and survive a
+ * Each input is read against two fixed graphs read once from the built-in
+ * scenarios of fuzz_graphs.h: one with core classes, per-class cycles and
+ * pins, one with identical cores.  A map that reads must pass pm_map_check and survive a
  * round trip (pm_map_write, then read again, gives the same map); anything
  * else must be a clean error (fuzz_common.h).  Built by tests/fuzz/run.sh.
  */
@@ -13,34 +13,12 @@
 #include <stdio.h>
 
 #include "fuzz_common.h"
+#include "fuzz_graphs.h"
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
 #include "pacemap/reader.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
-
-/* Invented for the fuzzer: small, but with every rule a map must obey. */
-static const char fuzz_classes_scenario[] =
-    "# invented test platform: two dsp cores and a host core\n"
-    "procs dsp:2 host:1\n"
-    "node src cycles=4\n"
-    "node fir cycles=dsp:12,host:30\n"
-    "node pin0 cycles=3 pin=0\n"
-    "node ctl cycles=host:7\n"
-    "node mix cycles=5 pin=dsp\n"
-    "edge src -> fir -> pin0 -> mix\n"
-    "edge ctl -> mix\n"
-    "edge mix -> ctl delay=1\n";
-
-static const char fuzz_plain_scenario[] =
-    "# invented test platform: four identical cores\n"
-    "procs 4\n"
-    "node a cycles=1\n"
-    "node b cycles=2\n"
-    "node c cycles=3\n"
-    "node d cycles=4 pin=3\n"
-    "edge a -> b -> c\n"
-    "edge c -> d\n";
 
 static pm_graph *fuzz_graph(const char *text, size_t len)
 {
