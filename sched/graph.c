@@ -32,6 +32,12 @@ static uint64_t graph_hash_name(const char *s, size_t len)
         h ^= (unsigned char)s[i];
         h *= 1099511628211ULL;
     }
+    /* FNV's low bits mix poorly (bit 0 is the parity of the bytes' bit 0) and
+     * the table uses the low bits: finish with a 64-bit mixer (the
+     * finalizer of MurmurHash3) so names like n1, n2, ... spread out. */
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdULL;
+    h ^= h >> 33;
     return h;
 }
 
@@ -78,36 +84,103 @@ void pm_graph_destroy(pm_graph *g)
     free(g);
 }
 
+/* Slot i of the name table is hash[2i] (a node, or PM_NONE when empty) and
+ * hash[2i+1] (the high 32 bits of its name's hash, its "tag").  A lookup
+ * compares tags before it touches the node or its name, so a probe costs one
+ * cache line; the home slot is the tag's low bits, so a rehash needs no
+ * names. */
+static uint32_t graph_tag(const char *s, size_t len)
+{
+    return (uint32_t)(graph_hash_name(s, len) >> 32);
+}
+
+static void graph_slot_put(uint32_t *h, uint32_t cap, uint32_t v, uint32_t tag)
+{
+    uint32_t i = tag & (cap - 1);
+    while (h[2 * i] != PM_NONE)
+        i = (i + 1) & (cap - 1);
+    h[2 * i] = v;
+    h[2 * i + 1] = tag;
+}
+
 static int graph_rehash(pm_graph *g, uint32_t cap)
 {
-    uint32_t *h = malloc((size_t)cap * sizeof *h);
+    uint32_t *h = malloc((size_t)cap * 2 * sizeof *h);
     if (!h)
         return PM_ENOMEM;
-    memset(h, 0xff, (size_t)cap * sizeof *h);
-    for (uint32_t v = 0; v < g->nnodes; v++) {
-        const char *s = g->names + g->nodes[v].name;
-        uint32_t i = (uint32_t)(graph_hash_name(s, strlen(s)) & (cap - 1));
-        while (h[i] != PM_NONE)
-            i = (i + 1) & (cap - 1);
-        h[i] = v;
-    }
+    memset(h, 0xff, (size_t)cap * 2 * sizeof *h);
+    for (uint32_t i = 0; i < g->hash_cap; i++)
+        if (g->hash[2 * i] != PM_NONE)
+            graph_slot_put(h, cap, g->hash[2 * i], g->hash[2 * i + 1]);
     free(g->hash);
     g->hash = h;
     g->hash_cap = cap;
     return PM_OK;
 }
 
+static bool graph_name_is(const pm_graph *g, uint32_t v, const char *name, size_t len)
+{
+    const char *s = g->names + g->nodes[v].name;
+    return memcmp(s, name, len) == 0 && s[len] == '\0';
+}
+
 uint32_t pm_graph_find(const pm_graph *g, const char *name, size_t len)
 {
     if (!g->hash_cap)
         return PM_NONE;
-    uint32_t i = (uint32_t)(graph_hash_name(name, len) & (g->hash_cap - 1));
-    for (; g->hash[i] != PM_NONE; i = (i + 1) & (g->hash_cap - 1)) {
-        const char *s = g->names + g->nodes[g->hash[i]].name;
-        if (strncmp(s, name, len) == 0 && s[len] == '\0')
-            return g->hash[i];
-    }
+    uint32_t tag = graph_tag(name, len), mask = g->hash_cap - 1;
+    for (uint32_t i = tag & mask; g->hash[2 * i] != PM_NONE; i = (i + 1) & mask)
+        if (g->hash[2 * i + 1] == tag && graph_name_is(g, g->hash[2 * i], name, len))
+            return g->hash[2 * i];
     return PM_NONE;
+}
+
+/* The first slot at or after *slot whose tag matches (its node), or PM_NONE. */
+static uint32_t graph_probe_tag(const pm_graph *g, uint32_t *slot, uint32_t tag)
+{
+    uint32_t i = *slot, mask = g->hash_cap - 1;
+    while (g->hash[2 * i] != PM_NONE && g->hash[2 * i + 1] != tag)
+        i = (i + 1) & mask;
+    *slot = i;
+    return g->hash[2 * i];
+}
+
+/* One group of at most 64 lookups, in stages: each stage starts the memory
+ * loads the next one needs (slot, node, name) for all lookups of the group,
+ * so their cache misses overlap instead of queueing one after another. */
+static void graph_find_group(const pm_graph *g, const char *const *names, const size_t *lens,
+                             size_t n, uint32_t *ids)
+{
+    uint32_t tag[64], slot[64];
+    for (size_t k = 0; k < n; k++) {
+        tag[k] = graph_tag(names[k], lens[k]);
+        slot[k] = tag[k] & (g->hash_cap - 1);
+        __builtin_prefetch(&g->hash[2 * slot[k]]);
+    }
+    for (size_t k = 0; k < n; k++) {
+        ids[k] = graph_probe_tag(g, &slot[k], tag[k]);
+        if (ids[k] != PM_NONE)
+            __builtin_prefetch(&g->nodes[ids[k]].name);
+    }
+    for (size_t k = 0; k < n; k++)
+        if (ids[k] != PM_NONE)
+            __builtin_prefetch(g->names + g->nodes[ids[k]].name);
+    for (size_t k = 0; k < n; k++)
+        if (ids[k] != PM_NONE && !graph_name_is(g, ids[k], names[k], lens[k]))
+            ids[k] = pm_graph_find(g, names[k], lens[k]); /* a tag collision: rare */
+}
+
+void pm_graph_find_many(const pm_graph *g, const char *const *names, const size_t *lens,
+                        size_t n, uint32_t *ids)
+{
+    for (size_t b = 0; b < n; b += 64) {
+        size_t m = n - b < 64 ? n - b : 64;
+        if (!g->hash_cap) {
+            memset(ids + b, 0xff, m * sizeof *ids);
+            continue;
+        }
+        graph_find_group(g, names + b, lens + b, m, ids + b);
+    }
 }
 
 static int graph_store_name(pm_graph *g, const char *name, size_t len, uint32_t *off)
@@ -155,10 +228,7 @@ int pm_graph_add_node(pm_graph *g, const char *name, size_t len, int64_t cycles,
     v->pin_core = PM_NONE;
     v->pin_class = PM_NONE;
     v->work = PM_WORK_SPIN;
-    uint32_t i = (uint32_t)(graph_hash_name(name, len) & (g->hash_cap - 1));
-    while (g->hash[i] != PM_NONE)
-        i = (i + 1) & (g->hash_cap - 1);
-    g->hash[i] = g->nnodes;
+    graph_slot_put(g->hash, g->hash_cap, g->nnodes, graph_tag(name, len));
     if (id)
         *id = g->nnodes;
     g->nnodes++;
