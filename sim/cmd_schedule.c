@@ -1,12 +1,395 @@
 /*
- * cmd_schedule.c - the 'schedule' command (not written yet: exits with a usage error).
+ * cmd_schedule.c - `pacemap schedule FILE [-p N] [--map F] [--emit-map F]
+ * [--svg F] [--json] [--loop-blind]`: list-schedule one iteration (or time
+ * a hand map), print the per-core table, makespan, utilisation, cross-core
+ * transfers, the loop-time floor and a text Gantt chart; write the map and
+ * an SVG chart through pm_outfile.  Scheduling itself lives in sched/.
  */
 #include "cli.h"
 
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "pacemap/gantt.h"
+#include "pacemap/json.h"
+#include "pacemap/map.h"
+#include "pacemap/outfile.h"
+#include "pacemap/sched.h"
+
+typedef struct sc_args {
+    uint32_t procs;
+    bool procs_set, json, loop_blind;
+    const char *emit_map, *svg, *map;
+} sc_args;
+
+typedef struct sc_result {
+    const pm_graph *g;
+    pm_schedule *s;
+    pm_map *m;
+    pm_rat floor;
+    uint32_t *loop, nloop;
+    const char *file;
+} sc_result;
+
+#define SC_NAME_W 24
+
+/* ---- Gantt chart from a schedule ---------------------------------------- */
+
+typedef struct sc_chart {
+    pm_gantt chart;
+    char **names;
+    pm_gantt_box *boxes;
+    pm_gantt_arrow *arrows;
+} sc_chart;
+
+static void sc_chart_free(sc_chart *c, uint32_t ncores)
+{
+    for (uint32_t i = 0; c->names && i < ncores; i++)
+        free(c->names[i]);
+    free(c->names);
+    free(c->boxes);
+    free(c->arrows);
+}
+
+static int sc_chart_make(const sc_result *r, sc_chart *c)
+{
+    const pm_schedule *s = r->s;
+    memset(c, 0, sizeof *c);
+    c->names = calloc((size_t)s->ncores + 1, sizeof *c->names);
+    c->boxes = calloc((size_t)s->nnodes + 1, sizeof *c->boxes);
+    c->arrows = calloc(s->ntransfers + 1, sizeof *c->arrows);
+    if (!c->names || !c->boxes || !c->arrows)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < s->ncores; i++) {
+        c->names[i] = malloc(24);
+        if (!c->names[i])
+            return PM_ENOMEM;
+        snprintf(c->names[i], 24, "core %u", i);
+    }
+    for (uint32_t v = 0; v < s->nnodes; v++)
+        c->boxes[v] = (pm_gantt_box){s->slots[v].core, s->slots[v].start, s->slots[v].end,
+                                     pm_graph_node_name(r->g, v), 0};
+    for (size_t i = 0; i < s->ntransfers; i++) {
+        const pm_transfer *t = &s->transfers[i];
+        c->arrows[i] = (pm_gantt_arrow){t->from_core, t->to_core, t->send_start, t->recv_end,
+                                        pm_graph_node_name(r->g, t->dst)};
+    }
+    c->chart = (pm_gantt){r->g->platform.title ? r->g->platform.title : r->file, s->ncores,
+                          (const char *const *)c->names, c->boxes, s->nnodes, c->arrows,
+                          s->ntransfers, r->g->platform.clock_hz, cli_caution};
+    return PM_OK;
+}
+
+/* ---- output files ------------------------------------------------------- */
+
+static int sc_write_map(const sc_result *r, FILE *f)
+{
+    return pm_map_write(r->m, r->g, f);
+}
+
+static int sc_write_svg(const sc_result *r, FILE *f)
+{
+    sc_chart c;
+    int rc = sc_chart_make(r, &c);
+    if (rc == PM_OK)
+        rc = pm_gantt_write_svg(&c.chart, f);
+    sc_chart_free(&c, r->s->ncores);
+    return rc;
+}
+
+static int sc_outfile(const sc_result *r, const char *path,
+                      int (*write)(const sc_result *, FILE *))
+{
+    pm_outfile f;
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_outfile_open(&f, path, &d);
+    if (rc == PM_OK) {
+        rc = write(r, f.fp);
+        if (rc == PM_OK)
+            rc = pm_outfile_commit(&f, &d);
+        else
+            pm_outfile_abort(&f);
+    }
+    if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_strerror(rc));
+        cli_error(&d);
+    }
+    return rc;
+}
+
+/* ---- human text --------------------------------------------------------- */
+
+static void sc_text_summary(const sc_result *r)
+{
+    const pm_platform *p = &r->g->platform;
+    printf("%s: %u nodes on %u cores, %s\n", r->file, r->g->nnodes, p->ncores,
+           p->interconnect == PM_BUS ? "bus" : "point-to-point links");
+    printf("makespan       %lld cycles", (long long)r->s->makespan);
+    if (p->clock_hz)
+        printf(" (%.4g us at %.6g MHz)", (double)r->s->makespan * 1e6 / (double)p->clock_hz,
+               (double)p->clock_hz / 1e6);
+    putchar('\n');
+    if (r->nloop > 0) {
+        printf("loop floor     %.6g cycles per iteration (%lld/%lld): loop", 
+               pm_rat_to_double(r->floor), (long long)r->floor.num, (long long)r->floor.den);
+        for (uint32_t i = 0; i < r->nloop && i < 6; i++)
+            printf(" %.*s", SC_NAME_W, pm_graph_node_name(r->g, r->loop[i]));
+        printf("%s\n", r->nloop > 6 ? " ..." : "");
+    }
+}
+
+static void sc_text_slots(const sc_result *r)
+{
+    printf("\n%-5s %-*s %12s %12s\n", "core", SC_NAME_W, "node", "start", "end");
+    for (uint32_t c = 0; c < r->m->ncores; c++)
+        for (uint32_t i = r->m->off[c]; i < r->m->off[c + 1]; i++) {
+            uint32_t v = r->m->order[i];
+            printf("%-5u %-*.*s %12lld %12lld\n", c, SC_NAME_W, SC_NAME_W,
+                   pm_graph_node_name(r->g, v), (long long)r->s->slots[v].start,
+                   (long long)r->s->slots[v].end);
+        }
+    printf("\n%-5s %12s %12s\n", "core", "busy", "utilisation");
+    for (uint32_t c = 0; c < r->s->ncores; c++)
+        printf("%-5u %12lld %11.1f%%\n", c, (long long)r->s->busy[c],
+               r->s->makespan ? 100.0 * (double)r->s->busy[c] / (double)r->s->makespan : 0.0);
+}
+
+static void sc_text_transfers(const sc_result *r)
+{
+    if (r->s->ntransfers == 0) {
+        printf("\nno cross-core transfers\n");
+        return;
+    }
+    printf("\n%-20s %-20s %5s %10s %10s %8s\n", "cross-core from", "to", "cores", "leaves",
+           "ready", "cost");
+    for (size_t i = 0; i < r->s->ntransfers; i++) {
+        const pm_transfer *t = &r->s->transfers[i];
+        char cores[24];
+        snprintf(cores, sizeof cores, "%u>%u", t->from_core, t->to_core);
+        printf("%-20.20s %-20.20s %5s %10lld %10lld %8lld\n", pm_graph_node_name(r->g, t->src),
+               pm_graph_node_name(r->g, t->dst), cores, (long long)t->send_start,
+               (long long)t->recv_end, (long long)t->cost);
+    }
+}
+
+static int sc_text(const sc_result *r)
+{
+    sc_text_summary(r);
+    sc_text_slots(r);
+    sc_text_transfers(r);
+    putchar('\n');
+    sc_chart c;
+    int rc = sc_chart_make(r, &c);
+    if (rc == PM_OK) {
+        c.chart.title = NULL;
+        c.chart.caution = NULL; /* printed once, at the end */
+        rc = pm_gantt_write_text(&c.chart, stdout, 100);
+    }
+    sc_chart_free(&c, r->s->ncores);
+    return rc;
+}
+
+/* ---- JSON --------------------------------------------------------------- */
+
+static void sc_json_map(pm_json *j, const sc_result *r)
+{
+    pm_json_key(j, "map");
+    pm_json_array_begin(j);
+    for (uint32_t c = 0; c < r->m->ncores; c++) {
+        pm_json_array_begin(j);
+        for (uint32_t i = r->m->off[c]; i < r->m->off[c + 1]; i++)
+            pm_json_string(j, pm_graph_node_name(r->g, r->m->order[i]));
+        pm_json_array_end(j);
+    }
+    pm_json_array_end(j);
+    pm_json_key(j, "slots");
+    pm_json_array_begin(j);
+    for (uint32_t v = 0; v < r->s->nnodes; v++) {
+        pm_json_object_begin(j);
+        pm_json_key(j, "node");
+        pm_json_string(j, pm_graph_node_name(r->g, v));
+        pm_json_key(j, "core");
+        pm_json_uint(j, r->s->slots[v].core);
+        pm_json_key(j, "start");
+        pm_json_int(j, r->s->slots[v].start);
+        pm_json_key(j, "end");
+        pm_json_int(j, r->s->slots[v].end);
+        pm_json_object_end(j);
+    }
+    pm_json_array_end(j);
+}
+
+static void sc_json_transfer(pm_json *j, const sc_result *r, const pm_transfer *t)
+{
+    pm_json_object_begin(j);
+    pm_json_key(j, "from");
+    pm_json_string(j, pm_graph_node_name(r->g, t->src));
+    pm_json_key(j, "to");
+    pm_json_string(j, pm_graph_node_name(r->g, t->dst));
+    pm_json_key(j, "from_core");
+    pm_json_uint(j, t->from_core);
+    pm_json_key(j, "to_core");
+    pm_json_uint(j, t->to_core);
+    pm_json_key(j, "send_start");
+    pm_json_int(j, t->send_start);
+    pm_json_key(j, "wire_start");
+    pm_json_int(j, t->wire_start);
+    pm_json_key(j, "arrival");
+    pm_json_int(j, t->arrival);
+    pm_json_key(j, "ready");
+    pm_json_int(j, t->recv_end);
+    pm_json_key(j, "cost");
+    pm_json_int(j, t->cost);
+    pm_json_object_end(j);
+}
+
+static void sc_json_extras(pm_json *j, const sc_result *r)
+{
+    pm_json_key(j, "utilisation");
+    pm_json_array_begin(j);
+    for (uint32_t c = 0; c < r->s->ncores; c++)
+        pm_json_double(j, r->s->makespan ? (double)r->s->busy[c] / (double)r->s->makespan : 0);
+    pm_json_array_end(j);
+    pm_json_key(j, "busy");
+    pm_json_array_begin(j);
+    for (uint32_t c = 0; c < r->s->ncores; c++)
+        pm_json_int(j, r->s->busy[c]);
+    pm_json_array_end(j);
+    pm_json_key(j, "transfers");
+    pm_json_array_begin(j);
+    for (size_t i = 0; i < r->s->ntransfers; i++)
+        sc_json_transfer(j, r, &r->s->transfers[i]);
+    pm_json_array_end(j);
+    pm_json_key(j, "loop_floor");
+    if (r->nloop > 0)
+        pm_json_rat(j, r->floor);
+    else
+        pm_json_null(j);
+    pm_json_key(j, "loop_floor_nodes");
+    pm_json_array_begin(j);
+    for (uint32_t i = 0; i < r->nloop; i++)
+        pm_json_string(j, pm_graph_node_name(r->g, r->loop[i]));
+    pm_json_array_end(j);
+}
+
+static void sc_json(const sc_result *r, bool from_map)
+{
+    pm_json j;
+    pm_json_init(&j, stdout, 2);
+    pm_json_object_begin(&j);
+    pm_json_key(&j, "procs");
+    pm_json_uint(&j, r->s->ncores);
+    pm_json_key(&j, "makespan");
+    pm_json_int(&j, r->s->makespan);
+    sc_json_map(&j, r);
+    pm_json_key(&j, "source");
+    pm_json_string(&j, from_map ? "map" : "list");
+    sc_json_extras(&j, r);
+    pm_json_key(&j, "caution");
+    pm_json_string(&j, cli_caution);
+    pm_json_object_end(&j);
+    pm_json_finish(&j);
+}
+
+/* The caution in lines of at most 96 columns. */
+static void sc_print_wrapped(const char *s)
+{
+    putchar('\n');
+    while (*s) {
+        int n = (int)strlen(s);
+        if (n > 96)
+            for (n = 96; n > 0 && s[n] != ' '; n--)
+                ;
+        if (n == 0)
+            n = 96;
+        printf("%.*s\n", n, s);
+        s += n;
+        while (*s == ' ')
+            s++;
+    }
+}
+
+/* ---- the command -------------------------------------------------------- */
+
+/* Schedule or time the hand map; the loop-time floor. */
+static int sc_compute(const sc_args *a, sc_result *r)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    pm_sched_opts o = {.loop_blind = a->loop_blind};
+    int rc;
+    if (a->map) {
+        rc = pm_map_read_file(a->map, r->g, &r->m, &d);
+        if (rc == PM_OK)
+            rc = pm_sched_from_map(r->g, r->m, &r->s, &d);
+    } else {
+        rc = pm_sched_list(r->g, &o, &r->s, &r->m, &d);
+    }
+    if (rc == PM_OK)
+        rc = pm_sched_loop_floor(r->g, r->m, &r->floor, &r->loop, &r->nloop, &d);
+    if (rc != PM_OK) {
+        if (!d.msg[0])
+            pm_diag_set(&d, r->file, 0, 0, "%s", pm_strerror(rc));
+        cli_error(&d);
+    }
+    return rc;
+}
+
+static int sc_run(const sc_args *a, sc_result *r)
+{
+    int rc = sc_compute(a, r);
+    if (rc == PM_OK && a->emit_map)
+        rc = sc_outfile(r, a->emit_map, sc_write_map);
+    if (rc == PM_OK && a->svg)
+        rc = sc_outfile(r, a->svg, sc_write_svg);
+    if (rc != PM_OK)
+        return cli_exit_for(rc);
+    if (a->json) {
+        sc_json(r, a->map != NULL);
+        return CLI_EXIT_OK;
+    }
+    rc = sc_text(r);
+    if (rc != PM_OK)
+        return cli_exit_for(rc);
+    return CLI_EXIT_OK;
+}
+
 int pm_cmd_schedule(int argc, char **argv)
 {
-    (void)argc;
-    (void)argv;
-    cli_usage_error("schedule: not available yet");
-    return CLI_EXIT_USAGE;
+    sc_args a = {0};
+    const cli_opt opts[] = {
+        {"-p", "--procs", CLI_U32, &a.procs, &a.procs_set,
+         "identical cores to schedule on (default: the scenario's)", "N"},
+        {"--map", NULL, CLI_STRING, &a.map, NULL, "time this hand map instead of scheduling", "F"},
+        {"--emit-map", NULL, CLI_STRING, &a.emit_map, NULL, "write the map to F", "F"},
+        {"--svg", NULL, CLI_STRING, &a.svg, NULL, "write a Gantt chart (SVG) to F", "F"},
+        {"--json", NULL, CLI_FLAG, &a.json, NULL, "machine-readable output", NULL},
+        {"--loop-blind", NULL, CLI_FLAG, &a.loop_blind, NULL,
+         "do not keep feedback loops on one core (for comparison)", NULL},
+        {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
+    };
+    const cli_cmd cmd = {"schedule", "FILE [-p N] [options]",
+                         "Map one iteration of the graph onto cores: per-core order and times, "
+                         "transfers, Gantt chart.", opts};
+    const char *file = NULL;
+    int st = cli_parse(&cmd, argc, argv, &file);
+    if (st >= 0)
+        return st;
+    sc_result r = {.file = file};
+    pm_graph *g = NULL;
+    st = cli_load(file, a.procs_set, a.procs, &g);
+    if (st != CLI_EXIT_OK)
+        return st;
+    r.g = g;
+    st = sc_run(&a, &r);
+    if (st == CLI_EXIT_OK && !a.json)
+        sc_print_wrapped(cli_caution);
+    pm_schedule_destroy(r.s);
+    pm_map_destroy(r.m);
+    free(r.loop);
+    pm_graph_destroy(g);
+    return st;
 }

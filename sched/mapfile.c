@@ -1,0 +1,288 @@
+/*
+ * mapfile.c - `.map` files (DESIGN §4): read them for a graph, write them.
+ *
+ *   file  := { line }
+ *   line  := [ "core" INT ":" { NAME } ] [ "#" comment ] NEWLINE
+ *
+ * Tokens are separated by spaces or tabs; the colon may touch the number
+ * or the first name.  Cores not listed are empty; a core may be listed once.
+ * Errors point at the offending token (FILE:LINE:COL).  The structure and
+ * its validation live in map.c; scheduling a map lives in schedtime.c.
+ */
+#include "pacemap/map.h"
+
+#include <stdarg.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct mf_state {
+    const pm_graph *g;
+    const char *file;
+    pm_diag *diag;
+    uint32_t line;
+    uint32_t *core_of;   /* per node, PM_NONE until listed */
+    uint32_t *line_of;   /* per core: line that listed it, 0 if none */
+    uint32_t **lists;
+    uint32_t *counts, *caps;
+} mf_state;
+
+/* Cursor over one line. */
+typedef struct mf_cur {
+    const char *s, *end, *line0;
+} mf_cur;
+
+static int mf_error(mf_state *st, const mf_cur *c, const char *at, int rc,
+                    const char *fmt, ...) __attribute__((format(printf, 5, 6)));
+
+static int mf_error(mf_state *st, const mf_cur *c, const char *at, int rc,
+                    const char *fmt, ...)
+{
+    char msg[sizeof st->diag->msg];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    pm_diag_set(st->diag, st->file, st->line, (uint32_t)(at - c->line0) + 1, "%s", msg);
+    return rc;
+}
+
+static void mf_skip_space(mf_cur *c)
+{
+    while (c->s < c->end && (*c->s == ' ' || *c->s == '\t' || *c->s == '\r'))
+        c->s++;
+}
+
+static bool mf_at_end(mf_cur *c)
+{
+    mf_skip_space(c);
+    return c->s >= c->end || *c->s == '#';
+}
+
+/* Length of the token at the cursor: characters other than blanks, ':', '#'. */
+static int mf_token(const mf_cur *c)
+{
+    int n = 0;
+    while (c->s + n < c->end && !strchr(" \t\r:#", c->s[n]) && n < 4096)
+        n++;
+    return n;
+}
+
+/* "core" INT ":" -> *core */
+static int mf_header(mf_state *st, mf_cur *c, uint32_t *core)
+{
+    int n = mf_token(c);
+    if (n != 4 || memcmp(c->s, "core", 4) != 0)
+        return mf_error(st, c, c->s, PM_ESYNTAX, "expected 'core N:' but found '%.*s'",
+                        n ? (n > 40 ? 40 : n) : 1, c->s);
+    c->s += n;
+    mf_skip_space(c);
+    const char *num = c->s;
+    n = mf_token(c);
+    uint64_t v = 0;
+    bool ok = n > 0 && n < 11;
+    for (int i = 0; ok && i < n; i++) {
+        ok = num[i] >= '0' && num[i] <= '9';
+        v = v * 10 + (uint64_t)(num[i] - '0');
+    }
+    if (!ok)
+        return mf_error(st, c, num, PM_ESYNTAX, "expected a core number after 'core'");
+    if (v >= st->g->platform.ncores)
+        return mf_error(st, c, num, PM_EMAP, "core %llu does not exist (the platform has %u cores)",
+                        (unsigned long long)v, st->g->platform.ncores);
+    if (st->line_of[v])
+        return mf_error(st, c, num, PM_EMAP, "core %u is listed twice (first on line %u)",
+                        (uint32_t)v, st->line_of[v]);
+    st->line_of[v] = st->line;
+    c->s += n;
+    mf_skip_space(c);
+    if (c->s >= c->end || *c->s != ':')
+        return mf_error(st, c, c->s, PM_ESYNTAX, "expected ':' after 'core %u'", (uint32_t)v);
+    c->s++;
+    *core = (uint32_t)v;
+    return PM_OK;
+}
+
+/* Whether core c may run v; the message says why not. */
+static int mf_node_fits(mf_state *st, const mf_cur *c, const char *at, uint32_t v,
+                        uint32_t core)
+{
+    const pm_graph *g = st->g;
+    const pm_node *n = &g->nodes[v];
+    const char *name = pm_graph_node_name(g, v);
+    uint32_t cls = g->platform.core_class[core];
+    if (n->pin_core != PM_NONE && n->pin_core != core)
+        return mf_error(st, c, at, PM_EMAP, "node '%s' is pinned to core %u, not core %u",
+                        name, n->pin_core, core);
+    if (n->pin_class != PM_NONE && n->pin_class != cls)
+        return mf_error(st, c, at, PM_EMAP, "node '%s' is pinned to class %s; core %u is %s",
+                        name, g->platform.class_names[n->pin_class], core,
+                        g->platform.class_names[cls]);
+    if (pm_graph_cycles_on(g, v, cls) < 0)
+        return mf_error(st, c, at, PM_EMAP, "node '%s' has no cycles for class %s (core %u)",
+                        name, g->platform.class_names[cls], core);
+    return PM_OK;
+}
+
+static int mf_append(mf_state *st, uint32_t core, uint32_t v)
+{
+    if (st->counts[core] == st->caps[core]) {
+        uint32_t cap = st->caps[core] ? 2 * st->caps[core] : 8;
+        uint32_t *p = realloc(st->lists[core], (size_t)cap * sizeof *p);
+        if (!p)
+            return PM_ENOMEM;
+        st->lists[core] = p;
+        st->caps[core] = cap;
+    }
+    st->lists[core][st->counts[core]++] = v;
+    st->core_of[v] = core;
+    return PM_OK;
+}
+
+/* The names after "core N:". */
+static int mf_names(mf_state *st, mf_cur *c, uint32_t core)
+{
+    while (!mf_at_end(c)) {
+        const char *at = c->s;
+        int n = mf_token(c);
+        if (n == 0)
+            return mf_error(st, c, at, PM_ESYNTAX, "expected a node name, found '%c'", *at);
+        uint32_t v = pm_graph_find(st->g, at, (size_t)n);
+        if (v == PM_NONE)
+            return mf_error(st, c, at, PM_ENAME, "unknown node '%.*s'", n > 80 ? 80 : n, at);
+        if (st->core_of[v] != PM_NONE)
+            return mf_error(st, c, at, PM_EMAP, "node '%.*s' appears twice (already on core %u)",
+                            n, at, st->core_of[v]);
+        int rc = mf_node_fits(st, c, at, v, core);
+        if (rc == PM_OK)
+            rc = mf_append(st, core, v);
+        if (rc != PM_OK)
+            return rc;
+        c->s += n;
+    }
+    return PM_OK;
+}
+
+static int mf_line(mf_state *st, const char *s, const char *end)
+{
+    mf_cur c = {s, end, s};
+    if (mf_at_end(&c))
+        return PM_OK;
+    uint32_t core = 0;
+    int rc = mf_header(st, &c, &core);
+    return rc == PM_OK ? mf_names(st, &c, core) : rc;
+}
+
+static int mf_parse(mf_state *st, const char *text, size_t len)
+{
+    const char *p = text, *end = text + len;
+    int rc = PM_OK;
+    while (rc == PM_OK && p < end) {
+        const char *nl = memchr(p, '\n', (size_t)(end - p));
+        const char *le = nl ? nl : end;
+        st->line++;
+        if (memchr(p, '\0', (size_t)(le - p))) {
+            mf_cur c = {p, le, p};
+            return mf_error(st, &c, p, PM_ESYNTAX, "the map contains a NUL byte");
+        }
+        rc = mf_line(st, p, le);
+        p = nl ? nl + 1 : end;
+    }
+    for (uint32_t v = 0; rc == PM_OK && v < st->g->nnodes; v++) {
+        if (st->core_of[v] == PM_NONE) {
+            pm_diag_set(st->diag, st->file, st->line ? st->line : 1, 1,
+                        "node '%s' is missing from the map (every node must appear once)",
+                        pm_graph_node_name(st->g, v));
+            rc = PM_EMAP;
+        }
+    }
+    return rc;
+}
+
+static void mf_free(mf_state *st, uint32_t ncores)
+{
+    for (uint32_t c = 0; st->lists && c < ncores; c++)
+        free(st->lists[c]);
+    free(st->lists);
+    free(st->counts);
+    free(st->caps);
+    free(st->core_of);
+    free(st->line_of);
+}
+
+int pm_map_read_string(const char *text, size_t len, const char *name,
+                       const pm_graph *g, pm_map **out, pm_diag *diag)
+{
+    *out = NULL;
+    uint32_t P = g->platform.ncores;
+    mf_state st = {.g = g, .file = name ? name : "", .diag = diag};
+    st.core_of = malloc(((size_t)g->nnodes + 1) * sizeof *st.core_of);
+    st.line_of = calloc((size_t)P + 1, sizeof *st.line_of);
+    st.lists = calloc((size_t)P + 1, sizeof *st.lists);
+    st.counts = calloc((size_t)P + 1, sizeof *st.counts);
+    st.caps = calloc((size_t)P + 1, sizeof *st.caps);
+    int rc = PM_ENOMEM;
+    if (st.core_of && st.line_of && st.lists && st.counts && st.caps) {
+        for (uint32_t v = 0; v < g->nnodes; v++)
+            st.core_of[v] = PM_NONE;
+        rc = mf_parse(&st, text, len);
+    }
+    if (rc == PM_OK)
+        rc = pm_map_create(P, g->nnodes, (const uint32_t *const *)st.lists, st.counts, out);
+    if (rc == PM_OK && (rc = pm_map_check(*out, g, diag)) != PM_OK) {
+        pm_map_destroy(*out);
+        *out = NULL;
+    }
+    mf_free(&st, P);
+    return rc;
+}
+
+#define MF_MAX_BYTES ((size_t)1 << 30)
+
+int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag *diag)
+{
+    *out = NULL;
+    FILE *f = fopen(path, "rb");
+    if (!f) {
+        pm_diag_set(diag, path, 0, 0, "cannot open the map file");
+        return PM_EIO;
+    }
+    size_t cap = 4096, len = 0;
+    char *buf = malloc(cap);
+    int rc = buf ? PM_OK : PM_ENOMEM;
+    while (rc == PM_OK) {
+        if (len == cap) {
+            char *nb = cap < MF_MAX_BYTES ? realloc(buf, cap * 2) : NULL;
+            if (!nb) {
+                rc = cap < MF_MAX_BYTES ? PM_ENOMEM : PM_ELIMIT;
+                break;
+            }
+            buf = nb;
+            cap *= 2;
+        }
+        size_t got = fread(buf + len, 1, cap - len, f);
+        len += got;
+        if (got == 0)
+            break;
+    }
+    if (rc == PM_OK && ferror(f))
+        rc = PM_EIO;
+    fclose(f);
+    if (rc == PM_OK)
+        rc = pm_map_read_string(buf, len, path, g, out, diag);
+    else
+        pm_diag_set(diag, path, 0, 0, "cannot read the map file (%s)", pm_strerror(rc));
+    free(buf);
+    return rc;
+}
+
+int pm_map_write(const pm_map *m, const pm_graph *g, FILE *out)
+{
+    fputs("# core: nodes in execution order\n", out);
+    for (uint32_t c = 0; c < m->ncores; c++) {
+        fprintf(out, "core %u:", c);
+        for (uint32_t i = m->off[c]; i < m->off[c + 1]; i++)
+            fprintf(out, " %s", pm_graph_node_name(g, m->order[i]));
+        fputc('\n', out);
+    }
+    return ferror(out) ? PM_EIO : PM_OK;
+}

@@ -1,0 +1,76 @@
+/*
+ * sched_internal.h - pieces shared by the scheduler's files (listsched.c,
+ * schedtime.c, levels.c, timeline.c, loopfloor.c); not part of the API.
+ *
+ * A timeline is the busy/free picture of one core or of the bus: free from
+ * `tail` onwards, plus at most PM_SCHED_GAPS remembered idle gaps before the
+ * tail (sorted, disjoint).  When a new gap would overflow the array the
+ * oldest gap is forgotten (treated as busy): placement stays O(gaps) and a
+ * forgotten gap only makes a schedule later, never invalid.
+ */
+#ifndef PACEMAP_SCHED_INTERNAL_H
+#define PACEMAP_SCHED_INTERNAL_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "pacemap/graph.h"
+#include "pacemap/sched.h"
+
+typedef struct sched_gap {
+    int64_t a, b; /* free over [a, b) */
+} sched_gap;
+
+typedef struct sched_lane {
+    int64_t tail;
+    uint32_t ngaps;
+    sched_gap gaps[PM_SCHED_GAPS];
+} sched_lane;
+
+/* Earliest s >= r with [s, s + w) free on the lane (w >= 0).  A zero-length
+ * placement never falls strictly inside a busy interval. */
+int64_t sched_lane_fit(const sched_lane *l, int64_t r, int64_t w);
+/* Like sched_lane_fit for a send or receive: zero cycles occupy nothing,
+ * so they happen at r itself. */
+int64_t sched_lane_fit_occ(const sched_lane *l, int64_t r, int64_t w);
+/* Mark [s, s + w) busy; s must come from sched_lane_fit(l, ., w). */
+void sched_lane_reserve(sched_lane *l, int64_t s, int64_t w);
+
+/* a + b saturating at INT64_MAX; sets *overflow when it saturates. */
+int64_t sched_add(int64_t a, int64_t b, bool *overflow);
+
+/* Kahn order of the zero-delay edges into order[n] (ties: smaller id).
+ * PM_EZERODELAY with diag naming a node on a zero-delay loop. */
+int sched_topo(const pm_graph *g, uint32_t *order, pm_diag *diag);
+
+/* Strongly connected components over all edges (iterative Tarjan, no
+ * recursion).  comp[v] in [0, *ncomp); *cyclic (ncomp entries, malloc'd)
+ * says whether a component holds a cycle (two nodes or a self-loop). */
+int sched_scc(const pm_graph *g, uint32_t *comp, uint32_t *ncomp, bool **cyclic);
+
+/* Common input checks: finalized, single rate, zero-delay DAG, every node
+ * runnable on some core, pins in range. */
+int sched_check_graph(const pm_graph *g, pm_diag *diag);
+
+/* Whether core c may run v (pin and class). */
+bool sched_allowed(const pm_graph *g, uint32_t v, uint32_t c);
+
+/* Transfer cost latency + per_word * words of edge e (saturating). */
+int64_t sched_edge_cost(const pm_graph *g, uint32_t e, bool *overflow);
+
+/* A binary min-heap of node ids ordered by a caller's "less" function. */
+typedef bool (*sched_less_fn)(const void *ctx, uint32_t a, uint32_t b);
+typedef struct sched_heap {
+    uint32_t *v;
+    uint32_t n;
+    sched_less_fn less;
+    const void *ctx;
+} sched_heap;
+
+/* Room for cap ids; PM_ENOMEM. */
+int sched_heap_init(sched_heap *h, uint32_t cap, sched_less_fn less, const void *ctx);
+void sched_heap_free(sched_heap *h);
+void sched_heap_push(sched_heap *h, uint32_t id);
+uint32_t sched_heap_pop(sched_heap *h);
+
+#endif
