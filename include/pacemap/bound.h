@@ -51,37 +51,58 @@ typedef struct pm_bound {
     pm_loop *critical;        /* loops attaining the bound, at most max_critical */
     uint32_t ncritical;
     bool critical_truncated;  /* more critical loops exist than listed */
-    pm_part *parts;           /* parts with loops, worst bound first */
+    pm_part *parts;           /* parts with loops, worst bound first (at most
+                               * max_parts of them) */
     uint32_t nparts;
+    uint32_t nparts_total;    /* all parts with loops (>= nparts) */
     int64_t total_cycles;     /* sum of node times */
     uint32_t largest_node;    /* PM_NONE for an empty graph */
     int64_t largest_cycles;
+    uint32_t *loop_pool_;     /* internal: storage of the parts' loops */
 } pm_bound;
 
 typedef struct pm_bound_opts {
     uint32_t max_critical;    /* 0 means PM_BOUND_DEFAULT_MAX_CRITICAL */
+    uint32_t max_parts;       /* 0 means every part */
 } pm_bound_opts;
 
 #define PM_BOUND_DEFAULT_MAX_CRITICAL 16
 
 /*
  * Compute the bound of finalized graph g.  opts may be NULL.
+ * The answer is certified on every call: integer potentials from the final
+ * policy prove, edge by edge, that no cycle of any part exceeds its bound.
+ * Critical loops are the simple cycles of the edges that are tight under
+ * those potentials (each attains the bound, and every loop that attains it
+ * is among them), listed by Johnson's algorithm (SIAM J. Computing 1975),
+ * each starting at its smallest node id.
  * Errors: PM_EZERODELAY when a loop carries no delay (diag names its nodes
- * in order and points at one of its edges); PM_ERANGE when a sum overflows
- * 62 bits; PM_EUNSUPPORTED for multirate graphs; PM_ENOMEM.
- * Complexity: O(iterations * E) time, O(V + E) memory.
+ * in order, "loop without delay: a -> b -> a (...)", and points at the last
+ * written edge of that loop); PM_ERANGE when the sum of node times or of
+ * delays exceeds 62 bits; PM_EUNSUPPORTED for multirate graphs;
+ * PM_EPLATFORM when a node can run on no core class; PM_ENOMEM.  On error
+ * *out is left empty (pm_bound_free() is still safe).
+ * Complexity: O(iterations * E) time (policy iteration; in practice a few
+ * dozen passes), O(V + E) memory: about 50 bytes per node beyond the graph.
  */
 int pm_bound_compute(const pm_graph *g, const pm_bound_opts *opts, pm_bound *out,
                      pm_diag *diag);
 void pm_bound_free(pm_bound *b);
 
-/* Independent cross-check (Karp-based, O(V*E) per part): the same value or
- * has_loop = false.  Same errors as pm_bound_compute.  For tests. */
+/* Independent cross-check for tests: a Stern-Brocot search over fractions
+ * whose oracle is Karp's theorem (Discrete Math. 1978) applied to the
+ * weights q*t(u) - p*d(e): the sign of their maximum cycle mean is the
+ * sign of (bound - p/q).  The same value as pm_bound_compute, or
+ * *has_loop = false.  Same errors, plus PM_ERANGE when the search's
+ * fractions outgrow 128-bit arithmetic (only for huge values).
+ * O(V * E) per oracle call, O(log^2) calls: small graphs only. */
 int pm_bound_karp(const pm_graph *g, bool *has_loop, pm_rat *bound, pm_diag *diag);
 
-/* Exact check that no cycle of g has ratio above `lambda` (integer
- * potentials by longest paths scaled by lambda's denominator).  *ok is
- * false when some cycle exceeds it. */
+/* Exact check, independent of the policy iteration, that no cycle of g has
+ * ratio above `lambda`: longest paths (Bellman-Ford) for the integer
+ * weights den*t(u) - num*d(e) settle iff no cycle has positive weight.
+ * *ok is false when some cycle exceeds lambda.  PM_ERANGE when num or den
+ * exceed 2^40.  O(V * E); for tests. */
 int pm_bound_certify(const pm_graph *g, pm_rat lambda, bool *ok);
 
 /* What sets the lower bound for P cores. */

@@ -1,0 +1,422 @@
+/*
+ * bound.c - the iteration bound of a single-rate graph: checks, strongly
+ * connected parts, Howard's policy iteration per part (bound_howard.c), the
+ * certificate, the parts worst first and the critical loops
+ * (bound_loops.c).  Also the stand-alone certificate check used by tests.
+ *
+ * What it does not do: expand multirate graphs (sdf.c does), compute the
+ * floors for P cores (floors.c), or print anything.
+ */
+#include "bound_internal.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+static int bound_multirate_error(const pm_graph *g, pm_diag *diag)
+{
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        if (ed->produce != 1 || ed->consume != 1) {
+            pm_diag_set(diag, g->file, ed->line, ed->col,
+                        "multirate edge %s -> %s (produce=%lld consume=%lld): the bound "
+                        "needs the single-rate expansion of the graph",
+                        pm_graph_node_name(g, ed->src), pm_graph_node_name(g, ed->dst),
+                        (long long)ed->produce, (long long)ed->consume);
+            return PM_EUNSUPPORTED;
+        }
+    }
+    return PM_OK;
+}
+
+static int bound_sum_delays(const pm_graph *g, pm_diag *diag)
+{
+    uint64_t sum = 0;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        if (g->edges[e].delay < 0)
+            return PM_EINVAL;
+        sum += (uint64_t)g->edges[e].delay;
+        if (sum > (uint64_t)PM_MAX_VALUE) {
+            pm_diag_set(diag, g->file, g->edges[e].line, g->edges[e].col,
+                        "the delays of the graph add up to more than 2^62-1");
+            return PM_ERANGE;
+        }
+    }
+    return PM_OK;
+}
+
+int bound_node_times(const pm_graph *g, int64_t **t_out, int64_t *total,
+                     uint32_t *largest, pm_diag *diag)
+{
+    *t_out = NULL;
+    int rc = bound_multirate_error(g, diag);
+    if (rc == PM_OK)
+        rc = bound_sum_delays(g, diag);
+    if (rc)
+        return rc;
+    int64_t *t = malloc(((size_t)g->nnodes + 1) * sizeof *t);
+    if (!t)
+        return PM_ENOMEM;
+    uint64_t sum = 0;
+    uint32_t big = PM_NONE;
+    for (uint32_t v = 0; v < g->nnodes && rc == PM_OK; v++) {
+        const pm_node *n = &g->nodes[v];
+        t[v] = pm_graph_min_cycles(g, v);
+        if (t[v] < 0) {
+            pm_diag_set(diag, g->file, n->line, n->col,
+                        "node '%s' can run on no core class", pm_graph_node_name(g, v));
+            rc = PM_EPLATFORM;
+        } else if ((sum += (uint64_t)t[v]) > (uint64_t)PM_MAX_VALUE) {
+            pm_diag_set(diag, g->file, n->line, n->col,
+                        "the node cycles of the graph add up to more than 2^62-1");
+            rc = PM_ERANGE;
+        } else if (big == PM_NONE || t[v] > t[big]) {
+            big = v;
+        }
+    }
+    if (rc) {
+        free(t);
+        return rc;
+    }
+    if (total)
+        *total = (int64_t)sum;
+    if (largest)
+        *largest = big;
+    *t_out = t;
+    return PM_OK;
+}
+
+/* ---- loops without delay ------------------------------------------------ */
+
+/* Kahn's topological sort of the zero-delay edges; afterwards indeg[v] > 0
+ * exactly for the nodes left on or behind a loop without delay.  Returns
+ * how many nodes were sorted. */
+static uint32_t zero_kahn(const pm_graph *g, uint32_t *indeg, uint32_t *queue)
+{
+    uint32_t head = 0, tail = 0;
+    memset(indeg, 0, (size_t)g->nnodes * sizeof *indeg);
+    for (uint32_t e = 0; e < g->nedges; e++)
+        if (g->edges[e].delay == 0)
+            indeg[g->edges[e].dst]++;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        if (indeg[v] == 0)
+            queue[tail++] = v;
+    while (head < tail) {
+        uint32_t u = queue[head++];
+        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
+            const pm_edge *ed = &g->edges[g->out_edge[k]];
+            if (ed->delay == 0 && --indeg[ed->dst] == 0)
+                queue[tail++] = ed->dst;
+        }
+    }
+    return tail;
+}
+
+/* A node on a loop without delay: walk zero-delay in-edges backwards among
+ * the unsorted nodes until a node repeats.  mark[] is zeroed scratch. */
+static uint32_t zero_find_loop_node(const pm_graph *g, const uint32_t *indeg, uint8_t *mark)
+{
+    uint32_t v = 0;
+    while (indeg[v] == 0)
+        v++;
+    while (!mark[v]) {
+        mark[v] = 1;
+        for (uint32_t k = g->in_off[v]; k < g->in_off[v + 1]; k++) {
+            const pm_edge *ed = &g->edges[g->in_edge[k]];
+            if (ed->delay == 0 && indeg[ed->src] > 0) {
+                v = ed->src;
+                break;
+            }
+        }
+    }
+    return v;
+}
+
+/* Shortest zero-delay loop through s (breadth first); its edges into
+ * loop[] in order from s.  Returns the length. */
+static uint32_t zero_shortest_loop(const pm_graph *g, uint32_t s, uint32_t *parent,
+                                   uint32_t *queue, uint32_t *loop)
+{
+    uint32_t head = 0, tail = 0, last = PM_NONE;
+    memset(parent, 0xff, (size_t)g->nnodes * sizeof *parent);
+    queue[tail++] = s;
+    while (head < tail && last == PM_NONE) {
+        uint32_t u = queue[head++];
+        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1] && last == PM_NONE; k++) {
+            uint32_t e = g->out_edge[k], w = g->edges[e].dst;
+            if (g->edges[e].delay != 0)
+                continue;
+            if (w == s)
+                last = e;
+            else if (parent[w] == PM_NONE) {
+                parent[w] = e;
+                queue[tail++] = w;
+            }
+        }
+    }
+    uint32_t len = 0;
+    for (uint32_t e = last;; e = parent[g->edges[e].src]) {
+        loop[len++] = e;
+        if (g->edges[e].src == s)
+            break;
+    }
+    for (uint32_t i = 0; i < len / 2; i++) {
+        uint32_t tmp = loop[i];
+        loop[i] = loop[len - 1 - i];
+        loop[len - 1 - i] = tmp;
+    }
+    return len;
+}
+
+/* "loop without delay: a -> b -> a (...)" from the smallest node on. */
+static void zero_report(const pm_graph *g, const uint32_t *loop, uint32_t len, pm_diag *diag)
+{
+    uint32_t first = 0, last = 0;
+    for (uint32_t i = 1; i < len; i++) {
+        if (g->edges[loop[i]].src < g->edges[loop[first]].src)
+            first = i;
+        if (loop[i] > loop[last])
+            last = i;
+    }
+    char names[400];
+    size_t at = 0;
+    bool elided = false;
+    for (uint32_t i = 0; i <= len; i++) {
+        const char *name = pm_graph_node_name(g, g->edges[loop[(first + i) % len]].src);
+        if (i < len && (elided || at + strlen(name) + 32 >= sizeof names)) {
+            elided = true; /* too long: leave out the middle */
+            continue;
+        }
+        int n = snprintf(names + at, sizeof names - at, "%s%s%s", i ? " -> " : "",
+                         elided ? "... -> " : "", name);
+        if (n > 0)
+            at += (size_t)n < sizeof names - at ? (size_t)n : sizeof names - at - 1;
+    }
+    const pm_edge *ed = &g->edges[loop[last]];
+    pm_diag_set(diag, g->file, ed->line, ed->col,
+                "loop without delay: %s (add a delay on one of its edges)", names);
+}
+
+int bound_check_zero_delay(const pm_graph *g, pm_diag *diag)
+{
+    size_t n = (size_t)g->nnodes + 1;
+    uint32_t *indeg = malloc(n * sizeof *indeg), *queue = malloc(n * sizeof *queue);
+    int rc = indeg && queue ? PM_OK : PM_ENOMEM;
+    if (rc == PM_OK && zero_kahn(g, indeg, queue) < g->nnodes) {
+        uint8_t *mark = calloc(n, 1);
+        uint32_t *parent = malloc(n * sizeof *parent), *loop = malloc(n * sizeof *loop);
+        rc = mark && parent && loop ? PM_EZERODELAY : PM_ENOMEM;
+        if (rc == PM_EZERODELAY) {
+            uint32_t s = zero_find_loop_node(g, indeg, mark);
+            uint32_t len = zero_shortest_loop(g, s, parent, queue, loop);
+            zero_report(g, loop, len, diag);
+        }
+        free(mark);
+        free(parent);
+        free(loop);
+    }
+    free(indeg);
+    free(queue);
+    return rc;
+}
+
+/* ---- parts and the answer ----------------------------------------------- */
+
+typedef struct part_key {
+    int64_t p, q;
+    uint32_t first, k;
+} part_key;
+
+static int part_key_cmp(const void *a, const void *b)
+{
+    const part_key *x = a, *y = b;
+    bnd_i128 l = (bnd_i128)x->p * y->q, r = (bnd_i128)y->p * x->q;
+    if (l != r)
+        return l > r ? -1 : 1; /* worst (largest) first */
+    return (x->first > y->first) - (x->first < y->first);
+}
+
+/* The parts, worst first, with one worst loop each (policy cycle). */
+static int bound_fill_parts(const howard *h, const uint32_t *first, const uint32_t *size,
+                            uint32_t max, pm_bound *out)
+{
+    uint32_t np = h->ncycles;
+    part_key *keys = malloc(((size_t)np + 1) * sizeof *keys);
+    if (!keys)
+        return PM_ENOMEM;
+    for (uint32_t k = 0; k < np; k++)
+        keys[k] = (part_key){ h->cycles[k].p, h->cycles[k].q, first[k], k };
+    qsort(keys, np, sizeof *keys, part_key_cmp);
+    out->nparts_total = np;
+    out->nparts = max && max < np ? max : np;
+    size_t total = 0;
+    for (uint32_t i = 0; i < out->nparts; i++) {
+        uint32_t r = h->cycles[keys[i].k].root, v = r;
+        do {
+            total += 2;
+            v = h->g->edges[h->pol[v]].dst;
+        } while (v != r);
+    }
+    out->parts = calloc((size_t)out->nparts + 1, sizeof *out->parts);
+    out->loop_pool_ = malloc((total + 1) * sizeof *out->loop_pool_);
+    if (!out->parts || !out->loop_pool_) {
+        free(keys);
+        return PM_ENOMEM;
+    }
+    for (uint32_t i = 0, at = 0; i < out->nparts; i++) {
+        pm_part *pt = &out->parts[i];
+        const howard_cycle *c = &h->cycles[keys[i].k];
+        pt->nnodes = size[keys[i].k];
+        pt->first_node = keys[i].first;
+        pt->bound = (pm_rat){ c->p, c->q };
+        howard_policy_loop(h, c->root, out->loop_pool_ + at, &pt->worst);
+        bound_loop_sums(h->g, h->t, &pt->worst);
+        at += 2 * pt->worst.len;
+    }
+    free(keys);
+    return PM_OK;
+}
+
+/* Howard on every part with a loop; first[]/size[] per part. */
+static int bound_solve_parts(howard *h, const pm_scc *s, uint32_t **first, uint32_t **size)
+{
+    uint32_t np = 0;
+    for (uint32_t c = 0; c < s->ncomp; c++)
+        np += pm_scc_has_cycle(h->g, s, c, NULL, NULL);
+    *first = malloc(((size_t)np + 1) * sizeof **first);
+    *size = malloc(((size_t)np + 1) * sizeof **size);
+    if (!*first || !*size)
+        return PM_ENOMEM;
+    for (uint32_t c = 0; c < s->ncomp; c++) {
+        if (!pm_scc_has_cycle(h->g, s, c, NULL, NULL))
+            continue;
+        uint32_t len = s->start[c + 1] - s->start[c];
+        int rc = howard_solve_part(h, s->order + s->start[c], len, c);
+        if (rc)
+            return rc;
+        (*first)[h->ncycles - 1] = s->order[s->start[c]];
+        (*size)[h->ncycles - 1] = len;
+    }
+    return PM_OK;
+}
+
+static int bound_solve(const pm_graph *g, const int64_t *t, const pm_bound_opts *opts,
+                       pm_bound *out)
+{
+    pm_scc s;
+    int rc = pm_scc_compute(g, NULL, NULL, &s);
+    if (rc)
+        return rc;
+    howard h;
+    uint32_t *first = NULL, *size = NULL;
+    rc = howard_init(&h, g, t, s.comp);
+    if (rc == PM_OK)
+        rc = bound_solve_parts(&h, &s, &first, &size);
+    if (rc == PM_OK)
+        rc = howard_certify(&h);
+    /* only the component of each node is needed from here on */
+    free(s.order);
+    free(s.start);
+    s.order = s.start = NULL;
+    if (rc == PM_OK)
+        rc = bound_fill_parts(&h, first, size, opts ? opts->max_parts : 0, out);
+    free(first);
+    free(size);
+    if (rc == PM_OK && out->nparts_total > 0) {
+        out->has_loop = true;
+        out->iteration_bound = out->parts[0].bound;
+        uint32_t max = opts && opts->max_critical ? opts->max_critical
+                                                  : PM_BOUND_DEFAULT_MAX_CRITICAL;
+        rc = bound_critical_loops(&h, out->iteration_bound.num, out->iteration_bound.den,
+                                  max, out);
+    }
+    howard_free(&h);
+    pm_scc_free(&s);
+    return rc;
+}
+
+int pm_bound_compute(const pm_graph *g, const pm_bound_opts *opts, pm_bound *out,
+                     pm_diag *diag)
+{
+    if (!out)
+        return PM_EINVAL;
+    memset(out, 0, sizeof *out);
+    out->largest_node = PM_NONE;
+    if (!g || !g->finalized)
+        return PM_EINVAL;
+    int64_t *t;
+    int rc = bound_node_times(g, &t, &out->total_cycles, &out->largest_node, diag);
+    if (rc)
+        return rc;
+    out->largest_cycles = out->largest_node != PM_NONE ? t[out->largest_node] : 0;
+    rc = bound_check_zero_delay(g, diag);
+    if (rc == PM_OK)
+        rc = bound_solve(g, t, opts, out);
+    if (rc == PM_EINVAL)
+        pm_diag_set(diag, g->file, 0, 0, "internal error: the bound's certificate failed");
+    free(t);
+    if (rc)
+        pm_bound_free(out);
+    return rc;
+}
+
+void pm_bound_free(pm_bound *b)
+{
+    if (!b)
+        return;
+    for (uint32_t i = 0; i < b->ncritical; i++)
+        free(b->critical[i].nodes);
+    free(b->critical);
+    free(b->parts);
+    free(b->loop_pool_);
+    memset(b, 0, sizeof *b);
+    b->largest_node = PM_NONE;
+}
+
+/* ---- stand-alone certificate (Bellman-Ford), for tests ------------------ */
+
+/* Keeps V * (den * t + num * d) inside 128 bits. */
+#define CERTIFY_MAX (INT64_C(1) << 40)
+
+/* One relaxation pass for longest paths; true when some value rose. */
+static bool certify_pass(const pm_graph *g, const int64_t *t, pm_rat l, bnd_i128 *dist)
+{
+    bool changed = false;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        bnd_i128 w = (bnd_i128)l.den * t[ed->src] - (bnd_i128)l.num * ed->delay;
+        if (dist[ed->src] + w > dist[ed->dst]) {
+            dist[ed->dst] = dist[ed->src] + w;
+            changed = true;
+        }
+    }
+    return changed;
+}
+
+int pm_bound_certify(const pm_graph *g, pm_rat lambda, bool *ok)
+{
+    if (!g || !ok || !g->finalized || lambda.den <= 0)
+        return PM_EINVAL;
+    *ok = false;
+    if (lambda.den > CERTIFY_MAX || lambda.num > CERTIFY_MAX)
+        return PM_ERANGE;
+    int64_t *t;
+    int rc = bound_node_times(g, &t, NULL, NULL, NULL);
+    if (rc)
+        return rc;
+    if (lambda.num < 0) /* every loop exceeds a negative ratio: use 0 - 1/2 */
+        lambda = (pm_rat){ -1, 2 };
+    bnd_i128 *dist = calloc((size_t)g->nnodes + 1, sizeof *dist);
+    if (!dist) {
+        free(t);
+        return PM_ENOMEM;
+    }
+    /* without a positive cycle, longest paths settle within V passes */
+    bool changed = true;
+    for (uint32_t pass = 0; pass <= g->nnodes && changed; pass++)
+        changed = certify_pass(g, t, lambda, dist);
+    *ok = !changed;
+    free(dist);
+    free(t);
+    return PM_OK;
+}
