@@ -1,12 +1,561 @@
 /*
- * cmd_check.c - the 'check' command (not written yet: exits with a usage error).
+ * cmd_check.c - the 'check' command: read and validate a scenario, then
+ * summarise it (size, loops, work, platform, budget, repetition vector).
+ *
+ * Besides what the reader checks, 'check' refuses a graph with a loop that
+ * carries no delay: such a graph cannot run at all (every node of the loop
+ * waits for another one in the same iteration), so it is reported as an
+ * input error naming the loop's nodes in order, as 'bound' does.  Loops are
+ * counted as strongly connected parts that contain a cycle (a part of two
+ * or more nodes, or one node with an edge to itself), found with Tarjan's
+ * algorithm (Tarjan, SIAM J. Computing 1972) written iteratively so that
+ * graphs with millions of nodes do not exhaust the stack.
+ *
+ * It does not compute the iteration bound ('bound' does) and does not
+ * schedule anything.
  */
 #include "cli.h"
 
+#include "pacemap/json.h"
+#include "pacemap/rational.h"
+#include "pacemap/sdf.h"
+
+#include <inttypes.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Strongly connected parts of the graph, restricted to some edges. */
+typedef struct check_scc {
+    uint32_t *comp;     /* part of each node */
+    uint32_t ncomp;
+    uint32_t *size;     /* nodes in each part */
+    bool *cyclic;       /* the part contains a cycle */
+} check_scc;
+
+/* Tarjan's working state: an explicit call stack instead of recursion. */
+typedef struct check_tarjan {
+    const pm_graph *g;
+    bool zero_only;     /* follow only edges without delay */
+    uint32_t *index, *low, *stack, *call, *next_edge;
+    bool *on_stack;
+    uint32_t counter, sp, cp;
+} check_tarjan;
+
+static bool check_follow(const check_tarjan *t, uint32_t e)
+{
+    return !t->zero_only || t->g->edges[e].delay == 0;
+}
+
+/* Pop the part whose root is v off the Tarjan stack. */
+static void check_pop_part(check_tarjan *t, uint32_t v, check_scc *s)
+{
+    uint32_t w, id = s->ncomp++;
+    s->size[id] = 0;
+    s->cyclic[id] = false;
+    do {
+        w = t->stack[--t->sp];
+        t->on_stack[w] = false;
+        s->comp[w] = id;
+        s->size[id]++;
+    } while (w != v);
+    if (s->size[id] > 1)
+        s->cyclic[id] = true;
+}
+
+static void check_visit(check_tarjan *t, uint32_t v)
+{
+    t->index[v] = t->low[v] = t->counter++;
+    t->stack[t->sp++] = v;
+    t->on_stack[v] = true;
+    t->next_edge[v] = t->g->out_off[v];
+    t->call[t->cp++] = v;
+}
+
+/* One depth-first search from root r. */
+static void check_dfs(check_tarjan *t, uint32_t r, check_scc *s)
+{
+    const pm_graph *g = t->g;
+    check_visit(t, r);
+    while (t->cp > 0) {
+        uint32_t v = t->call[t->cp - 1];
+        if (t->next_edge[v] < g->out_off[v + 1]) {
+            uint32_t e = g->out_edge[t->next_edge[v]++];
+            uint32_t w = g->edges[e].dst;
+            if (!check_follow(t, e))
+                continue;
+            if (t->index[w] == PM_NONE)
+                check_visit(t, w);
+            else if (t->on_stack[w] && t->index[w] < t->low[v])
+                t->low[v] = t->index[w];
+            continue;
+        }
+        t->cp--;
+        if (t->low[v] == t->index[v])
+            check_pop_part(t, v, s);
+        if (t->cp > 0) {
+            uint32_t u = t->call[t->cp - 1];
+            if (t->low[v] < t->low[u])
+                t->low[u] = t->low[v];
+        }
+    }
+}
+
+/* Self-loops make a one-node part cyclic. */
+static void check_mark_self_loops(const pm_graph *g, bool zero_only, check_scc *s)
+{
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        if (ed->src == ed->dst && (!zero_only || ed->delay == 0))
+            s->cyclic[s->comp[ed->src]] = true;
+    }
+}
+
+static void check_scc_free(check_scc *s)
+{
+    free(s->comp);
+    free(s->size);
+    free(s->cyclic);
+    memset(s, 0, sizeof *s);
+}
+
+/* The strongly connected parts of g (all edges, or only zero-delay ones).
+ * PM_ENOMEM.  O(V + E). */
+static int check_scc_compute(const pm_graph *g, bool zero_only, check_scc *s)
+{
+    size_t n = (size_t)g->nnodes + 1;
+    check_tarjan t = { .g = g, .zero_only = zero_only };
+    memset(s, 0, sizeof *s);
+    s->comp = malloc(n * sizeof *s->comp);
+    s->size = malloc(n * sizeof *s->size);
+    s->cyclic = malloc(n * sizeof *s->cyclic);
+    t.index = malloc(n * sizeof *t.index);
+    t.low = malloc(n * sizeof *t.low);
+    t.stack = malloc(n * sizeof *t.stack);
+    t.call = malloc(n * sizeof *t.call);
+    t.next_edge = malloc(n * sizeof *t.next_edge);
+    t.on_stack = calloc(n, sizeof *t.on_stack);
+    int rc = PM_ENOMEM;
+    if (s->comp && s->size && s->cyclic && t.index && t.low && t.stack && t.call &&
+        t.next_edge && t.on_stack) {
+        memset(t.index, 0xff, n * sizeof *t.index);
+        for (uint32_t v = 0; v < g->nnodes; v++)
+            if (t.index[v] == PM_NONE)
+                check_dfs(&t, v, s);
+        check_mark_self_loops(g, zero_only, s);
+        rc = PM_OK;
+    }
+    free(t.index);
+    free(t.low);
+    free(t.stack);
+    free(t.call);
+    free(t.next_edge);
+    free(t.on_stack);
+    if (rc != PM_OK)
+        check_scc_free(s);
+    return rc;
+}
+
+/* A zero-delay out-edge of v that stays inside v's part (one exists when
+ * the part is cyclic). */
+static uint32_t check_inner_edge(const pm_graph *g, const check_scc *s, uint32_t v)
+{
+    for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
+        uint32_t e = g->out_edge[i];
+        if (g->edges[e].delay == 0 && s->comp[g->edges[e].dst] == s->comp[v])
+            return e;
+    }
+    return PM_NONE;
+}
+
+/* Append "a -> b -> ... -> a" for the cycle through the edges cyc[0..len)
+ * to buf, shortened with "..." if it does not fit. */
+static void check_loop_text(const pm_graph *g, const uint32_t *cyc, uint32_t len,
+                            char *buf, size_t cap)
+{
+    size_t used = 0;
+    buf[0] = '\0';
+    for (uint32_t i = 0; i <= len; i++) {
+        uint32_t v = i < len ? g->edges[cyc[i]].src : g->edges[cyc[0]].src;
+        const char *name = pm_graph_node_name(g, v);
+        if (used + strlen(name) + 8 >= cap) {
+            snprintf(buf + used, cap - used, "...");
+            return;
+        }
+        used += (size_t)snprintf(buf + used, cap - used, "%s%s", i ? " -> " : "", name);
+    }
+}
+
+/* Report a cycle of zero-delay edges inside cyclic part `part`: walk inner
+ * edges from its smallest node until a node repeats. */
+static int check_report_zero_loop(const pm_graph *g, const check_scc *s, uint32_t part)
+{
+    uint32_t start = 0;
+    while (s->comp[start] != part)
+        start++;
+    uint32_t *pos = malloc(((size_t)g->nnodes + 1) * sizeof *pos);
+    uint32_t *walk = malloc(((size_t)s->size[part] + 1) * sizeof *walk);
+    if (!pos || !walk) {
+        free(pos);
+        free(walk);
+        return PM_ENOMEM;
+    }
+    memset(pos, 0xff, ((size_t)g->nnodes + 1) * sizeof *pos);
+    uint32_t len = 0, v = start;
+    while (pos[v] == PM_NONE) {
+        pos[v] = len;
+        walk[len] = check_inner_edge(g, s, v);
+        v = g->edges[walk[len++]].dst;
+    }
+    char text[400];
+    check_loop_text(g, walk + pos[v], len - pos[v], text, sizeof text);
+    const pm_edge *e = &g->edges[walk[pos[v]]];
+    pm_diag d;
+    pm_diag_set(&d, g->file, e->line, e->col,
+                "loop without delay: %s (it can never run; give one of its edges delay=1 "
+                "or more)", text);
+    cli_error(&d);
+    free(pos);
+    free(walk);
+    return PM_EZERODELAY;
+}
+
+/* PM_EZERODELAY (reported) when some loop has no delay at all. */
+static int check_zero_delay_loops(const pm_graph *g)
+{
+    check_scc s;
+    int rc = check_scc_compute(g, true, &s);
+    for (uint32_t c = 0; rc == PM_OK && c < s.ncomp; c++)
+        if (s.cyclic[c])
+            rc = check_report_zero_loop(g, &s, c);
+    check_scc_free(&s);
+    return rc;
+}
+
+/* What the summary reports, gathered before printing. */
+typedef struct check_summary {
+    uint32_t loops;          /* cyclic strongly connected parts */
+    uint32_t largest_loop;   /* nodes in the largest of them */
+    uint32_t delay_edges;    /* edges with at least one delay */
+    uint32_t pinned;
+    int64_t total_cycles;    /* per iteration: sum of firings x fastest time */
+    uint64_t *rep;           /* repetition vector (owned) */
+    bool single_rate;
+    bool has_budget;
+    pm_rat budget;           /* clock / rate, cycles per iteration */
+} check_summary;
+
+static int check_count_loops(const pm_graph *g, check_summary *sum)
+{
+    check_scc s;
+    int rc = check_scc_compute(g, false, &s);
+    if (rc != PM_OK)
+        return rc;
+    for (uint32_t c = 0; c < s.ncomp; c++) {
+        if (!s.cyclic[c])
+            continue;
+        sum->loops++;
+        if (s.size[c] > sum->largest_loop)
+            sum->largest_loop = s.size[c];
+    }
+    check_scc_free(&s);
+    return PM_OK;
+}
+
+/* Total work per iteration, with overflow checks (a node no class can run
+ * is a platform error). */
+static int check_total_cycles(const pm_graph *g, check_summary *sum, pm_diag *d)
+{
+    int64_t total = 0;
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        int64_t t = pm_graph_min_cycles(g, v), w;
+        const pm_node *n = &g->nodes[v];
+        if (t < 0) {
+            pm_diag_set(d, g->file, n->line, n->col, "node '%s' can run on no core class",
+                        pm_graph_node_name(g, v));
+            return PM_EPLATFORM;
+        }
+        if (sum->rep[v] > (uint64_t)INT64_MAX ||
+            __builtin_mul_overflow(t, (int64_t)sum->rep[v], &w) ||
+            __builtin_add_overflow(total, w, &total) || total > PM_MAX_VALUE) {
+            pm_diag_set(d, g->file, n->line, n->col,
+                        "total cycles per iteration exceed 62 bits at node '%s'",
+                        pm_graph_node_name(g, v));
+            return PM_ERANGE;
+        }
+    }
+    sum->total_cycles = total;
+    return PM_OK;
+}
+
+static void check_platform_facts(const pm_graph *g, check_summary *sum)
+{
+    const pm_platform *p = &g->platform;
+    for (uint32_t e = 0; e < g->nedges; e++)
+        if (g->edges[e].delay > 0)
+            sum->delay_edges++;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        if (g->nodes[v].pin_core != PM_NONE || g->nodes[v].pin_class != PM_NONE)
+            sum->pinned++;
+    sum->single_rate = pm_graph_is_single_rate(g);
+    sum->has_budget = p->clock_hz > 0 && p->rate_hz > 0 && p->clock_hz <= INT64_MAX &&
+                      p->rate_hz <= INT64_MAX &&
+                      pm_rat_make((int64_t)p->clock_hz, (int64_t)p->rate_hz,
+                                  &sum->budget) == PM_OK;
+}
+
+/* Everything the summary needs; errors are printed here.  Returns an exit
+ * status. */
+static int check_analyse(const pm_graph *g, check_summary *sum)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_sdf_repetition(g, &sum->rep, &d);
+    if (rc == PM_OK)
+        rc = check_total_cycles(g, sum, &d);
+    if (rc != PM_OK && rc != PM_ENOMEM) {
+        cli_error(&d);
+        return cli_exit_for(rc);
+    }
+    if (rc == PM_OK)
+        rc = check_zero_delay_loops(g);
+    if (rc == PM_OK)
+        rc = check_count_loops(g, sum);
+    if (rc == PM_ENOMEM)
+        cli_usage_error("check: out of memory");
+    if (rc != PM_OK)
+        return CLI_EXIT_INPUT;
+    check_platform_facts(g, sum);
+    return CLI_EXIT_OK;
+}
+
+/* ---- human output ------------------------------------------------------ */
+
+/* "600 MHz": the largest unit that divides the frequency exactly. */
+static void check_format_hz(uint64_t hz, char *buf, size_t cap)
+{
+    static const char *const unit[] = { "Hz", "kHz", "MHz", "GHz" };
+    int u = 0;
+    while (u < 3 && hz >= 1000 && hz % 1000 == 0) {
+        hz /= 1000;
+        u++;
+    }
+    snprintf(buf, cap, "%" PRIu64 " %s", hz, unit[u]);
+}
+
+static void check_format_rat(pm_rat r, char *buf, size_t cap)
+{
+    if (r.den == 1)
+        snprintf(buf, cap, "%" PRId64, r.num);
+    else
+        snprintf(buf, cap, "%" PRId64 "/%" PRId64 " (%.2f)", r.num, r.den,
+                 pm_rat_to_double(r));
+}
+
+static void check_print_cores(const pm_graph *g)
+{
+    const pm_platform *p = &g->platform;
+    if (!p->classes_named) {
+        printf("%-12s %u identical%s\n", "cores", p->ncores,
+               p->procs_given ? "" : " (no procs line: default)");
+        return;
+    }
+    printf("%-12s %u in %u classes:", "cores", p->ncores, p->nclasses);
+    uint32_t first = 0;
+    for (uint32_t c = 0; c < p->nclasses; c++) {
+        uint32_t n = p->class_count[c];
+        if (n == 1)
+            printf("%s %s x1 (core %u)", c ? "," : "", p->class_names[c], first);
+        else
+            printf("%s %s x%u (cores %u-%u)", c ? "," : "", p->class_names[c], n, first,
+                   first + n - 1);
+        first += n;
+    }
+    putchar('\n');
+}
+
+static void check_print_platform(const pm_graph *g, const check_summary *sum)
+{
+    const pm_platform *p = &g->platform;
+    char a[64], b[64];
+    check_print_cores(g);
+    printf("%-12s latency %" PRId64 ", per word %" PRId64 ", send %" PRId64
+           ", recv %" PRId64 " cycles; %s\n", "transfers", p->comm.latency,
+           p->comm.per_word, p->comm.send, p->comm.recv,
+           p->interconnect == PM_BUS ? "one shared bus" : "point-to-point links");
+    if (p->clock_hz) {
+        check_format_hz(p->clock_hz, a, sizeof a);
+        printf("%-12s %s\n", "clock", a);
+    }
+    if (p->rate_hz) {
+        check_format_hz(p->rate_hz, a, sizeof a);
+        printf("%-12s %s (iterations per second the application needs)\n", "rate", a);
+    }
+    if (sum->has_budget) {
+        check_format_rat(sum->budget, b, sizeof b);
+        printf("%-12s %s cycles per iteration (clock / rate)\n", "budget", b);
+    } else {
+        printf("%-12s none (needs both clock and rate)\n", "budget");
+    }
+}
+
+/* The non-trivial entries of the repetition vector, a few per line. */
+static void check_print_repetition(const pm_graph *g, const check_summary *sum)
+{
+    if (sum->single_rate) {
+        printf("%-12s every node fires once per iteration (single rate)\n", "repetition");
+        return;
+    }
+    int col = printf("%-12s", "repetition");
+    uint32_t shown = 0;
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        if (shown == 40) {
+            printf(" ... (see --json for all)");
+            break;
+        }
+        char item[300];
+        int w = snprintf(item, sizeof item, " %s x%" PRIu64, pm_graph_node_name(g, v),
+                         sum->rep[v]);
+        if (col + w > 98) {
+            printf("\n%-12s", "");
+            col = 12;
+        }
+        fputs(item, stdout);
+        col += w;
+        shown++;
+    }
+    putchar('\n');
+}
+
+static void check_print_text(const char *file, const pm_graph *g,
+                             const check_summary *sum)
+{
+    const pm_platform *p = &g->platform;
+    printf("%s: the scenario is valid\n\n", file);
+    printf("%-12s %s\n", "title", p->title ? p->title : "(none)");
+    printf("%-12s %u (%u pinned)\n", "nodes", g->nnodes, sum->pinned);
+    printf("%-12s %u (%u with delays)\n", "edges", g->nedges, sum->delay_edges);
+    if (sum->loops)
+        printf("%-12s %u strongly connected part%s with a loop (largest: %u node%s)\n",
+               "loops", sum->loops, sum->loops == 1 ? "" : "s", sum->largest_loop,
+               sum->largest_loop == 1 ? "" : "s");
+    else
+        printf("%-12s none (feed-forward: no iteration bound; the cores set the floor)\n",
+               "loops");
+    printf("%-12s %" PRId64 " cycles per iteration%s\n", "work", sum->total_cycles,
+           p->classes_named ? " (each node on its fastest class)" : "");
+    check_print_platform(g, sum);
+    check_print_repetition(g, sum);
+}
+
+/* ---- JSON output ------------------------------------------------------- */
+
+static void check_json_platform(pm_json *j, const pm_graph *g, const check_summary *sum)
+{
+    const pm_platform *p = &g->platform;
+    pm_json_key(j, "platform");
+    pm_json_object_begin(j);
+    pm_json_key(j, "cores");
+    pm_json_uint(j, p->ncores);
+    pm_json_key(j, "classes_named");
+    pm_json_bool(j, p->classes_named);
+    pm_json_key(j, "classes");
+    pm_json_array_begin(j);
+    for (uint32_t c = 0; c < p->nclasses; c++) {
+        pm_json_object_begin(j);
+        pm_json_key(j, "name");
+        pm_json_string(j, p->class_names[c]);
+        pm_json_key(j, "count");
+        pm_json_uint(j, p->class_count[c]);
+        pm_json_object_end(j);
+    }
+    pm_json_array_end(j);
+    pm_json_key(j, "comm");
+    pm_json_object_begin(j);
+    pm_json_key(j, "latency");
+    pm_json_int(j, p->comm.latency);
+    pm_json_key(j, "per_word");
+    pm_json_int(j, p->comm.per_word);
+    pm_json_key(j, "send");
+    pm_json_int(j, p->comm.send);
+    pm_json_key(j, "recv");
+    pm_json_int(j, p->comm.recv);
+    pm_json_object_end(j);
+    pm_json_key(j, "interconnect");
+    pm_json_string(j, p->interconnect == PM_BUS ? "bus" : "p2p");
+    pm_json_key(j, "clock_hz");
+    p->clock_hz ? pm_json_uint(j, p->clock_hz) : pm_json_null(j);
+    pm_json_key(j, "rate_hz");
+    p->rate_hz ? pm_json_uint(j, p->rate_hz) : pm_json_null(j);
+    pm_json_key(j, "budget");
+    sum->has_budget ? pm_json_rat(j, sum->budget) : pm_json_null(j);
+    pm_json_object_end(j);
+}
+
+static void check_print_json(const char *file, const pm_graph *g,
+                             const check_summary *sum)
+{
+    pm_json j;
+    pm_json_init(&j, stdout, 2);
+    pm_json_object_begin(&j);
+    pm_json_key(&j, "file");
+    pm_json_string(&j, file);
+    pm_json_key(&j, "title");
+    g->platform.title ? pm_json_string(&j, g->platform.title) : pm_json_null(&j);
+    pm_json_key(&j, "nodes");
+    pm_json_uint(&j, g->nnodes);
+    pm_json_key(&j, "edges");
+    pm_json_uint(&j, g->nedges);
+    pm_json_key(&j, "delay_edges");
+    pm_json_uint(&j, sum->delay_edges);
+    pm_json_key(&j, "pinned");
+    pm_json_uint(&j, sum->pinned);
+    pm_json_key(&j, "loops");
+    pm_json_uint(&j, sum->loops);
+    pm_json_key(&j, "total_cycles");
+    pm_json_int(&j, sum->total_cycles);
+    pm_json_key(&j, "single_rate");
+    pm_json_bool(&j, sum->single_rate);
+    pm_json_key(&j, "repetition");
+    pm_json_object_begin(&j);
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        pm_json_key(&j, pm_graph_node_name(g, v));
+        pm_json_uint(&j, sum->rep[v]);
+    }
+    pm_json_object_end(&j);
+    check_json_platform(&j, g, sum);
+    pm_json_object_end(&j);
+    pm_json_finish(&j);
+}
+
 int pm_cmd_check(int argc, char **argv)
 {
-    (void)argc;
-    (void)argv;
-    cli_usage_error("check: not available yet");
-    return CLI_EXIT_USAGE;
+    uint32_t procs = 0;
+    bool procs_set = false, json = false;
+    const cli_opt opts[] = {
+        { "-p", "--procs", CLI_U32, &procs, &procs_set,
+          "number of identical cores (overrides the procs line)", "N" },
+        { "--json", NULL, CLI_FLAG, &json, NULL, "machine output (docs/schema.json)", NULL },
+        { NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL },
+    };
+    const cli_cmd cmd = { "check", "FILE [-p N] [--json]",
+                          "Read and validate a scenario; summarise its graph, loops, "
+                          "work, platform and repetition vector.", opts };
+    const char *file;
+    int st = cli_parse(&cmd, argc, argv, &file);
+    if (st >= 0)
+        return st;
+    pm_graph *g = NULL;
+    st = cli_load(file, procs_set, procs, &g);
+    if (st != CLI_EXIT_OK)
+        return st;
+    check_summary sum = { 0 };
+    st = check_analyse(g, &sum);
+    if (st == CLI_EXIT_OK && json)
+        check_print_json(file, g, &sum);
+    else if (st == CLI_EXIT_OK)
+        check_print_text(file, g, &sum);
+    free(sum.rep);
+    pm_graph_destroy(g);
+    return st;
 }
