@@ -1,10 +1,32 @@
 /*
  * sdf.h - multirate (synchronous dataflow) graphs: repetition vector,
- * consistency, and expansion to the equivalent single-rate graph
- * (Lee & Messerschmitt, IEEE Trans. Computers 1987).
+ * consistency, the one-iteration check, and expansion to the equivalent
+ * single-rate graph (Lee & Messerschmitt, "Static scheduling of synchronous
+ * data flow programs for digital signal processing", IEEE Trans. Computers
+ * 1987).
  *
- * Ownership: arrays and graphs returned through out-parameters belong to
- * the caller (free() / pm_graph_destroy()).  Thread-safe.
+ * An edge u -> v with produce=p consume=c moves p tokens per firing of u and
+ * takes c per firing of v; its `delay` counts initial tokens.  One iteration
+ * of a multirate graph is one period of its repetition vector q: node v
+ * fires q[v] times, and every edge ends the iteration holding as many tokens
+ * as it started with.  A node's `cycles` are per firing.
+ *
+ * Expanded graphs (pm_sdf_expand): node v becomes q[v] firing nodes; their
+ * ids are contiguous, v's firing i has id first(v) + i where first(v) is the
+ * sum of q[u] over u < v.  Names are `v#i` (i = 0 .. q[v]-1), or plain `v`
+ * when q[v] == 1, so a single-rate graph expands to itself.  `#` cannot occur
+ * in a scenario name, so firing names never clash with user names.
+ * docs/multirate.md explains how tokens become delays.
+ *
+ * Every function first checks the edges: rates in 1 .. 2^62-1, delay and
+ * words in 0 .. 2^62-1, else PM_ERANGE with diag at the edge.  Functions
+ * taking `rep` accept any positive vector that balances every edge (a
+ * multiple of the smallest one means that many periods).
+ *
+ * Ownership: arrays, graphs and maps returned through out-parameters belong
+ * to the caller (free() / pm_graph_destroy() / pm_map_destroy()); on failure
+ * they are set to NULL.  The input graph is only read; it need not be
+ * finalized.  Thread-safe: no global state.
  */
 #ifndef PACEMAP_SDF_H
 #define PACEMAP_SDF_H
@@ -13,12 +35,113 @@
 
 #include "pacemap/error.h"
 #include "pacemap/graph.h"
+#include "pacemap/map.h"
 
-/* The smallest positive integer repetition vector of g: *rep gets nnodes
+/* Size guard of the expansion: firings per iteration (sum of q) and edges of
+ * the expanded graph.  About 0.5 GB of memory at both limits. */
+#define PM_SDF_MAX_FIRINGS UINT64_C(2000000)
+#define PM_SDF_MAX_EXPANDED_EDGES UINT64_C(8000000)
+/* Work guard of the one-iteration check: batches of firings simulated. */
+#define PM_SDF_MAX_CHECK_STEPS UINT64_C(67108864)
+
+/*
+ * The smallest positive integer repetition vector of g: *rep gets nnodes
  * entries (firings of each node per iteration; all 1 for a single-rate
- * graph).  Each weakly connected part is solved on its own.
- * PM_EINCONSISTENT (diag names the conflicting edges), PM_ERANGE on
- * overflow, PM_ENOMEM. */
+ * graph) satisfying q[src] * produce == q[dst] * consume on every edge.
+ * Each weakly connected part is scaled to its own smallest solution.
+ * Exact: 128-bit intermediates; every entry is at most PM_MAX_VALUE.
+ * Errors: PM_ERANGE when a rate is not positive or an entry would pass 62
+ * bits (diag points at the edge); PM_EINCONSISTENT when no vector exists:
+ * diag names a cycle of the underlying undirected graph whose rate ratios
+ * do not multiply to 1, e.g. `inconsistent rates on the cycle a -> b -> c
+ * <- a: ...`, and points at one of its edges; PM_ENOMEM.
+ * Complexity: O(V + E) time and memory (a spanning forest, then one check
+ * per edge).
+ */
 int pm_sdf_repetition(const pm_graph *g, uint64_t **rep, pm_diag *diag);
+
+/*
+ * Whether one iteration can complete: simulates one period of `rep` (from
+ * pm_sdf_repetition) on token counts, starting from the initial tokens
+ * (delays), firing any node that has input and has not reached its count
+ * (the class-S method of Lee & Messerschmitt 1987; firings of one node are
+ * simulated in batches).  PM_OK when every node reaches its count.
+ * Errors: PM_EDEADLOCK when it gets stuck: diag names a loop, nodes in data
+ * order, whose edges all lack tokens, and points at one of its edges;
+ * PM_ELIMIT past PM_SDF_MAX_CHECK_STEPS batches; PM_EINVAL when rep does
+ * not balance g; PM_ENOMEM.
+ * Complexity: O(V + E) per batch; a batch fires a node as often as its
+ * inputs allow, so a feed-forward graph needs at most V batches.
+ */
+int pm_sdf_check_iteration(const pm_graph *g, const uint64_t *rep, pm_diag *diag);
+
+/*
+ * The equivalent single-rate graph of g for repetition vector `rep`.
+ * Nodes: see the header comment (ids, names); each firing node copies the
+ * original's cycles (per class too), pin, work kind, line and column.
+ * Edges: the tokens an original edge carries in one iteration, numbered in
+ * FIFO order with the initial tokens first, are cut into runs that share
+ * producer firing, consumer firing and delay; each run becomes one edge with
+ * words = tokens * words and delay = how many iterations later than its
+ * production the run is consumed.  Expanded edges keep the original edge's
+ * line and column, appear grouped by original edge in edge order, and have
+ * produce = consume = 1.  No order edges are added between firings of a
+ * node: a node that keeps state carries a self-loop (DESIGN §3), and the
+ * self-loop `v -> v delay=1` expands to the chain v#0 -> v#1 -> ... ->
+ * v#(q-1) -> v#0 with one delay on the last link.
+ * The platform is copied.  *out is finalized.  *origin (may be NULL: then
+ * not returned) gets one entry per expanded node: its original node.
+ * Call pm_sdf_check_iteration first: a graph that fails it expands to one
+ * with a loop without delay.
+ * Errors: PM_ELIMIT past PM_SDF_MAX_FIRINGS or PM_SDF_MAX_EXPANDED_EDGES
+ * (checked before anything is built; diag names the node or edge that
+ * contributes most); PM_ERANGE when an expanded edge's words pass 62 bits;
+ * PM_EINVAL when rep does not balance g; PM_ENOMEM.
+ * Complexity: O(sum of q + sum over edges of (q[src] + q[dst])).
+ */
+int pm_sdf_expand(const pm_graph *g, const uint64_t *rep, pm_graph **out,
+                  uint32_t **origin, pm_diag *diag);
+
+/*
+ * Turn map m of g's nodes into a map of the expanded graph (ids as in
+ * pm_sdf_expand): every firing of a node runs on the node's core, firings of
+ * one node in firing order.  On each core the firings follow the map's node
+ * order, each node's firings together where the tokens allow; a node's
+ * firings are interleaved with those of the nodes after it on the same core
+ * only when a loop needs it.  Rule: an entry of a core's list may start
+ * only after the entry before it has started; among the entries that may
+ * run, the earliest in the list fires first.  The per-core orders are the
+ * projection of one admissible sequential schedule of an iteration, so
+ * self-timed execution of the result cannot deadlock.  For a single-rate
+ * graph the result equals m.
+ * Errors: PM_EMAP when m does not list every node of g exactly once;
+ * PM_EDEADLOCK when the map's order cannot complete an iteration (diag says
+ * where each core waits); PM_EINVAL when rep does not balance g; PM_ELIMIT
+ * past PM_SDF_MAX_FIRINGS; PM_ENOMEM.
+ * Complexity: O((sum of q + E) log V) for graphs whose firings batch well.
+ */
+int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
+                      pm_map **out, pm_diag *diag);
+
+/*
+ * The map of g's nodes that a map xm of the expanded graph implies: node v
+ * goes to the core of its firing 0, and the nodes on a core are ordered by
+ * where their firing 0 runs.  For scheduling a multirate graph: schedule
+ * the expansion, collapse, then pm_sdf_expand_map the result so that every
+ * firing of a node runs on one core.  pm_sdf_collapse_map of the result of
+ * pm_sdf_expand_map(m) is m.
+ * Errors: PM_EMAP when xm does not list every firing exactly once (sum of
+ * rep entries); PM_ENOMEM.  O(sum of q * log V).
+ */
+int pm_sdf_collapse_map(const pm_graph *g, const uint64_t *rep, const pm_map *xm,
+                        pm_map **out, pm_diag *diag);
+
+/*
+ * The whole path in one call: repetition vector, one-iteration check and
+ * expansion, with the errors of each.  `rep` and `origin` may be NULL when
+ * those results are not wanted.  For a single-rate graph *out is a copy.
+ */
+int pm_sdf_single_rate(const pm_graph *g, pm_graph **out, uint64_t **rep,
+                       uint32_t **origin, pm_diag *diag);
 
 #endif

@@ -1,0 +1,584 @@
+/*
+ * expand.c - the equivalent single-rate graph of a multirate graph (the
+ * precedence graph of one period, Lee & Messerschmitt, IEEE Trans.
+ * Computers 1987), and maps of it built from maps of the original graph.
+ *
+ * Tokens of an edge u -> v (produce p, consume c, d initial tokens) are
+ * numbered t = 0, 1, ... in FIFO order, initial tokens first.  In the
+ * periodic regime token t is consumed by firing floor(t / c) of v and was
+ * produced by firing I = floor((t - d) / p) of u, counting firings across
+ * iterations (negative I: an earlier iteration; the initial tokens are the
+ * last d tokens the previous iterations left behind).  Consumer firings of
+ * iteration 0 take tokens 0 .. q[u]p - 1; producer firing I is firing
+ * I mod q[u] of iteration floor(I / q[u]) <= 0, so the expanded edge's delay
+ * is -floor(I / q[u]).  Both firing numbers are step functions of t, so the
+ * walk goes run by run, not token by token.  docs/multirate.md has a worked
+ * example.
+ *
+ * This file does not check consistency or liveness (sdf.c) and never
+ * modifies the original graph.
+ */
+#include "pacemap/sdf.h"
+#include "sdf_internal.h"
+
+#include <assert.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* ---- size guard ------------------------------------------------------------- */
+
+/* Exact number of expanded edges edge pe gives: 1 + the points in (0, T)
+ * where the consumer firing changes (multiples of c) or the producer firing
+ * changes (t = d mod p), counting points that are both once. */
+static sdf_u128 expand_edge_runs(const pm_edge *pe, const uint64_t *rep)
+{
+    sdf_u128 p = (sdf_u128)pe->produce, c = (sdf_u128)pe->consume;
+    sdf_u128 d = (sdf_u128)pe->delay, qu = rep[pe->src], qv = rep[pe->dst];
+    sdf_u128 T = qu * p, g = sdf_gcd128(p, c);
+    sdf_u128 zero = d % p == 0; /* t = 0 is a producer boundary: not inside */
+    sdf_u128 both = d % g == 0 ? T / (p / g * c) - zero : 0;
+    return 1 + (qv - 1) + (qu - zero) - both;
+}
+
+static int expand_guard_firings(const pm_graph *g, const uint64_t *rep, pm_diag *diag)
+{
+    sdf_u128 sum = 0;
+    uint32_t big = 0;
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        sum += rep[v];
+        if (rep[v] > rep[big])
+            big = v;
+    }
+    if (sum <= PM_SDF_MAX_FIRINGS)
+        return PM_OK;
+    sdf_text t = { .len = 0 };
+    sdf_text_u128(&t, sum);
+    pm_diag_set(diag, g->file, g->nodes[big].line, g->nodes[big].col,
+                "the single-rate expansion would have %s firings per iteration (limit %llu);"
+                " node '%s' alone fires %llu times", t.buf,
+                (unsigned long long)PM_SDF_MAX_FIRINGS, pm_graph_node_name(g, big),
+                (unsigned long long)rep[big]);
+    return PM_ELIMIT;
+}
+
+static int expand_guard_edges(const pm_graph *g, const uint64_t *rep, pm_diag *diag)
+{
+    sdf_u128 sum = 0, most = 0;
+    uint32_t big = 0;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        sdf_u128 n = expand_edge_runs(&g->edges[e], rep);
+        sum += n;
+        if (n > most)
+            most = n, big = e;
+    }
+    if (sum <= PM_SDF_MAX_EXPANDED_EDGES)
+        return PM_OK;
+    const pm_edge *pe = &g->edges[big];
+    sdf_text t = { .len = 0 };
+    sdf_text_u128(&t, sum);
+    sdf_text_add(&t, " edges (limit ");
+    sdf_text_u128(&t, PM_SDF_MAX_EXPANDED_EDGES);
+    sdf_text_add(&t, "); this edge alone gives ");
+    sdf_text_u128(&t, most);
+    pm_diag_set(diag, g->file, pe->line, pe->col,
+                "the single-rate expansion would have %s (%s -> %s)", t.buf,
+                pm_graph_node_name(g, pe->src), pm_graph_node_name(g, pe->dst));
+    return PM_ELIMIT;
+}
+
+/* first[v]: id of v's firing 0 in the expanded graph; first[n] = total. */
+static uint32_t *expand_first(const pm_graph *g, const uint64_t *rep)
+{
+    uint32_t *first = malloc(((size_t)g->nnodes + 1) * sizeof *first);
+    if (!first)
+        return NULL;
+    first[0] = 0;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        first[v + 1] = first[v] + (uint32_t)rep[v]; /* guarded: <= PM_SDF_MAX_FIRINGS */
+    return first;
+}
+
+/* ---- nodes and platform ------------------------------------------------------ */
+
+static int expand_platform(const pm_graph *g, pm_graph *x)
+{
+    const pm_platform *p = &g->platform;
+    int rc = pm_graph_set_cores(x, p->nclasses,
+                                p->classes_named ? (const char *const *)p->class_names : NULL,
+                                p->class_count);
+    if (rc != PM_OK)
+        return rc;
+    x->platform.classes_named = p->classes_named;
+    x->platform.procs_given = p->procs_given;
+    x->platform.comm = p->comm;
+    x->platform.interconnect = p->interconnect;
+    x->platform.clock_hz = p->clock_hz;
+    x->platform.rate_hz = p->rate_hz;
+    if (p->title && !(x->platform.title = strdup(p->title)))
+        return PM_ENOMEM;
+    return PM_OK;
+}
+
+/* Add one firing node of v named name[0..len), copying v's attributes. */
+static int expand_node_copy(const pm_graph *g, uint32_t v, pm_graph *x, const char *name,
+                            size_t len)
+{
+    const pm_node *n = &g->nodes[v];
+    uint32_t id;
+    int rc = pm_graph_add_node(x, name, len, n->cycles < 0 ? 0 : n->cycles, &id);
+    if (rc == PM_OK && n->class_cycles != PM_NONE)
+        rc = pm_graph_set_class_cycles(x, id, g->class_cycles + n->class_cycles);
+    if (rc != PM_OK)
+        return rc;
+    pm_node *y = &x->nodes[id];
+    y->line = n->line;
+    y->col = n->col;
+    y->pin_core = n->pin_core;
+    y->pin_class = n->pin_class;
+    y->work = n->work;
+    y->work_param = n->work_param;
+    return PM_OK;
+}
+
+static int expand_nodes(const pm_graph *g, const uint64_t *rep, pm_graph *x,
+                        uint32_t *origin)
+{
+    size_t longest = 0;
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        size_t len = strlen(pm_graph_node_name(g, v));
+        longest = len > longest ? len : longest;
+    }
+    char *buf = malloc(longest + 32);
+    if (!buf)
+        return PM_ENOMEM;
+    int rc = PM_OK;
+    for (uint32_t v = 0, id = 0; rc == PM_OK && v < g->nnodes; v++) {
+        const char *name = pm_graph_node_name(g, v);
+        for (uint64_t i = 0; rc == PM_OK && i < rep[v]; i++, id++) {
+            int len = rep[v] == 1 ? snprintf(buf, longest + 32, "%s", name)
+                                  : snprintf(buf, longest + 32, "%s#%llu", name,
+                                             (unsigned long long)i);
+            rc = expand_node_copy(g, v, x, buf, (size_t)len);
+            if (origin)
+                origin[id] = v;
+        }
+    }
+    free(buf);
+    return rc;
+}
+
+/* ---- edges -------------------------------------------------------------------- */
+
+/* One run of tokens: firing i of the producer, `delay` iterations before
+ * consumer firing j, `len` tokens. */
+static int expand_add_run(const pm_graph *g, const pm_edge *pe, pm_graph *x,
+                          const uint32_t *first, sdf_i128 i, sdf_i128 j, sdf_i128 delay,
+                          sdf_i128 len, pm_diag *diag)
+{
+    sdf_i128 words = len * (sdf_i128)pe->words;
+    if (words > PM_MAX_VALUE) {
+        pm_diag_set(diag, g->file, pe->line, pe->col,
+                    "edge %s -> %s: one firing pair would exchange more than 2^62-1 words",
+                    pm_graph_node_name(g, pe->src), pm_graph_node_name(g, pe->dst));
+        return PM_ERANGE;
+    }
+    pm_edge ne = pm_edge_default(first[pe->src] + (uint32_t)i, first[pe->dst] + (uint32_t)j);
+    ne.line = pe->line;
+    ne.col = pe->col;
+    ne.delay = (int64_t)delay;
+    ne.words = (int64_t)words;
+    return pm_graph_add_edge(x, &ne, NULL);
+}
+
+static int expand_edge(const pm_graph *g, uint32_t e, const uint64_t *rep,
+                       const uint32_t *first, pm_graph *x, pm_diag *diag)
+{
+    const pm_edge *pe = &g->edges[e];
+    sdf_i128 p = pe->produce, c = pe->consume, d = pe->delay;
+    sdf_i128 qu = (sdf_i128)rep[pe->src];
+    sdf_i128 T = qu * p; /* tokens per iteration */
+    int rc = PM_OK;
+    for (sdf_i128 t = 0; rc == PM_OK && t < T;) {
+        sdf_i128 j = t / c;                      /* consumer firing, iteration 0 */
+        sdf_i128 I = sdf_floordiv(t - d, p);     /* producer firing, any iteration */
+        sdf_i128 next = (j + 1) * c;
+        if (d + (I + 1) * p < next)
+            next = d + (I + 1) * p;
+        if (T < next)
+            next = T;
+        sdf_i128 iter = sdf_floordiv(I, qu);     /* <= 0 */
+        rc = expand_add_run(g, pe, x, first, I - iter * qu, j, -iter, next - t, diag);
+        t = next;
+    }
+    return rc;
+}
+
+static int expand_build(const pm_graph *g, const uint64_t *rep, pm_graph *x,
+                        uint32_t *origin, pm_diag *diag)
+{
+    uint32_t *first = expand_first(g, rep);
+    if (!first)
+        return PM_ENOMEM;
+    int rc = expand_platform(g, x);
+    if (rc == PM_OK)
+        rc = expand_nodes(g, rep, x, origin);
+    for (uint32_t e = 0; rc == PM_OK && e < g->nedges; e++) {
+        uint32_t before = x->nedges;
+        rc = expand_edge(g, e, rep, first, x, diag);
+        assert(rc != PM_OK || x->nedges - before == expand_edge_runs(&g->edges[e], rep));
+        (void)before;
+    }
+    if (rc == PM_OK)
+        rc = pm_graph_finalize(x);
+    free(first);
+    return rc;
+}
+
+int pm_sdf_expand(const pm_graph *g, const uint64_t *rep, pm_graph **out,
+                  uint32_t **origin, pm_diag *diag)
+{
+    *out = NULL;
+    if (origin)
+        *origin = NULL;
+    int rc = sdf_check_balance(g, rep, diag);
+    if (rc == PM_OK)
+        rc = expand_guard_firings(g, rep, diag);
+    if (rc == PM_OK)
+        rc = expand_guard_edges(g, rep, diag);
+    if (rc != PM_OK)
+        return rc;
+    uint64_t total = 0;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        total += rep[v];
+    pm_graph *x = pm_graph_create(g->file);
+    uint32_t *org = origin ? malloc(((size_t)total + 1) * sizeof *org) : NULL;
+    rc = x && (org || !origin) ? expand_build(g, rep, x, org, diag) : PM_ENOMEM;
+    if (rc != PM_OK) {
+        pm_graph_destroy(x);
+        free(org);
+        return rc;
+    }
+    *out = x;
+    if (origin)
+        *origin = org;
+    return PM_OK;
+}
+
+/* ---- maps of the expanded graph -------------------------------------------------- */
+
+/* Building per-core firing orders: token counts plus, per core, a min-heap
+ * (by list position) of the entries that may fire and might be ready. */
+typedef struct expand_order {
+    const pm_graph *g;
+    const pm_map *m;
+    sdf_tokens tok;
+    const uint32_t *first;  /* expanded id of each node's firing 0 */
+    uint32_t *pos;          /* node -> position in its core's list */
+    uint32_t *started;      /* per core: entries 0 .. started[c] may fire */
+    uint32_t *heap;         /* core c's heap lives at heap + m->off[c] */
+    uint32_t *heap_len;
+    bool *in_heap;
+    uint32_t *out;          /* core c's firings at out + out_off[c] */
+    uint32_t *out_off;
+    uint32_t *out_len;
+} expand_order;
+
+static void expand_heap_push(expand_order *o, uint32_t c, uint32_t v)
+{
+    uint32_t *h = o->heap + o->m->off[c];
+    uint32_t i = o->heap_len[c]++;
+    while (i > 0 && o->pos[h[(i - 1) / 2]] > o->pos[v]) {
+        h[i] = h[(i - 1) / 2];
+        i = (i - 1) / 2;
+    }
+    h[i] = v;
+    o->in_heap[v] = true;
+}
+
+static uint32_t expand_heap_pop(expand_order *o, uint32_t c)
+{
+    uint32_t *h = o->heap + o->m->off[c];
+    uint32_t top = h[0], last = h[--o->heap_len[c]], n = o->heap_len[c], i = 0;
+    for (;;) {
+        uint32_t k = 2 * i + 1;
+        if (k >= n)
+            break;
+        if (k + 1 < n && o->pos[h[k + 1]] < o->pos[h[k]])
+            k++;
+        if (o->pos[h[k]] >= o->pos[last])
+            break;
+        h[i] = h[k];
+        i = k;
+    }
+    h[i] = last;
+    o->in_heap[top] = false;
+    return top;
+}
+
+/* Consider w again: its inputs grew or it may now start. */
+static void expand_offer(expand_order *o, uint32_t w)
+{
+    uint32_t c = o->m->core_of[w];
+    if (!o->in_heap[w] && o->pos[w] <= o->started[c] && o->tok.fired[w] < o->tok.rep[w])
+        expand_heap_push(o, c, w);
+}
+
+static void expand_try(expand_order *o, uint32_t c, uint32_t v)
+{
+    uint64_t k = sdf_tokens_ready(&o->tok, v);
+    if (!k)
+        return;
+    for (uint64_t i = 0; i < k; i++)
+        o->out[o->out_off[c] + o->out_len[c]++] = o->first[v] + (uint32_t)(o->tok.fired[v] + i);
+    sdf_tokens_fire(&o->tok, v, k);
+    const sdf_adj *a = o->tok.adj;
+    for (uint32_t i = a->out_off[v]; i < a->out_off[v + 1]; i++)
+        expand_offer(o, o->g->edges[a->out_edge[i]].dst);
+    uint32_t count = o->m->off[c + 1] - o->m->off[c];
+    if (o->pos[v] == o->started[c] && o->started[c] + 1 < count) {
+        o->started[c]++;
+        expand_offer(o, o->m->order[o->m->off[c] + o->started[c]]);
+    }
+}
+
+static void expand_run(expand_order *o)
+{
+    for (uint32_t c = 0; c < o->m->ncores; c++)
+        if (o->m->off[c + 1] > o->m->off[c])
+            expand_offer(o, o->m->order[o->m->off[c]]);
+    bool any;
+    do {
+        any = false;
+        for (uint32_t c = 0; c < o->m->ncores; c++)
+            while (o->heap_len[c]) {
+                any = true;
+                uint32_t v = expand_heap_pop(o, c);
+                expand_try(o, c, v);
+            }
+    } while (any);
+}
+
+/* m must list every node of g exactly once, on the core its core_of says. */
+static int expand_map_fits(const pm_graph *g, const pm_map *m, uint32_t *pos, pm_diag *diag)
+{
+    int rc = m->nnodes == g->nnodes && m->off[m->ncores] == g->nnodes ? PM_OK : PM_EMAP;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        pos[v] = PM_NONE;
+    for (uint32_t c = 0; rc == PM_OK && c < m->ncores; c++)
+        for (uint32_t k = m->off[c]; rc == PM_OK && k < m->off[c + 1]; k++) {
+            uint32_t v = m->order[k];
+            if (v >= g->nnodes || pos[v] != PM_NONE || m->core_of[v] != c)
+                rc = PM_EMAP;
+            else
+                pos[v] = k - m->off[c];
+        }
+    if (rc != PM_OK)
+        pm_diag_set(diag, g->file, 0, 0, "the map does not list every node of the graph "
+                    "exactly once");
+    return rc;
+}
+
+/* Where each unfinished core waits: its first entry short of its count. */
+static int expand_report_stuck(const expand_order *o, pm_diag *diag)
+{
+    sdf_text t = { .len = 0 };
+    char part[64];
+    for (uint32_t c = 0; c < o->m->ncores; c++)
+        for (uint32_t k = o->m->off[c]; k < o->m->off[c + 1]; k++) {
+            uint32_t v = o->m->order[k];
+            if (o->tok.fired[v] == o->tok.rep[v])
+                continue;
+            snprintf(part, sizeof part, "%score %u waits at '", t.len ? "; " : "", c);
+            sdf_text_add(&t, part);
+            sdf_text_add(&t, pm_graph_node_name(o->g, v));
+            snprintf(part, sizeof part, "' (%llu of %llu firings done)",
+                     (unsigned long long)o->tok.fired[v], (unsigned long long)o->tok.rep[v]);
+            sdf_text_add(&t, part);
+            break;
+        }
+    pm_diag_set(diag, o->g->file, 0, 0, "with this map's order one iteration cannot "
+                "complete: %s", t.buf);
+    return PM_EDEADLOCK;
+}
+
+static void expand_order_free(expand_order *o)
+{
+    sdf_tokens_free(&o->tok);
+    free(o->pos);
+    free(o->started);
+    free(o->heap);
+    free(o->heap_len);
+    free(o->in_heap);
+    free(o->out);
+    free(o->out_off);
+    free(o->out_len);
+}
+
+static int expand_order_init(expand_order *o, const pm_graph *g, const pm_map *m,
+                             const sdf_adj *a, const uint64_t *rep, const uint32_t *first)
+{
+    size_t n = (size_t)g->nnodes + 1, nc = (size_t)m->ncores + 1;
+    memset(o, 0, sizeof *o);
+    o->g = g;
+    o->m = m;
+    o->first = first;
+    o->pos = malloc(n * sizeof *o->pos);
+    o->started = calloc(nc, sizeof *o->started);
+    o->heap = malloc(n * sizeof *o->heap);
+    o->heap_len = calloc(nc, sizeof *o->heap_len);
+    o->in_heap = calloc(n, sizeof *o->in_heap);
+    o->out = malloc(((size_t)first[g->nnodes] + 1) * sizeof *o->out);
+    o->out_off = calloc(nc, sizeof *o->out_off);
+    o->out_len = calloc(nc, sizeof *o->out_len);
+    if (!o->pos || !o->started || !o->heap || !o->heap_len || !o->in_heap || !o->out ||
+        !o->out_off || !o->out_len)
+        return PM_ENOMEM;
+    for (uint32_t c = 0; c < m->ncores; c++) {
+        o->out_off[c + 1] = o->out_off[c];
+        for (uint32_t k = m->off[c]; k < m->off[c + 1] && m->order[k] < g->nnodes; k++)
+            o->out_off[c + 1] += (uint32_t)rep[m->order[k]];
+    }
+    return sdf_tokens_init(&o->tok, g, a, rep);
+}
+
+static int expand_map_with(const pm_graph *g, const pm_map *m, const sdf_adj *a,
+                           const uint64_t *rep, const uint32_t *first, pm_map **out,
+                           pm_diag *diag)
+{
+    expand_order o;
+    int rc = expand_order_init(&o, g, m, a, rep, first);
+    if (rc == PM_OK)
+        rc = expand_map_fits(g, m, o.pos, diag);
+    if (rc == PM_OK) {
+        expand_run(&o);
+        for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++)
+            if (o.tok.fired[v] < rep[v])
+                rc = expand_report_stuck(&o, diag);
+    }
+    uint32_t **lists = rc == PM_OK ? malloc(((size_t)m->ncores + 1) * sizeof *lists) : NULL;
+    if (rc == PM_OK && !lists)
+        rc = PM_ENOMEM;
+    for (uint32_t c = 0; rc == PM_OK && c < m->ncores; c++)
+        lists[c] = o.out + o.out_off[c];
+    if (rc == PM_OK)
+        rc = pm_map_create(m->ncores, first[g->nnodes], (const uint32_t *const *)lists,
+                           o.out_len, out);
+    free(lists);
+    expand_order_free(&o);
+    return rc;
+}
+
+int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
+                      pm_map **out, pm_diag *diag)
+{
+    *out = NULL;
+    int rc = sdf_check_balance(g, rep, diag);
+    if (rc == PM_OK)
+        rc = expand_guard_firings(g, rep, diag);
+    if (rc != PM_OK)
+        return rc;
+    uint32_t *first = expand_first(g, rep);
+    sdf_adj a;
+    rc = first ? sdf_adj_build(g, &a) : PM_ENOMEM;
+    if (rc == PM_OK) {
+        rc = expand_map_with(g, m, &a, rep, first, out, diag);
+        sdf_adj_free(&a);
+    }
+    free(first);
+    return rc;
+}
+
+/* The node whose firings include expanded id f (first[] is increasing). */
+static uint32_t expand_origin_of(const uint32_t *first, uint32_t n, uint32_t f)
+{
+    uint32_t lo = 0, hi = n; /* first[lo] <= f < first[hi] */
+    while (hi - lo > 1) {
+        uint32_t mid = lo + (hi - lo) / 2;
+        if (first[mid] <= f)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    return lo;
+}
+
+/* Per-core lists of the nodes whose firing 0 xm runs there, in xm's order. */
+static int expand_collapse_with(const pm_graph *g, const pm_map *xm, const uint32_t *first,
+                                uint32_t *nodes, uint32_t *counts, pm_map **out)
+{
+    uint32_t total = first[g->nnodes], k = 0;
+    uint32_t **lists = malloc(((size_t)xm->ncores + 1) * sizeof *lists);
+    bool *seen = calloc((size_t)total + 1, sizeof *seen);
+    int rc = lists && seen ? PM_OK : PM_ENOMEM;
+    for (uint32_t c = 0; rc == PM_OK && c < xm->ncores; c++) {
+        lists[c] = nodes + k;
+        counts[c] = 0;
+        for (uint32_t i = xm->off[c]; rc == PM_OK && i < xm->off[c + 1]; i++) {
+            uint32_t f = xm->order[i];
+            if (f >= total || seen[f]) {
+                rc = PM_EMAP;
+                break;
+            }
+            seen[f] = true;
+            uint32_t v = expand_origin_of(first, g->nnodes, f);
+            if (first[v] == f)
+                nodes[k++] = v, counts[c]++;
+        }
+    }
+    if (rc == PM_OK)
+        rc = pm_map_create(xm->ncores, g->nnodes, (const uint32_t *const *)lists, counts, out);
+    free(lists);
+    free(seen);
+    return rc;
+}
+
+int pm_sdf_collapse_map(const pm_graph *g, const uint64_t *rep, const pm_map *xm,
+                        pm_map **out, pm_diag *diag)
+{
+    *out = NULL;
+    int rc = sdf_check_balance(g, rep, diag);
+    if (rc == PM_OK)
+        rc = expand_guard_firings(g, rep, diag);
+    if (rc != PM_OK)
+        return rc;
+    uint32_t *first = expand_first(g, rep);
+    uint32_t *nodes = malloc(((size_t)g->nnodes + 1) * sizeof *nodes);
+    uint32_t *counts = malloc(((size_t)xm->ncores + 1) * sizeof *counts);
+    bool fits = xm->nnodes == (first ? first[g->nnodes] : 0) &&
+                xm->off[xm->ncores] == xm->nnodes;
+    rc = !first || !nodes || !counts ? PM_ENOMEM : fits ? PM_OK : PM_EMAP;
+    if (rc == PM_OK)
+        rc = expand_collapse_with(g, xm, first, nodes, counts, out);
+    if (rc == PM_EMAP)
+        pm_diag_set(diag, g->file, 0, 0, "the map of the expanded graph does not list "
+                    "every firing exactly once");
+    free(first);
+    free(nodes);
+    free(counts);
+    return rc;
+}
+
+/* ---- the whole path ----------------------------------------------------------- */
+
+int pm_sdf_single_rate(const pm_graph *g, pm_graph **out, uint64_t **rep,
+                       uint32_t **origin, pm_diag *diag)
+{
+    *out = NULL;
+    if (rep)
+        *rep = NULL;
+    if (origin)
+        *origin = NULL;
+    uint64_t *r;
+    int rc = pm_sdf_repetition(g, &r, diag);
+    if (rc != PM_OK)
+        return rc;
+    rc = pm_sdf_check_iteration(g, r, diag);
+    if (rc == PM_OK)
+        rc = pm_sdf_expand(g, r, out, origin, diag);
+    if (rc == PM_OK && rep)
+        *rep = r;
+    else
+        free(r);
+    return rc;
+}
