@@ -1,12 +1,15 @@
 /*
  * test_fuzz_regress.c - replays every input under tests/fuzz/regress/
- * through the scenario reader (and what the fuzzer runs after it), so a bug
- * the fuzzer once found stays fixed in every `make test` and `make asan`.
+ * through both fuzz targets' paths: the scenario reader, and the map reader
+ * against the two fixed graphs of tests/fuzz/fuzz_graphs.h, each followed by
+ * the same analyses the fuzzers run (tests/fuzz/fuzz_exercise.h).  So a bug
+ * a fuzzer once found stays fixed in every `make test` and `make asan`.
  *
  * Each input must give either success with a result or a clean error: a
- * negative PM_E* code, no result, a non-empty one-line message.  Crashes,
- * leaks and undefined behaviour are caught by `make asan`.  Inputs named
- * hand-* were written by hand for edges the fuzzer reaches slowly.
+ * negative PM_E* code, no result, a non-empty one-line message.  A broken
+ * contract aborts (the test fails); crashes, leaks and undefined behaviour
+ * are caught by `make asan`.  Inputs named hand-* were written by hand for
+ * edges the fuzzers reach slowly; the others are fuzzer finds.
  */
 #include <stdarg.h>
 #include <stddef.h>
@@ -19,11 +22,15 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "fuzz/fuzz_common.h"
+#include "fuzz/fuzz_exercise.h"
+#include "fuzz/fuzz_graphs.h"
 #include "pacemap/graph.h"
+#include "pacemap/map.h"
 #include "pacemap/reader.h"
 
 #define REGRESS_DIR "tests/fuzz/regress"
-#define REGRESS_MAX (1u << 20)
+#define REGRESS_MAX (FUZZ_MAX_INPUT + 1)
 
 typedef struct regress_input {
     char path[512];
@@ -44,17 +51,7 @@ static void regress_load(regress_input *in, const char *name)
     fclose(f);
 }
 
-/* The error contract of error.h and reader.h. */
-static void regress_check_error(const regress_input *in, int rc, const void *result,
-                                const pm_diag *d)
-{
-    if (rc < 0 && (d->msg[0] == '\0' || strchr(d->msg, '\n')))
-        fail_msg("%s: bad message '%s'", in->path, d->msg);
-    assert_true(rc < 0);
-    assert_true(rc >= PM_EUNSUPPORTED);
-    assert_null(result);
-}
-
+/* The scenario reader's path of fuzz_scenario.c. */
 static void regress_scenario(const regress_input *in)
 {
     pm_graph *g = NULL;
@@ -62,21 +59,42 @@ static void regress_scenario(const regress_input *in)
     pm_diag_clear(&d);
     int rc = pm_scenario_read_string(in->data, in->len, in->path, &g, &d);
     if (rc != PM_OK) {
-        regress_check_error(in, rc, g, &d);
+        fuzz_check_diag(rc, g, &d);
         return;
     }
     assert_non_null(g);
-    assert_true(g->finalized);
-    for (uint32_t e = 0; e < g->nedges; e++) {
-        assert_true(g->edges[e].src < g->nnodes);
-        assert_true(g->edges[e].dst < g->nnodes);
+    fuzz_exercise_graph(g, 1 + (uint32_t)(in->len % 4));
+}
+
+/* The map reader's path of fuzz_map.c, against one fixed graph. */
+static void regress_map(const regress_input *in, const pm_graph *g)
+{
+    pm_map *m = NULL;
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_map_read_string(in->data, in->len, in->path, g, &m, &d);
+    if (rc != PM_OK) {
+        fuzz_check_diag(rc, m, &d);
+        return;
     }
-    pm_graph_destroy(g);
+    assert_non_null(m);
+    fuzz_exercise_map(m, g);
+}
+
+static pm_graph *regress_graph(const char *text, size_t len)
+{
+    pm_graph *g = NULL;
+    pm_diag d;
+    pm_diag_clear(&d);
+    assert_int_equal(pm_scenario_read_string(text, len, "fuzz.pace", &g, &d), PM_OK);
+    return g;
 }
 
 static void test_regress_all(void **state)
 {
     (void)state;
+    pm_graph *classes = regress_graph(fuzz_classes_scenario, sizeof fuzz_classes_scenario - 1);
+    pm_graph *plain = regress_graph(fuzz_plain_scenario, sizeof fuzz_plain_scenario - 1);
     DIR *dir = opendir(REGRESS_DIR);
     assert_non_null(dir);
     unsigned count = 0;
@@ -85,11 +103,17 @@ static void test_regress_all(void **state)
             continue;
         regress_input in;
         regress_load(&in, de->d_name);
-        regress_scenario(&in);
+        if (in.len <= FUZZ_MAX_INPUT) {
+            regress_scenario(&in);
+            regress_map(&in, classes);
+            regress_map(&in, plain);
+        }
         free(in.data);
         count++;
     }
     closedir(dir);
+    pm_graph_destroy(classes);
+    pm_graph_destroy(plain);
     assert_true(count > 0); /* the folder is never empty: hand-* inputs */
 }
 

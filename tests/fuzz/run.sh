@@ -28,16 +28,6 @@ if ! command -v "$CC" >/dev/null 2>&1; then
 fi
 mkdir -p "$OUT/obj" || exit 2
 
-# Which modules are in the tree decides what the targets exercise.
-defines=""
-if grep -qs '^int pm_bound_compute' sched/*.c; then
-    defines="$defines -DPM_FUZZ_HAVE_BOUND"
-fi
-have_map_reader=no
-if grep -qs '^int pm_map_read_string' sched/*.c sim/*.c; then
-    have_map_reader=yes
-fi
-
 # Library objects, rebuilt when the source or any header is newer.
 newest_header=$(ls -t include/pacemap/*.h sched/*.h sim/*.h 2>/dev/null | head -n 1)
 objs=""
@@ -71,14 +61,10 @@ seed "$OUT/seed-map" tests/bad/*.map tests/fuzz/corpus/map/* tests/fuzz/regress/
 
 status=0
 for target in scenario map; do
-    if [ "$target" = map ] && [ "$have_map_reader" = no ]; then
-        echo "fuzz: map target skipped: pm_map_read_string is not in the tree yet"
-        continue
-    fi
     bin="$OUT/fuzz_$target"
     echo "  CCLD    tests/fuzz/fuzz_$target.c"
     # shellcheck disable=SC2086
-    $CC $CFLAGS $defines -fsanitize=fuzzer "tests/fuzz/fuzz_$target.c" $objs \
+    $CC $CFLAGS -fsanitize=fuzzer "tests/fuzz/fuzz_$target.c" $objs \
         -lm -lpthread -o "$bin" || exit 2
     corpus="$OUT/corpus-$target"
     mkdir -p "$corpus"
