@@ -1,0 +1,179 @@
+/*
+ * sim.h - cycle-accurate discrete-event simulation of a map running
+ * self-timed (DESIGN §5) over many overlapping iterations.
+ *
+ * Each core runs its map order again and again, non-preemptively; a firing
+ * begins when its core is free and every input token has arrived (and, with
+ * a FIFO capacity, when its output buffers have room).  Cross-core tokens
+ * travel over point-to-point links or a shared bus (one transfer at a time,
+ * oldest request first).  All times are integer cycles and every tie is
+ * broken by a fixed rule (docs/simulation.md), so runs are bit-for-bit
+ * repeatable.  Self-timed execution and its inter-processor communication
+ * graph: Sriram & Bhattacharyya, "Embedded Multiprocessors: Scheduling and
+ * Synchronization", 2000.
+ *
+ * Times of one firing (v,k) on core c:
+ *   begin  the core starts receiving its cross-core inputs (recv occupancy)
+ *   start  = begin + recv * (cross-core in-edges of v): the node runs
+ *   end    = start + t(v): tokens leave; same-core consumers may use them
+ *   free   = end + send * (cross-core out-edges of v): the core moves on
+ * A cross-core token of edge e arrives at end + latency + per_word*words on
+ * point-to-point links; on a bus it is requested at `end`, granted when the
+ * bus is free, and arrives at grant + latency + per_word*words.
+ *
+ * Memory does not grow with the number of iterations as long as the cores
+ * stay within a bounded number of iterations of each other (always the case
+ * with a FIFO capacity; without one, tokens piling up on an edge whose
+ * consumer is slower than its producer make the window grow, up to a limit:
+ * PM_ELIMIT).
+ *
+ * Ownership: a pm_sim_result owns its arrays; free with pm_sim_result_free()
+ * (safe on a zeroed or already freed result).  The graph and the map are
+ * only read.  Thread-safe: no global state.
+ */
+#ifndef PACEMAP_SIM_H
+#define PACEMAP_SIM_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#include "pacemap/error.h"
+#include "pacemap/graph.h"
+#include "pacemap/map.h"
+#include "pacemap/rational.h"
+
+#define PM_SIM_DEFAULT_ITERATIONS 1000
+#define PM_SIM_MAX_CYCLICITY 64
+
+typedef struct pm_sim_opts {
+    uint64_t iterations;        /* N >= 1; 0 means PM_SIM_DEFAULT_ITERATIONS */
+    uint32_t fifo_cap;          /* tokens per cross-core edge; 0 = unbounded.  An
+                                   edge with more delays than this gets room for them */
+    uint32_t record;            /* keep the firings/transfers of the first `record`
+                                   iterations (charts, VCD); 0 = none */
+    uint32_t max_cyclicity;     /* largest cyclicity looked for; 0 = automatic
+                                   (64, less for very large graphs), at most
+                                   PM_SIM_MAX_CYCLICITY */
+    const int64_t *node_cycles; /* NULL, or nnodes execution times (>= 0) that replace
+                                   pm_graph_cycles_on (the runner's measured times) */
+} pm_sim_opts;
+
+/* What held a firing's begin (or a transfer's grant) back. */
+typedef enum pm_sim_cause {
+    PM_CAUSE_START = 0, /* nothing: began at time 0 */
+    PM_CAUSE_ORDER,     /* its core finished the previous firing in the core's order */
+    PM_CAUSE_EDGE,      /* a token of `edge` (same core, or a p2p transfer) */
+    PM_CAUSE_BUS,       /* a token of `edge` that came over the bus */
+    PM_CAUSE_FIFO,      /* room on output `edge` (the consumer had to begin first) */
+    PM_CAUSE_BUS_BUSY   /* a transfer waited for the transfer before it on the bus */
+} pm_sim_cause;
+
+/* One element of the critical chain: a firing (node, iteration), or with
+ * kind PM_CAUSE_BUS_BUSY a bus transfer of `edge`'s token of `iteration`.
+ * `via` says how this element held back the element listed before it. */
+typedef struct pm_sim_step {
+    uint32_t node;       /* PM_NONE for a transfer element */
+    uint32_t edge;       /* transfer element: its edge; else PM_NONE */
+    uint64_t iteration;
+    uint32_t core;       /* core of the node (transfer: producer's core) */
+    pm_sim_cause via;    /* ORDER, EDGE, BUS, FIFO or BUS_BUSY */
+    uint32_t via_edge;   /* the edge for EDGE, BUS, FIFO; else PM_NONE */
+} pm_sim_step;
+
+/* One link of a deadlock's waiting cycle: `core` cannot begin `node` of
+ * `iteration` because it waits for `edge` (data from `waits_for_node` on
+ * `waits_for_core`, or with `fifo` room that the consumer
+ * `waits_for_node` must make). */
+typedef struct pm_sim_wait {
+    uint32_t core;
+    uint32_t node;
+    uint64_t iteration;
+    uint32_t edge;
+    bool fifo;
+    uint32_t waits_for_node;
+    uint32_t waits_for_core;
+} pm_sim_wait;
+
+/* A recorded firing (see the time names at the top of this file). */
+typedef struct pm_sim_firing {
+    uint32_t node;
+    uint32_t core;
+    uint64_t iteration;
+    int64_t begin, start, end, free;
+} pm_sim_firing;
+
+/* A recorded cross-core transfer of edge's token made by `iteration`.
+ * p2p: grant == request == producer's end. */
+typedef struct pm_sim_transfer {
+    uint32_t edge;
+    uint64_t iteration;
+    int64_t request, grant, arrival;
+} pm_sim_transfer;
+
+typedef struct pm_sim_result {
+    uint64_t iterations;     /* simulated (N), or those reached before a deadlock */
+    uint64_t firings;        /* firings simulated */
+    /* deadlock (pm_sim_run returned PM_EDEADLOCK) */
+    bool deadlock;
+    pm_sim_wait *waits;      /* the waiting cycle, in order */
+    uint32_t nwaits;
+    /* period */
+    bool steady;             /* periodic regime reached within N iterations */
+    pm_rat period;           /* steady: exact; else average over the last half */
+    uint32_t cyclicity;      /* steady: c (iteration k+c begins c*period after k) */
+    uint64_t transient;      /* steady: first iteration from which that holds */
+    bool uniform;            /* all nodes at the same rate (false: tokens pile up
+                                between parts that run at different rates) */
+    /* latency: earliest start to latest end within one iteration */
+    int64_t latency_steady;  /* steady: max over the last c iterations; else last */
+    int64_t latency_max;     /* over all iterations */
+    int64_t makespan;        /* last core free time */
+    /* resources; utilisation = busy cycles per iteration / period */
+    uint32_t ncores;
+    int64_t *core_busy;      /* ncores: recv + run + send cycles per iteration */
+    double *utilisation;     /* ncores, in [0, 1] */
+    uint32_t nedges;         /* = graph's nedges */
+    int64_t *max_tokens;     /* nedges: most tokens buffered on the edge at once
+                                (cross-core edges); -1 for same-core edges */
+    bool bus;                /* the platform has a bus */
+    int64_t bus_busy;        /* bus cycles per iteration */
+    double bus_utilisation;  /* bus_busy / period */
+    /* the chain of firings and transfers that sets the period (critical
+     * cycle of the run), latest first; spans critical_delays iterations and
+     * critical_cycles cycles.  critical_matches: cycles/delays == period. */
+    pm_sim_step *critical;
+    uint32_t ncritical;
+    int64_t critical_cycles;
+    uint64_t critical_delays;
+    bool critical_matches;
+    /* recorded first iterations, firings sorted by (begin, core) */
+    uint32_t recorded;
+    pm_sim_firing *trace;
+    size_t ntrace;
+    pm_sim_transfer *transfers;
+    size_t ntransfers;
+} pm_sim_result;
+
+/*
+ * Simulate map m of finalized single-rate graph g.  opts may be NULL
+ * (defaults).  The result is filled on PM_OK and on PM_EDEADLOCK (then
+ * `deadlock`, `waits` and `iterations` describe where it stopped and diag
+ * holds a one-line message naming the cycle); free it in both cases.
+ * Errors: PM_EMAP (map does not fit; diag says why), PM_EUNSUPPORTED
+ * (multirate graph), PM_EINVAL (bad options), PM_ERANGE (times overflow
+ * 62 bits), PM_ELIMIT (tokens pile up past the memory limit; diag names
+ * the edge), PM_ENOMEM.
+ * Complexity: O(N * (V + E) * log P) time; memory O((V + E) * W) where W
+ * is the window of iterations kept (small unless tokens pile up).
+ */
+int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
+               pm_sim_result *out, pm_diag *diag);
+
+void pm_sim_result_free(pm_sim_result *r);
+
+/* Stable lower-case name of a cause: "start", "order", "edge", "bus",
+ * "fifo", "bus-busy". */
+const char *pm_sim_cause_name(pm_sim_cause c);
+
+#endif

@@ -1,0 +1,134 @@
+/*
+ * sim_internal.h - the simulator's working state, shared by the event
+ * engine (sim.c) and the end-of-run analysis (sim_report.c).  Not public.
+ *
+ * Times are kept in sliding rings of W iterations (W a power of two):
+ * x_ring[(k & mask) * n + v] is the begin time of firing (v,k).  W grows
+ * only when cores drift more than W iterations apart (tokens piling up).
+ */
+#ifndef PACEMAP_SIM_INTERNAL_H
+#define PACEMAP_SIM_INTERNAL_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "pacemap/sim.h"
+
+/* An input of a node: edge e from src with `delay`; `cost` is added to the
+ * producer's end (0 on the same core, the transfer time across cores). */
+typedef struct sim_in {
+    uint32_t src, edge;
+    uint32_t xslot;  /* index among cross-core edges, or PM_NONE */
+    uint32_t pad;
+    int64_t delay, cost;
+} sim_in;
+
+/* A cross-core edge. */
+typedef struct sim_x {
+    uint32_t edge, src, dst, pad;
+    int64_t delay, cap, cost; /* cap: FIFO capacity, 0 = unbounded */
+} sim_x;
+
+/* Token count of one cross-core edge over time: pushes (producer ends) and
+ * pops (consumer begins) are merged in time order; only one side can be
+ * waiting for the other, so one queue suffices. */
+typedef struct sim_occ {
+    int64_t *q;
+    uint32_t cap, head, len;
+    bool pops;        /* the queue holds pops (else pushes) */
+    int64_t occ, max;
+} sim_occ;
+
+typedef struct sim_ev {
+    int64_t time;
+    uint32_t phase; /* 0 core try, 1 bus request, 2 bus grant */
+    uint32_t core;
+    uint32_t xslot;
+    uint32_t pad;
+    uint64_t iter;
+} sim_ev;
+
+typedef struct sim_heap {
+    sim_ev *a;
+    size_t len, cap;
+} sim_heap;
+
+typedef struct sim {
+    const pm_graph *g;
+    const pm_map *m;
+    uint64_t N;
+    uint32_t n, P, nx;
+    bool bus, fifo;
+    int64_t span;             /* deepest look-back in iterations (delays, FIFO) */
+    uint32_t cmax;
+    /* per node */
+    int64_t *t, *recv, *send;
+    uint32_t *in_off;
+    sim_in *ins;
+    uint32_t *xout_off, *xout;   /* cross-core out edges (xslots) */
+    uint32_t *xin_off, *xin;     /* cross-core in edges (xslots) */
+    uint32_t *pos_of;            /* position of v in its core's order */
+    uint64_t *done;              /* firings begun */
+    uint32_t *wait_head;         /* first core waiting for this node */
+    sim_x *x;
+    sim_occ *occ;
+    /* per core */
+    uint32_t *pos, *cnt, *first;
+    uint64_t *iter;
+    int64_t *free;
+    uint32_t *wait_next, *wait_node, *wait_edge;
+    bool *wait_fifo, *queued;
+    /* rings */
+    uint32_t W;
+    uint64_t mask;
+    int64_t *xr;        /* begin times, W * n */
+    uint32_t *cr;       /* causes, W * n: kind | edge << 3 */
+    int64_t *ar;        /* bus arrivals, W * nx */
+    int64_t *gr;        /* bus grants, W * nx */
+    uint32_t *br;       /* bus grant cause: previous xslot + 1, or 0 */
+    uint64_t *bi;       /* bus grant cause: previous transfer's iteration */
+    uint64_t *granted;  /* per xslot */
+    uint64_t *f1, *f2;  /* fingerprints of each iteration's begin differences */
+    int64_t *lmin, *lmax;
+    uint64_t completed, max_iter;
+    uint64_t valid_lo;  /* every node's times from this iteration on are held */
+    uint64_t last_break[PM_SIM_MAX_CYCLICITY + 1];
+    int64_t *half;      /* begin times of iteration N/2 */
+    /* events */
+    sim_heap ev, pend;
+    int64_t now, bus_free;
+    bool grant_queued;
+    uint32_t bus_last;  /* xslot + 1 of the last granted transfer, 0 = none */
+    uint64_t bus_last_iter;
+    /* results gathered while running */
+    int64_t makespan, lat_max;
+    uint64_t firings;
+    uint32_t record;
+    pm_sim_firing *trace;
+    size_t ntrace, trace_cap;
+    pm_sim_transfer *tr;
+    size_t ntr, tr_cap;
+} sim;
+
+#define SIM_CAUSE(c) ((pm_sim_cause)((c) & 7u))
+#define SIM_CAUSE_EDGE(c) ((c) >> 3)
+
+static inline int64_t *sim_x_at(const sim *s, uint32_t v, uint64_t k)
+{
+    return &s->xr[(size_t)(k & s->mask) * s->n + v];
+}
+
+/* The node run by core c just before position `pos` (wrapping to the last
+ * node of the previous iteration); *back is 1 when it wrapped. */
+uint32_t sim_prev_on_core(const sim *s, uint32_t c, uint32_t pos, uint32_t *back);
+
+/* First iteration whose times the rings still hold for every node. */
+uint64_t sim_window_lo(const sim *s);
+
+/* End-of-run analysis (sim_report.c). */
+int sim_report_steady(sim *s, pm_sim_result *r);
+int sim_report_chain(sim *s, pm_sim_result *r);
+int sim_report_deadlock(sim *s, pm_sim_result *r, pm_diag *diag);
+int sim_report_resources(sim *s, pm_sim_result *r);
+
+#endif
