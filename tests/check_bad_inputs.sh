@@ -67,6 +67,8 @@ gen_input() {
               printf 'core 0: src fir mix\ncore 2: ctl\n' > "$tmp/twin/$f" ;;
     map_no_final_newline) printf 'core 0: src fir mix\ncore 2: ctl' > "$f"
                           printf 'core 0: src fir mix\ncore 2: ctl\n' > "$tmp/twin/$f" ;;
+    pile_up) { printf 'procs 2\nnode a cycles=1 pin=0\nnode b cycles=100 pin=1\n'
+               awk 'BEGIN { for (i = 0; i < 2000; i++) print "edge a -> b" }'; } > "$f" ;;
     cr_only) printf '%s\n' "$BASE" | tr '\n' '\r' > "$f" ;;
     no_final_newline) printf '%s' "$BASE" > "$f"
                       printf '%s\n' "$BASE" > "$tmp/twin/$f" ;;

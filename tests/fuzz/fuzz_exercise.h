@@ -5,9 +5,9 @@
  * A scenario that reads is walked (indices in range), then handed to the
  * analyses that trust the reader's output: repetition vector and one-
  * iteration check, single-rate expansion, iteration bound and floors, list
- * scheduling, timing of the map and its loop-time floor, a -p override.  A
- * map that reads must pass pm_map_check, be timed, and survive a write and
- * read-back.  Errors from the analyses are legal answers (a zero-delay loop,
+ * scheduling, timing of the map, its loop-time floor and a short self-timed
+ * simulation, a -p override.  A map that reads must pass pm_map_check, be
+ * timed and simulated, and survive a write and read-back.  Errors from the analyses are legal answers (a zero-delay loop,
  * an overflow) as long as they keep the error contract; crashes, leaks and
  * broken invariants are not.  Sizes are capped so each input stays fast.
  * Test code, not part of the library.
@@ -26,12 +26,15 @@
 #include "pacemap/map.h"
 #include "pacemap/sched.h"
 #include "pacemap/sdf.h"
+#include "pacemap/sim.h"
 
 /* Caps of the exercise (not of the library). */
 #define FUZZ_MAX_CHECK_FIRINGS 100000u /* one-iteration check */
 #define FUZZ_MAX_EXPAND_FIRINGS 2048u  /* single-rate expansion */
 #define FUZZ_MAX_SCHED_NODES 512u      /* list scheduling */
 #define FUZZ_MAX_FLOOR_EDGES 2048u     /* loop-time floor, O(k V E) */
+#define FUZZ_MAX_SIM_NODES 256u        /* simulation */
+#define FUZZ_SIM_ITERATIONS 24u
 
 /* An analysis failed: fine if it kept the contract. */
 static void fuzz_analysis_error(int rc, const pm_diag *d)
@@ -71,9 +74,30 @@ static void fuzz_walk_graph(const pm_graph *g)
     }
 }
 
-/* Time map m on g and compute its loop-time floor. */
+/* A short simulation of map m, with and without a FIFO capacity. */
+static void fuzz_simulate(const pm_graph *g, const pm_map *m)
+{
+    if (g->nnodes > FUZZ_MAX_SIM_NODES || !pm_graph_is_single_rate(g))
+        return;
+    for (uint32_t fifo = 0; fifo <= 1; fifo++) {
+        pm_sim_opts o = { .iterations = FUZZ_SIM_ITERATIONS, .fifo_cap = fifo, .record = 3 };
+        pm_sim_result r;
+        memset(&r, 0, sizeof r);
+        pm_diag d;
+        pm_diag_clear(&d);
+        int rc = pm_sim_run(g, m, &o, &r, &d);
+        fuzz_analysis_error(rc, &d);
+        if (rc == PM_OK && r.iterations != FUZZ_SIM_ITERATIONS)
+            fuzz_fail("the simulation stopped early without an error", NULL);
+        pm_sim_result_free(&r);
+    }
+}
+
+/* Time map m on g, compute its loop-time floor, simulate it. */
 static void fuzz_time_map(const pm_graph *g, const pm_map *m)
 {
+    fuzz_simulate(g, m);
+
     pm_diag d;
     pm_diag_clear(&d);
     pm_schedule *s = NULL;
