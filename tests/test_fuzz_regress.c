@@ -9,7 +9,10 @@
  * negative PM_E* code, no result, a non-empty one-line message.  A broken
  * contract aborts (the test fails); crashes, leaks and undefined behaviour
  * are caught by `make asan`.  Inputs named hand-* were written by hand for
- * edges the fuzzers reach slowly; the others are fuzzer finds.
+ * edges the fuzzers reach slowly; the others are fuzzer finds.  Inputs named
+ * known-* reproduce a bug reported to the owner of the file and not fixed
+ * yet: they are replayed only with PM_FUZZ_KNOWN=1 (a note says so); rename
+ * the file without the prefix once the fix lands.
  */
 #include <stdarg.h>
 #include <stddef.h>
@@ -101,6 +104,11 @@ static void test_regress_all(void **state)
     for (struct dirent *de; (de = readdir(dir)) != NULL;) {
         if (de->d_name[0] == '.')
             continue;
+        if (strncmp(de->d_name, "known-", 6) == 0 && !getenv("PM_FUZZ_KNOWN")) {
+            print_message("note: %s/%s not replayed: a reported bug not fixed yet "
+                          "(PM_FUZZ_KNOWN=1 replays it)\n", REGRESS_DIR, de->d_name);
+            continue;
+        }
         regress_input in;
         regress_load(&in, de->d_name);
         if (in.len <= FUZZ_MAX_INPUT) {
