@@ -14,8 +14,9 @@
 # Inputs named tests/fuzz/regress/known-* reproduce reported bugs not fixed
 # yet: they are neither replayed nor seeded (the fuzzer may find them again).
 # Environment: FUZZ_CC (default clang), FUZZ_MAX_LEN (default 4096),
-# FUZZ_CFLAGS (added to every compile, e.g. -DFUZZ_NO_SIM to leave the
-# simulator out of the exercise while a simulator bug is open).
+# FUZZ_CFLAGS (added to every compile: -DFUZZ_SKIP_KNOWN steers the exercise
+# around the open known-* bugs so the fuzzer can look for new ones;
+# -DFUZZ_NO_SIM leaves the simulator out).
 set -u
 secs=${1:-30}
 case "$secs" in ''|*[!0-9]*) echo "usage: sh tests/fuzz/run.sh SECONDS" >&2; exit 2 ;; esac
