@@ -31,6 +31,7 @@ typedef struct ls_ctx {
     bool *cl_class_ok;   /* part x class: every member may run there */
     int64_t *arr;        /* per in-edge of the node being placed: remote arrival */
     uint32_t *mark;      /* per core: node id + 1 when a producer of it sits there */
+    uint32_t *nsent;     /* per node: sends committed so far */
     bool overflow;
 } ls_ctx;
 
@@ -86,14 +87,42 @@ static bool ls_less(const void *ctx, uint32_t a, uint32_t b)
     return a < b;
 }
 
+/* Start of the next send of placed node u.  The map rule (sched.h) runs a
+ * producer's sends right after it ends, one after another, pushing back
+ * whatever follows it on its core; so the estimate puts them there too,
+ * not in the first idle time after nodes already placed behind u (which
+ * made every remote placement look late and piled nodes onto one core). */
+static int64_t ls_send_start(ls_ctx *x, uint32_t u)
+{
+    int64_t send = x->g->platform.comm.send;
+    return sched_add(x->slot[u].end, send * (int64_t)x->nsent[u], &x->overflow);
+}
+
+/* Commit the next send of u.  Where that time is still idle on u's core it
+ * is reserved there; otherwise the nodes placed behind u will be pushed back
+ * by `send` when the map is timed, which the estimate charges to the core's
+ * availability: `send` more cycles at the tail. */
+static int64_t ls_send_commit(ls_ctx *x, uint32_t u)
+{
+    int64_t send = x->g->platform.comm.send, ss = ls_send_start(x, u);
+    sched_lane *l = &x->lanes[x->slot[u].core];
+    if (send == 0)
+        return ss;
+    x->nsent[u]++;
+    if (sched_lane_fit(l, ss, send) == ss)
+        sched_lane_reserve(l, ss, send);
+    else
+        sched_lane_reserve(l, l->tail, send);
+    return ss;
+}
+
 /* Where the data of compact in-edge i would arrive on a remote core, if the
- * transfer were committed now (send in the producer's free time, bus). */
+ * transfer were committed now (send right after the producer, then bus). */
 static int64_t ls_remote_arrival(ls_ctx *x, uint32_t i)
 {
     const pm_graph *g = x->g;
-    const pm_slot *u = &x->slot[x->a.in_src[i]];
     int64_t send = g->platform.comm.send, cost = x->a.in_cost[i];
-    int64_t se = sched_lane_fit_occ(&x->lanes[u->core], u->end, send) + send;
+    int64_t se = sched_add(ls_send_start(x, x->a.in_src[i]), send, &x->overflow);
     if (g->platform.interconnect == PM_BUS && cost > 0)
         se = sched_lane_fit(&x->bus, se, cost);
     return sched_add(se, cost, &x->overflow);
@@ -223,9 +252,7 @@ static void ls_commit(ls_ctx *x, uint32_t v, uint32_t c)
             continue;
         }
         int64_t cost = x->a.in_cost[i];
-        int64_t ss = sched_lane_fit_occ(&x->lanes[u->core], u->end, cm->send);
-        sched_lane_reserve_occ(&x->lanes[u->core], ss, cm->send);
-        int64_t ws = ss + cm->send;
+        int64_t ws = sched_add(ls_send_commit(x, x->a.in_src[i]), cm->send, &x->overflow);
         if (g->platform.interconnect == PM_BUS && cost > 0) {
             ws = sched_lane_fit(&x->bus, ws, cost);
             sched_lane_reserve_occ(&x->bus, ws, cost);
@@ -698,6 +725,7 @@ static void ls_free(ls_ctx *x)
     free(x->cl_class_ok);
     free(x->arr);
     free(x->mark);
+    free(x->nsent);
     sched_adj_free(&x->a);
 }
 
@@ -717,8 +745,9 @@ static int ls_alloc(ls_ctx *x, const pm_graph *g)
     x->cluster = malloc(n * sizeof *x->cluster);
     x->arr = malloc(((size_t)maxin + 1) * sizeof *x->arr);
     x->mark = calloc(p, sizeof *x->mark);
+    x->nsent = calloc(n, sizeof *x->nsent);
     if (!x->rank || !x->lanes || !x->slot || !x->seq || !x->deps || !x->cluster ||
-        !x->arr || !x->mark)
+        !x->arr || !x->mark || !x->nsent)
         return PM_ENOMEM;
     for (uint32_t v = 0; v < g->nnodes; v++)
         x->cluster[v] = PM_NONE;
