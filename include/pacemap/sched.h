@@ -82,12 +82,18 @@ typedef struct pm_schedule {
 
 /* How the list scheduler runs.  Zero-initialise for the defaults. */
 typedef struct pm_sched_opts {
-    /* false (default): each strongly connected part with a loop whose work
-     * (sum of its node times) is at most the target period stays on one
-     * core, so no transfer lengthens its loops.  true: ignore loops. */
+    /* false (default): the loop rule (listsched.c explains why).  With
+     * T = the target period below: a strongly connected part with a loop
+     * whose work is <= T stays on one core; else the loop that sets the
+     * part's own bound stays on one core when its work is <= T; else the
+     * part is spread freely.  While any core can take a node within T,
+     * cores whose work per iteration would exceed T are avoided, and so is
+     * a core that data left and would come back to (a loop of one delay
+     * through the core's order) once its span there exceeds T.
+     * true: ignore loops (plain HEFT). */
     bool loop_blind;
     /* Period the loop rule aims at; 0 = max(ceil(total work / P), largest
-     * node) with the smallest cycles of each node. */
+     * node, ceil(iteration bound)) with the smallest cycles of each node. */
     int64_t target_period;
     /* false (default): HEFT-style - priority = upward rank, earliest-finish
      * core with insertion into idle gaps.  true: Graham's plain list
