@@ -11,7 +11,10 @@
 
 #include <cmocka.h>
 
+#include "pacemap/bound.h"
 #include "pacemap/map.h"
+#include "pacemap/reader.h"
+#include "pacemap/sdf.h"
 #include "pacemap/sched.h"
 #include "pacemap/sim.h"
 #include "sched_testlib.h"
@@ -193,6 +196,44 @@ static void test_loop_aware_beats_blind_simulated(void **state)
     }
 }
 
+/* The demo decimating receiver (scenarios/rx_decimating.pace, invented),
+ * expanded to single rate, on 2 cores.  Its tracking part (16000 cycles)
+ * exceeds the floor T = iteration bound, but the loop that sets the bound
+ * fits, so that loop's firings share a core; the self-timed period of the
+ * loop-aware map is closer to the bound than the loop-blind one's, and no
+ * map beats the bound. */
+static void test_decimating_receiver(void **state)
+{
+    (void)state;
+    pm_graph *src = NULL, *g = NULL;
+    uint64_t *rep = NULL;
+    pm_diag d;
+    uint32_t two = 2;
+    assert_int_equal(pm_scenario_read_file("scenarios/rx_decimating.pace", &src, &d), PM_OK);
+    assert_int_equal(pm_graph_set_cores(src, 1, NULL, &two), PM_OK);
+    assert_int_equal(pm_sdf_single_rate(src, &g, &rep, NULL, &d), PM_OK);
+    pm_bound b = {0};
+    assert_int_equal(pm_bound_compute(g, NULL, &b, &d), PM_OK);
+    assert_true(b.has_loop && b.nparts >= 1);
+    pm_map *m = NULL;
+    assert_int_equal(pm_sched_list(g, NULL, NULL, &m, &d), PM_OK);
+    const pm_loop *worst = &b.parts[0].worst;
+    for (uint32_t i = 1; i < worst->len; i++)
+        assert_int_equal(m->core_of[worst->nodes[i]], m->core_of[worst->nodes[0]]);
+    pm_rat aware = sim_period_of(g, false), blind = sim_period_of(g, true);
+    print_message("rx_decimating -p 2, firings: aware %lld/%lld, blind %lld/%lld, bound "
+                  "%lld/%lld\n", (long long)aware.num, (long long)aware.den,
+                  (long long)blind.num, (long long)blind.den,
+                  (long long)b.iteration_bound.num, (long long)b.iteration_bound.den);
+    assert_true(pm_rat_cmp(aware, b.iteration_bound) >= 0);
+    assert_true(pm_rat_cmp(blind, aware) > 0);
+    pm_map_destroy(m);
+    pm_bound_free(&b);
+    free(rep);
+    pm_graph_destroy(g);
+    pm_graph_destroy(src);
+}
+
 /* A loop whose work (70) exceeds the target period (50) is not kept
  * together: the result is the loop-blind one. */
 static void test_loop_rule_respects_target(void **state)
@@ -250,6 +291,7 @@ int main(void)
         cmocka_unit_test(test_floor_fraction_and_none),
         cmocka_unit_test(test_loop_aware_beats_blind),
         cmocka_unit_test(test_loop_aware_beats_blind_simulated),
+        cmocka_unit_test(test_decimating_receiver),
         cmocka_unit_test(test_loop_rule_respects_target),
         cmocka_unit_test(test_floor_large_ring),
     };
