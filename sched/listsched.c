@@ -104,8 +104,12 @@ static bool ls_less(const void *ctx, uint32_t a, uint32_t b)
  * made every remote placement look late and piled nodes onto one core). */
 static int64_t ls_send_start(ls_ctx *x, uint32_t u)
 {
-    int64_t send = x->g->platform.comm.send;
-    return sched_add(x->slot[u].end, send * (int64_t)x->nsent[u], &x->overflow);
+    int64_t send = x->g->platform.comm.send, before;
+    if (__builtin_mul_overflow(send, (int64_t)x->nsent[u], &before) || before > PM_MAX_VALUE) {
+        x->overflow = true;
+        return PM_MAX_VALUE;
+    }
+    return sched_add(x->slot[u].end, before, &x->overflow);
 }
 
 /* Commit the next send of u.  Where that time is still idle on u's core it
@@ -169,7 +173,8 @@ static bool ls_within_cap(const ls_ctx *x, uint32_t v, uint32_t c)
     int64_t add = pm_graph_cycles_on(x->g, v, x->g->platform.core_class[c]);
     if (k != PM_NONE)
         add = x->cl_core[k] == PM_NONE ? x->cl_left[k] : 0;
-    return x->load[c] + x->pend[c] + add <= x->cap;
+    bool ovf = false; /* saturated sums only compare */
+    return sched_add(sched_add(x->load[c], x->pend[c], &ovf), add, &ovf) <= x->cap;
 }
 
 /* Whether v may go to core c (pins, classes, its loop part, the guard). */

@@ -347,6 +347,23 @@ static void test_edge_cases(void **state)
     assert_int_equal(pm_sched_list(g, NULL, &s, NULL, &d), PM_ERANGE);
     assert_null(s);
     pm_graph_destroy(g);
+
+    /* sends of 2^61 cycles, five after one producer: their times pass 62
+     * bits, an error rather than a wrapped product (4 * 2^61 = 2^63) */
+    g = tl_graph(2);
+    a = tl_node(g, "a", 1);
+    for (uint32_t i = 0; i < 5; i++) {
+        char name[3] = {'x', (char)('0' + i), 0};
+        uint32_t v = tl_node(g, name, 1);
+        g->nodes[v].pin_core = 1;
+        tl_edge(g, a, v, 0, 1);
+    }
+    g->nodes[a].pin_core = 0;
+    tl_comm(g, 0, 0, INT64_C(1) << 61, 0, PM_P2P);
+    pm_graph_finalize(g);
+    assert_int_equal(pm_sched_list(g, NULL, &s, NULL, &d), PM_ERANGE);
+    assert_null(s);
+    pm_graph_destroy(g);
 }
 
 /* Random bytes as a map file: an error or a valid map, never a crash. */

@@ -135,7 +135,8 @@ typedef struct pm_sched_opts {
  * node no core may run, or pinned out of range), PM_EUNSUPPORTED
  * (multirate), PM_EINVAL (bad priority list), PM_ERANGE (time overflow),
  * PM_ENOMEM.  Complexity: O((V + E) log V + V * P * PM_SCHED_GAPS) time,
- * O(V + E + P * PM_SCHED_GAPS) memory.
+ * O(V + E + P * PM_SCHED_GAPS) memory; with delays and the loop rule on,
+ * plus pm_bound_compute (bound.h) and O(P) per node for the guard.
  */
 #define PM_SCHED_GAPS 8
 int pm_sched_list(const pm_graph *g, const pm_sched_opts *opts, pm_schedule **out,
