@@ -4,12 +4,14 @@
  *
  * Default mode: upward-rank priorities with average costs, earliest-finish
  * core with insertion into remembered idle gaps (Topcuoglu, Hariri & Wu,
- * IEEE TPDS 2002), plus the loop rule (strongly connected parts that fit the
- * target period stay on one core).  Greedy mode: Graham's plain list
+ * IEEE TPDS 2002), plus the loop rule (loops, or whole strongly connected
+ * parts, whose work fits the period floor stay on one core; see below).  Greedy mode: Graham's plain list
  * scheduling (1969).  Timing rules live in schedtime.c; this file only uses
  * estimates of them to choose.
  */
 #include "sched_internal.h"
+
+#include "pacemap/bound.h"
 
 #include <stdlib.h>
 #include <string.h>
@@ -31,6 +33,15 @@ typedef struct ls_ctx {
     bool *cl_class_ok;   /* part x class: every member may run there */
     int64_t *arr;        /* per in-edge of the node being placed: remote arrival */
     uint32_t *mark;      /* per core: node id + 1 when a producer of it sits there */
+    uint32_t *nsent;     /* per node: sends committed so far */
+    /* period guard of the loop rule (cap 0: off) */
+    int64_t cap;         /* the rule's period floor T */
+    bool capping;        /* while choosing: only cores that stay within cap */
+    int64_t *load;       /* per core: committed cycles per iteration */
+    int64_t *pend;       /* per core: unplaced work of groups bound there */
+    int64_t *cl_left;    /* per group: work of its unplaced members */
+    uint64_t *via;       /* per node: cores (bit c % 64) of it and its ancestors */
+    int64_t *first;      /* per core: earliest start placed there */
     bool overflow;
 } ls_ctx;
 
@@ -86,14 +97,48 @@ static bool ls_less(const void *ctx, uint32_t a, uint32_t b)
     return a < b;
 }
 
+/* Start of the next send of placed node u.  The map rule (sched.h) runs a
+ * producer's sends right after it ends, one after another, pushing back
+ * whatever follows it on its core; so the estimate puts them there too,
+ * not in the first idle time after nodes already placed behind u (which
+ * made every remote placement look late and piled nodes onto one core). */
+static int64_t ls_send_start(ls_ctx *x, uint32_t u)
+{
+    int64_t send = x->g->platform.comm.send, before;
+    if (__builtin_mul_overflow(send, (int64_t)x->nsent[u], &before) || before > PM_MAX_VALUE) {
+        x->overflow = true;
+        return PM_MAX_VALUE;
+    }
+    return sched_add(x->slot[u].end, before, &x->overflow);
+}
+
+/* Commit the next send of u.  Where that time is still idle on u's core it
+ * is reserved there; otherwise the nodes placed behind u will be pushed back
+ * by `send` when the map is timed, which the estimate charges to the core's
+ * availability: `send` more cycles at the tail. */
+static int64_t ls_send_commit(ls_ctx *x, uint32_t u)
+{
+    int64_t send = x->g->platform.comm.send, ss = ls_send_start(x, u);
+    sched_lane *l = &x->lanes[x->slot[u].core];
+    if (send == 0)
+        return ss;
+    x->nsent[u]++;
+    if (x->load)
+        x->load[x->slot[u].core] = sched_add(x->load[x->slot[u].core], send, &x->overflow);
+    if (sched_lane_fit(l, ss, send) == ss)
+        sched_lane_reserve(l, ss, send);
+    else
+        sched_lane_reserve(l, l->tail, send);
+    return ss;
+}
+
 /* Where the data of compact in-edge i would arrive on a remote core, if the
- * transfer were committed now (send in the producer's free time, bus). */
+ * transfer were committed now (send right after the producer, then bus). */
 static int64_t ls_remote_arrival(ls_ctx *x, uint32_t i)
 {
     const pm_graph *g = x->g;
-    const pm_slot *u = &x->slot[x->a.in_src[i]];
     int64_t send = g->platform.comm.send, cost = x->a.in_cost[i];
-    int64_t se = sched_lane_fit_occ(&x->lanes[u->core], u->end, send) + send;
+    int64_t se = sched_add(ls_send_start(x, x->a.in_src[i]), send, &x->overflow);
     if (g->platform.interconnect == PM_BUS && cost > 0)
         se = sched_lane_fit(&x->bus, se, cost);
     return sched_add(se, cost, &x->overflow);
@@ -119,10 +164,25 @@ static int64_t ls_ready_on(ls_ctx *x, uint32_t v, uint32_t c, int64_t r_remote)
     return r;
 }
 
-/* Whether v may go to core c (pins, classes, its loop part). */
+/* Whether putting v on core c keeps the core's work per iteration (placed
+ * work + the unplaced rest of groups bound there + what v brings) within
+ * the loop rule's floor: a core's work bounds the period from below. */
+static bool ls_within_cap(const ls_ctx *x, uint32_t v, uint32_t c)
+{
+    uint32_t k = x->cluster[v];
+    int64_t add = pm_graph_cycles_on(x->g, v, x->g->platform.core_class[c]);
+    if (k != PM_NONE)
+        add = x->cl_core[k] == PM_NONE ? x->cl_left[k] : 0;
+    bool ovf = false; /* saturated sums only compare */
+    return sched_add(sched_add(x->load[c], x->pend[c], &ovf), add, &ovf) <= x->cap;
+}
+
+/* Whether v may go to core c (pins, classes, its loop part, the guard). */
 static bool ls_may_use(const ls_ctx *x, uint32_t v, uint32_t c)
 {
     if (!sched_allowed(x->g, v, c))
+        return false;
+    if (x->capping && !ls_within_cap(x, v, c))
         return false;
     uint32_t k = x->cluster[v];
     if (k == PM_NONE)
@@ -149,13 +209,31 @@ typedef struct ls_best {
     int64_t end;
 } ls_best;
 
-/* Evaluate core c for v; returns the start it would get there. */
+/* Whether v on core c would take data that left c for another core and
+ * comes back: with the core's order repeating every iteration, that closes
+ * a loop of one delay through everything c runs from the ancestor to v
+ * (a loop of the communication graph, Sriram & Bhattacharyya 2000). */
+static bool ls_round_trip(const ls_ctx *x, uint32_t v, uint32_t c)
+{
+    for (uint32_t i = x->a.in_off[v]; i < x->a.in_off[v + 1]; i++) {
+        uint32_t u = x->a.in_src[i];
+        if (x->slot[u].core != c && (x->via[u] >> (c % 64) & 1))
+            return true;
+    }
+    return false;
+}
+
+/* Evaluate core c for v; returns the start it would get there.  Under the
+ * period guard a round trip whose span on c exceeds the floor is refused. */
 static int64_t ls_try(ls_ctx *x, uint32_t v, uint32_t c, int64_t r_remote, ls_best *b)
 {
     const pm_graph *g = x->g;
     int64_t w = pm_graph_cycles_on(g, v, g->platform.core_class[c]);
     int64_t s = sched_lane_fit(&x->lanes[c], ls_ready_on(x, v, c, r_remote), w);
     int64_t end = sched_add(s, w, &x->overflow);
+    if (x->capping && end - (x->first[c] < s ? x->first[c] : s) > x->cap &&
+        ls_round_trip(x, v, c))
+        return s;
     if (b->core == PM_NONE || end < b->end || (end == b->end && c < b->core))
         *b = (ls_best){c, end};
     return s;
@@ -184,10 +262,9 @@ static void ls_scan_uniform(ls_ctx *x, uint32_t v, int64_t r, ls_best *b)
  * hold a producer are tried first; among the others, with one class and no
  * receive cost, a core where v can start as soon as its remote data arrive
  * cannot be beaten by a later index, so the scan stops there. */
-static uint32_t ls_pick_core(ls_ctx *x, uint32_t v)
+static uint32_t ls_scan(ls_ctx *x, uint32_t v, int64_t r_remote)
 {
     const pm_graph *g = x->g;
-    int64_t r_remote = ls_arrivals(x, v);
     ls_best b = {PM_NONE, 0};
     if (g->nodes[v].pin_core != PM_NONE) {
         if (ls_may_use(x, v, g->nodes[v].pin_core))
@@ -199,7 +276,7 @@ static uint32_t ls_pick_core(ls_ctx *x, uint32_t v)
         if (ls_may_use(x, v, c))
             ls_try(x, v, c, r_remote, &b);
     }
-    if (g->platform.nclasses == 1 && g->platform.comm.recv == 0 &&
+    if (g->platform.nclasses == 1 && g->platform.comm.recv == 0 && !x->capping &&
         g->nodes[v].pin_class == PM_NONE && x->cluster[v] == PM_NONE) {
         ls_scan_uniform(x, v, r_remote, &b);
         return b.core;
@@ -208,6 +285,42 @@ static uint32_t ls_pick_core(ls_ctx *x, uint32_t v)
         if (x->mark[c] != v + 1 && ls_may_use(x, v, c))
             ls_try(x, v, c, r_remote, &b);
     return b.core;
+}
+
+/* With the loop rule's guard on, first among the cores that stay within
+ * the period floor; when none does, among all. */
+static uint32_t ls_pick_core(ls_ctx *x, uint32_t v)
+{
+    int64_t r_remote = ls_arrivals(x, v);
+    uint32_t c = PM_NONE;
+    if (x->cap > 0) {
+        x->capping = true;
+        c = ls_scan(x, v, r_remote);
+        x->capping = false;
+    }
+    return c != PM_NONE ? c : ls_scan(x, v, r_remote);
+}
+
+/* The guard's bookkeeping: v of w cycles now runs on core c. */
+static void ls_account(ls_ctx *x, uint32_t v, uint32_t c, int64_t w)
+{
+    uint32_t k = x->cluster[v];
+    bool ovf = false;
+    if (!x->load)
+        return;
+    x->load[c] = sched_add(x->load[c], w, &ovf);
+    x->via[v] = (uint64_t)1 << (c % 64);
+    for (uint32_t i = x->a.in_off[v]; i < x->a.in_off[v + 1]; i++)
+        x->via[v] |= x->via[x->a.in_src[i]];
+    if (x->slot[v].start < x->first[c])
+        x->first[c] = x->slot[v].start;
+    if (k == PM_NONE)
+        return;
+    if (x->cl_core[k] == PM_NONE)
+        x->pend[c] = sched_add(x->pend[c], x->cl_left[k], &ovf);
+    int64_t t = x->cl_left[k] < w ? x->cl_left[k] : w; /* class cycles may exceed the min */
+    x->cl_left[k] -= t;
+    x->pend[c] -= t;
 }
 
 /* Commit v on core c: the transfers it needs, then v itself. */
@@ -223,9 +336,7 @@ static void ls_commit(ls_ctx *x, uint32_t v, uint32_t c)
             continue;
         }
         int64_t cost = x->a.in_cost[i];
-        int64_t ss = sched_lane_fit_occ(&x->lanes[u->core], u->end, cm->send);
-        sched_lane_reserve_occ(&x->lanes[u->core], ss, cm->send);
-        int64_t ws = ss + cm->send;
+        int64_t ws = sched_add(ls_send_commit(x, x->a.in_src[i]), cm->send, &x->overflow);
         if (g->platform.interconnect == PM_BUS && cost > 0) {
             ws = sched_lane_fit(&x->bus, ws, cost);
             sched_lane_reserve_occ(&x->bus, ws, cost);
@@ -233,12 +344,15 @@ static void ls_commit(ls_ctx *x, uint32_t v, uint32_t c)
         int64_t rs = sched_lane_fit_occ(&x->lanes[c], sched_add(ws, cost, &x->overflow), cm->recv);
         sched_lane_reserve_occ(&x->lanes[c], rs, cm->recv);
         r = ls_max(r, sched_add(rs, cm->recv, &x->overflow));
+        if (x->load)
+            x->load[c] = sched_add(x->load[c], cm->recv, &x->overflow);
     }
     int64_t w = pm_graph_cycles_on(g, v, g->platform.core_class[c]);
     int64_t s = sched_lane_fit(&x->lanes[c], r, w);
     sched_lane_reserve(&x->lanes[c], s, w);
     x->slot[v] = (pm_slot){c, s, sched_add(s, w, &x->overflow)};
     x->seq[v] = x->nplaced++;
+    ls_account(x, v, c, w);
     if (x->cluster[v] != PM_NONE)
         x->cl_core[x->cluster[v]] = c;
 }
@@ -326,9 +440,30 @@ static int ls_heft(ls_ctx *x)
     return rc;
 }
 
-/* ---- the loop rule ------------------------------------------------------ */
+/* ---- the loop rule ------------------------------------------------------ *
+ *
+ * Why: in self-timed execution every cycle of the inter-processor
+ * communication graph bounds the period by its time over its delays, and a
+ * cross-core edge on a loop adds its transfer (send + wire + recv) to that
+ * loop's time (Sriram & Bhattacharyya, "Embedded Multiprocessors", 2000).
+ * On the other hand a core's work per iteration bounds the period too, so
+ * gathering a group on one core costs nothing as long as the group's work
+ * stays within the floor the period has anyway:
+ *   T = max(ceil(total work / P), largest node, ceil(iteration bound))
+ * (smallest cycles of each node; opts.target_period replaces T).  A loop
+ * with d delays lets its nodes overlap at most d iterations, so a loop of
+ * one delay already forces a period >= its work: splitting it gains nothing
+ * and pays transfers on every lap - and its work is <= the iteration bound
+ * <= T, so the rule keeps it.  Per strongly connected part with a loop:
+ *   1. its work W <= T: the whole part stays on one core;
+ *   2. else its worst loop (the one setting the part's bound, Ito & Parhi
+ *      1995, from pm_bound_compute) has work <= T: that loop's nodes stay
+ *      on one core, the part's other nodes go where they finish first;
+ *   3. else the part is scheduled loop-blind: no single core can carry its
+ *      worst loop within T, transfers are the price of spreading it.
+ * Pins and classes that rule a group's single core out also leave it free. */
 
-static int64_t ls_target(const ls_ctx *x, const pm_sched_opts *o)
+static int64_t ls_target(const ls_ctx *x, const pm_sched_opts *o, const pm_bound *b)
 {
     if (o && o->target_period > 0)
         return o->target_period;
@@ -339,15 +474,17 @@ static int64_t ls_target(const ls_ctx *x, const pm_sched_opts *o)
         total = sched_add(total, t, &ovf);
         largest = ls_max(largest, t);
     }
-    return ls_max((total + x->P - 1) / x->P, largest);
+    int64_t t = ls_max((total + x->P - 1) / x->P, largest);
+    return b && b->has_loop ? ls_max(t, pm_rat_ceil(b->iteration_bound)) : t;
 }
 
-/* Fix a part's core from pins and its classes from every member; false when
- * the members' constraints cannot be met on one core. */
+/* Fix a group's core from pins and its classes from every member; false
+ * when the members' constraints cannot be met on one core. */
 static bool ls_part_fits(ls_ctx *x, uint32_t k, const uint32_t *members, uint32_t len)
 {
     const pm_platform *p = &x->g->platform;
     bool *ok = &x->cl_class_ok[(size_t)k * p->nclasses], any = false;
+    x->cl_core[k] = PM_NONE;
     for (uint32_t c = 0; c < p->nclasses; c++)
         ok[c] = p->class_count[c] > 0;
     for (uint32_t i = 0; i < len; i++) {
@@ -368,7 +505,71 @@ static bool ls_part_fits(ls_ctx *x, uint32_t k, const uint32_t *members, uint32_
     return any;
 }
 
-/* Mark each loop part whose work fits the target as kept on one core. */
+/* Make members[0..len) group k when their work fits T and one core may
+ * run them all; true when done. */
+static bool ls_keep(ls_ctx *x, uint32_t k, const uint32_t *members, uint32_t len, int64_t T)
+{
+    int64_t work = 0;
+    bool ovf = false;
+    for (uint32_t i = 0; i < len; i++)
+        work = sched_add(work, pm_graph_min_cycles(x->g, members[i]), &ovf);
+    if (len < 2 || work > T || !ls_part_fits(x, k, members, len)) {
+        x->cl_core[k] = PM_NONE;
+        return false;
+    }
+    for (uint32_t i = 0; i < len; i++)
+        x->cluster[members[i]] = k;
+    x->cl_left[k] = work;
+    return true;
+}
+
+/* Steps 1-3 above for every part, given the nodes grouped by part. */
+static void ls_apply_rule(ls_ctx *x, const uint32_t *comp, const uint32_t *start,
+                          const uint32_t *members, const bool *cyclic, uint32_t ncomp,
+                          const pm_bound *b, int64_t T)
+{
+    for (uint32_t k = 0; k < ncomp; k++)
+        x->cl_core[k] = PM_NONE;
+    for (uint32_t k = 0; k < ncomp; k++)
+        if (cyclic[k])
+            ls_keep(x, k, members + start[k], start[k + 1] - start[k], T);
+    for (uint32_t j = 0; b && j < b->nparts; j++) {
+        const pm_part *pt = &b->parts[j];
+        uint32_t k = comp[pt->first_node];
+        if (x->cluster[pt->first_node] == PM_NONE && pt->worst.len < start[k + 1] - start[k])
+            ls_keep(x, k, pt->worst.nodes, pt->worst.len, T);
+    }
+}
+
+/* Nodes grouped by part (counting sort, ids ascending): part k holds
+ * members[start[k] .. start[k+1]). */
+static void ls_group(const pm_graph *g, const uint32_t *comp, uint32_t ncomp, uint32_t *start,
+                     uint32_t *members)
+{
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        start[comp[v] + 1]++;
+    for (uint32_t k = 0; k < ncomp; k++)
+        start[k + 1] += start[k];
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        members[start[comp[v]]++] = v;
+    for (uint32_t k = ncomp; k > 0; k--)
+        start[k] = start[k - 1];
+    start[0] = 0;
+}
+
+/* The bound of g for the rule; false (no loop information) when it cannot
+ * be had, e.g. sums past 62 bits: the rule then works from the work alone. */
+static bool ls_bound(const pm_graph *g, pm_bound *b)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    if (pm_bound_compute(g, NULL, b, &d) == PM_OK)
+        return true;
+    pm_bound_free(b);
+    return false;
+}
+
+/* Mark the groups that the loop rule keeps on one core. */
 static int ls_loop_parts(ls_ctx *x, const pm_sched_opts *o)
 {
     const pm_graph *g = x->g;
@@ -381,33 +582,26 @@ static int ls_loop_parts(ls_ctx *x, const pm_sched_opts *o)
         members = malloc(((size_t)g->nnodes + 1) * sizeof *members);
         x->cl_core = malloc(((size_t)ncomp + 1) * sizeof *x->cl_core);
         x->cl_class_ok = calloc(((size_t)ncomp + 1) * g->platform.nclasses, 1);
-        rc = start && members && x->cl_core && x->cl_class_ok ? PM_OK : PM_ENOMEM;
+        x->cl_left = calloc((size_t)ncomp + 1, sizeof *x->cl_left);
+        x->load = calloc((size_t)x->P + 1, sizeof *x->load);
+        x->pend = calloc((size_t)x->P + 1, sizeof *x->pend);
+        x->via = calloc((size_t)g->nnodes + 1, sizeof *x->via);
+        x->first = malloc(((size_t)x->P + 1) * sizeof *x->first);
+        rc = start && members && x->cl_core && x->cl_class_ok && x->cl_left && x->load &&
+                     x->pend && x->via && x->first
+                 ? PM_OK
+                 : PM_ENOMEM;
     }
     if (rc == PM_OK) {
-        for (uint32_t v = 0; v < g->nnodes; v++)
-            start[comp[v] + 1]++;
-        for (uint32_t k = 0; k < ncomp; k++)
-            start[k + 1] += start[k];
-        for (uint32_t v = 0; v < g->nnodes; v++) /* counting sort, ids ascending */
-            members[start[comp[v]]++] = v;
-        for (uint32_t k = ncomp; k > 0; k--)
-            start[k] = start[k - 1];
-        start[0] = 0;
-        int64_t target = ls_target(x, o);
-        for (uint32_t k = 0; k < ncomp; k++) {
-            x->cl_core[k] = PM_NONE;
-            uint32_t len = start[k + 1] - start[k];
-            int64_t work = 0;
-            bool ovf = false;
-            for (uint32_t i = start[k]; i < start[k + 1]; i++)
-                work = sched_add(work, pm_graph_min_cycles(g, members[i]), &ovf);
-            bool keep = cyclic[k] && len > 1 && work <= target &&
-                        ls_part_fits(x, k, members + start[k], len);
-            if (!keep)
-                x->cl_core[k] = PM_NONE;
-            for (uint32_t i = start[k]; keep && i < start[k + 1]; i++)
-                x->cluster[members[i]] = k;
-        }
+        pm_bound b = {0};
+        bool have = ls_bound(g, &b);
+        ls_group(g, comp, ncomp, start, members);
+        for (uint32_t c = 0; c < x->P; c++)
+            x->first[c] = PM_MAX_VALUE;
+        x->cap = ls_target(x, o, have ? &b : NULL);
+        ls_apply_rule(x, comp, start, members, cyclic, ncomp, have ? &b : NULL, x->cap);
+        if (have)
+            pm_bound_free(&b);
     }
     free(comp);
     free(start);
@@ -698,6 +892,12 @@ static void ls_free(ls_ctx *x)
     free(x->cl_class_ok);
     free(x->arr);
     free(x->mark);
+    free(x->nsent);
+    free(x->load);
+    free(x->pend);
+    free(x->cl_left);
+    free(x->via);
+    free(x->first);
     sched_adj_free(&x->a);
 }
 
@@ -717,8 +917,9 @@ static int ls_alloc(ls_ctx *x, const pm_graph *g)
     x->cluster = malloc(n * sizeof *x->cluster);
     x->arr = malloc(((size_t)maxin + 1) * sizeof *x->arr);
     x->mark = calloc(p, sizeof *x->mark);
+    x->nsent = calloc(n, sizeof *x->nsent);
     if (!x->rank || !x->lanes || !x->slot || !x->seq || !x->deps || !x->cluster ||
-        !x->arr || !x->mark)
+        !x->arr || !x->mark || !x->nsent)
         return PM_ENOMEM;
     for (uint32_t v = 0; v < g->nnodes; v++)
         x->cluster[v] = PM_NONE;

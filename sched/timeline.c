@@ -107,7 +107,13 @@ void sched_lane_reserve(sched_lane *l, int64_t s, int64_t w)
 {
     /* a zero-length job still splits its gap: nothing may later be
      * inserted across it, or the core order would contradict the times */
-    lane_reserve(l, s, w < 0 ? 0 : w);
+    /* past 62 bits the caller reports PM_ERANGE; until then keep s + w
+     * from wrapping (times saturate at PM_MAX_VALUE) */
+    if (w < 0)
+        w = 0;
+    if (s > PM_MAX_VALUE - w)
+        w = s < PM_MAX_VALUE ? PM_MAX_VALUE - s : 0;
+    lane_reserve(l, s, w);
     lane_update_max(l);
 }
 

@@ -138,6 +138,41 @@ static void test_hand_send_recv(void **state)
     pm_graph_destroy(g);
 }
 
+/* Regression: with send occupancy the estimate used to put a producer's
+ * send after whatever already followed it on its core, so every remote
+ * placement looked late and all nodes piled onto core 0 (makespan 1520).
+ * s (10) -> a, b, c (500 each) -> t (10), latency 20, send 2, 1 word, 3
+ * cores.  Worked by hand with the map rule: a, b, c on distinct cores; s
+ * [0,10) and its two sends [10,14) on its core, so its local consumer runs
+ * [14,514) and the remote ones get data at 32 and 34, ending 532 and 534;
+ * t beside the last of them: the other two arrive at 514 + 2 + 20 = 536
+ * and 532 + 2 + 20 = 554, so t runs [554,564).  The worst placement of t
+ * (beside a) ends at 534 + 2 + 20 + 10 = 566. */
+static void test_send_spreads(void **state)
+{
+    (void)state;
+    pm_graph *g = tl_graph(3);
+    uint32_t s0 = tl_node(g, "s", 10), t = PM_NONE, mid[3];
+    for (uint32_t i = 0; i < 3; i++) {
+        char name[2] = {(char)('a' + i), 0};
+        mid[i] = tl_node(g, name, 500);
+    }
+    t = tl_node(g, "t", 10);
+    for (uint32_t i = 0; i < 3; i++)
+        tl_edge(g, s0, mid[i], 0, 1);
+    for (uint32_t i = 0; i < 3; i++)
+        tl_edge(g, mid[i], t, 0, 1);
+    tl_comm(g, 20, 0, 2, 0, PM_P2P);
+    pm_graph_finalize(g);
+    pm_schedule *s = run_checked(g, NULL, NULL);
+    assert_int_not_equal(s->slots[mid[0]].core, s->slots[mid[1]].core);
+    assert_int_not_equal(s->slots[mid[0]].core, s->slots[mid[2]].core);
+    assert_int_not_equal(s->slots[mid[1]].core, s->slots[mid[2]].core);
+    assert_true(s->makespan >= 564 && s->makespan <= 566);
+    pm_schedule_destroy(s);
+    pm_graph_destroy(g);
+}
+
 /* Graham's anomaly (R. L. Graham, "Bounds on multiprocessing timing
  * anomalies", SIAM J. Appl. Math. 17(2), 1969): T1..T9 with times
  * 3,2,2,2,4,4,4,4,9, edges T1->T9, T4->T5..T8, list T1..T9: 12 on 3
@@ -312,6 +347,23 @@ static void test_edge_cases(void **state)
     assert_int_equal(pm_sched_list(g, NULL, &s, NULL, &d), PM_ERANGE);
     assert_null(s);
     pm_graph_destroy(g);
+
+    /* sends of 2^61 cycles, five after one producer: their times pass 62
+     * bits, an error rather than a wrapped product (4 * 2^61 = 2^63) */
+    g = tl_graph(2);
+    a = tl_node(g, "a", 1);
+    for (uint32_t i = 0; i < 5; i++) {
+        char name[3] = {'x', (char)('0' + i), 0};
+        uint32_t v = tl_node(g, name, 1);
+        g->nodes[v].pin_core = 1;
+        tl_edge(g, a, v, 0, 1);
+    }
+    g->nodes[a].pin_core = 0;
+    tl_comm(g, 0, 0, INT64_C(1) << 61, 0, PM_P2P);
+    pm_graph_finalize(g);
+    assert_int_equal(pm_sched_list(g, NULL, &s, NULL, &d), PM_ERANGE);
+    assert_null(s);
+    pm_graph_destroy(g);
 }
 
 /* Random bytes as a map file: an error or a valid map, never a crash. */
@@ -344,6 +396,7 @@ int main(void)
         cmocka_unit_test(test_hand_p2p),
         cmocka_unit_test(test_hand_bus),
         cmocka_unit_test(test_hand_send_recv),
+        cmocka_unit_test(test_send_spreads),
         cmocka_unit_test(test_graham_anomaly),
         cmocka_unit_test(test_random_checked),
         cmocka_unit_test(test_deterministic),

@@ -82,12 +82,18 @@ typedef struct pm_schedule {
 
 /* How the list scheduler runs.  Zero-initialise for the defaults. */
 typedef struct pm_sched_opts {
-    /* false (default): each strongly connected part with a loop whose work
-     * (sum of its node times) is at most the target period stays on one
-     * core, so no transfer lengthens its loops.  true: ignore loops. */
+    /* false (default): the loop rule (listsched.c explains why).  With
+     * T = the target period below: a strongly connected part with a loop
+     * whose work is <= T stays on one core; else the loop that sets the
+     * part's own bound stays on one core when its work is <= T; else the
+     * part is spread freely.  While any core can take a node within T,
+     * cores whose work per iteration would exceed T are avoided, and so is
+     * a core that data left and would come back to (a loop of one delay
+     * through the core's order) once its span there exceeds T.
+     * true: ignore loops (plain HEFT). */
     bool loop_blind;
     /* Period the loop rule aims at; 0 = max(ceil(total work / P), largest
-     * node) with the smallest cycles of each node. */
+     * node, ceil(iteration bound)) with the smallest cycles of each node. */
     int64_t target_period;
     /* false (default): HEFT-style - priority = upward rank, earliest-finish
      * core with insertion into idle gaps.  true: Graham's plain list
@@ -129,7 +135,8 @@ typedef struct pm_sched_opts {
  * node no core may run, or pinned out of range), PM_EUNSUPPORTED
  * (multirate), PM_EINVAL (bad priority list), PM_ERANGE (time overflow),
  * PM_ENOMEM.  Complexity: O((V + E) log V + V * P * PM_SCHED_GAPS) time,
- * O(V + E + P * PM_SCHED_GAPS) memory.
+ * O(V + E + P * PM_SCHED_GAPS) memory; with delays and the loop rule on,
+ * plus pm_bound_compute (bound.h) and O(P) per node for the guard.
  */
 #define PM_SCHED_GAPS 8
 int pm_sched_list(const pm_graph *g, const pm_sched_opts *opts, pm_schedule **out,
