@@ -88,9 +88,12 @@ static sim_ev sim_heap_pop(sim_heap *h)
 
 static int sim_occ_grow(sim_occ *o)
 {
-    if (o->cap >= SIM_OCC_LIMIT)
-        return PM_ELIMIT; /* tokens pile up without bound (pm_sim_run names the edge) */
     uint32_t nc = o->cap ? o->cap * 2 : 4;
+    /* one edge's queue is capped, and so are all queues together: many
+     * edges piling up at once must not take the machine's memory */
+    if (o->cap >= SIM_OCC_LIMIT || (uint64_t)nc * sizeof *o->q > *o->budget)
+        return PM_ELIMIT; /* tokens pile up without bound (pm_sim_run names the edge) */
+    *o->budget -= (uint64_t)(nc - o->cap) * sizeof *o->q;
     int64_t *nq = malloc(nc * sizeof *nq);
     if (!nq)
         return PM_ENOMEM;
@@ -105,8 +108,11 @@ static int sim_occ_grow(sim_occ *o)
 
 static inline int sim_occ_queue(sim_occ *o, int64_t t, bool pop)
 {
-    if (o->len == o->cap && sim_occ_grow(o))
-        return PM_ENOMEM;
+    if (o->len == o->cap) {
+        int rc = sim_occ_grow(o);
+        if (rc)
+            return rc;
+    }
     o->q[(o->head + o->len++) & (o->cap - 1)] = t;
     o->pops = pop;
     return PM_OK;
@@ -205,6 +211,9 @@ static int sim_alloc_nodes(sim *s)
     s->xs_of = calloc(e + 1, sizeof *s->xs_of);
     s->x = calloc(e + 1, sizeof *s->x);
     s->occ = calloc(e + 1, sizeof *s->occ);
+    s->occ_budget = SIM_MEM_LIMIT;
+    for (uint32_t i = 0; s->occ && i <= e; i++)
+        s->occ[i].budget = &s->occ_budget;
     s->pos_of = calloc(n + 1, sizeof *s->pos_of);
     s->done = calloc(n + 1, sizeof *s->done);
     s->wait_head = malloc((n + 1) * sizeof *s->wait_head);
@@ -252,7 +261,14 @@ static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
             continue;
         sim_x *x = &s->x[s->nx];
         x->edge = e, x->src = ed->src, x->dst = ed->dst, x->delay = ed->delay;
-        x->cost = cm->latency + cm->per_word * ed->words;
+        __int128 cost = (__int128)cm->latency + (__int128)cm->per_word * ed->words;
+        if (cost > PM_MAX_VALUE) {
+            pm_diag_set(diag, g->file, ed->line, ed->col,
+                        "a transfer on this edge takes more than %lld cycles",
+                        (long long)PM_MAX_VALUE);
+            return PM_ERANGE;
+        }
+        x->cost = (int64_t)cost;
         x->cap = fifo_cap ? (ed->delay > fifo_cap ? ed->delay : fifo_cap) : 0;
         if (x->cap > s->span)
             s->span = x->cap;
@@ -329,7 +345,9 @@ static int sim_check_range(const sim *s, pm_diag *diag)
 
 static uint64_t sim_ring_bytes(const sim *s, uint64_t W)
 {
-    return W * ((uint64_t)s->n * 12 + (uint64_t)s->nx * 28 + 32);
+    /* saturates: a window of 2^62 iterations must not wrap to a small size */
+    unsigned __int128 b = (unsigned __int128)W * ((uint64_t)s->n * 12 + (uint64_t)s->nx * 28 + 32);
+    return b > UINT64_MAX ? UINT64_MAX : (uint64_t)b;
 }
 
 /* Copy ring `old` (W_old slots of `width` bytes-per-slot items) into the
@@ -421,7 +439,7 @@ static int sim_ring_fit(sim *s, pm_diag *diag)
     if (s->xr && need <= s->W)
         return PM_OK;
     uint64_t W = s->W ? s->W : 8;
-    while (W < need)
+    while (W < need && W < (UINT64_C(1) << 62))
         W *= 2;
     if (sim_ring_bytes(s, W) > SIM_MEM_LIMIT) {
         uint32_t e = sim_worst_edge(s);
@@ -429,7 +447,7 @@ static int sim_ring_fit(sim *s, pm_diag *diag)
         pm_diag_set(diag, g->file, e == PM_NONE ? 0 : g->edges[e].line,
                     e == PM_NONE ? 0 : g->edges[e].col,
                     "tokens pile up on edge '%s' -> '%s' (cores drift %llu iterations "
-                    "apart); give a FIFO capacity or fewer iterations",
+                    "apart); give a FIFO capacity (--fifo N) or fewer iterations (-n)",
                     e == PM_NONE ? "?" : pm_graph_node_name(g, g->edges[e].src),
                     e == PM_NONE ? "?" : pm_graph_node_name(g, g->edges[e].dst),
                     (unsigned long long)(s->max_iter - s->completed));
@@ -1105,7 +1123,7 @@ static void sim_pile_up_message(const sim *s, pm_diag *diag)
     const pm_edge *e = &g->edges[s->x[best].edge];
     pm_diag_set(diag, g->file, e->line, e->col,
                 "tokens pile up without bound on edge '%s' -> '%s'; give a FIFO capacity "
-                "or fewer iterations", pm_graph_node_name(g, e->src), pm_graph_node_name(g, e->dst));
+                "(--fifo N) or fewer iterations (-n)", pm_graph_node_name(g, e->src), pm_graph_node_name(g, e->dst));
 }
 
 int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,

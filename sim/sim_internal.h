@@ -43,6 +43,7 @@ typedef struct sim_occ {
     uint32_t cap, head, len;
     bool pops;        /* the queue holds pops (else pushes) */
     int64_t occ, max;
+    uint64_t *budget; /* bytes all queues of the run may still take (shared) */
 } sim_occ;
 
 typedef struct sim_ev {
@@ -79,6 +80,7 @@ typedef struct sim {
     uint32_t *wait_head;         /* first core waiting for this node */
     sim_x *x;
     sim_occ *occ;
+    uint64_t occ_budget;         /* what the occ queues may still allocate */
     /* per core */
     uint32_t *pos, *cnt, *first;
     uint64_t *iter;

@@ -293,8 +293,11 @@ static bool sim_walk_back(const sim *s, const uint32_t *xs_of, sim_walk w, sim_w
     }
     uint32_t cause = s->cr[(size_t)(w.k & s->mask) * s->n + w.node];
     uint32_t e = SIM_CAUSE_EDGE(cause);
-    const pm_edge *ed = &s->g->edges[e];
+    /* an ORDER cause carries no edge: index only when there is one */
+    const pm_edge *ed = e < s->g->nedges ? &s->g->edges[e] : NULL;
     step->via = SIM_CAUSE(cause);
+    if (!ed && SIM_CAUSE(cause) != PM_CAUSE_ORDER)
+        return false;
     switch (SIM_CAUSE(cause)) {
     case PM_CAUSE_ORDER: {
         uint32_t back, c = s->m->core_of[w.node];

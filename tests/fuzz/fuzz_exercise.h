@@ -80,13 +80,6 @@ static void fuzz_simulate(const pm_graph *g, const pm_map *m)
 #ifdef FUZZ_NO_SIM
     return;
 #endif
-#ifdef FUZZ_SKIP_KNOWN
-    if (g->nedges == 0) /* known: sim_report.c:263, regress/known-sim-report-no-edges */
-        return;
-    for (uint32_t e = 0; e < g->nedges; e++) /* known: sim.c:319, known-sim-ring-huge-delay */
-        if (g->edges[e].delay > (INT64_C(1) << 40))
-            return;
-#endif
     if (g->nnodes > FUZZ_MAX_SIM_NODES || !pm_graph_is_single_rate(g))
         return;
     for (uint32_t fifo = 0; fifo <= 1; fifo++) {
@@ -145,11 +138,6 @@ static void fuzz_single_rate(const pm_graph *g)
     }
     if (g->nnodes > FUZZ_MAX_SCHED_NODES)
         return;
-#ifdef FUZZ_SKIP_KNOWN
-    /* known: sched/timeline.c:69, regress/known-sched-recv-overflow */
-    if (g->platform.comm.send > (PM_MAX_VALUE >> 2) || g->platform.comm.recv > (PM_MAX_VALUE >> 2))
-        return;
-#endif
     pm_map *m = NULL;
     pm_diag_clear(&d);
     rc = pm_sched_list(g, NULL, NULL, &m, &d);
