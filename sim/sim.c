@@ -346,7 +346,10 @@ static int sim_check_range(const sim *s, pm_diag *diag)
 static uint64_t sim_ring_bytes(const sim *s, uint64_t W)
 {
     /* saturates: a window of 2^62 iterations must not wrap to a small size */
-    unsigned __int128 b = (unsigned __int128)W * ((uint64_t)s->n * 12 + (uint64_t)s->nx * 28 + 32);
+    /* the same sizes sim_ring_alloc asks for, per slot of the window */
+    uint64_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
+    uint64_t per = n * 12 + nx * 28 + 24 + SIM_LBR * sizeof(uint64_t);
+    unsigned __int128 b = (unsigned __int128)W * per;
     return b > UINT64_MAX ? UINT64_MAX : (uint64_t)b;
 }
 
@@ -431,6 +434,38 @@ static uint32_t sim_worst_edge(const sim *s)
     return best;
 }
 
+/* The edge with the most delays (PM_NONE without edges). */
+static uint32_t sim_largest_delay(const pm_graph *g)
+{
+    uint32_t best = PM_NONE;
+    for (uint32_t e = 0; e < g->nedges; e++)
+        if (best == PM_NONE || g->edges[e].delay > g->edges[best].delay)
+            best = e;
+    return best;
+}
+
+/* Why the window of iterations the run must keep outgrew its memory: cores
+ * drifting apart (tokens piling up), or one edge's delays reaching far back. */
+static void sim_window_message(const sim *s, pm_diag *diag)
+{
+    const pm_graph *g = s->g;
+    uint64_t drift = s->max_iter - s->completed;
+    uint32_t e = sim_worst_edge(s);
+    if (e != PM_NONE && drift > (uint64_t)s->span) {
+        pm_diag_set(diag, g->file, g->edges[e].line, g->edges[e].col,
+                    "tokens pile up on edge '%s' -> '%s' (cores drift %llu iterations "
+                    "apart); give a FIFO capacity (--fifo N) or fewer iterations (-n)",
+                    pm_graph_node_name(g, g->edges[e].src),
+                    pm_graph_node_name(g, g->edges[e].dst), (unsigned long long)drift);
+        return;
+    }
+    e = sim_largest_delay(g);
+    pm_diag_set(diag, g->file, e == PM_NONE ? 0 : g->edges[e].line,
+                e == PM_NONE ? 0 : g->edges[e].col,
+                "too many delays for the simulator: iterations %llu apart must be kept, "
+                "more than fit in its memory limit", (unsigned long long)s->span);
+}
+
 /* Make room for iterations [completed - look-back, max_iter]. */
 static int sim_ring_fit(sim *s, pm_diag *diag)
 {
@@ -442,15 +477,7 @@ static int sim_ring_fit(sim *s, pm_diag *diag)
     while (W < need && W < (UINT64_C(1) << 62))
         W *= 2;
     if (sim_ring_bytes(s, W) > SIM_MEM_LIMIT) {
-        uint32_t e = sim_worst_edge(s);
-        const pm_graph *g = s->g;
-        pm_diag_set(diag, g->file, e == PM_NONE ? 0 : g->edges[e].line,
-                    e == PM_NONE ? 0 : g->edges[e].col,
-                    "tokens pile up on edge '%s' -> '%s' (cores drift %llu iterations "
-                    "apart); give a FIFO capacity (--fifo N) or fewer iterations (-n)",
-                    e == PM_NONE ? "?" : pm_graph_node_name(g, g->edges[e].src),
-                    e == PM_NONE ? "?" : pm_graph_node_name(g, g->edges[e].dst),
-                    (unsigned long long)(s->max_iter - s->completed));
+        sim_window_message(s, diag);
         return PM_ELIMIT;
     }
     void *p[10] = { 0 };

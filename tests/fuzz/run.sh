@@ -72,7 +72,7 @@ for target in scenario map; do
     echo "  CCLD    tests/fuzz/fuzz_$target.c"
     # shellcheck disable=SC2086
     $CC $CFLAGS -fsanitize=fuzzer "tests/fuzz/fuzz_$target.c" $objs \
-        -lm -lpthread -o "$bin" || exit 2
+        -lhwloc -lm -lpthread -o "$bin" || exit 2
     corpus="$OUT/corpus-$target"
     mkdir -p "$corpus"
     dict=""
