@@ -168,13 +168,16 @@ int cli_parse(const cli_cmd *cmd, int argc, char **argv, const char **file)
     return -1;
 }
 
+/* The most cores a scenario's procs line may declare (docs/format.md). */
+#define CLI_MAX_PROCS 4096u
+
 /* Apply -p to a freshly read scenario. */
 static int cli_apply_procs(pm_graph *g, const char *file, bool procs_set, uint32_t procs)
 {
     if (!procs_set)
         return CLI_EXIT_OK;
-    if (procs == 0) {
-        cli_usage_error("-p must be at least 1");
+    if (procs == 0 || procs > CLI_MAX_PROCS) {
+        cli_usage_error("-p must be from 1 to %u", CLI_MAX_PROCS);
         return CLI_EXIT_USAGE;
     }
     if (g->platform.classes_named) {

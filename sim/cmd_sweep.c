@@ -30,7 +30,7 @@
 
 typedef struct sw_args {
     uint32_t range[2];
-    bool range_set, json, quiet;
+    bool range_set, json, quiet, iterations_set;
     uint32_t iterations, faster;
     const char *svg, *csv, *map;
 } sw_args;
@@ -522,11 +522,11 @@ static int sw_run(cli_scenario *scn, const char *file, const sw_args *a, const p
 
 int pm_cmd_sweep(int argc, char **argv)
 {
-    sw_args a = {{1, SW_DEFAULT_TO}, false, false, false, 0, 0, NULL, NULL, NULL};
+    sw_args a = {.range = {1, SW_DEFAULT_TO}};
     const cli_opt opts[] = {
         {"-p", "--procs", CLI_RANGE, a.range, &a.range_set,
          "core counts to try (default 1..16, at most one core per node)", "A..B"},
-        {"-n", "--iterations", CLI_U32, &a.iterations, NULL,
+        {"-n", "--iterations", CLI_U32, &a.iterations, &a.iterations_set,
          "iterations simulated per core count (default 1000)", "ITER"},
         {"--faster", NULL, CLI_U32, &a.faster, NULL,
          "cycles taken off one node at a time in the what-ifs (default 10)", "N"},
@@ -546,6 +546,10 @@ int pm_cmd_sweep(int argc, char **argv)
     int ex = cli_parse(&cmd, argc, argv, &file);
     if (ex >= 0)
         return ex;
+    if (a.iterations_set && a.iterations == 0) {
+        cli_usage_error("sweep: -n must be at least 1");
+        return CLI_EXIT_USAGE;
+    }
     cli_scenario scn;
     pm_map *m = NULL;
     memset(&scn, 0, sizeof scn);

@@ -171,6 +171,8 @@ for cmd in check dot; do
 done
 expect_rc 2 "check -p 0" check scenarios/rx_chain.pace -p 0
 expect_rc 2 "check -p x" check scenarios/rx_chain.pace -p x
+expect_rc 2 "check -p above the core limit" check scenarios/rx_chain.pace -p 4097
+expect_rc 2 "sweep -n 0" sweep scenarios/rx_chain.pace -n 0
 expect_rc 2 "check -p on a scenario with core classes" check scenarios/sonar.pace -p 2
 expect_rc 0 "check -p 7" check --json scenarios/rx_chain.pace -p 7
 $PY -c 'import json,sys; sys.exit(json.load(open(sys.argv[1]))["platform"]["cores"] != 7)' \
