@@ -74,7 +74,7 @@ draw() {
     fi
 }
 
-echo "pacemap demo: four invented scenarios (see the comment at the top of each)"
+echo "pacemap demo: five invented scenarios (see the comment at the top of each)"
 
 for name in filterbank rx_chain crossover sonar; do
     run "$name: is the scenario valid, what does it hold?" check "$DIR/$name.pace"
@@ -93,6 +93,11 @@ run "rx_chain: what that mapping achieves, iterations overlapping" \
     simulate "$DIR/rx_chain.pace" -p 2 -n 200
 run "rx_chain: how far more cores help" sweep "$DIR/rx_chain.pace" -p 1..6
 run "filterbank: how far more cores help" sweep "$DIR/filterbank.pace" -p 1..10
+# A multirate chain: one iteration is one period of its repetition vector.
+run "rx_decimating: rates, repetition vector, budget" check "$DIR/rx_decimating.pace"
+run "rx_decimating: the tracking loop at the low rate sets the floor" \
+    bound "$DIR/rx_decimating.pace" -p 2
+run "rx_decimating: simulated on 2 cores" simulate "$DIR/rx_decimating.pace" -p 2 -n 200
 # Real threads need two free processing units; on a smaller or busy
 # machine this step may fail without failing the demo.
 saved=$status
