@@ -11,6 +11,7 @@
  */
 #include "pacemap/map.h"
 
+#include <errno.h>
 #include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
@@ -84,8 +85,15 @@ static int mf_header(mf_state *st, mf_cur *c, uint32_t *core)
         ok = num[i] >= '0' && num[i] <= '9';
         v = v * 10 + (uint64_t)(num[i] - '0');
     }
+    if (!ok && n > 0)
+        return mf_error(st, c, num, PM_ESYNTAX, "expected a core number after 'core', found '%.*s'",
+                        n < 40 ? n : 40, num);
+    if (!ok && c->s < c->end)
+        return mf_error(st, c, num, PM_ESYNTAX,
+                        "expected a core number after 'core', found '%c'", *c->s);
     if (!ok)
-        return mf_error(st, c, num, PM_ESYNTAX, "expected a core number after 'core'");
+        return mf_error(st, c, num, PM_ESYNTAX,
+                        "expected a core number after 'core', found end of line");
     if (v >= st->g->platform.ncores)
         return mf_error(st, c, num, PM_EMAP, "core %llu does not exist (the platform has %u cores)",
                         (unsigned long long)v, st->g->platform.ncores);
@@ -180,9 +188,10 @@ static int mf_parse(mf_state *st, const char *text, size_t len)
         const char *nl = memchr(p, '\n', (size_t)(end - p));
         const char *le = nl ? nl : end;
         st->line++;
-        if (memchr(p, '\0', (size_t)(le - p))) {
+        const char *nul = memchr(p, '\0', (size_t)(le - p));
+        if (nul) {
             mf_cur c = {p, le, p};
-            return mf_error(st, &c, p, PM_ESYNTAX, "the map contains a NUL byte");
+            return mf_error(st, &c, nul, PM_ESYNTAX, "binary file: NUL byte");
         }
         rc = mf_line(st, p, le);
         p = nl ? nl + 1 : end;
@@ -243,9 +252,10 @@ int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag 
     *out = NULL;
     FILE *f = fopen(path, "rb");
     if (!f) {
-        pm_diag_set(diag, path, 0, 0, "cannot open the map file");
+        pm_diag_set(diag, path, 0, 0, "cannot open file: %s", strerror(errno));
         return PM_EIO;
     }
+    int read_errno = 0;
     size_t cap = 4096, len = 0;
     char *buf = malloc(cap);
     int rc = buf ? PM_OK : PM_ENOMEM;
@@ -261,8 +271,10 @@ int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag 
         }
         size_t got = fread(buf + len, 1, cap - len, f);
         len += got;
-        if (got == 0)
+        if (got == 0) {
+            read_errno = ferror(f) ? errno : 0;
             break;
+        }
     }
     if (rc == PM_OK && ferror(f))
         rc = PM_EIO;
@@ -270,7 +282,8 @@ int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag 
     if (rc == PM_OK)
         rc = pm_map_read_string(buf, len, path, g, out, diag);
     else
-        pm_diag_set(diag, path, 0, 0, "cannot read the map file (%s)", pm_strerror(rc));
+        pm_diag_set(diag, path, 0, 0, "cannot read file: %s",
+                    read_errno ? strerror(read_errno) : pm_strerror(rc));
     free(buf);
     return rc;
 }

@@ -89,6 +89,9 @@ static void reader_flush_before_error(reader_state *st)
 static int reader_feed(reader_state *st, const char *buf, size_t len, bool eof, size_t *used)
 {
     size_t pos = 0;
+    /* editors on some systems start files with a UTF-8 byte-order mark */
+    if (st->lineno == 0 && len >= 3 && memcmp(buf, "\xEF\xBB\xBF", 3) == 0)
+        pos = 3;
     while (pos < len && st->rc == PM_OK) {
         const char *nl = memchr(buf + pos, '\n', len - pos);
         size_t end = nl ? (size_t)(nl - buf) : len;

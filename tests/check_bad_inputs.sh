@@ -60,7 +60,8 @@ gen_input() {
           printf '%s\n' "$BASE" > "$tmp/twin/$f" ;;
     crlf_at_limit) { printf 'node a cycles=1\r\n#'; repeat 65535 x; printf '\r\n'; } > "$f"
                    printf 'node a cycles=1\n' > "$tmp/twin/$f" ;;
-    bom) { printf '\357\273\277'; printf '%s\n' "$BASE"; } > "$f" ;;
+    bom) { printf '\357\273\277'; printf '%s\n' "$BASE"; } > "$f"
+         printf '%s\n' "$BASE" > "$tmp/twin/$f" ;;
     utf8_name) printf 'node \303\251t\303\251 cycles=1\n' > "$f" ;;
     map_nul) printf 'core 0: src\000 fir mix\ncore 2: ctl\n' > "$f" ;;
     map_crlf) printf 'core 0: src fir mix\r\ncore 2: ctl\r\n' > "$f"

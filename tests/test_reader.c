@@ -220,6 +220,13 @@ static void test_line_endings_comments_blanks(void **state)
     g = read_ok("node a cycles=1");
     assert_int_equal(g->nnodes, 1);
     pm_graph_destroy(g);
+    /* a byte-order mark is skipped; columns count from after it */
+    g = read_ok("\xEF\xBB\xBFnode a cycles=1\n");
+    assert_int_equal(g->nnodes, 1);
+    assert_int_equal(g->nodes[0].col, 6); /* the name, as without the mark */
+    pm_graph_destroy(g);
+    expect_error("node a cycles=1\n\xEF\xBB\xBFnode b cycles=1\n", PM_ESYNTAX,
+                 "t.pace:2:1: error: unexpected byte 0xef");
 }
 
 static void test_limits_at_the_edge_are_fine(void **state)
