@@ -160,7 +160,7 @@ static int sb_search(karp *k, int64_t wmax, int64_t dmax, sb_frac *res)
             return PM_OK;
         }
         bool found = false;
-        bnd_i128 kb;
+        bnd_i128 kb = 0; /* set by sb_gallop on success */
         /* caps: past them the denominator (or value) exceeds any cycle's */
         bnd_i128 cap = s > 0 ? (r.q ? (dmax - l.q) / r.q + 1 : wmax + 1)
                              : (dmax - r.q) / l.q + 1;

@@ -9,6 +9,7 @@
 #include "pacemap/map.h"
 #include "pacemap/outfile.h"
 #include "pacemap/reader.h"
+#include "pacemap/refine.h"
 #include "pacemap/sched.h"
 #include "pacemap/sdf.h"
 
@@ -289,11 +290,80 @@ int cli_read_map(const cli_scenario *s, const char *path, pm_map **out)
     return CLI_EXIT_OK;
 }
 
+typedef struct cli_node_place {
+    uint32_t node, core;
+    int64_t first_start; /* earliest start of any of its firings */
+} cli_node_place;
+
+static int cli_place_cmp(const void *a, const void *b)
+{
+    const cli_node_place *x = a, *y = b;
+    if (x->core != y->core)
+        return x->core < y->core ? -1 : 1;
+    if (x->first_start != y->first_start)
+        return x->first_start < y->first_start ? -1 : 1;
+    return (x->node > y->node) - (x->node < y->node);
+}
+
+/* Where each scenario node goes: the core that ran most of its firings'
+ * cycles in the schedule of the expansion (ties: the lower core), so the
+ * heavy part of a node stays where the scheduler balanced it. */
+static void cli_place_nodes(const cli_scenario *s, const pm_schedule *sc, int64_t *work,
+                            cli_node_place *place)
+{
+    uint32_t ncores = sc->ncores, x = 0;
+    for (uint32_t v = 0; v < s->source->nnodes; v++) {
+        uint32_t first = x;
+        place[v] = (cli_node_place){ v, 0, INT64_MAX };
+        for (; x < s->graph->nnodes && s->origin[x] == v; x++) {
+            const pm_slot *sl = &sc->slots[x];
+            work[sl->core] += sl->end - sl->start + 1; /* +1: zero-cycle firings count */
+            if (sl->start < place[v].first_start)
+                place[v].first_start = sl->start;
+        }
+        for (uint32_t c = 1; c < ncores; c++)
+            if (work[c] > work[place[v].core])
+                place[v].core = c;
+        for (uint32_t i = first; i < x; i++)
+            work[sc->slots[i].core] = 0;
+    }
+}
+
+/* The map of the scenario's nodes that schedule sc of the expansion
+ * implies; the nodes of a core run in the order of their earliest firing. */
+static int cli_nodes_from_firings(const cli_scenario *s, const pm_schedule *sc, pm_map **out)
+{
+    uint32_t n = s->source->nnodes, ncores = sc->ncores;
+    cli_node_place *place = malloc(((size_t)n + 1) * sizeof *place);
+    int64_t *work = calloc((size_t)ncores + 1, sizeof *work);
+    uint32_t *order = malloc(((size_t)n + 1) * sizeof *order);
+    uint32_t *counts = calloc((size_t)ncores + 1, sizeof *counts);
+    const uint32_t **lists = calloc((size_t)ncores + 1, sizeof *lists);
+    int rc = place && work && order && counts && lists ? PM_OK : PM_ENOMEM;
+    if (rc == PM_OK) {
+        cli_place_nodes(s, sc, work, place);
+        qsort(place, n, sizeof *place, cli_place_cmp);
+        for (uint32_t i = 0; i < n; i++) {
+            order[i] = place[i].node;
+            if (counts[place[i].core]++ == 0)
+                lists[place[i].core] = &order[i];
+        }
+        rc = pm_map_create(ncores, n, lists, counts, out);
+    }
+    free(place);
+    free(work);
+    free(order);
+    free(counts);
+    free(lists);
+    return rc;
+}
+
 /* A map of the expansion that keeps every firing of a node on one core. */
-static int cli_firings_together(const cli_scenario *s, pm_map **m, pm_diag *diag)
+static int cli_firings_together(const cli_scenario *s, const pm_schedule *sc, pm_map **m,
+                                pm_diag *diag)
 {
     pm_map *nodes = NULL, *firings = NULL;
-    int rc = pm_sdf_collapse_map(s->source, s->rep, *m, &nodes, diag);
+    int rc = cli_nodes_from_firings(s, sc, &nodes);
     if (rc == PM_OK)
         rc = pm_sdf_expand_map(s->source, s->rep, nodes, &firings, diag);
     pm_map_destroy(nodes);
@@ -304,20 +374,46 @@ static int cli_firings_together(const cli_scenario *s, pm_map **m, pm_diag *diag
     return rc;
 }
 
-int cli_schedule(const cli_scenario *s, const pm_sched_opts *opts, pm_schedule **sched,
-                 pm_map **map, pm_diag *diag)
+/* Replace map *m (timed by *sc) by one with a lower simulated period when
+ * the local search finds one, and time it again. */
+static int cli_refine(const cli_scenario *s, pm_schedule **sc, pm_map **m, pm_diag *diag)
+{
+    pm_refine_opts ro = { 0 };
+    if (s->multirate) {
+        ro.source = s->source;
+        ro.rep = s->rep;
+        ro.origin = s->origin;
+    }
+    pm_map *better = NULL;
+    int improved = 0;
+    int rc = pm_refine_map(s->graph, *m, *sc, &ro, &better, &improved, diag);
+    if (rc == PM_OK && improved) {
+        pm_map_destroy(*m);
+        *m = better;
+        pm_schedule_destroy(*sc);
+        *sc = NULL;
+        return pm_sched_from_map(s->graph, *m, sc, diag);
+    }
+    pm_map_destroy(better);
+    return rc;
+}
+
+int cli_schedule(const cli_scenario *s, const pm_sched_opts *opts, bool refine,
+                 pm_schedule **sched, pm_map **map, pm_diag *diag)
 {
     pm_sched_opts none = { 0 };
     pm_schedule *sc = NULL;
     pm_map *m = NULL;
     int rc = pm_sched_list(s->graph, opts ? opts : &none, &sc, &m, diag);
     if (rc == PM_OK && s->multirate) {
+        rc = cli_firings_together(s, sc, &m, diag);
         pm_schedule_destroy(sc);
         sc = NULL;
-        rc = cli_firings_together(s, &m, diag);
         if (rc == PM_OK)
             rc = pm_sched_from_map(s->graph, m, &sc, diag);
     }
+    if (rc == PM_OK && refine)
+        rc = cli_refine(s, &sc, &m, diag);
     if (rc != PM_OK) {
         pm_schedule_destroy(sc);
         pm_map_destroy(m);

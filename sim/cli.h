@@ -95,11 +95,13 @@ int cli_map_read(const cli_scenario *s, const char *path, struct pm_map **out, p
 
 /* List-schedule s->graph (pm_sched_list with `opts`, may be NULL); for a
  * multirate scenario the map is then made to keep all firings of a node on
- * one core, in firing order, and timed again.  Library error code; diag
+ * one core, in firing order.  With `refine`, a local search then moves
+ * nodes between cores while that lowers the simulated period
+ * (pm_refine_map).  The map is timed again.  Library error code; diag
  * filled. */
 struct pm_sched_opts;
 struct pm_schedule;
-int cli_schedule(const cli_scenario *s, const struct pm_sched_opts *opts,
+int cli_schedule(const cli_scenario *s, const struct pm_sched_opts *opts, bool refine,
                  struct pm_schedule **sched, struct pm_map **map, pm_diag *diag);
 
 /* Write map m of s->graph as a `.map` file naming the scenario's nodes. */

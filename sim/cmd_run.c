@@ -26,7 +26,7 @@
 typedef struct run_opts {
     uint32_t procs, iters, warmup, ring, block, watchdog;
     bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
-    bool oversubscribe, json;
+    bool oversubscribe, json, no_refine;
     const char *map, *cores, *nspc;
     const char *file;
 } run_opts;
@@ -63,6 +63,8 @@ static int run_parse(run_opts *o, int argc, char **argv)
          "use these processing units (OS indices, e.g. 0,2-3)", "LIST"},
         {"--oversubscribe", NULL, CLI_FLAG, &o->oversubscribe, NULL,
          "allow more map cores than processing units", NULL},
+        {"--no-refine", NULL, CLI_FLAG, &o->no_refine, NULL,
+         "use the list schedule's map as it is (no search for a lower period)", NULL},
         {"--ring", NULL, CLI_U32, &o->ring, &o->ring_set,
          "slots per cross-core ring (default: the model's buffer depth + 1)", "N"},
         {"--block", NULL, CLI_U32, &o->block, &o->block_set, "samples per token (default 64)",
@@ -122,7 +124,7 @@ static int run_make_map(run_state *s)
         s->scheduled_map = false;
         return cli_read_map(&s->scn, s->o.map, &s->m);
     }
-    rc = cli_schedule(&s->scn, NULL, NULL, &s->m, &d);
+    rc = cli_schedule(&s->scn, NULL, !s->o.no_refine, NULL, &s->m, &d);
     s->scheduled_map = true;
     if (rc != PM_OK) {
         if (!d.msg[0])

@@ -19,7 +19,7 @@
 
 typedef struct sc_args {
     uint32_t procs;
-    bool procs_set, json, loop_blind;
+    bool procs_set, json, loop_blind, refine;
     const char *emit_map, *svg, *map;
 } sc_args;
 
@@ -307,7 +307,7 @@ static int sc_compute(const sc_args *a, sc_result *r)
             return PM_EMAP; /* already reported */
         rc = pm_sched_from_map(r->g, r->m, &r->s, &d);
     } else {
-        rc = cli_schedule(r->scn, &o, &r->s, &r->m, &d);
+        rc = cli_schedule(r->scn, &o, a->refine, &r->s, &r->m, &d);
     }
     if (rc == PM_OK) {
         rc = pm_sched_loop_floor(r->g, r->m, &r->floor, &r->loop, &r->nloop, &d);
@@ -355,6 +355,8 @@ int pm_cmd_schedule(int argc, char **argv)
         {"--json", NULL, CLI_FLAG, &a.json, NULL, "machine-readable output", NULL},
         {"--loop-blind", NULL, CLI_FLAG, &a.loop_blind, NULL,
          "do not keep feedback loops on one core (for comparison)", NULL},
+        {"--refine", NULL, CLI_FLAG, &a.refine, NULL,
+         "then move nodes between cores while the simulated period drops", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
     };
     const cli_cmd cmd = {"schedule", "FILE [-p N] [options]",

@@ -28,7 +28,7 @@
 
 typedef struct sm_args {
     uint32_t procs, iterations, fifo;
-    bool procs_set, json;
+    bool procs_set, json, no_refine;
     const char *map, *vcd, *svg;
 } sm_args;
 
@@ -421,7 +421,7 @@ static int sm_map(const sm_args *a, sm_run *s, pm_diag *d)
 {
     if (a->map)
         return cli_map_read(&s->scn, a->map, &s->m, d);
-    return cli_schedule(&s->scn, NULL, NULL, &s->m, d);
+    return cli_schedule(&s->scn, NULL, !a->no_refine, NULL, &s->m, d);
 }
 
 static int sm_compute(const sm_args *a, sm_run *s)
@@ -474,6 +474,8 @@ int pm_cmd_simulate(int argc, char **argv)
         { "--map", NULL, CLI_STRING, &a.map, NULL, "run this map instead of scheduling", "F" },
         { "--fifo", NULL, CLI_U32, &a.fifo, NULL,
           "tokens each cross-core edge can buffer (default: unbounded)", "N" },
+        { "--no-refine", NULL, CLI_FLAG, &a.no_refine, NULL,
+          "use the list schedule's map as it is (no search for a lower period)", NULL },
         { "--vcd", NULL, CLI_STRING, &a.vcd, NULL, "write a VCD waveform of the first iterations",
           "F" },
         { "--svg", NULL, CLI_STRING, &a.svg, NULL, "write a Gantt chart (SVG) of the first iterations",

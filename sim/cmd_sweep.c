@@ -30,7 +30,7 @@
 
 typedef struct sw_args {
     uint32_t range[2];
-    bool range_set, json, quiet, iterations_set;
+    bool range_set, json, quiet, iterations_set, no_refine;
     uint32_t iterations, faster;
     const char *svg, *csv, *map;
 } sw_args;
@@ -467,15 +467,28 @@ static int sw_load_map(const char *file, sw_args *a, cli_scenario *s, pm_map **m
     return ex;
 }
 
-/* The map of one point of a multirate scenario: the scenario's own cores
- * follow the point's, then all firings of a node go to one core. */
+/* The map of one point: the scenario's own cores follow the point's (a
+ * multirate scenario maps whole nodes), then the list schedule, refined
+ * for the period unless --no-refine. */
+static int sw_point_map(const pm_graph *g, cli_scenario *s, bool refine, pm_map **out,
+                        pm_diag *diag)
+{
+    int rc = PM_OK;
+    if (s->source != s->graph)
+        rc = pm_graph_set_procs_override(s->source, g->platform.ncores, diag);
+    if (rc == PM_OK)
+        rc = cli_schedule(s, NULL, refine, NULL, out, diag);
+    return rc;
+}
+
 static int sw_multirate_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag)
 {
-    cli_scenario *s = ctx;
-    int rc = pm_graph_set_procs_override(s->source, g->platform.ncores, diag);
-    if (rc == PM_OK)
-        rc = cli_schedule(s, NULL, NULL, out, diag);
-    return rc;
+    return sw_point_map(g, ctx, false, out, diag);
+}
+
+static int sw_refined_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag)
+{
+    return sw_point_map(g, ctx, true, out, diag);
 }
 
 static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
@@ -497,8 +510,8 @@ static int sw_run(cli_scenario *scn, const char *file, const sw_args *a, const p
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
                        .iterations = iterations, .faster = a->faster, .map = m};
-    if (scn->multirate) {
-        o.mapper = sw_multirate_map;
+    if (scn->multirate || !a->no_refine) {
+        o.mapper = a->no_refine ? sw_multirate_map : sw_refined_map;
         o.mapper_ctx = scn;
     }
     if (!a->quiet && isatty(STDERR_FILENO))
@@ -530,6 +543,8 @@ int pm_cmd_sweep(int argc, char **argv)
          "iterations simulated per core count (default 1000)", "ITER"},
         {"--faster", NULL, CLI_U32, &a.faster, NULL,
          "cycles taken off one node at a time in the what-ifs (default 10)", "N"},
+        {"--no-refine", NULL, CLI_FLAG, &a.no_refine, NULL,
+         "use the list schedule's maps as they are (no search for a lower period)", NULL},
         {"--map", NULL, CLI_STRING, &a.map, NULL,
          "analyse this map (one core count) instead of scheduling", "F"},
         {"--svg", NULL, CLI_STRING, &a.svg, NULL, "write a plot of period, floors, throughput",

@@ -41,7 +41,7 @@ static void mk_edge(pm_graph *g, uint32_t u, uint32_t v, int64_t delay)
 /* lists: per core a -1 terminated list of node ids. */
 static pm_map *mk_map(const pm_graph *g, uint32_t procs, const int *lists)
 {
-    uint32_t *ids[8], counts[8] = { 0 };
+    uint32_t *ids[8] = { 0 }, counts[8] = { 0 };
     const int *p = lists;
     for (uint32_t c = 0; c < procs; c++) {
         ids[c] = malloc(16 * sizeof **ids);

@@ -1,0 +1,257 @@
+/*
+ * refine.c - local search for a map with a lower simulated period (see
+ * pacemap/refine.h).
+ *
+ * The search works on "units": the nodes of a single-rate graph, or the
+ * scenario's nodes of a multirate one (all firings of a unit move
+ * together).  A unit's place in its core's order is fixed by its start in
+ * the original schedule, so every candidate map is one of the per-core
+ * projections of a single valid order of the iteration.
+ */
+#include "pacemap/refine.h"
+
+#include "pacemap/sdf.h"
+#include "pacemap/sim.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct refine {
+    const pm_graph *g;      /* graph simulated */
+    const pm_graph *units;  /* graph whose nodes move: g or the scenario */
+    const pm_refine_opts *o;
+    uint32_t n, ncores;
+    uint32_t *core;         /* per unit */
+    int64_t *key;           /* per unit: start in the original schedule */
+    uint32_t *rank;         /* per unit: tie-break, a topological rank */
+    uint32_t *sorted;       /* scratch: units by (core, key, rank) */
+    struct refine_item *items;
+    uint32_t *counts;
+    const uint32_t **lists;
+    uint32_t evals, max_evals;
+} refine;
+
+/* Kahn's order on zero-delay edges: a unit's rank comes after its
+ * producers', so ties in start time keep data order. */
+static int refine_ranks(refine *r)
+{
+    const pm_graph *u = r->units;
+    uint32_t *indeg = calloc((size_t)r->n + 1, sizeof *indeg);
+    uint32_t *queue = malloc(((size_t)r->n + 1) * sizeof *queue);
+    if (!indeg || !queue) {
+        free(indeg);
+        free(queue);
+        return PM_ENOMEM;
+    }
+    for (uint32_t e = 0; e < u->nedges; e++)
+        if (u->edges[e].delay == 0 && u->edges[e].src != u->edges[e].dst)
+            indeg[u->edges[e].dst]++;
+    uint32_t head = 0, tail = 0;
+    for (uint32_t v = 0; v < r->n; v++)
+        if (!indeg[v])
+            queue[tail++] = v;
+    for (uint32_t v = 0; v < r->n; v++)
+        r->rank[v] = r->n; /* units on a zero-delay cycle (multirate) keep id order */
+    while (head < tail) {
+        uint32_t v = queue[head];
+        r->rank[v] = head++;
+        for (uint32_t i = u->out_off[v]; i < u->out_off[v + 1]; i++) {
+            const pm_edge *e = &u->edges[u->out_edge[i]];
+            if (e->delay == 0 && e->dst != v && --indeg[e->dst] == 0)
+                queue[tail++] = e->dst;
+        }
+    }
+    free(indeg);
+    free(queue);
+    return PM_OK;
+}
+
+/* Start cores and keys of the units from map m and schedule sc. */
+static void refine_start(refine *r, const pm_map *m, const pm_schedule *sc)
+{
+    for (uint32_t v = 0; v < r->n; v++)
+        r->key[v] = INT64_MAX;
+    for (uint32_t x = 0; x < r->g->nnodes; x++) {
+        uint32_t v = r->o->origin ? r->o->origin[x] : x;
+        if (sc->slots[x].start < r->key[v]) {
+            r->key[v] = sc->slots[x].start;
+            r->core[v] = m->core_of[x];
+        }
+    }
+}
+
+typedef struct refine_item {
+    uint32_t core, rank, unit;
+    int64_t key;
+} refine_item;
+
+static int refine_cmp(const void *a, const void *b)
+{
+    const refine_item *x = a, *y = b;
+    if (x->core != y->core)
+        return x->core < y->core ? -1 : 1;
+    if (x->key != y->key)
+        return x->key < y->key ? -1 : 1;
+    if (x->rank != y->rank)
+        return x->rank < y->rank ? -1 : 1;
+    return (x->unit > y->unit) - (x->unit < y->unit);
+}
+
+/* The map of g the units' cores give; PM_EDEADLOCK (and others) when a
+ * multirate order cannot complete an iteration. */
+static int refine_realize(refine *r, pm_map **out)
+{
+    memset(r->counts, 0, (size_t)r->ncores * sizeof *r->counts);
+    for (uint32_t v = 0; v < r->n; v++)
+        r->items[v] = (refine_item){ r->core[v], r->rank[v], v, r->key[v] };
+    qsort(r->items, r->n, sizeof *r->items, refine_cmp);
+    for (uint32_t i = 0; i < r->n; i++) {
+        r->sorted[i] = r->items[i].unit;
+        if (r->counts[r->items[i].core]++ == 0)
+            r->lists[r->items[i].core] = &r->sorted[i];
+    }
+    pm_map *um = NULL;
+    int rc = pm_map_create(r->ncores, r->n, r->lists, r->counts, &um);
+    if (rc != PM_OK || !r->o->source) {
+        *out = um;
+        return rc;
+    }
+    rc = pm_sdf_expand_map(r->o->source, r->o->rep, um, out, NULL);
+    pm_map_destroy(um);
+    return rc;
+}
+
+/* Simulated period of the units' current cores; false when the map cannot
+ * run (deadlock) or the run fails. */
+static bool refine_period(refine *r, pm_rat *period)
+{
+    pm_map *m = NULL;
+    r->evals++;
+    if (refine_realize(r, &m) != PM_OK) {
+        pm_map_destroy(m);
+        return false;
+    }
+    pm_sim_opts so = { .iterations = r->o->iterations ? r->o->iterations : 64 };
+    pm_sim_result res;
+    memset(&res, 0, sizeof res);
+    int rc = pm_sim_run(r->g, m, &so, &res, NULL);
+    if (rc == PM_OK)
+        *period = res.period;
+    pm_sim_result_free(&res);
+    pm_map_destroy(m);
+    return rc == PM_OK;
+}
+
+/* Whether unit v may run on core c (pins and classes). */
+static bool refine_allowed(const refine *r, uint32_t v, uint32_t c)
+{
+    const pm_node *nd = &r->units->nodes[v];
+    uint32_t cls = r->units->platform.core_class[c];
+    if (nd->pin_core != PM_NONE)
+        return false;
+    if (nd->pin_class != PM_NONE && nd->pin_class != cls)
+        return false;
+    return pm_graph_cycles_on(r->units, v, cls) >= 0;
+}
+
+/* One sweep over the units: first improving move of each; true if any. */
+static bool refine_pass(refine *r, pm_rat *best)
+{
+    bool any = false;
+    for (uint32_t v = 0; v < r->n && r->evals < r->max_evals; v++) {
+        uint32_t home = r->core[v];
+        for (uint32_t c = 0; c < r->ncores && r->evals < r->max_evals; c++) {
+            if (c == home || !refine_allowed(r, v, c))
+                continue;
+            pm_rat p;
+            r->core[v] = c;
+            if (refine_period(r, &p) && pm_rat_cmp(p, *best) < 0) {
+                *best = p;
+                any = true;
+                break;
+            }
+            r->core[v] = home;
+        }
+    }
+    return any;
+}
+
+static void refine_free(refine *r)
+{
+    free(r->core);
+    free(r->key);
+    free(r->rank);
+    free(r->sorted);
+    free(r->items);
+    free(r->counts);
+    free(r->lists);
+}
+
+static int refine_init(refine *r, const pm_graph *g, const pm_map *m, const pm_refine_opts *o)
+{
+    memset(r, 0, sizeof *r);
+    r->g = g;
+    r->o = o;
+    r->units = o->source ? o->source : g;
+    r->n = r->units->nnodes;
+    r->ncores = m->ncores;
+    r->max_evals = o->max_evals ? o->max_evals : PM_REFINE_DEFAULT_EVALS;
+    r->core = calloc((size_t)r->n + 1, sizeof *r->core);
+    r->key = calloc((size_t)r->n + 1, sizeof *r->key);
+    r->rank = calloc((size_t)r->n + 1, sizeof *r->rank);
+    r->sorted = calloc((size_t)r->n + 1, sizeof *r->sorted);
+    r->items = calloc((size_t)r->n + 1, sizeof *r->items);
+    r->counts = calloc((size_t)r->ncores + 1, sizeof *r->counts);
+    r->lists = calloc((size_t)r->ncores + 1, sizeof *r->lists);
+    if (!r->core || !r->key || !r->rank || !r->sorted || !r->items || !r->counts || !r->lists)
+        return PM_ENOMEM;
+    return refine_ranks(r);
+}
+
+static int refine_copy(const pm_map *m, pm_map **out)
+{
+    const uint32_t **lists = calloc((size_t)m->ncores + 1, sizeof *lists);
+    uint32_t *counts = calloc((size_t)m->ncores + 1, sizeof *counts);
+    int rc = lists && counts ? PM_OK : PM_ENOMEM;
+    for (uint32_t c = 0; rc == PM_OK && c < m->ncores; c++) {
+        lists[c] = m->order + m->off[c];
+        counts[c] = m->off[c + 1] - m->off[c];
+    }
+    if (rc == PM_OK)
+        rc = pm_map_create(m->ncores, m->nnodes, lists, counts, out);
+    free(lists);
+    free(counts);
+    return rc;
+}
+
+int pm_refine_map(const pm_graph *g, const pm_map *m, const pm_schedule *sc,
+                  const pm_refine_opts *opts, pm_map **out, int *improved, pm_diag *diag)
+{
+    static const pm_refine_opts defaults = { 0 };
+    const pm_refine_opts *o = opts ? opts : &defaults;
+    *out = NULL;
+    if (improved)
+        *improved = 0;
+    if (g->nnodes > PM_REFINE_MAX_NODES || m->ncores < 2)
+        return refine_copy(m, out);
+    pm_sim_opts so = { .iterations = o->iterations ? o->iterations : 64 };
+    pm_sim_result res;
+    memset(&res, 0, sizeof res);
+    int rc = pm_sim_run(g, m, &so, &res, diag);
+    pm_rat start = res.period, best = res.period;
+    pm_sim_result_free(&res);
+    if (rc != PM_OK)
+        return rc;
+    refine r;
+    rc = refine_init(&r, g, m, o);
+    if (rc == PM_OK) {
+        refine_start(&r, m, sc);
+        while (refine_pass(&r, &best))
+            ;
+        rc = pm_rat_cmp(best, start) < 0 ? refine_realize(&r, out) : refine_copy(m, out);
+    }
+    if (rc == PM_OK && improved)
+        *improved = pm_rat_cmp(best, start) < 0;
+    refine_free(&r);
+    return rc;
+}
