@@ -508,3 +508,14 @@ int pm_graph_set_procs_override(pm_graph *g, uint32_t procs, pm_diag *diag)
     p->ncores = procs;
     return PM_OK;
 }
+
+bool pm_graph_can_run(const pm_graph *g, uint32_t v, uint32_t c)
+{
+    const pm_node *n = &g->nodes[v];
+    uint32_t cls = g->platform.core_class[c];
+    if (n->pin_core != PM_NONE && n->pin_core != c)
+        return false;
+    if (n->pin_class != PM_NONE && n->pin_class != cls)
+        return false;
+    return pm_graph_cycles_on(g, v, cls) >= 0;
+}

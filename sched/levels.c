@@ -10,13 +10,7 @@
 
 bool sched_allowed(const pm_graph *g, uint32_t v, uint32_t c)
 {
-    const pm_node *n = &g->nodes[v];
-    uint32_t cls = g->platform.core_class[c];
-    if (n->pin_core != PM_NONE && n->pin_core != c)
-        return false;
-    if (n->pin_class != PM_NONE && n->pin_class != cls)
-        return false;
-    return pm_graph_cycles_on(g, v, cls) >= 0;
+    return pm_graph_can_run(g, v, c);
 }
 
 int64_t sched_edge_cost(const pm_graph *g, uint32_t e, bool *overflow)

@@ -145,13 +145,7 @@ static bool refine_period(refine *r, pm_rat *period)
 /* Whether unit v may run on core c (pins and classes). */
 static bool refine_allowed(const refine *r, uint32_t v, uint32_t c)
 {
-    const pm_node *nd = &r->units->nodes[v];
-    uint32_t cls = r->units->platform.core_class[c];
-    if (nd->pin_core != PM_NONE)
-        return false;
-    if (nd->pin_class != PM_NONE && nd->pin_class != cls)
-        return false;
-    return pm_graph_cycles_on(r->units, v, cls) >= 0;
+    return pm_graph_can_run(r->units, v, c);
 }
 
 /* One sweep over the units: first improving move of each; true if any. */

@@ -132,24 +132,13 @@ int pm_run_serial_map(const pm_graph *g, pm_map **out)
     return rc;
 }
 
-static bool run_core_fits(const pm_graph *g, uint32_t v, uint32_t c)
-{
-    const pm_node *n = &g->nodes[v];
-    uint32_t cls = g->platform.core_class[c];
-    if (n->pin_core != PM_NONE && n->pin_core != c)
-        return false;
-    if (n->pin_class != PM_NONE && n->pin_class != cls)
-        return false;
-    return pm_graph_cycles_on(g, v, cls) >= 0;
-}
-
 static int run_deal(const pm_graph *g, uint32_t ncores, const uint32_t *order,
                     uint32_t **lists, uint32_t *counts)
 {
     uint32_t next = 0;
     for (uint32_t i = 0; i < g->nnodes; i++) {
         uint32_t v = order[i], c = next, tried = 0;
-        while (tried < ncores && !run_core_fits(g, v, c)) {
+        while (tried < ncores && !pm_graph_can_run(g, v, c)) {
             c = (c + 1u) % ncores;
             tried++;
         }

@@ -78,6 +78,12 @@ static void test_class_cycles_and_min(void **state)
     assert_int_equal(pm_graph_add_node(g, "ui", 2, 0, &v), PM_OK);
     assert_int_equal(pm_graph_set_class_cycles(g, v, only_host), PM_OK);
     assert_int_equal(pm_graph_min_cycles(g, v), 70);
+    /* cores 0-1 are dsp, core 2 host: "ui" runs on the host only */
+    assert_false(pm_graph_can_run(g, v, 0));
+    assert_true(pm_graph_can_run(g, v, 2));
+    g->nodes[0].pin_core = 1;
+    assert_false(pm_graph_can_run(g, 0, 0));
+    assert_true(pm_graph_can_run(g, 0, 1));
     pm_graph_destroy(g);
 }
 

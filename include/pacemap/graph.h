@@ -160,6 +160,10 @@ const char *pm_graph_node_name(const pm_graph *g, uint32_t v);
 /* Execution time of v on a core of class c, or PM_CANNOT_RUN. */
 int64_t pm_graph_cycles_on(const pm_graph *g, uint32_t v, uint32_t c);
 
+/* Whether core c may run node v: its pin (core or class) allows c and
+ * c's class has cycles for v. */
+bool pm_graph_can_run(const pm_graph *g, uint32_t v, uint32_t c);
+
 /* Smallest execution time of v over the classes that can run it (the
  * optimistic time every floor uses), or PM_CANNOT_RUN if none can. */
 int64_t pm_graph_min_cycles(const pm_graph *g, uint32_t v);
