@@ -271,8 +271,9 @@ static void sm_print_wrapped(const char *t)
 static void sm_text(const sm_run *s)
 {
     const pm_platform *p = &s->g->platform;
-    printf("%s: %u nodes on %u cores, %s, ", s->file, s->g->nnodes, s->m->ncores,
-           p->interconnect == PM_BUS ? "bus" : "point-to-point links");
+    /* two lines: a long file name must not push the summary past 100 columns */
+    printf("%s: %u nodes on %u cores\n%-14s %s, ", s->file, s->g->nnodes, s->m->ncores,
+           "run", p->interconnect == PM_BUS ? "bus" : "point-to-point links");
     if (s->fifo)
         printf("FIFOs of %u token%s, ", s->fifo, s->fifo == 1 ? "" : "s");
     else
