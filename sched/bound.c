@@ -330,22 +330,73 @@ static int bound_solve_parts(howard *h, const pm_scc *s, uint32_t **first, uint3
     return PM_OK;
 }
 
-/* Parts of g and the local arrays of the iteration.  The targets of the
- * out-edges are first gathered in one list, so that the depth-first search
- * and the copy read 4 bytes per edge instead of a whole pm_edge. */
+/* Kahn's sort of the zero-delay edges on the gathered lists (dst and
+ * saturated delays per out-edge position, read in order); false when some
+ * node stays unsorted, i.e. a loop without delay exists. */
+static bool bound_zero_free(const pm_graph *g, const uint32_t *dst, const uint8_t *d8)
+{
+    size_t n = (size_t)g->nnodes + 1;
+    uint32_t *indeg = calloc(n, sizeof *indeg), *queue = malloc(n * sizeof *queue);
+    uint32_t head = 0, tail = 0;
+    if (!indeg || !queue) {
+        free(indeg);
+        free(queue);
+        return false; /* the slow check then says which */
+    }
+    for (uint32_t k = 0; k < g->nedges; k++)
+        indeg[dst[k]] += d8[k] == 0;
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        if (indeg[v] == 0)
+            queue[tail++] = v;
+    while (head < tail) {
+        uint32_t u = queue[head++];
+        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++)
+            if (d8[k] == 0 && --indeg[dst[k]] == 0)
+                queue[tail++] = dst[k];
+    }
+    free(indeg);
+    free(queue);
+    return tail == g->nnodes;
+}
+
+/* Gather, per out-edge position, the target and the delay saturated at
+ * 255 (one random pass over the edges instead of three); *exact tells
+ * whether every delay fit.  Then rule out loops without delay. */
+static int bound_gather(const pm_graph *g, uint32_t *dst, uint8_t *d8, bool *exact,
+                        pm_diag *diag)
+{
+    *exact = true;
+    for (uint32_t k = 0; k < g->nedges; k++) {
+        if (k + 8 < g->nedges)
+            __builtin_prefetch(&g->edges[g->out_edge[k + 8]]);
+        const pm_edge *e = &g->edges[g->out_edge[k]];
+        dst[k] = e->dst;
+        d8[k] = (uint8_t)(e->delay > 255 ? 255 : e->delay);
+        *exact = *exact && e->delay <= 255;
+    }
+    if (bound_zero_free(g, dst, d8))
+        return PM_OK;
+    return bound_check_zero_delay(g, diag); /* names the loop */
+}
+
+/* Parts of g and the local arrays of the iteration.  The targets and
+ * delays of the out-edges are first gathered in lists, so that the checks,
+ * the depth-first search and the copy read them in order instead of a
+ * whole pm_edge each. */
 static int bound_prepare(const pm_graph *g, int64_t sum_t, int64_t sum_d, pm_scc *s,
-                         howard *h)
+                         howard *h, pm_diag *diag)
 {
     uint32_t *dst = malloc(((size_t)g->nedges + 1) * sizeof *dst);
-    if (!dst)
-        return PM_ENOMEM;
-    for (uint32_t k = 0; k < g->nedges; k++)
-        dst[k] = g->edges[g->out_edge[k]].dst;
+    uint8_t *d8 = malloc((size_t)g->nedges + 1);
+    bool exact;
+    int rc = dst && d8 ? bound_gather(g, dst, d8, &exact, diag) : PM_ENOMEM;
     scc_csr c = { .n = g->nnodes, .off = g->out_off, .list = dst };
-    int rc = scc_run(&c, s);
     if (rc == PM_OK)
-        rc = howard_init(h, g, s, dst, sum_t, sum_d);
+        rc = scc_run(&c, s);
+    if (rc == PM_OK)
+        rc = howard_init(h, g, s, dst, exact ? d8 : NULL, sum_t, sum_d);
     free(dst);
+    free(d8);
     free(s->comp); /* the local numbering replaces it */
     s->comp = NULL;
     if (rc == PM_OK)
@@ -354,12 +405,12 @@ static int bound_prepare(const pm_graph *g, int64_t sum_t, int64_t sum_d, pm_scc
 }
 
 static int bound_solve(const pm_graph *g, int64_t sum_t, int64_t sum_d,
-                       const pm_bound_opts *opts, pm_bound *out)
+                       const pm_bound_opts *opts, pm_bound *out, pm_diag *diag)
 {
     pm_scc s = { 0 };
     howard h = { 0 };
     uint32_t *first = NULL, *size = NULL;
-    int rc = bound_prepare(g, sum_t, sum_d, &s, &h);
+    int rc = bound_prepare(g, sum_t, sum_d, &s, &h, diag);
     if (rc == PM_OK)
         rc = bound_solve_parts(&h, &s, &first, &size);
     if (rc == PM_OK)
@@ -400,9 +451,7 @@ int pm_bound_compute(const pm_graph *g, const pm_bound_opts *opts, pm_bound *out
         return rc;
     if (out->largest_node != PM_NONE)
         out->largest_cycles = pm_graph_min_cycles(g, out->largest_node);
-    rc = bound_check_zero_delay(g, diag);
-    if (rc == PM_OK)
-        rc = bound_solve(g, out->total_cycles, sum_d, opts, out);
+    rc = bound_solve(g, out->total_cycles, sum_d, opts, out, diag);
     if (rc == PM_EINVAL)
         pm_diag_set(diag, g->file, 0, 0, "internal error: the bound's certificate failed");
     if (rc)

@@ -58,7 +58,8 @@ static void howard_fill(howard *h, const uint32_t *comp, const uint32_t *dst)
     }
 }
 
-static void howard_copy(howard *h, const uint32_t *comp, const uint32_t *dst)
+static void howard_copy(howard *h, const uint32_t *comp, const uint32_t *dst,
+                        const uint8_t *dly)
 {
     const pm_graph *g = h->g;
     for (uint32_t i = 0; i < h->n; i++) {
@@ -70,7 +71,7 @@ static void howard_copy(howard *h, const uint32_t *comp, const uint32_t *dst)
         for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
             if (comp[dst[k]] != comp[u])
                 continue;
-            int64_t d = g->edges[g->out_edge[k]].delay;
+            int64_t d = dly ? dly[k] : g->edges[g->out_edge[k]].delay;
             h->dst[at] = h->map[dst[k]];
             if (h->d8)
                 h->d8[at++] = (uint8_t)d;
@@ -102,7 +103,7 @@ int howard_alloc_state(howard *h)
 }
 
 int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *dst,
-                int64_t sum_t, int64_t sum_d)
+                const uint8_t *dly, int64_t sum_t, int64_t sum_d)
 {
     memset(h, 0, sizeof *h);
     h->g = g;
@@ -129,7 +130,7 @@ int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *d
         howard_free(h);
         return PM_ENOMEM;
     }
-    howard_copy(h, s->comp, dst);
+    howard_copy(h, s->comp, dst, dly);
     free(h->map); /* rebuilt by howard_map() when the loops are read */
     h->map = NULL;
     return PM_OK;
@@ -367,9 +368,14 @@ static int howard_values(howard *h, uint32_t a, uint32_t b, bool first)
     }
     for (uint32_t j = qt; j < b; j++) {
         uint32_t u = h->seq[j];
-        if (j + 8 < b) { /* overlap the misses of the coming nodes */
-            uint32_t f = h->seq[j + 8];
+        if (j + 16 < b) { /* overlap the misses of the coming nodes */
+            uint32_t f = h->seq[j + 16];
             __builtin_prefetch(&h->nxt[f]);
+            __builtin_prefetch(h->wide ? (void *)&((hw_wide *)h->st)[f]
+                                       : (void *)&((hw_narrow *)h->st)[f]);
+        }
+        if (j + 8 < b) { /* its successor's state, once nxt is near */
+            uint32_t f = h->nxt[h->seq[j + 8]];
             __builtin_prefetch(h->wide ? (void *)&((hw_wide *)h->st)[f]
                                        : (void *)&((hw_narrow *)h->st)[f]);
         }

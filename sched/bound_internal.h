@@ -106,12 +106,13 @@ static inline int64_t he_delay(const howard *h, uint32_t k)
     return h->d8 ? h->d8[k] : h->d64[k];
 }
 
-/* Build the local CSR from the parts of s (s->comp and dst are used, then
- * may be freed by the caller; dst[k] is the target of g->out_edge[k]).
+/* Build the local CSR from the parts of s (s->comp, dst and dly are used,
+ * then may be freed by the caller; dst[k] is the target of g->out_edge[k],
+ * dly[k] its delay, or dly NULL to read the delays from g).
  * sum_t, sum_d: the graph's sums (they decide the width).  Then
  * howard_alloc_state() before solving. */
 int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *dst,
-                int64_t sum_t, int64_t sum_d);
+                const uint8_t *dly, int64_t sum_t, int64_t sum_d);
 int howard_alloc_state(howard *h);
 void howard_free(howard *h);
 
