@@ -210,13 +210,15 @@ void cli_scenario_free(cli_scenario *s)
  * scenario; a single-rate one is used as it is. */
 static int cli_expand(cli_scenario *s)
 {
-    pm_diag d;
-    pm_diag_clear(&d);
-    int rc = pm_sdf_repetition(s->source, &s->rep, &d);
-    if (rc == PM_OK && pm_graph_is_single_rate(s->source)) {
+    /* a single-rate scenario is its own expansion: no repetition vector to
+     * solve (it would cost seconds on a graph of millions of edges) */
+    if (pm_graph_is_single_rate(s->source)) {
         s->graph = s->source;
         return CLI_EXIT_OK;
     }
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_sdf_repetition(s->source, &s->rep, &d);
     if (rc == PM_OK)
         rc = pm_sdf_check_iteration(s->source, s->rep, &d);
     if (rc == PM_OK)

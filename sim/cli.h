@@ -69,7 +69,7 @@ int cli_exit_for(int err);
 typedef struct cli_scenario {
     pm_graph *graph;   /* owned */
     pm_graph *source;  /* owned; the same pointer as graph for single rate */
-    uint64_t *rep;     /* repetition vector of source (all 1 for single rate) */
+    uint64_t *rep;     /* repetition vector of source; NULL for single rate */
     uint32_t *origin;  /* expanded node -> source node; NULL for single rate */
     bool multirate;
 } cli_scenario;
