@@ -170,6 +170,29 @@ static bool refine_pass(refine *r, pm_rat *best)
     return any;
 }
 
+/* When no single move helps: exchange the cores of two units (a loop split
+ * across two cores often needs one node in and another out at once). */
+static bool refine_swap_pass(refine *r, pm_rat *best)
+{
+    for (uint32_t u = 0; u < r->n && r->evals < r->max_evals; u++) {
+        for (uint32_t v = u + 1; v < r->n && r->evals < r->max_evals; v++) {
+            uint32_t cu = r->core[u], cv = r->core[v];
+            if (cu == cv || !refine_allowed(r, u, cv) || !refine_allowed(r, v, cu))
+                continue;
+            pm_rat p;
+            r->core[u] = cv;
+            r->core[v] = cu;
+            if (refine_period(r, &p) && pm_rat_cmp(p, *best) < 0) {
+                *best = p;
+                return true;
+            }
+            r->core[u] = cu;
+            r->core[v] = cv;
+        }
+    }
+    return false;
+}
+
 static void refine_free(refine *r)
 {
     free(r->core);
@@ -240,7 +263,7 @@ int pm_refine_map(const pm_graph *g, const pm_map *m, const pm_schedule *sc,
     rc = refine_init(&r, g, m, o);
     if (rc == PM_OK) {
         refine_start(&r, m, sc);
-        while (refine_pass(&r, &best))
+        while (refine_pass(&r, &best) || refine_swap_pass(&r, &best))
             ;
         rc = pm_rat_cmp(best, start) < 0 ? refine_realize(&r, out) : refine_copy(m, out);
     }

@@ -7,9 +7,10 @@
  * transfers and core order set (Sriram & Bhattacharyya, "Embedded
  * Multiprocessors: Scheduling and Synchronization", 2000).  This pass moves
  * one node at a time to another core, keeps a move when the self-timed
- * simulation (pm_sim_run) gives a strictly smaller period, and stops when no
- * move helps or the evaluation budget is spent (first improvement, nodes in
- * id order, cores in index order: deterministic).
+ * simulation (pm_sim_run) gives a strictly smaller period; when no single
+ * move helps it tries exchanging the cores of two nodes.  It stops when
+ * neither helps or the evaluation budget is spent (first improvement, nodes
+ * in id order, cores in index order: deterministic).
  *
  * Each core runs its nodes in the order of their start in the original
  * schedule, so zero-delay precedence keeps the per-core orders consistent.
