@@ -10,6 +10,7 @@
  */
 #include "pacemap/refine.h"
 
+#include "pacemap/bound.h"
 #include "pacemap/sdf.h"
 #include "pacemap/sim.h"
 
@@ -29,6 +30,7 @@ typedef struct refine {
     uint32_t *counts;
     const uint32_t **lists;
     uint32_t evals, max_evals;
+    pm_rat good_enough;     /* lower bound + 1 cycle: no move can gain more */
 } refine;
 
 /* Kahn's order on zero-delay edges: a unit's rank comes after its
@@ -149,12 +151,17 @@ static bool refine_allowed(const refine *r, uint32_t v, uint32_t c)
 }
 
 /* One sweep over the units: first improving move of each; true if any. */
+static bool refine_done(const refine *r, pm_rat best)
+{
+    return r->evals >= r->max_evals || pm_rat_cmp(best, r->good_enough) < 0;
+}
+
 static bool refine_pass(refine *r, pm_rat *best)
 {
     bool any = false;
-    for (uint32_t v = 0; v < r->n && r->evals < r->max_evals; v++) {
+    for (uint32_t v = 0; v < r->n && !refine_done(r, *best); v++) {
         uint32_t home = r->core[v];
-        for (uint32_t c = 0; c < r->ncores && r->evals < r->max_evals; c++) {
+        for (uint32_t c = 0; c < r->ncores && !refine_done(r, *best); c++) {
             if (c == home || !refine_allowed(r, v, c))
                 continue;
             pm_rat p;
@@ -174,8 +181,8 @@ static bool refine_pass(refine *r, pm_rat *best)
  * across two cores often needs one node in and another out at once). */
 static bool refine_swap_pass(refine *r, pm_rat *best)
 {
-    for (uint32_t u = 0; u < r->n && r->evals < r->max_evals; u++) {
-        for (uint32_t v = u + 1; v < r->n && r->evals < r->max_evals; v++) {
+    for (uint32_t u = 0; u < r->n && !refine_done(r, *best); u++) {
+        for (uint32_t v = u + 1; v < r->n && !refine_done(r, *best); v++) {
             uint32_t cu = r->core[u], cv = r->core[v];
             if (cu == cv || !refine_allowed(r, u, cv) || !refine_allowed(r, v, cu))
                 continue;
@@ -191,6 +198,33 @@ static bool refine_swap_pass(refine *r, pm_rat *best)
         }
     }
     return false;
+}
+
+/* The lower bound for the map's cores plus one cycle: a period below it
+ * cannot be beaten by enough to be worth more simulations.  Without a bound
+ * (an error there) the search is not cut short. */
+static void refine_floor(refine *r, const pm_graph *g, uint32_t ncores)
+{
+    r->good_enough = pm_rat_int(0);
+    pm_bound b;
+    pm_floors f;
+    if (pm_bound_compute(g, NULL, &b, NULL) != PM_OK)
+        return;
+    if (pm_floors_compute(g, &b, ncores, &f) == PM_OK &&
+        pm_rat_add(f.lower_bound, pm_rat_int(1), &r->good_enough) != PM_OK)
+        r->good_enough = pm_rat_int(0);
+    pm_bound_free(&b);
+}
+
+/* Evaluations a refinement may spend by default: a sweep refines one map
+ * per core count, so large graphs get fewer simulations. */
+static uint32_t refine_default_evals(const pm_graph *g, const pm_refine_opts *o)
+{
+    uint64_t iters = o->iterations ? o->iterations : 64;
+    uint64_t per = iters * (g->nnodes ? g->nnodes : 1);
+    uint64_t evals = PM_REFINE_FIRINGS / per;
+    return evals > PM_REFINE_DEFAULT_EVALS ? PM_REFINE_DEFAULT_EVALS
+           : evals < 4 ? 4 : (uint32_t)evals;
 }
 
 static void refine_free(refine *r)
@@ -212,7 +246,7 @@ static int refine_init(refine *r, const pm_graph *g, const pm_map *m, const pm_r
     r->units = o->source ? o->source : g;
     r->n = r->units->nnodes;
     r->ncores = m->ncores;
-    r->max_evals = o->max_evals ? o->max_evals : PM_REFINE_DEFAULT_EVALS;
+    r->max_evals = o->max_evals ? o->max_evals : refine_default_evals(g, o);
     r->core = calloc((size_t)r->n + 1, sizeof *r->core);
     r->key = calloc((size_t)r->n + 1, sizeof *r->key);
     r->rank = calloc((size_t)r->n + 1, sizeof *r->rank);
@@ -222,6 +256,7 @@ static int refine_init(refine *r, const pm_graph *g, const pm_map *m, const pm_r
     r->lists = calloc((size_t)r->ncores + 1, sizeof *r->lists);
     if (!r->core || !r->key || !r->rank || !r->sorted || !r->items || !r->counts || !r->lists)
         return PM_ENOMEM;
+    refine_floor(r, g, m->ncores);
     return refine_ranks(r);
 }
 
@@ -263,7 +298,8 @@ int pm_refine_map(const pm_graph *g, const pm_map *m, const pm_schedule *sc,
     rc = refine_init(&r, g, m, o);
     if (rc == PM_OK) {
         refine_start(&r, m, sc);
-        while (refine_pass(&r, &best) || refine_swap_pass(&r, &best))
+        while (!refine_done(&r, best) &&
+               (refine_pass(&r, &best) || refine_swap_pass(&r, &best)))
             ;
         rc = pm_rat_cmp(best, start) < 0 ? refine_realize(&r, out) : refine_copy(m, out);
     }

@@ -31,9 +31,11 @@
 
 #define PM_REFINE_MAX_NODES 2000u     /* larger graphs are left as they are */
 #define PM_REFINE_DEFAULT_EVALS 400u  /* simulations one refinement may run */
+#define PM_REFINE_FIRINGS 5000000u    /* and firings all its simulations may take */
 
 typedef struct pm_refine_opts {
-    uint32_t max_evals;     /* 0 = PM_REFINE_DEFAULT_EVALS */
+    uint32_t max_evals;     /* 0 = PM_REFINE_DEFAULT_EVALS, fewer on large graphs
+                               so that all runs stay within PM_REFINE_FIRINGS */
     uint64_t iterations;    /* per simulation; 0 = 64 */
     /* multirate: the scenario as written and its repetition vector; the map
      * and schedule given are of its single-rate expansion g (NULL: single rate) */
