@@ -113,7 +113,11 @@ install: all
 	install -m 755 $(BUILD)/pacemap $(DESTDIR)$(PREFIX)/bin/pacemap
 	install -m 644 $(BUILD)/libpacemap.a $(DESTDIR)$(PREFIX)/lib/libpacemap.a
 	install -m 644 include/pacemap/*.h $(DESTDIR)$(PREFIX)/include/pacemap/
-	sed -e 's|@PREFIX@|$(PREFIX)|g' pacemap.pc.in > $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc
+	printf '%s\n' 'prefix=$(PREFIX)' 'libdir=$${prefix}/lib' 'includedir=$${prefix}/include' '' \
+	    'Name: pacemap' \
+	    'Description: Iteration bounds, list schedules and self-timed simulation of DSP graphs on multicore' \
+	    'Version: 0.1.0' 'Libs: -L$${libdir} -lpacemap' 'Libs.private: -lhwloc -lpthread -lm' \
+	    'Cflags: -I$${includedir}' > $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc
 
 uninstall:
 	rm -rf $(DESTDIR)$(PREFIX)/bin/pacemap $(DESTDIR)$(PREFIX)/lib/libpacemap.a \
