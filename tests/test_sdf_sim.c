@@ -44,6 +44,7 @@
 #include "pacemap/reader.h"
 #include "pacemap/sdf.h"
 #include "pacemap/sim.h"
+#include "support/testkit.h"
 
 #define ATTEMPTS 800      /* random graphs generated */
 #define MIN_RANDOM_RUN 100 /* of which at least this many must be simulated */
@@ -55,8 +56,7 @@
 static uint64_t rng_state = 20261202;
 static uint32_t rnd(uint32_t n)
 {
-    rng_state = rng_state * UINT64_C(6364136223846793005) + UINT64_C(1442695040888963407);
-    return (uint32_t)((rng_state >> 33) % n);
+    return tk_rand(&rng_state, n);
 }
 
 /* One simulated case: the expansion, its map, the run and its IPC graph. */
@@ -222,29 +222,9 @@ static pm_graph *random_sdf(uint32_t n, uint32_t procs, const uint32_t *q)
     return g;
 }
 
-/* Random cores; each core's order is increasing node index, or (one case in
- * three) a random shuffle. */
 static pm_map *random_map(uint32_t n, uint32_t procs)
 {
-    uint32_t lists[3][16], counts[3] = { 0 };
-    const uint32_t *ptr[3];
-    assert_true(n <= 16);
-    for (uint32_t v = 0; v < n; v++) {
-        uint32_t c = rnd(procs);
-        lists[c][counts[c]++] = v;
-    }
-    for (uint32_t c = 0; c < procs; c++) {
-        ptr[c] = lists[c];
-        if (rnd(3) == 0)
-            for (uint32_t i = counts[c]; i > 1; i--) {
-                uint32_t j = rnd(i), tmp = lists[c][i - 1];
-                lists[c][i - 1] = lists[c][j];
-                lists[c][j] = tmp;
-            }
-    }
-    pm_map *m = NULL;
-    assert_int_equal(pm_map_create(procs, n, ptr, counts, &m), PM_OK);
-    return m;
+    return tk_random_map(&rng_state, n, procs, 3);
 }
 
 /* The chosen q balances every edge, so the smallest vector exists and q is
@@ -295,24 +275,6 @@ static int random_attempt(int i, bool *multirate)
 
 /* ---- the comparison ------------------------------------------------------ */
 
-static const char *helper_dir(void)
-{
-    const char *h = getenv("PM_HELPERS");
-    return h && *h ? h : "build/tests/helpers";
-}
-
-/* Read "W D" or "none": true with the pair, false for none. */
-static bool read_ratio(FILE *f, long *w, long *d)
-{
-    char tok[32];
-    assert_int_equal(fscanf(f, "%31s", tok), 1);
-    if (strcmp(tok, "none") == 0)
-        return false;
-    *w = atol(tok);
-    assert_int_equal(fscanf(f, "%ld", d), 1);
-    return true;
-}
-
 /* Floors: the iteration bound of the expansion (pm_bound_compute; Ito &
  * Parhi 1995) and total work of one iteration over the cores. */
 static void check_floors(const tcase *tc)
@@ -343,7 +305,7 @@ static void compare_all(void)
         write_ipc(in, &cases[i]);
     assert_int_equal(fclose(in), 0);
     char cmd[1200];
-    snprintf(cmd, sizeof cmd, "%s/bgl_ipc < %s", helper_dir(), in_path);
+    snprintf(cmd, sizeof cmd, "%s/bgl_ipc < %s", tk_helper_dir(), in_path);
     FILE *out = popen(cmd, "r");
     assert_non_null(out);
     for (int i = 0; i < ncases; i++) {
@@ -351,7 +313,7 @@ static void compare_all(void)
         long w = 0, d = 1;
         /* every IPC graph has a cycle (each core's order closes on itself);
          * Boost names none only when every weight is 0 */
-        if (!read_ratio(out, &w, &d))
+        if (!tk_read_ratio(out, &w, &d))
             w = 0, d = 1;
         pm_rat p = tc->r.period;
         /* Self-timed theorem (Sriram & Bhattacharyya 2000) with the
@@ -479,7 +441,7 @@ static void test_rx_decimating(void **state)
 int main(void)
 {
     char path[1024];
-    snprintf(path, sizeof path, "%s/bgl_ipc", helper_dir());
+    snprintf(path, sizeof path, "%s/bgl_ipc", tk_helper_dir());
     if (access(path, X_OK) != 0) {
         printf("note: %s not built; Boost reference skipped\n", path);
         return 0;

@@ -35,6 +35,7 @@
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
 #include "pacemap/sim.h"
+#include "support/testkit.h"
 
 #define CASES 400
 #define MAXN 12
@@ -42,8 +43,7 @@
 static uint64_t rng_state = 2026;
 static uint32_t rnd(uint32_t n)
 {
-    rng_state = rng_state * UINT64_C(6364136223846793005) + UINT64_C(1442695040888963407);
-    return (uint32_t)((rng_state >> 33) % n);
+    return tk_rand(&rng_state, n);
 }
 
 typedef struct tcase {
@@ -78,28 +78,9 @@ static pm_graph *random_graph(uint32_t n, uint32_t procs)
     return g;
 }
 
-/* Random cores; each core's order is increasing node index, or (one case in
- * four) a random shuffle, which may deadlock. */
 static pm_map *random_map(uint32_t n, uint32_t procs)
 {
-    uint32_t lists[4][MAXN], counts[4] = { 0 };
-    const uint32_t *ptr[4];
-    for (uint32_t v = 0; v < n; v++) {
-        uint32_t c = rnd(procs);
-        lists[c][counts[c]++] = v;
-    }
-    for (uint32_t c = 0; c < procs; c++) {
-        ptr[c] = lists[c];
-        if (rnd(4) == 0)
-            for (uint32_t i = counts[c]; i > 1; i--) {
-                uint32_t j = rnd(i), tmp = lists[c][i - 1];
-                lists[c][i - 1] = lists[c][j];
-                lists[c][j] = tmp;
-            }
-    }
-    pm_map *m = NULL;
-    assert_int_equal(pm_map_create(procs, n, ptr, counts, &m), PM_OK);
-    return m;
+    return tk_random_map(&rng_state, n, procs, 4);
 }
 
 /* ---- the IPC graph, built from the documented semantics ---------------- */
@@ -165,24 +146,6 @@ static void write_data_graph(FILE *f, const pm_graph *g)
     }
 }
 
-static const char *helper_dir(void)
-{
-    const char *h = getenv("PM_HELPERS");
-    return h && *h ? h : "build/tests/helpers";
-}
-
-/* Read "W D" or "none": true with the pair, false for none. */
-static bool read_ratio(FILE *f, long *w, long *d)
-{
-    char tok[32];
-    assert_int_equal(fscanf(f, "%31s", tok), 1);
-    if (strcmp(tok, "none") == 0)
-        return false;
-    *w = atol(tok);
-    assert_int_equal(fscanf(f, "%ld", d), 1);
-    return true;
-}
-
 static void check_floors(const tcase *tc, bool has_loop, long w, long d)
 {
     const pm_graph *g = tc->g;
@@ -233,7 +196,7 @@ static void test_self_timed_theorem(void **state)
         }
     fclose(in);
     char cmd[1024];
-    snprintf(cmd, sizeof cmd, "%s/bgl_ipc < %s", helper_dir(), in_path);
+    snprintf(cmd, sizeof cmd, "%s/bgl_ipc < %s", tk_helper_dir(), in_path);
     FILE *out = popen(cmd, "r");
     assert_non_null(out);
     int steady = 0;
@@ -243,11 +206,11 @@ static void test_self_timed_theorem(void **state)
             continue;
         long w = 0, d = 1, bw = 0, bd = 1;
         /* every IPC graph has a loop: each core's order closes on itself */
-        if (!read_ratio(out, &w, &d)) {
+        if (!tk_read_ratio(out, &w, &d)) {
             /* Boost names no critical cycle when every weight is 0 */
             w = 0, d = 1;
         }
-        bool has_loop = read_ratio(out, &bw, &bd);
+        bool has_loop = tk_read_ratio(out, &bw, &bd);
         if (!tc->r.steady)
             fail_msg("case %d: no steady state in 1500 iterations", i);
         steady++;
@@ -272,7 +235,7 @@ static void test_self_timed_theorem(void **state)
 int main(void)
 {
     char path[1024];
-    snprintf(path, sizeof path, "%s/bgl_ipc", helper_dir());
+    snprintf(path, sizeof path, "%s/bgl_ipc", tk_helper_dir());
     if (access(path, X_OK) != 0) {
         printf("note: %s not built; Boost reference skipped\n", path);
         return 0;

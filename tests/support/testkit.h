@@ -1,0 +1,30 @@
+/*
+ * testkit.h - small pieces several tests share: a seeded generator, random
+ * maps, the folder of the built test helpers and their ratio answers.
+ * Linked into every test binary (tests/support/).
+ */
+#ifndef PACEMAP_TESTKIT_H
+#define PACEMAP_TESTKIT_H
+
+#include <stdbool.h>
+#include <stdint.h>
+#include <stdio.h>
+
+#include "pacemap/map.h"
+
+/* Next number in [0, n) of the linear congruential sequence in *state. */
+uint32_t tk_rand(uint64_t *state, uint32_t n);
+
+/* Nodes 0..n-1 (n <= 64) on random cores of `procs` (<= 8); each core's
+ * order is increasing node index, or (one case in `shuffle_one_in`) a
+ * random shuffle, which may deadlock.  Asserts on failure. */
+pm_map *tk_random_map(uint64_t *state, uint32_t n, uint32_t procs, uint32_t shuffle_one_in);
+
+/* $PM_HELPERS, or build/tests/helpers. */
+const char *tk_helper_dir(void);
+
+/* Read "W D" or "none" from a helper's answer: true with the pair, false
+ * for none.  Asserts on malformed input. */
+bool tk_read_ratio(FILE *f, long *w, long *d);
+
+#endif
