@@ -469,18 +469,31 @@ static int expand_map_with(const pm_graph *g, const pm_map *m, const sdf_adj *a,
     return rc;
 }
 
-int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
-                      pm_map **out, pm_diag *diag)
+/* What the map functions check first: rep balances g, the firings fit the
+ * guard; then the first firing id of every node (*first, owned). */
+static int expand_map_prologue(const pm_graph *g, const uint64_t *rep, uint32_t **first,
+                               pm_diag *diag)
 {
-    *out = NULL;
+    *first = NULL;
     int rc = sdf_check_balance(g, rep, diag);
     if (rc == PM_OK)
         rc = expand_guard_firings(g, rep, diag);
     if (rc != PM_OK)
         return rc;
-    uint32_t *first = expand_first(g, rep);
+    *first = expand_first(g, rep);
+    return *first ? PM_OK : PM_ENOMEM;
+}
+
+int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
+                      pm_map **out, pm_diag *diag)
+{
+    *out = NULL;
+    uint32_t *first;
+    int rc = expand_map_prologue(g, rep, &first, diag);
+    if (rc != PM_OK)
+        return rc;
     sdf_adj a;
-    rc = first ? sdf_adj_build(g, &a) : PM_ENOMEM;
+    rc = sdf_adj_build(g, &a);
     if (rc == PM_OK) {
         rc = expand_map_with(g, m, &a, rep, first, out, diag);
         sdf_adj_free(&a);
@@ -537,17 +550,14 @@ int pm_sdf_collapse_map(const pm_graph *g, const uint64_t *rep, const pm_map *xm
                         pm_map **out, pm_diag *diag)
 {
     *out = NULL;
-    int rc = sdf_check_balance(g, rep, diag);
-    if (rc == PM_OK)
-        rc = expand_guard_firings(g, rep, diag);
+    uint32_t *first;
+    int rc = expand_map_prologue(g, rep, &first, diag);
     if (rc != PM_OK)
         return rc;
-    uint32_t *first = expand_first(g, rep);
     uint32_t *nodes = malloc(((size_t)g->nnodes + 1) * sizeof *nodes);
     uint32_t *counts = malloc(((size_t)xm->ncores + 1) * sizeof *counts);
-    bool fits = xm->nnodes == (first ? first[g->nnodes] : 0) &&
-                xm->off[xm->ncores] == xm->nnodes;
-    rc = !first || !nodes || !counts ? PM_ENOMEM : fits ? PM_OK : PM_EMAP;
+    bool fits = xm->nnodes == first[g->nnodes] && xm->off[xm->ncores] == xm->nnodes;
+    rc = !nodes || !counts ? PM_ENOMEM : fits ? PM_OK : PM_EMAP;
     if (rc == PM_OK)
         rc = expand_collapse_with(g, xm, first, nodes, counts, out);
     if (rc == PM_EMAP)
