@@ -16,6 +16,8 @@
 
 #include <cmocka.h>
 
+#include "support/testkit.h"
+
 static char dir[] = "/tmp/pm_schedcli_XXXXXX";
 static const char *bin;
 
@@ -48,16 +50,7 @@ static int run(const char *args)
 
 static char *slurp(const char *name)
 {
-    char path[256];
-    snprintf(path, sizeof path, "%s/%s", dir, name);
-    FILE *f = fopen(path, "r");
-    if (!f)
-        return NULL;
-    static char buf[1 << 16];
-    size_t n = fread(buf, 1, sizeof buf - 1, f);
-    buf[n] = '\0';
-    fclose(f);
-    return strdup(buf);
+    return tk_slurp(dir, name);
 }
 
 static int setup(void **state)

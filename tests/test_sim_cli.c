@@ -15,6 +15,8 @@
 #include <unistd.h>
 #include <cmocka.h>
 
+#include "support/testkit.h"
+
 static char dir[] = "/tmp/pm_sim_cli_XXXXXX";
 
 static const char *bin(void)
@@ -57,16 +59,7 @@ static int run(const char *args, char **out)
 
 static char *slurp(const char *name)
 {
-    char path[256];
-    snprintf(path, sizeof path, "%s/%s", dir, name);
-    FILE *f = fopen(path, "r");
-    if (!f)
-        return NULL;
-    char *buf = calloc(1, 1 << 20);
-    size_t n = fread(buf, 1, (1 << 20) - 1, f);
-    buf[n] = 0;
-    fclose(f);
-    return buf;
+    return tk_slurp(dir, name);
 }
 
 static int setup(void **state)

@@ -55,3 +55,28 @@ bool tk_read_ratio(FILE *f, long *w, long *d)
     assert_int_equal(fscanf(f, "%ld", d), 1);
     return true;
 }
+
+char *tk_slurp(const char *dir, const char *name)
+{
+    char path[512];
+    snprintf(path, sizeof path, "%s/%s", dir, name);
+    FILE *f = fopen(path, "r");
+    if (!f)
+        return NULL;
+    size_t cap = 4096, len = 0, got;
+    char *buf = malloc(cap);
+    while (buf && (got = fread(buf + len, 1, cap - len - 1, f)) > 0) {
+        len += got;
+        if (len + 1 == cap) {
+            char *nb = realloc(buf, cap * 2);
+            if (!nb)
+                free(buf);
+            buf = nb;
+            cap *= 2;
+        }
+    }
+    if (buf)
+        buf[len] = '\0';
+    fclose(f);
+    return buf;
+}

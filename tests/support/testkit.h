@@ -27,4 +27,8 @@ const char *tk_helper_dir(void);
  * for none.  Asserts on malformed input. */
 bool tk_read_ratio(FILE *f, long *w, long *d);
 
+/* The whole of file dir/name as a NUL-terminated string (caller frees), or
+ * NULL when it cannot be read. */
+char *tk_slurp(const char *dir, const char *name);
+
 #endif
