@@ -86,7 +86,7 @@ static sim_ev sim_heap_pop(sim_heap *h)
 
 #define SIM_OCC_LIMIT (UINT32_C(1) << 24) /* waiting times kept per edge */
 
-static int sim_occ_grow(sim_occ *o)
+int sim_occ_grow(sim_occ *o)
 {
     uint32_t nc = o->cap ? o->cap * 2 : 4;
     /* one edge's queue is capped, and so are all queues together: many
@@ -104,78 +104,6 @@ static int sim_occ_grow(sim_occ *o)
     o->cap = nc;
     o->head = 0;
     return PM_OK;
-}
-
-static inline int sim_occ_queue(sim_occ *o, int64_t t, bool pop)
-{
-    if (o->len == o->cap) {
-        int rc = sim_occ_grow(o);
-        if (rc)
-            return rc;
-    }
-    o->q[(o->head + o->len++) & (o->cap - 1)] = t;
-    o->pops = pop;
-    return PM_OK;
-}
-
-static int64_t sim_occ_front(const sim_occ *o)
-{
-    return o->q[o->head];
-}
-
-static void sim_occ_drop(sim_occ *o)
-{
-    o->head = (o->head + 1) & (o->cap - 1);
-    o->len--;
-}
-
-static void sim_occ_apply_push(sim_occ *o)
-{
-    if (++o->occ > o->max)
-        o->max = o->occ;
-}
-
-/* A token pushed at time t.  Pops at the same time go first: a slot
- * freed and refilled in the same cycle is one slot (docs/simulation.md). */
-static inline int sim_occ_push(sim_occ *o, int64_t t)
-{
-    if (o->len && o->pops) {
-        while (o->len && sim_occ_front(o) <= t) {
-            o->occ--;
-            sim_occ_drop(o);
-        }
-        if (o->len) {
-            sim_occ_apply_push(o);
-            return PM_OK;
-        }
-    }
-    return sim_occ_queue(o, t, false);
-}
-
-static inline int sim_occ_pop(sim_occ *o, int64_t t)
-{
-    if (o->len && !o->pops) {
-        while (o->len && sim_occ_front(o) < t) {
-            sim_occ_apply_push(o);
-            sim_occ_drop(o);
-        }
-        if (o->len) {
-            o->occ--;
-            return PM_OK;
-        }
-    }
-    return sim_occ_queue(o, t, true);
-}
-
-static void sim_occ_flush(sim_occ *o)
-{
-    while (o->len) {
-        if (o->pops)
-            o->occ--;
-        else
-            sim_occ_apply_push(o);
-        sim_occ_drop(o);
-    }
 }
 
 /* ---- preparation ------------------------------------------------------ */
@@ -501,15 +429,7 @@ static void sim_runnable(sim *s, uint32_t c)
 
 /* ---- iteration bookkeeping -------------------------------------------- */
 
-/* Spread (node, begin difference) over 64 bits; one multiply is enough,
- * since a collision can only hide a period, never report a wrong one. */
-static inline uint64_t sim_mix(uint64_t d, uint32_t v)
-{
-    uint64_t z = (d + ((uint64_t)v << 32) + v) * UINT64_C(0x9e3779b97f4a7c15);
-    return z ^ (z >> 29);
-}
-
-static void sim_slot_reset(sim *s, uint64_t k)
+void sim_slot_reset(sim *s, uint64_t k)
 {
     uint64_t i = k & s->mask;
     s->f1[i] = 0;
@@ -518,7 +438,7 @@ static void sim_slot_reset(sim *s, uint64_t k)
 }
 
 /* Iteration k has fully begun: compare its fingerprint with the c before. */
-static void sim_iteration_done(sim *s, uint64_t k)
+void sim_iteration_done(sim *s, uint64_t k)
 {
     uint64_t i = k & s->mask;
     int64_t lat = s->lmax[i] - s->lmin[i];
@@ -625,7 +545,7 @@ static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, ui
     return true;
 }
 
-static int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x)
+int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x)
 {
     if (s->ntrace == s->trace_cap) {
         size_t nc = s->trace_cap ? s->trace_cap * 2 : 64;
@@ -640,7 +560,7 @@ static int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t
     return PM_OK;
 }
 
-static int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr)
+int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr)
 {
     if (s->ntr == s->tr_cap) {
         size_t nc = s->tr_cap ? s->tr_cap * 2 : 64;
@@ -791,199 +711,6 @@ static bool sim_release_lagged(sim *s, int64_t g)
             any = true;
         }
     return any;
-}
-
-/* ---- point-to-point sweep ---------------------------------------------- */
-
-/* Without a shared bus nothing but data, core order and FIFO room decides
- * a begin time, so self-timed execution is the max-plus recursion of the
- * IPC graph (Sriram & Bhattacharyya 2000): begin(v,k) = max over the
- * predecessors p of v of begin(p, k - delay) + weight.  When the edges
- * with no delay form no cycle the run cannot deadlock, and the recursion
- * is evaluated iteration by iteration in one fixed topological order:
- * no readiness checks, no waiting, one pass over a compiled array.  With a
- * zero-delay cycle the round-robin engine runs instead and reports where
- * it stalls.  Predecessors are listed core order first, then inputs in
- * the graph's order, then FIFO room, and a later one wins only when
- * strictly later: the same tie rule as the engines above. */
-typedef struct sim_pred {
-    uint32_t u, delay, cause;
-    uint32_t xslot; /* a cross-core input: its token leaves the buffer at begin */
-    int64_t w;
-} sim_pred;
-
-typedef struct sim_sweep {
-    uint32_t *step;       /* nodes in topological order of zero-delay edges */
-    uint32_t *p_off;      /* per node: preds[p_off[v] .. p_off[v+1]) */
-    sim_pred *preds;
-} sim_sweep;
-
-static uint32_t sim_sweep_count(const sim *s, uint32_t v)
-{
-    uint32_t k = 1 + s->nd[v].in_hi - s->nd[v].in_lo;
-    if (s->fifo)
-        k += s->nd[v].xo_hi - s->nd[v].xo_lo;
-    return k;
-}
-
-static void sim_sweep_preds(const sim *s, uint32_t v, sim_pred *p)
-{
-    uint32_t c = s->m->core_of[v], back;
-    uint32_t prev = sim_prev_on_core(s, c, s->pos_of[v], &back);
-    *p++ = (sim_pred){ prev, back, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off };
-    for (uint32_t i = s->nd[v].in_lo; i < s->nd[v].in_hi; i++) {
-        const sim_in *in = &s->ins[i];
-        int64_t cost = in->xslot != PM_NONE ? s->x[in->xslot].cost : 0;
-        *p++ = (sim_pred){ in->src, in->delay, PM_CAUSE_EDGE | in->edge << 3, in->xslot,
-                           s->nd[in->src].end_off + cost };
-    }
-    if (!s->fifo)
-        return;
-    for (uint32_t i = s->nd[v].xo_lo; i < s->nd[v].xo_hi; i++) {
-        const sim_x *xe = &s->x[s->xout[i]];
-        *p++ = (sim_pred){ xe->dst, (uint32_t)(xe->cap - xe->delay), PM_CAUSE_FIFO | xe->edge << 3,
-                           PM_NONE, 0 };
-    }
-}
-
-/* Kahn's algorithm over the zero-delay predecessors; false on a cycle. */
-static bool sim_sweep_order(const sim *s, sim_sweep *w, uint32_t *indeg, uint32_t *succ_off,
-                            uint32_t *succ)
-{
-    uint32_t n = s->n, head = 0, tail = 0;
-    for (uint32_t i = 0; i < w->p_off[n]; i++)
-        if (w->preds[i].delay == 0)
-            succ_off[w->preds[i].u + 1]++;
-    for (uint32_t v = 0; v < n; v++)
-        succ_off[v + 1] += succ_off[v];
-    for (uint32_t v = 0; v < n; v++)
-        for (uint32_t i = w->p_off[v]; i < w->p_off[v + 1]; i++)
-            if (w->preds[i].delay == 0) {
-                succ[succ_off[w->preds[i].u] + indeg[n + w->preds[i].u]++] = v;
-                indeg[v]++;
-            }
-    for (uint32_t v = 0; v < n; v++)
-        if (indeg[v] == 0)
-            w->step[tail++] = v;
-    while (head < tail) {
-        uint32_t u = w->step[head++];
-        for (uint32_t i = succ_off[u]; i < succ_off[u + 1]; i++)
-            if (--indeg[succ[i]] == 0)
-                w->step[tail++] = succ[i];
-    }
-    return tail == n;
-}
-
-/* PM_OK with the sweep built, 1 when zero-delay edges form a cycle. */
-static int sim_sweep_build(const sim *s, sim_sweep *w)
-{
-    uint32_t n = s->n;
-    w->p_off = calloc(n + 1, sizeof *w->p_off);
-    w->step = malloc((n + 1) * sizeof *w->step);
-    if (!w->p_off || !w->step)
-        return PM_ENOMEM;
-    for (uint32_t v = 0; v < n; v++)
-        w->p_off[v + 1] = w->p_off[v] + sim_sweep_count(s, v);
-    w->preds = malloc(((size_t)w->p_off[n] + 1) * sizeof *w->preds);
-    uint32_t *indeg = calloc(2 * (size_t)n + 1, sizeof *indeg);
-    uint32_t *succ_off = calloc(n + 2, sizeof *succ_off);
-    uint32_t *succ = malloc(((size_t)w->p_off[n] + 1) * sizeof *succ);
-    int rc = PM_ENOMEM;
-    if (w->preds && indeg && succ_off && succ) {
-        for (uint32_t v = 0; v < n; v++)
-            sim_sweep_preds(s, v, &w->preds[w->p_off[v]]);
-        rc = sim_sweep_order(s, w, indeg, succ_off, succ) ? PM_OK : 1;
-    }
-    free(indeg), free(succ_off), free(succ);
-    return rc;
-}
-
-static void sim_sweep_free(sim_sweep *w)
-{
-    free(w->step), free(w->p_off), free(w->preds);
-}
-
-/* Bookkeeping of firing (v,k) begun at x (what sim_commit does, minus the
- * core state the sweep does not need); p..end are its predecessors. */
-static inline int sim_sweep_note(sim *s, uint32_t v, uint64_t k, int64_t x, uint32_t cause,
-                          const sim_pred *p, const sim_pred *end)
-{
-    size_t slot = (size_t)(k & s->mask) * s->n + v;
-    s->xr[slot] = x;
-    s->cr[slot] = cause;
-    sim_note_begin(s, v, k, x);
-    const sim_nd *nd = &s->nd[v];
-    if (x + nd->free_off > s->makespan)
-        s->makespan = x + nd->free_off;
-    int rc = PM_OK;
-    for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
-        rc = sim_occ_push(&s->occ[s->xout[i]], x + nd->end_off);
-        if (!rc && k < s->record)
-            rc = sim_record_transfer(s, s->xout[i], k, x + nd->end_off, x + nd->end_off);
-    }
-    for (; p < end && !rc; p++)
-        if (p->xslot != PM_NONE)
-            rc = sim_occ_pop(&s->occ[p->xslot], x);
-    if (!rc && k < s->record)
-        rc = sim_record_firing(s, s->m->core_of[v], v, k, x);
-    return rc;
-}
-
-static int sim_sweep_iteration(sim *s, const sim_sweep *w, uint64_t k)
-{
-    for (uint32_t i = 0; i < s->n; i++) {
-        if (i + SIM_PREFETCH < s->n) {
-            uint32_t f = w->step[i + SIM_PREFETCH];
-            __builtin_prefetch(&w->preds[w->p_off[f]]);
-            __builtin_prefetch(&s->nd[f]);
-        }
-        uint32_t v = w->step[i];
-        const sim_pred *p0 = &w->preds[w->p_off[v]], *end = &w->preds[w->p_off[v + 1]];
-        const sim_pred *p = p0;
-        int64_t x = 0;
-        uint32_t cause = PM_CAUSE_START;
-        if (k >= p->delay)
-            x = *sim_x_at(s, p->u, k - p->delay) + p->w, cause = p->cause;
-        for (p++; p < end; p++) {
-            if (k < p->delay)
-                continue;
-            int64_t a = *sim_x_at(s, p->u, k - p->delay) + p->w;
-            bool later = a > x; /* data-dependent: keep it free of branches */
-            x = later ? a : x;
-            cause = later ? p->cause : cause;
-        }
-        int rc = sim_sweep_note(s, v, k, x, cause, p0 + 1, end);
-        if (rc)
-            return rc;
-    }
-    return PM_OK;
-}
-
-/* 1: not usable (zero-delay cycle), the caller runs the other engine. */
-static int sim_loop_sweep(sim *s, pm_diag *diag)
-{
-    sim_sweep w = { 0 };
-    int rc = sim_sweep_build(s, &w);
-    for (uint64_t k = 0; rc == PM_OK && k < s->N; k++) {
-        s->max_iter = k;
-        if (k > 0) {
-            rc = sim_ring_fit(s, diag);
-            sim_slot_reset(s, k);
-        }
-        if (!rc)
-            rc = sim_sweep_iteration(s, &w, k);
-        if (!rc)
-            sim_iteration_done(s, s->completed++);
-    }
-    sim_sweep_free(&w);
-    if (rc)
-        return rc;
-    s->firings = s->N * s->n;
-    for (uint32_t v = 0; v < s->n; v++)
-        s->done[v] = s->N;
-    for (uint32_t c = 0; c < s->P; c++)
-        s->iter[c] = s->N, s->pos[c] = 0;
-    return PM_OK;
 }
 
 /* ---- bus ---------------------------------------------------------------- */

@@ -138,6 +138,98 @@ uint32_t sim_prev_on_core(const sim *s, uint32_t c, uint32_t pos, uint32_t *back
 /* First iteration whose times the rings still hold for every node. */
 uint64_t sim_window_lo(const sim *s);
 
+/* Grow o's queue (doubling); PM_ELIMIT past the per-edge and shared limits. */
+int sim_occ_grow(sim_occ *o);
+
+static inline int sim_occ_queue(sim_occ *o, int64_t t, bool pop)
+{
+    if (o->len == o->cap) {
+        int rc = sim_occ_grow(o);
+        if (rc)
+            return rc;
+    }
+    o->q[(o->head + o->len++) & (o->cap - 1)] = t;
+    o->pops = pop;
+    return PM_OK;
+}
+
+static inline int64_t sim_occ_front(const sim_occ *o)
+{
+    return o->q[o->head];
+}
+
+static inline void sim_occ_drop(sim_occ *o)
+{
+    o->head = (o->head + 1) & (o->cap - 1);
+    o->len--;
+}
+
+static inline void sim_occ_apply_push(sim_occ *o)
+{
+    if (++o->occ > o->max)
+        o->max = o->occ;
+}
+
+/* A token pushed at time t.  Pops at the same time go first: a slot
+ * freed and refilled in the same cycle is one slot (docs/simulation.md). */
+static inline int sim_occ_push(sim_occ *o, int64_t t)
+{
+    if (o->len && o->pops) {
+        while (o->len && sim_occ_front(o) <= t) {
+            o->occ--;
+            sim_occ_drop(o);
+        }
+        if (o->len) {
+            sim_occ_apply_push(o);
+            return PM_OK;
+        }
+    }
+    return sim_occ_queue(o, t, false);
+}
+
+static inline int sim_occ_pop(sim_occ *o, int64_t t)
+{
+    if (o->len && !o->pops) {
+        while (o->len && sim_occ_front(o) < t) {
+            sim_occ_apply_push(o);
+            sim_occ_drop(o);
+        }
+        if (o->len) {
+            o->occ--;
+            return PM_OK;
+        }
+    }
+    return sim_occ_queue(o, t, true);
+}
+
+static inline void sim_occ_flush(sim_occ *o)
+{
+    while (o->len) {
+        if (o->pops)
+            o->occ--;
+        else
+            sim_occ_apply_push(o);
+        sim_occ_drop(o);
+    }
+}
+
+/* Spread (node, begin difference) over 64 bits; one multiply is enough,
+ * since a collision can only hide a period, never report a wrong one. */
+static inline uint64_t sim_mix(uint64_t d, uint32_t v)
+{
+    uint64_t z = (d + ((uint64_t)v << 32) + v) * UINT64_C(0x9e3779b97f4a7c15);
+    return z ^ (z >> 29);
+}
+
+/* Iteration bookkeeping and trace records shared by both engines. */
+void sim_slot_reset(sim *s, uint64_t k);
+void sim_iteration_done(sim *s, uint64_t k);
+int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x);
+int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr);
+
+/* The point-to-point engine (sim_sweep.c); 1 when it cannot run this map. */
+int sim_loop_sweep(sim *s, pm_diag *diag);
+
 /* End-of-run analysis (sim_report.c). */
 int sim_report_steady(sim *s, pm_sim_result *r);
 int sim_report_chain(sim *s, pm_sim_result *r);

@@ -151,21 +151,28 @@ static void test_fifo_back_pressure(void **state)
 }
 
 /* The same pipeline without a FIFO bound: a runs every 3 cycles, b every
- * 4, so tokens pile up.  After 100 iterations a's last token leaves at 300
- * while b has begun 74 firings (4j + 8 <= 300): 26 tokens wait at most. */
+ * 4, so tokens pile up.  After N iterations a's last token leaves at 3N
+ * while b has begun the firings j with 4j + 8 <= 3N: for N = 100 that is
+ * 74, so 26 tokens wait at most; for N = 1000, 749 and 251 tokens (more
+ * than the window of begin times the point-to-point engine keeps, so its
+ * counter moves to a queue half way: regression for that switch). */
 static void test_unbounded_pile_up(void **state)
 {
     (void)state;
     pm_graph *g = mk_pipe(5, 2);
     pm_map *m = mk_map(g, 2, (const int[]){ 0, -1, 1, -1 });
-    pm_sim_opts o = { .iterations = 100 };
-    pm_sim_result r;
-    assert_int_equal(pm_sim_run(g, m, &o, &r, NULL), PM_OK);
-    assert_true(r.steady && r.period.num == 4 && r.period.den == 1);
-    assert_false(r.uniform);
-    assert_int_equal(r.max_tokens[0], 26);
-    assert_int_equal(r.makespan, 4 * 99 + 8 + 4);
-    pm_sim_result_free(&r);
+    const uint64_t iters[] = { 100, 1000 };
+    const int64_t most[] = { 26, 251 };
+    for (int i = 0; i < 2; i++) {
+        pm_sim_opts o = { .iterations = iters[i] };
+        pm_sim_result r;
+        assert_int_equal(pm_sim_run(g, m, &o, &r, NULL), PM_OK);
+        assert_true(r.steady && r.period.num == 4 && r.period.den == 1);
+        assert_false(r.uniform);
+        assert_int_equal(r.max_tokens[0], most[i]);
+        assert_int_equal(r.makespan, 4 * ((int64_t)iters[i] - 1) + 8 + 4);
+        pm_sim_result_free(&r);
+    }
     pm_map_destroy(m);
     pm_graph_destroy(g);
 }
@@ -480,6 +487,74 @@ static void test_free_bus_equals_p2p(void **state)
     }
 }
 
+/* Most tokens on edge e counted the slow, obvious way from a full trace:
+ * every put (producer's end) and take (consumer's begin) as an event,
+ * sorted by time with takes first on a tie (docs/simulation.md), and a
+ * running count from the edge's initial tokens. */
+static int ev_cmp(const void *a, const void *b)
+{
+    const int64_t *x = a, *y = b; /* {time, +1 put / -1 take} */
+    if (x[0] != y[0])
+        return x[0] < y[0] ? -1 : 1;
+    return (x[1] > y[1]) - (x[1] < y[1]);
+}
+
+static int64_t most_tokens_from_trace(const pm_graph *g, uint32_t e, const pm_sim_result *r)
+{
+    int64_t (*ev)[2] = malloc((r->ntrace + 1) * sizeof *ev);
+    size_t n = 0;
+    for (size_t i = 0; i < r->ntrace; i++) {
+        if (r->trace[i].node == g->edges[e].src)
+            ev[n][0] = r->trace[i].end, ev[n++][1] = 1;
+        if (r->trace[i].node == g->edges[e].dst)
+            ev[n][0] = r->trace[i].begin, ev[n++][1] = -1;
+    }
+    qsort(ev, n, sizeof *ev, ev_cmp);
+    int64_t held = g->edges[e].delay, most = held;
+    for (size_t i = 0; i < n; i++) {
+        held += ev[i][1];
+        if (held > most)
+            most = held;
+    }
+    free(ev);
+    return most;
+}
+
+/* Both engines' token counts against the count from the trace, on random
+ * graphs and maps, with and without FIFO bounds; a small cyclicity limit
+ * shrinks the window of begin times the point-to-point engine keeps, so
+ * edges that pile up tokens also take its queue path. */
+static void test_tokens_match_trace(void **state)
+{
+    (void)state;
+    for (int trial = 0; trial < 300; trial++) {
+        uint32_t n = 2 + rnd(10), procs = 1 + rnd(4);
+        pm_graph *g = mk_random(n, procs, rnd(3) ? PM_P2P : PM_BUS);
+        g->platform.comm.send = rnd(3), g->platform.comm.recv = rnd(3);
+        pm_map *m = mk_random_map(g, procs);
+        pm_sim_opts o = { .iterations = 60 + rnd(200), .fifo_cap = rnd(2) ? 0 : 1 + rnd(3),
+                          .max_cyclicity = rnd(2) ? 4 : 0 };
+        o.record = (uint32_t)o.iterations;
+        pm_sim_result r;
+        int rc = pm_sim_run(g, m, &o, &r, NULL);
+        if (rc == PM_OK) {
+            assert_int_equal(r.ntrace, (size_t)o.iterations * n);
+            for (uint32_t e = 0; e < g->nedges; e++) {
+                const pm_edge *ed = &g->edges[e];
+                if (m->core_of[ed->src] == m->core_of[ed->dst])
+                    assert_int_equal(r.max_tokens[e], -1);
+                else
+                    assert_int_equal(r.max_tokens[e], most_tokens_from_trace(g, e, &r));
+            }
+        } else {
+            assert_int_equal(rc, PM_EDEADLOCK);
+        }
+        pm_sim_result_free(&r);
+        pm_map_destroy(m);
+        pm_graph_destroy(g);
+    }
+}
+
 /* Regression: the last iterations of a bus run see less contention (no
  * later requests compete for the bus), which once hid the steady state of
  * every bus run.  A chain over 4 cores with feedback, as in the bench. */
@@ -579,6 +654,7 @@ int main(void)
         cmocka_unit_test(test_one_core_period_is_total),
         cmocka_unit_test(test_bus_never_beats_p2p),
         cmocka_unit_test(test_free_bus_equals_p2p),
+        cmocka_unit_test(test_tokens_match_trace),
         cmocka_unit_test(test_bus_run_reaches_steady_state),
         cmocka_unit_test(test_deterministic),
         cmocka_unit_test(test_bad_input),

@@ -1,0 +1,520 @@
+/*
+ * sim_sweep.c - the point-to-point engine of the simulator.
+ *
+ * Without a shared bus nothing but data, core order and FIFO room decides
+ * a begin time, so self-timed execution is the max-plus recursion of the
+ * IPC graph (Sriram & Bhattacharyya 2000): begin(v,k) = max over the
+ * predecessors p of v of begin(p, k - delay) + weight.  When the edges
+ * with no delay form no cycle the run cannot deadlock, and the recursion
+ * is evaluated iteration by iteration in one fixed topological order: no
+ * readiness checks, no waiting.  With a zero-delay cycle the causal engine
+ * (sim.c) runs instead and reports where it stalls.  Predecessors are
+ * listed core order first, then inputs in the graph's order, then FIFO
+ * room, and a later one wins only when strictly later: the same tie rule
+ * as the causal engine.
+ *
+ * The sweep is bound by memory traffic (docs/performance.md), so its data
+ * is compiled for one front-to-back pass per iteration:
+ *  - nodes are renumbered into sweep order ("slots"); the rings of begin
+ *    times and causes are kept by slot during the run and put back in node
+ *    order at the end, for the report;
+ *  - a predecessor is 8 bytes: its ring offset with the delay folded in
+ *    and its weight; a firing's cause is the index of the predecessor that
+ *    set it, turned into a cause code at the end;
+ *  - the tokens of a cross-core edge are counted without a queue, at its
+ *    consumer (below).
+ * Graphs whose times do not fit these narrow fields, or whose rings are
+ * too large to index in 32 bits, run on the causal engine: same results,
+ * slower.
+ *
+ * Token counts.  An edge with d delays gets pushes at E_j (producer ends)
+ * and pops at B_j (consumer begins), both non-decreasing, and a pop goes
+ * before a push of the same cycle.  After push j the edge holds
+ * d + j + 1 - #{pops at or before E_j} tokens.  Pops after B_{j+d} come no
+ * earlier than E_{j+1} + transfer > E_j (as long as the producer's
+ * occupancy plus the transfer is positive: else the causal engine runs),
+ * so when the consumer fires iteration k = j + d, every pop that counts is
+ * known and E_j is the arrival it just read, less the transfer.  A cursor
+ * of pops counted advances over the ring of begin times.  When an edge
+ * holds so many tokens that the cursor would fall out of the ring, that
+ * edge moves its pending pops into the causal engine's merge queue and
+ * goes on there (order-free: each side is still fed in time order).
+ */
+#include <stdlib.h>
+#include <string.h>
+
+#include "sim_internal.h"
+
+#define SW_START UINT32_MAX   /* cause index: nothing, began at time 0 */
+#define SW_QUEUED UINT64_MAX  /* token cursor: the edge counts with a queue */
+#define SW_HOT static inline __attribute__((always_inline))
+
+/* A predecessor as the builder lists it. */
+typedef struct sw_wide {
+    uint32_t u, delay, cause;
+    uint32_t xslot; /* a cross-core input, or PM_NONE */
+    int64_t w;
+} sw_wide;
+
+typedef struct sw_pred {
+    uint32_t off; /* ((W - delay) mod W) * n + slot of the source */
+    int32_t w;    /* source's end (or free) offset, plus the transfer */
+} sw_pred;
+
+typedef struct sw_node {
+    uint32_t pend;  /* predecessors: pred[previous pend .. pend) */
+    uint32_t tend;  /* cross-core inputs: tok[previous tend .. tend) */
+    int32_t recv, end_off;
+} sw_node;
+
+typedef struct sw_tok {
+    int64_t max;    /* most tokens held so far */
+    uint64_t q;     /* pops counted, or SW_QUEUED */
+    uint32_t p;     /* its predecessor entry */
+    int32_t cost;   /* transfer time */
+} sw_tok;
+
+typedef struct sw {
+    uint32_t n, W;
+    size_t wn;          /* ring entries: W * n */
+    uint64_t early;     /* iterations in which some delay reaches before 0 */
+    uint32_t *step;     /* slot -> node */
+    sw_node *node;
+    sw_pred *pred;
+    uint32_t *pdelay;   /* per predecessor: its delay (early iterations) */
+    uint32_t *pcause;   /* per predecessor: its cause code */
+    sw_tok *tok;
+    uint32_t *txs;      /* per token counter: the edge's xslot */
+} sw;
+
+/* ---- building ----------------------------------------------------------- */
+
+static uint32_t sw_count_preds(const sim *s, uint32_t v)
+{
+    uint32_t k = 1 + s->nd[v].in_hi - s->nd[v].in_lo;
+    if (s->fifo)
+        k += s->nd[v].xo_hi - s->nd[v].xo_lo;
+    return k;
+}
+
+static void sw_list_preds(const sim *s, uint32_t v, sw_wide *p)
+{
+    uint32_t c = s->m->core_of[v], back;
+    uint32_t prev = sim_prev_on_core(s, c, s->pos_of[v], &back);
+    *p++ = (sw_wide){ prev, back, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off };
+    for (uint32_t i = s->nd[v].in_lo; i < s->nd[v].in_hi; i++) {
+        const sim_in *in = &s->ins[i];
+        int64_t cost = in->xslot != PM_NONE ? s->x[in->xslot].cost : 0;
+        *p++ = (sw_wide){ in->src, in->delay, PM_CAUSE_EDGE | in->edge << 3, in->xslot,
+                          s->nd[in->src].end_off + cost };
+    }
+    if (!s->fifo)
+        return;
+    for (uint32_t i = s->nd[v].xo_lo; i < s->nd[v].xo_hi; i++) {
+        const sim_x *xe = &s->x[s->xout[i]];
+        *p++ = (sw_wide){ xe->dst, (uint32_t)(xe->cap - xe->delay), PM_CAUSE_FIFO | xe->edge << 3,
+                          PM_NONE, 0 };
+    }
+}
+
+/* Kahn's algorithm over the zero-delay predecessors; false on a cycle. */
+static bool sw_order(uint32_t n, const uint32_t *p_off, const sw_wide *wide, uint32_t *step)
+{
+    uint32_t *indeg = calloc(2 * (size_t)n + 1, sizeof *indeg);
+    uint32_t *succ_off = calloc((size_t)n + 2, sizeof *succ_off);
+    uint32_t *succ = malloc(((size_t)p_off[n] + 1) * sizeof *succ);
+    uint32_t head = 0, tail = 0;
+    if (indeg && succ_off && succ) {
+        for (uint32_t i = 0; i < p_off[n]; i++)
+            if (wide[i].delay == 0)
+                succ_off[wide[i].u + 1]++;
+        for (uint32_t v = 0; v < n; v++)
+            succ_off[v + 1] += succ_off[v];
+        for (uint32_t v = 0; v < n; v++)
+            for (uint32_t i = p_off[v]; i < p_off[v + 1]; i++)
+                if (wide[i].delay == 0) {
+                    succ[succ_off[wide[i].u] + indeg[n + wide[i].u]++] = v;
+                    indeg[v]++;
+                }
+        for (uint32_t v = 0; v < n; v++)
+            if (indeg[v] == 0)
+                step[tail++] = v;
+        while (head < tail) {
+            uint32_t u = step[head++];
+            for (uint32_t i = succ_off[u]; i < succ_off[u + 1]; i++)
+                if (--indeg[succ[i]] == 0)
+                    step[tail++] = succ[i];
+        }
+    }
+    free(indeg), free(succ_off), free(succ);
+    return tail == n;
+}
+
+static bool sw_fits(int64_t v)
+{
+    return v >= INT32_MIN && v <= INT32_MAX;
+}
+
+/* Compile predecessor `g` of the node in `slot` into entry p; false when
+ * it does not fit the narrow form. */
+static bool sw_compile_pred(const sim *s, sw *w, const uint32_t *slot_of, const sw_wide *g,
+                            uint32_t p, uint32_t *t)
+{
+    if (!sw_fits(g->w) || g->delay >= w->W)
+        return false;
+    w->pred[p] = (sw_pred){ ((w->W - g->delay) & (w->W - 1)) * w->n + slot_of[g->u], (int32_t)g->w };
+    w->pdelay[p] = g->delay;
+    w->pcause[p] = g->cause;
+    if (g->delay > w->early)
+        w->early = g->delay;
+    if (g->xslot == PM_NONE)
+        return true;
+    int64_t cost = s->x[g->xslot].cost;
+    if (cost + s->nd[g->u].free_off <= 0 || !sw_fits(cost))
+        return false; /* zero-time producer and transfer: pops may tie later pushes */
+    w->tok[*t] = (sw_tok){ s->x[g->xslot].delay, 0, p, (int32_t)cost };
+    w->txs[(*t)++] = g->xslot;
+    return true;
+}
+
+static bool sw_compile(const sim *s, sw *w, const uint32_t *p_off, const sw_wide *wide,
+                       uint32_t *slot_of)
+{
+    uint32_t p = 0, t = 0;
+    for (uint32_t i = 0; i < w->n; i++)
+        slot_of[w->step[i]] = i;
+    for (uint32_t i = 0; i < w->n; i++) {
+        uint32_t v = w->step[i];
+        for (uint32_t j = p_off[v]; j < p_off[v + 1]; j++)
+            if (!sw_compile_pred(s, w, slot_of, &wide[j], p++, &t))
+                return false;
+        if (!sw_fits(s->nd[v].recv) || !sw_fits(s->nd[v].end_off))
+            return false;
+        w->node[i] = (sw_node){ p, t, (int32_t)s->nd[v].recv, (int32_t)s->nd[v].end_off };
+    }
+    return true;
+}
+
+static int sw_alloc(const sim *s, sw *w, size_t np)
+{
+    size_t n = s->n;
+    w->step = malloc((n + 1) * sizeof *w->step);
+    w->node = malloc((n + 1) * sizeof *w->node);
+    w->pred = malloc((np + 1) * sizeof *w->pred);
+    w->pdelay = malloc((np + 1) * sizeof *w->pdelay);
+    w->pcause = malloc((np + 1) * sizeof *w->pcause);
+    w->tok = malloc(((size_t)s->nx + 1) * sizeof *w->tok);
+    w->txs = malloc(((size_t)s->nx + 1) * sizeof *w->txs);
+    bool ok = w->step && w->node && w->pred && w->pdelay && w->pcause && w->tok && w->txs;
+    return ok ? PM_OK : PM_ENOMEM;
+}
+
+static void sw_free(sw *w)
+{
+    free(w->step), free(w->node), free(w->pred), free(w->pdelay), free(w->pcause);
+    free(w->tok), free(w->txs);
+}
+
+/* PM_OK with the sweep built; 1 when it cannot run this map (a zero-delay
+ * cycle, or times or rings too wide for its fields). */
+static int sw_build(const sim *s, sw *w)
+{
+    uint32_t n = s->n;
+    w->n = n, w->W = s->W, w->wn = (size_t)s->W * n;
+    if ((uint64_t)s->W * n > UINT32_MAX)
+        return 1;
+    uint32_t *p_off = calloc((size_t)n + 1, sizeof *p_off);
+    if (!p_off)
+        return PM_ENOMEM;
+    uint64_t np = 0;
+    for (uint32_t v = 0; v < n; v++) {
+        np += sw_count_preds(s, v);
+        p_off[v + 1] = np < UINT32_MAX ? (uint32_t)np : UINT32_MAX;
+    }
+    int rc = np < UINT32_MAX ? sw_alloc(s, w, np) : 1;
+    sw_wide *wide = rc ? NULL : malloc((np + 1) * sizeof *wide);
+    uint32_t *slot_of = rc ? NULL : malloc(((size_t)n + 1) * sizeof *slot_of);
+    if (!rc && (!wide || !slot_of))
+        rc = PM_ENOMEM;
+    if (!rc) {
+        for (uint32_t v = 0; v < n; v++)
+            sw_list_preds(s, v, &wide[p_off[v]]);
+        if (!sw_order(n, p_off, wide, w->step) || !sw_compile(s, w, p_off, wide, slot_of))
+            rc = 1;
+    }
+    free(p_off), free(wide), free(slot_of);
+    return rc;
+}
+
+/* ---- token counts --------------------------------------------------------- */
+
+/* The edge of counter t holds W or more tokens: its pending pops (begins
+ * of slot i from iteration q to k) move to the merge queue. */
+static __attribute__((noinline)) int sw_to_queue(sim *s, const sw *w, sw_tok *t, uint64_t k,
+                                                 uint32_t i)
+{
+    sim_occ *o = &s->occ[w->txs[t - w->tok]];
+    o->occ = (int64_t)(k + 1 - t->q);
+    o->max = t->max;
+    for (uint64_t j = t->q; j <= k; j++) {
+        int rc = sim_occ_queue(o, s->xr[(size_t)(j & s->mask) * w->n + i], true);
+        if (rc)
+            return rc;
+    }
+    t->q = SW_QUEUED;
+    return PM_OK;
+}
+
+/* A counter on the queue: pop at this firing's begin, push of the token it took. */
+static __attribute__((noinline)) int sw_count_queued(sim *s, const sw *w, sw_tok *t,
+                                                     uint64_t k, int64_t begin, int64_t push)
+{
+    sim_occ *o = &s->occ[w->txs[t - w->tok]];
+    int rc = sim_occ_pop(o, begin);
+    if (!rc && k >= w->pdelay[t->p])
+        rc = sim_occ_push(o, push);
+    return rc;
+}
+
+/* Push E_{k-d} of counter t, whose consumer sits in slot i, is counted when the
+ * consumer's iteration k has begun. */
+SW_HOT void sw_count_push(const sim *s, sw_tok *t, uint64_t k, uint32_t i, int64_t push)
+{
+    const int64_t *col = s->xr + i;
+    uint64_t q = t->q;
+    while (q <= k && col[(size_t)(q & s->mask) * s->n] <= push)
+        q++;
+    t->q = q;
+    int64_t held = (int64_t)(k + 1 - q);
+    if (held > t->max)
+        t->max = held;
+}
+
+SW_HOT int64_t sw_at(const int64_t *ring, size_t base, uint32_t off, size_t wn)
+{
+    size_t j = base + off;
+    return ring[j >= wn ? j - wn : j];
+}
+
+/* The tokens of slot i's cross-core inputs [tb, te) in iteration k. */
+SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, uint32_t i,
+                    size_t base, bool early)
+{
+    for (uint32_t j = tb; j < te; j++) {
+        sw_tok *t = &w->tok[j];
+        const sw_pred *p = &w->pred[t->p];
+        bool initial = early && k < w->pdelay[t->p]; /* it took an initial token */
+        int64_t push = initial ? 0 : sw_at(s->xr, base, p->off, w->wn) + p->w - t->cost;
+        if (__builtin_expect(t->q == SW_QUEUED, 0)) {
+            int rc = sw_count_queued(s, w, t, k, s->xr[base + i], push);
+            if (rc)
+                return rc;
+            continue;
+        }
+        if (initial)
+            continue;
+        sw_count_push(s, t, k, i, push);
+        if (__builtin_expect(k + 1 - t->q >= w->W, 0)) {
+            int rc = sw_to_queue(s, w, t, k, i);
+            if (rc)
+                return rc;
+        }
+    }
+    return PM_OK;
+}
+
+/* After the last iteration: the pushes no consumer firing counted (the
+ * last d of each edge), as if the consumer fired iterations N .. N+d-1
+ * without popping. */
+static int sw_count_tail(sim *s, sw *w)
+{
+    uint32_t tb = 0;
+    for (uint32_t i = 0; i < w->n; i++) {
+        for (uint32_t j = tb; j < w->node[i].tend; j++) {
+            sw_tok *t = &w->tok[j];
+            const sw_pred *p = &w->pred[t->p];
+            uint64_t d = w->pdelay[t->p];
+            sim_occ *o = &s->occ[w->txs[j]];
+            for (uint64_t k = s->N > d ? s->N : d; k < s->N + d; k++) {
+                int64_t push = sw_at(s->xr, (size_t)(k & s->mask) * w->n, p->off, w->wn) + p->w -
+                               t->cost;
+                if (t->q == SW_QUEUED) {
+                    int rc = sim_occ_push(o, push);
+                    if (rc)
+                        return rc;
+                    continue;
+                }
+                uint64_t q = t->q;
+                while (q < s->N && s->xr[(size_t)(q & s->mask) * w->n + i] <= push)
+                    q++;
+                t->q = q;
+                if ((int64_t)(k + 1 - q) > t->max)
+                    t->max = (int64_t)(k + 1 - q);
+            }
+            if (t->q != SW_QUEUED)
+                o->max = t->max; /* sim_collect flushes the queued ones */
+        }
+        tb = w->node[i].tend;
+    }
+    return PM_OK;
+}
+
+/* ---- the sweep ------------------------------------------------------------ */
+
+/* Begin of slot i in iteration k and the index of the predecessor that set
+ * it; `early` while some delay still reaches before iteration 0. */
+SW_HOT int64_t sw_begin(const sim *s, const sw *w, uint32_t pb, uint32_t pe, uint64_t k,
+                        size_t base, bool early, uint32_t *cause)
+{
+    const sw_pred *P = w->pred;
+    int64_t x = 0;
+    *cause = SW_START;
+    if (!early || k >= w->pdelay[pb])
+        x = sw_at(s->xr, base, P[pb].off, w->wn) + P[pb].w, *cause = pb;
+    for (uint32_t p = pb + 1; p < pe; p++) {
+        if (early && k < w->pdelay[p])
+            continue;
+        int64_t a = sw_at(s->xr, base, P[p].off, w->wn) + P[p].w;
+        bool later = a > x; /* data-dependent: keep it free of branches */
+        x = later ? a : x;
+        *cause = later ? p : *cause;
+    }
+    return x;
+}
+
+SW_HOT int sw_iteration(sim *s, sw *w, uint64_t k, bool early)
+{
+    const size_t n = w->n, base = (size_t)(k & s->mask) * n;
+    const size_t prev = (size_t)((k - 1) & s->mask) * n;
+    int64_t *row = s->xr + base;
+    uint32_t *crow = s->cr + base;
+    uint64_t fp = 0;
+    int64_t lmin = INT64_MAX, lmax = INT64_MIN;
+    uint32_t pb = 0, tb = 0;
+    for (uint32_t i = 0; i < n; i++) {
+        const sw_node nd = w->node[i];
+        uint32_t cause;
+        int64_t x = sw_begin(s, w, pb, nd.pend, k, base, early, &cause);
+        row[i] = x;
+        crow[i] = cause;
+        if (k > 0)
+            fp += sim_mix((uint64_t)(x - s->xr[prev + i]), i);
+        lmin = x + nd.recv < lmin ? x + nd.recv : lmin;
+        lmax = x + nd.end_off > lmax ? x + nd.end_off : lmax;
+        if (nd.tend > tb) {
+            int rc = sw_count(s, w, tb, nd.tend, k, i, base, early);
+            if (rc)
+                return rc;
+        }
+        pb = nd.pend, tb = nd.tend;
+    }
+    uint64_t slot = k & s->mask;
+    s->f1[slot] = fp;
+    s->lmin[slot] = lmin;
+    s->lmax[slot] = lmax;
+    return PM_OK;
+}
+
+static int sw_iteration_early(sim *s, sw *w, uint64_t k)
+{
+    return sw_iteration(s, w, k, true);
+}
+
+static int sw_iteration_late(sim *s, sw *w, uint64_t k)
+{
+    return sw_iteration(s, w, k, false);
+}
+
+/* Trace records of iteration k, in sweep order (as the causal engine's
+ * report expects them: sorted later). */
+static int sw_record(sim *s, const sw *w, uint64_t k)
+{
+    const int64_t *row = s->xr + (size_t)(k & s->mask) * w->n;
+    int rc = PM_OK;
+    for (uint32_t i = 0; i < w->n && !rc; i++) {
+        uint32_t v = w->step[i];
+        int64_t end = row[i] + s->nd[v].end_off;
+        for (uint32_t j = s->nd[v].xo_lo; j < s->nd[v].xo_hi && !rc; j++)
+            rc = sim_record_transfer(s, s->xout[j], k, end, end);
+        if (!rc)
+            rc = sim_record_firing(s, s->m->core_of[v], v, k, row[i]);
+    }
+    return rc;
+}
+
+/* Put the rings of the last iterations back in node order, with cause codes. */
+static int sw_unslot(sim *s, const sw *w)
+{
+    size_t n = w->n;
+    int64_t *x = malloc((n + 1) * sizeof *x);
+    uint32_t *c = malloc((n + 1) * sizeof *c);
+    if (!x || !c) {
+        free(x), free(c);
+        return PM_ENOMEM;
+    }
+    for (uint64_t k = s->N > s->W ? s->N - s->W : 0; k < s->N; k++) {
+        size_t base = (size_t)(k & s->mask) * n;
+        memcpy(x, s->xr + base, n * sizeof *x);
+        memcpy(c, s->cr + base, n * sizeof *c);
+        for (size_t i = 0; i < n; i++) {
+            s->xr[base + w->step[i]] = x[i];
+            s->cr[base + w->step[i]] = c[i] == SW_START ? PM_CAUSE_START : w->pcause[c[i]];
+        }
+    }
+    free(x), free(c);
+    return PM_OK;
+}
+
+/* A core's firings follow one another, so its last one frees it last. */
+static void sw_makespan(sim *s)
+{
+    for (uint32_t c = 0; c < s->P; c++) {
+        if (!s->cnt[c])
+            continue;
+        uint32_t v = s->m->order[s->first[c] + s->cnt[c] - 1];
+        int64_t f = *sim_x_at(s, v, s->N - 1) + s->nd[v].free_off;
+        if (f > s->makespan)
+            s->makespan = f;
+    }
+}
+
+static int sw_run(sim *s, sw *w)
+{
+    int rc = PM_OK;
+    for (uint64_t k = 0; rc == PM_OK && k < s->N; k++) {
+        s->max_iter = k;
+        sim_slot_reset(s, k);
+        rc = k < w->early ? sw_iteration_early(s, w, k) : sw_iteration_late(s, w, k);
+        if (!rc && k < s->record)
+            rc = sw_record(s, w, k);
+        if (!rc && k == s->N / 2)
+            for (uint32_t i = 0; i < w->n; i++)
+                s->half[w->step[i]] = s->xr[(size_t)(k & s->mask) * w->n + i];
+        if (!rc)
+            sim_iteration_done(s, s->completed++);
+    }
+    if (!rc)
+        rc = sw_count_tail(s, w);
+    if (!rc)
+        rc = sw_unslot(s, w);
+    return rc;
+}
+
+int sim_loop_sweep(sim *s, pm_diag *diag)
+{
+    (void)diag;
+    sw w = { 0 };
+    int rc = sw_build(s, &w);
+    if (!rc)
+        rc = sw_run(s, &w);
+    sw_free(&w);
+    if (rc)
+        return rc;
+    sw_makespan(s);
+    s->firings = s->N * s->n;
+    for (uint32_t v = 0; v < s->n; v++)
+        s->done[v] = s->N;
+    for (uint32_t c = 0; c < s->P; c++)
+        s->iter[c] = s->N, s->pos[c] = 0;
+    return PM_OK;
+}
