@@ -48,6 +48,10 @@
 #define SW_START UINT32_MAX   /* cause index: nothing, began at time 0 */
 #define SW_QUEUED UINT64_MAX  /* token cursor: the edge counts with a queue */
 #define SW_HOT static inline __attribute__((always_inline))
+#define SW_BLOCK 256          /* slots swept between two rounds of token counts */
+#define SW_LAST (UINT32_C(1) << 31) /* in sw_pred.off: the node's last predecessor */
+#define SW_DEDUP_MAX 32       /* nodes with more predecessors keep duplicates */
+#define SW_AHEAD 64           /* slots: how far ahead older rows are fetched */
 
 /* A predecessor as the builder lists it. */
 typedef struct sw_wide {
@@ -56,22 +60,23 @@ typedef struct sw_wide {
     int64_t w;
 } sw_wide;
 
+/* A node's predecessors follow one another; the last has SW_LAST in off. */
 typedef struct sw_pred {
     uint32_t off; /* ((W - delay) mod W) * n + slot of the source */
     int32_t w;    /* source's end (or free) offset, plus the transfer */
 } sw_pred;
 
 typedef struct sw_node {
-    uint32_t pend;  /* predecessors: pred[previous pend .. pend) */
-    uint32_t tend;  /* cross-core inputs: tok[previous tend .. tend) */
     int32_t recv, end_off;
 } sw_node;
 
+/* The token counter of a cross-core input. */
 typedef struct sw_tok {
-    int64_t max;    /* most tokens held so far */
+    int64_t bq;     /* begin of pop q, once the consumer has begun it */
     uint64_t q;     /* pops counted, or SW_QUEUED */
-    uint32_t p;     /* its predecessor entry */
-    int32_t cost;   /* transfer time */
+    int64_t max;    /* most tokens held so far */
+    uint32_t off;   /* the producer's ring offset, as in its sw_pred */
+    int32_t end;    /* the producer's end offset: its push time */
 } sw_tok;
 
 typedef struct sw {
@@ -85,6 +90,12 @@ typedef struct sw {
     uint32_t *pcause;   /* per predecessor: its cause code */
     sw_tok *tok;
     uint32_t *txs;      /* per token counter: the edge's xslot */
+    uint32_t *tdelay;   /* per token counter: the edge's delays */
+    uint32_t *tslot;    /* per token counter: the consumer's slot */
+    uint32_t *btend;    /* per block of slots: its counters end here */
+    uint32_t *far;      /* ring offsets read from older rows, in slot order */
+    uint32_t *bfar;     /* per SW_AHEAD slots: where their entries of far end */
+    uint32_t nfar;
 } sw;
 
 /* ---- building ----------------------------------------------------------- */
@@ -158,9 +169,9 @@ static bool sw_fits(int64_t v)
 /* Compile predecessor `g` of the node in `slot` into entry p; false when
  * it does not fit the narrow form. */
 static bool sw_compile_pred(const sim *s, sw *w, const uint32_t *slot_of, const sw_wide *g,
-                            uint32_t p, uint32_t *t)
+                            uint32_t slot, uint32_t p, uint32_t *t)
 {
-    if (!sw_fits(g->w) || g->delay >= w->W)
+    if (!sw_fits(g->w) || g->w < 0 || g->delay >= w->W)
         return false;
     w->pred[p] = (sw_pred){ ((w->W - g->delay) & (w->W - 1)) * w->n + slot_of[g->u], (int32_t)g->w };
     w->pdelay[p] = g->delay;
@@ -172,9 +183,43 @@ static bool sw_compile_pred(const sim *s, sw *w, const uint32_t *slot_of, const 
     int64_t cost = s->x[g->xslot].cost;
     if (cost + s->nd[g->u].free_off <= 0 || !sw_fits(cost))
         return false; /* zero-time producer and transfer: pops may tie later pushes */
-    w->tok[*t] = (sw_tok){ s->x[g->xslot].delay, 0, p, (int32_t)cost };
+    w->tok[*t] = (sw_tok){ 0, 0, g->delay, w->pred[p].off, (int32_t)(g->w - cost) };
+    w->tdelay[*t] = g->delay;
+    w->tslot[*t] = slot;
     w->txs[(*t)++] = g->xslot;
     return true;
+}
+
+/* Entry j of [p0, p1) never sets a begin when another entry reads the same
+ * source and delay with a larger weight, or the same weight earlier (a
+ * later one wins only when strictly later). */
+static bool sw_dominated(const sw *w, uint32_t p0, uint32_t p1, uint32_t j)
+{
+    for (uint32_t o = p0; o < p1; o++)
+        if (o != j && w->pred[o].off == w->pred[j].off &&
+            (w->pred[o].w > w->pred[j].w || (w->pred[o].w == w->pred[j].w && o < j)))
+            return true;
+    return false;
+}
+
+/* Drop the dominated entries of one node's [p0, p1) (a core-order
+ * predecessor often shadows a data edge from the same node); the new end. */
+static uint32_t sw_dedup(sw *w, uint32_t p0, uint32_t p1)
+{
+    bool dead[SW_DEDUP_MAX];
+    if (p1 - p0 > SW_DEDUP_MAX)
+        return p1;
+    for (uint32_t j = p0; j < p1; j++)
+        dead[j - p0] = sw_dominated(w, p0, p1, j);
+    uint32_t out = p0;
+    for (uint32_t j = p0; j < p1; j++) {
+        if (dead[j - p0])
+            continue;
+        w->pred[out] = w->pred[j];
+        w->pdelay[out] = w->pdelay[j];
+        w->pcause[out++] = w->pcause[j];
+    }
+    return out;
 }
 
 static bool sw_compile(const sim *s, sw *w, const uint32_t *p_off, const sw_wide *wide,
@@ -184,13 +229,22 @@ static bool sw_compile(const sim *s, sw *w, const uint32_t *p_off, const sw_wide
     for (uint32_t i = 0; i < w->n; i++)
         slot_of[w->step[i]] = i;
     for (uint32_t i = 0; i < w->n; i++) {
-        uint32_t v = w->step[i];
+        uint32_t v = w->step[i], p0 = p;
         for (uint32_t j = p_off[v]; j < p_off[v + 1]; j++)
-            if (!sw_compile_pred(s, w, slot_of, &wide[j], p++, &t))
+            if (!sw_compile_pred(s, w, slot_of, &wide[j], i, p++, &t))
                 return false;
+        p = sw_dedup(w, p0, p);
+        for (uint32_t j = p0; j < p; j++)
+            if (w->pdelay[j] > 0)
+                w->far[w->nfar++] = w->pred[j].off;
+        w->pred[p - 1].off |= SW_LAST;
+        if ((i & (SW_AHEAD - 1)) == SW_AHEAD - 1 || i == w->n - 1)
+            w->bfar[i / SW_AHEAD] = w->nfar;
         if (!sw_fits(s->nd[v].recv) || !sw_fits(s->nd[v].end_off))
             return false;
-        w->node[i] = (sw_node){ p, t, (int32_t)s->nd[v].recv, (int32_t)s->nd[v].end_off };
+        w->node[i] = (sw_node){ (int32_t)s->nd[v].recv, (int32_t)s->nd[v].end_off };
+        if ((i & (SW_BLOCK - 1)) == SW_BLOCK - 1 || i == w->n - 1)
+            w->btend[i / SW_BLOCK] = t;
     }
     return true;
 }
@@ -205,14 +259,21 @@ static int sw_alloc(const sim *s, sw *w, size_t np)
     w->pcause = malloc((np + 1) * sizeof *w->pcause);
     w->tok = malloc(((size_t)s->nx + 1) * sizeof *w->tok);
     w->txs = malloc(((size_t)s->nx + 1) * sizeof *w->txs);
-    bool ok = w->step && w->node && w->pred && w->pdelay && w->pcause && w->tok && w->txs;
+    w->tdelay = malloc(((size_t)s->nx + 1) * sizeof *w->tdelay);
+    w->tslot = malloc(((size_t)s->nx + 1) * sizeof *w->tslot);
+    w->btend = malloc((n / SW_BLOCK + 1) * sizeof *w->btend);
+    w->far = malloc((np + 1) * sizeof *w->far);
+    w->bfar = malloc((n / SW_AHEAD + 2) * sizeof *w->bfar);
+    bool ok = w->step && w->node && w->pred && w->pdelay && w->pcause && w->tok && w->txs &&
+              w->tdelay && w->tslot && w->btend && w->far && w->bfar;
     return ok ? PM_OK : PM_ENOMEM;
 }
 
 static void sw_free(sw *w)
 {
     free(w->step), free(w->node), free(w->pred), free(w->pdelay), free(w->pcause);
-    free(w->tok), free(w->txs);
+    free(w->tok), free(w->txs), free(w->tdelay), free(w->tslot), free(w->btend);
+    free(w->far), free(w->bfar);
 }
 
 /* PM_OK with the sweep built; 1 when it cannot run this map (a zero-delay
@@ -221,7 +282,7 @@ static int sw_build(const sim *s, sw *w)
 {
     uint32_t n = s->n;
     w->n = n, w->W = s->W, w->wn = (size_t)s->W * n;
-    if ((uint64_t)s->W * n > UINT32_MAX)
+    if ((uint64_t)s->W * n > SW_LAST)
         return 1;
     uint32_t *p_off = calloc((size_t)n + 1, sizeof *p_off);
     if (!p_off)
@@ -269,25 +330,12 @@ static __attribute__((noinline)) int sw_to_queue(sim *s, const sw *w, sw_tok *t,
 static __attribute__((noinline)) int sw_count_queued(sim *s, const sw *w, sw_tok *t,
                                                      uint64_t k, int64_t begin, int64_t push)
 {
-    sim_occ *o = &s->occ[w->txs[t - w->tok]];
+    uint32_t j = (uint32_t)(t - w->tok);
+    sim_occ *o = &s->occ[w->txs[j]];
     int rc = sim_occ_pop(o, begin);
-    if (!rc && k >= w->pdelay[t->p])
+    if (!rc && k >= w->tdelay[j])
         rc = sim_occ_push(o, push);
     return rc;
-}
-
-/* Push E_{k-d} of counter t, whose consumer sits in slot i, is counted when the
- * consumer's iteration k has begun. */
-SW_HOT void sw_count_push(const sim *s, sw_tok *t, uint64_t k, uint32_t i, int64_t push)
-{
-    const int64_t *col = s->xr + i;
-    uint64_t q = t->q;
-    while (q <= k && col[(size_t)(q & s->mask) * s->n] <= push)
-        q++;
-    t->q = q;
-    int64_t held = (int64_t)(k + 1 - q);
-    if (held > t->max)
-        t->max = held;
 }
 
 SW_HOT int64_t sw_at(const int64_t *ring, size_t base, uint32_t off, size_t wn)
@@ -296,24 +344,62 @@ SW_HOT int64_t sw_at(const int64_t *ring, size_t base, uint32_t off, size_t wn)
     return ring[j >= wn ? j - wn : j];
 }
 
-/* The tokens of slot i's cross-core inputs [tb, te) in iteration k. */
-SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, uint32_t i,
-                    size_t base, bool early)
+/* Count push `push` of counter t, whose consumer (slot i) began iteration
+ * k at x: advance over the pops at or before it.  Between iterations
+ * either every pop begun is counted (q = k + 1) or t->bq holds pop q's
+ * begin.  Which pops a push passes depends on two cores' timing, so the
+ * usual cases (passing none, one or two) are taken without branches; the
+ * ring is read in a loop only when a push passes more. */
+SW_HOT void sw_count_push(const sim *s, sw_tok *t, uint64_t k, uint32_t i, int64_t x,
+                          int64_t push)
+{
+    const int64_t *col = s->xr + i;
+    uint64_t q = t->q;
+    int64_t b = q == k ? x : t->bq;
+    for (int step = 0; step < 2; step++) {
+        bool pass = b <= push && q <= k;
+        q += pass;
+        uint64_t r = q < k ? q : k; /* row k is at hand; older rows only when needed */
+        int64_t next = q < k ? col[(size_t)(r & s->mask) * s->n] : x;
+        b = pass ? next : b;
+    }
+    while (__builtin_expect(b <= push && q <= k, 0)) {
+        q++;
+        b = q < k ? col[(size_t)(q & s->mask) * s->n] : x;
+    }
+    t->q = q, t->bq = b;
+    int64_t held = (int64_t)(k + 1 - q);
+    t->max = held > t->max ? held : t->max;
+}
+
+/* The counters [tb, te) in iteration k, once their consumers have begun.
+ * Run in blocks of slots, apart from the begin times, so that neither
+ * loop branches on whether a node has cross-core inputs. */
+SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, size_t base,
+                    bool early)
 {
     for (uint32_t j = tb; j < te; j++) {
         sw_tok *t = &w->tok[j];
-        const sw_pred *p = &w->pred[t->p];
-        bool initial = early && k < w->pdelay[t->p]; /* it took an initial token */
-        int64_t push = initial ? 0 : sw_at(s->xr, base, p->off, w->wn) + p->w - t->cost;
+        uint32_t i = w->tslot[j];
+        int64_t x = s->xr[base + i];
+        if (early && k < w->tdelay[j]) { /* it took an initial token: nothing pushed */
+            if (t->q == SW_QUEUED) {
+                int rc = sw_count_queued(s, w, t, k, x, 0);
+                if (rc)
+                    return rc;
+            } else if (t->q == k) {
+                t->bq = x;
+            }
+            continue;
+        }
+        int64_t push = sw_at(s->xr, base, t->off, w->wn) + t->end;
         if (__builtin_expect(t->q == SW_QUEUED, 0)) {
-            int rc = sw_count_queued(s, w, t, k, s->xr[base + i], push);
+            int rc = sw_count_queued(s, w, t, k, x, push);
             if (rc)
                 return rc;
             continue;
         }
-        if (initial)
-            continue;
-        sw_count_push(s, t, k, i, push);
+        sw_count_push(s, t, k, i, x, push);
         if (__builtin_expect(k + 1 - t->q >= w->W, 0)) {
             int rc = sw_to_queue(s, w, t, k, i);
             if (rc)
@@ -328,85 +414,102 @@ SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, uint32_
  * without popping. */
 static int sw_count_tail(sim *s, sw *w)
 {
-    uint32_t tb = 0;
-    for (uint32_t i = 0; i < w->n; i++) {
-        for (uint32_t j = tb; j < w->node[i].tend; j++) {
-            sw_tok *t = &w->tok[j];
-            const sw_pred *p = &w->pred[t->p];
-            uint64_t d = w->pdelay[t->p];
-            sim_occ *o = &s->occ[w->txs[j]];
-            for (uint64_t k = s->N > d ? s->N : d; k < s->N + d; k++) {
-                int64_t push = sw_at(s->xr, (size_t)(k & s->mask) * w->n, p->off, w->wn) + p->w -
-                               t->cost;
-                if (t->q == SW_QUEUED) {
-                    int rc = sim_occ_push(o, push);
-                    if (rc)
-                        return rc;
-                    continue;
-                }
-                uint64_t q = t->q;
-                while (q < s->N && s->xr[(size_t)(q & s->mask) * w->n + i] <= push)
-                    q++;
-                t->q = q;
-                if ((int64_t)(k + 1 - q) > t->max)
-                    t->max = (int64_t)(k + 1 - q);
+    for (uint32_t j = 0; j < s->nx; j++) {
+        sw_tok *t = &w->tok[j];
+        uint64_t d = w->tdelay[j];
+        const int64_t *col = s->xr + w->tslot[j];
+        sim_occ *o = &s->occ[w->txs[j]];
+        for (uint64_t k = s->N > d ? s->N : d; k < s->N + d; k++) {
+            int64_t push = sw_at(s->xr, (size_t)(k & s->mask) * w->n, t->off, w->wn) + t->end;
+            if (t->q == SW_QUEUED) {
+                int rc = sim_occ_push(o, push);
+                if (rc)
+                    return rc;
+                continue;
             }
-            if (t->q != SW_QUEUED)
-                o->max = t->max; /* sim_collect flushes the queued ones */
+            uint64_t q = t->q;
+            while (q < s->N && col[(size_t)(q & s->mask) * w->n] <= push)
+                q++;
+            t->q = q;
+            if ((int64_t)(k + 1 - q) > t->max)
+                t->max = (int64_t)(k + 1 - q);
         }
-        tb = w->node[i].tend;
+        if (t->q != SW_QUEUED)
+            o->max = t->max; /* sim_collect flushes the queued ones */
     }
     return PM_OK;
 }
 
 /* ---- the sweep ------------------------------------------------------------ */
 
-/* Begin of slot i in iteration k and the index of the predecessor that set
- * it; `early` while some delay still reaches before iteration 0. */
-SW_HOT int64_t sw_begin(const sim *s, const sw *w, uint32_t pb, uint32_t pe, uint64_t k,
-                        size_t base, bool early, uint32_t *cause)
+/* Begin of the node whose predecessors start at *pp in iteration k, and
+ * the index of the one that set it; *pp moves past them.  `early` while
+ * some delay still reaches before iteration 0; `causes` in the iterations
+ * whose causes the report reads. */
+SW_HOT int64_t sw_begin(const sim *s, const sw *w, const sw_pred **pp, uint64_t k, size_t base,
+                        bool early, bool causes, uint32_t *cause)
 {
-    const sw_pred *P = w->pred;
+    const sw_pred *p = *pp;
     int64_t x = 0;
     *cause = SW_START;
-    if (!early || k >= w->pdelay[pb])
-        x = sw_at(s->xr, base, P[pb].off, w->wn) + P[pb].w, *cause = pb;
-    for (uint32_t p = pb + 1; p < pe; p++) {
-        if (early && k < w->pdelay[p])
+    if (!early || k >= w->pdelay[p - w->pred]) {
+        x = sw_at(s->xr, base, p->off & ~SW_LAST, w->wn) + p->w;
+        *cause = (uint32_t)(p - w->pred);
+    }
+    while (!(p->off & SW_LAST)) {
+        p++;
+        if (early && k < w->pdelay[p - w->pred])
             continue;
-        int64_t a = sw_at(s->xr, base, P[p].off, w->wn) + P[p].w;
+        int64_t a = sw_at(s->xr, base, p->off & ~SW_LAST, w->wn) + p->w;
         bool later = a > x; /* data-dependent: keep it free of branches */
         x = later ? a : x;
-        *cause = later ? p : *cause;
+        if (causes)
+            *cause = later ? (uint32_t)(p - w->pred) : *cause;
     }
+    *pp = p + 1;
     return x;
 }
 
-SW_HOT int sw_iteration(sim *s, sw *w, uint64_t k, bool early)
+/* Older rows are out of cache by the time the sweep reads them: ask for
+ * those the next SW_AHEAD slots read while sweeping block b. */
+SW_HOT void sw_fetch_ahead(const sim *s, const sw *w, uint32_t b, size_t base)
+{
+    uint32_t lo = w->bfar[b], hi = w->bfar[b + 1];
+    for (uint32_t j = lo; j < hi; j++)
+        __builtin_prefetch(&s->xr[base + w->far[j] >= w->wn ? base + w->far[j] - w->wn
+                                                            : base + w->far[j]]);
+}
+
+SW_HOT int sw_iteration(sim *s, sw *w, uint64_t k, bool early, bool causes)
 {
     const size_t n = w->n, base = (size_t)(k & s->mask) * n;
     const size_t prev = (size_t)((k - 1) & s->mask) * n;
     int64_t *row = s->xr + base;
     uint32_t *crow = s->cr + base;
+    const sw_pred *p = w->pred;
     uint64_t fp = 0;
     int64_t lmin = INT64_MAX, lmax = INT64_MIN;
-    uint32_t pb = 0, tb = 0;
+    uint32_t tb = 0;
     for (uint32_t i = 0; i < n; i++) {
+        if ((i & (SW_AHEAD - 1)) == 0 && i + SW_AHEAD < n)
+            sw_fetch_ahead(s, w, i / SW_AHEAD, base);
         const sw_node nd = w->node[i];
         uint32_t cause;
-        int64_t x = sw_begin(s, w, pb, nd.pend, k, base, early, &cause);
+        int64_t x = sw_begin(s, w, &p, k, base, early, causes, &cause);
         row[i] = x;
-        crow[i] = cause;
-        if (k > 0)
+        if (causes)
+            crow[i] = cause;
+        if (!early || k > 0)
             fp += sim_mix((uint64_t)(x - s->xr[prev + i]), i);
         lmin = x + nd.recv < lmin ? x + nd.recv : lmin;
         lmax = x + nd.end_off > lmax ? x + nd.end_off : lmax;
-        if (nd.tend > tb) {
-            int rc = sw_count(s, w, tb, nd.tend, k, i, base, early);
+        if ((i & (SW_BLOCK - 1)) == SW_BLOCK - 1 || i == n - 1) {
+            uint32_t te = w->btend[i / SW_BLOCK];
+            int rc = sw_count(s, w, tb, te, k, base, early);
             if (rc)
                 return rc;
+            tb = te;
         }
-        pb = nd.pend, tb = nd.tend;
     }
     uint64_t slot = k & s->mask;
     s->f1[slot] = fp;
@@ -415,14 +518,20 @@ SW_HOT int sw_iteration(sim *s, sw *w, uint64_t k, bool early)
     return PM_OK;
 }
 
+/* The three kinds of iteration, each compiled on its own. */
 static int sw_iteration_early(sim *s, sw *w, uint64_t k)
 {
-    return sw_iteration(s, w, k, true);
+    return sw_iteration(s, w, k, true, true);
 }
 
-static int sw_iteration_late(sim *s, sw *w, uint64_t k)
+static int sw_iteration_plain(sim *s, sw *w, uint64_t k)
 {
-    return sw_iteration(s, w, k, false);
+    return sw_iteration(s, w, k, false, false);
+}
+
+static int sw_iteration_window(sim *s, sw *w, uint64_t k)
+{
+    return sw_iteration(s, w, k, false, true);
 }
 
 /* Trace records of iteration k, in sweep order (as the causal engine's
@@ -484,7 +593,12 @@ static int sw_run(sim *s, sw *w)
     for (uint64_t k = 0; rc == PM_OK && k < s->N; k++) {
         s->max_iter = k;
         sim_slot_reset(s, k);
-        rc = k < w->early ? sw_iteration_early(s, w, k) : sw_iteration_late(s, w, k);
+        if (k < w->early)
+            rc = sw_iteration_early(s, w, k);
+        else if (k + s->W < s->N)
+            rc = sw_iteration_plain(s, w, k); /* its causes are never read */
+        else
+            rc = sw_iteration_window(s, w, k);
         if (!rc && k < s->record)
             rc = sw_record(s, w, k);
         if (!rc && k == s->N / 2)
