@@ -211,7 +211,7 @@ static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
         s->in_off[v] = k;
         for (uint32_t i = g->in_off[v]; i < g->in_off[v + 1]; i++) {
             uint32_t e = g->in_edge[i];
-            s->ins[k++] = (sim_in){ g->edges[e].src, e, s->xs_of[e], (uint32_t)g->edges[e].delay };
+            s->ins[k++] = (sim_in){ g->edges[e].src, e, s->xs_of[e], (uint32_t)g->edges[e].delay, 0 };
         }
     }
     s->in_off[s->n] = k;
@@ -236,6 +236,15 @@ static int sim_build_xlists(sim *s)
         s->nd[v] = (sim_nd){ s->recv[v], s->recv[v] + s->t[v], s->recv[v] + s->t[v] + s->send[v],
                              0, s->in_off[v], s->in_off[v + 1], s->xout_off[v],
                              s->xout_off[v + 1] };
+    for (uint32_t i = 0; i < s->in_off[s->n]; i++)
+        s->ins[i].w = s->nd[s->ins[i].src].end_off;
+    s->fo = malloc(((size_t)s->nx + 1) * sizeof *s->fo);
+    if (!s->fo)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < s->nx; i++) {
+        const sim_x *x = &s->x[s->xout[i]];
+        s->fo[i] = (sim_fo){ x->dst, x->edge, (uint32_t)(x->cap - x->delay), s->xout[i], x->cost };
+    }
     return PM_OK;
 }
 
@@ -276,7 +285,7 @@ static uint64_t sim_ring_bytes(const sim *s, uint64_t W)
     /* saturates: a window of 2^62 iterations must not wrap to a small size */
     /* the same sizes sim_ring_alloc asks for, per slot of the window */
     uint64_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
-    uint64_t per = n * 12 + nx * 28 + 24 + SIM_LBR * sizeof(uint64_t);
+    uint64_t per = n * 12 + nx * 36 + 24 + SIM_LBR * sizeof(uint64_t);
     unsigned __int128 b = (unsigned __int128)W * per;
     return b > UINT64_MAX ? UINT64_MAX : (uint64_t)b;
 }
@@ -297,7 +306,7 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
     size_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
     p[0] = malloc(W * n * sizeof(int64_t));
     p[1] = malloc(W * n * sizeof(uint32_t));
-    p[2] = malloc(W * nx * sizeof(int64_t));
+    p[2] = malloc(W * nx * 2 * sizeof(int64_t));
     p[3] = malloc(W * nx * sizeof(int64_t));
     p[4] = malloc(W * nx * sizeof(uint32_t));
     p[5] = malloc(W * nx * sizeof(uint64_t));
@@ -336,7 +345,7 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
     }
     for (uint32_t i = 0; i < s->nx; i++) {
         uint64_t hi = s->granted[i], lo = hi > s->W ? hi - s->W : 0;
-        sim_ring_move(p[2], s->ar, sizeof(int64_t), s->nx, lo, hi, om, nm, i);
+        sim_ring_move(p[2], s->ar, 2 * sizeof(int64_t), s->nx, lo, hi, om, nm, i);
         sim_ring_move(p[3], s->gr, sizeof(int64_t), s->nx, lo, hi, om, nm, i);
         sim_ring_move(p[4], s->br, sizeof(uint32_t), s->nx, lo, hi, om, nm, i);
         sim_ring_move(p[5], s->bi, sizeof(uint64_t), s->nx, lo, hi, om, nm, i);
@@ -520,9 +529,9 @@ static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, ui
         }
         int64_t a;
         if (bus)
-            a = s->ar[(size_t)(j & s->mask) * s->nx + in->xslot];
+            a = s->ar[2 * ((size_t)(j & s->mask) * s->nx + in->xslot)];
         else
-            a = *sim_x_at(s, in->src, j) + s->nd[in->src].end_off +
+            a = *sim_x_at(s, in->src, j) + in->w +
                 (in->xslot != PM_NONE ? s->x[in->xslot].cost : 0);
         if (a > *x)
             *x = a, *cause = (bus ? PM_CAUSE_BUS : PM_CAUSE_EDGE) | in->edge << 3;
@@ -530,17 +539,16 @@ static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, ui
     if (!s->fifo)
         return true;
     for (uint32_t i = nd->xo_lo; i < nd->xo_hi; i++) {
-        const sim_x *xe = &s->x[s->xout[i]];
-        int64_t jj = (int64_t)k + xe->delay - xe->cap;
-        if (jj < 0)
+        const sim_fo *f = &s->fo[i];
+        if (k < f->back)
             continue;
-        if (s->done[xe->dst] <= (uint64_t)jj) {
-            sim_wait(s, c, xe->dst, xe->edge, true);
+        if (s->done[f->dst] <= k - f->back) {
+            sim_wait(s, c, f->dst, f->edge, true);
             return false;
         }
-        int64_t a = *sim_x_at(s, xe->dst, (uint64_t)jj);
+        int64_t a = *sim_x_at(s, f->dst, k - f->back);
         if (a > *x)
-            *x = a, *cause = PM_CAUSE_FIFO | xe->edge << 3;
+            *x = a, *cause = PM_CAUSE_FIFO | f->edge << 3;
     }
     return true;
 }
@@ -579,24 +587,51 @@ int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr
     return PM_OK;
 }
 
-/* Tokens leave (v,k) at `end`: count them, queue bus requests; tokens
- * taken at its begin x leave their buffers. */
-static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, int64_t end)
+/* Tokens leave (v,k) at `end`: queue its bus requests. */
+static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t end)
 {
     const sim_nd *nd = &s->nd[v];
     int rc = PM_OK;
     for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
-        uint32_t xs = s->xout[i];
-        rc = sim_occ_push(&s->occ[xs], end);
-        if (!rc && s->bus)
-            rc = sim_heap_push(&s->pend, (sim_ev){ end, 1, c, xs, 0, k });
-        else if (!rc && k < s->record)
-            rc = sim_record_transfer(s, xs, k, end, end);
+        const sim_fo *f = &s->fo[i];
+        if (s->bus)
+            rc = sim_heap_push(&s->pend, (sim_ev){ end, k, f->cost, 1, c, f->xslot, v });
+        else if (k < s->record)
+            rc = sim_record_transfer(s, f->xslot, k, end, end);
     }
-    for (uint32_t i = nd->in_lo; i < nd->in_hi && !rc; i++)
-        if (s->ins[i].xslot != PM_NONE)
-            rc = sim_occ_pop(&s->occ[s->ins[i].xslot], x);
     return rc;
+}
+
+/* (v,k) began at x and took a token from each cross-core input: count the
+ * push of that token (sim_tokens.c). */
+static int sim_count_tokens(sim *s, uint32_t v, uint64_t k, int64_t x)
+{
+    const sim_nd *nd = &s->nd[v];
+    for (uint32_t i = nd->in_lo; i < nd->in_hi; i++) {
+        const sim_in *in = &s->ins[i];
+        if (in->xslot == PM_NONE)
+            continue;
+        sim_cursor *t = &s->cur[in->xslot];
+        bool initial = k < in->delay;
+        int64_t push = 0;
+        if (!initial && s->bus) /* the request time, next to the arrival just read */
+            push = s->ar[2 * ((size_t)((k - in->delay) & s->mask) * s->nx + in->xslot) + 1];
+        else if (!initial)
+            push = *sim_x_at(s, in->src, k - in->delay) + in->w;
+        int rc = PM_OK;
+        if (t->q == SIM_QUEUED)
+            rc = sim_tokens_queued(s, in->xslot, k, x, push);
+        else if (initial && t->q == k)
+            t->bq = x;
+        else if (!initial) {
+            sim_cursor_push(t, s->xr + v, s->n, s->mask, k, x, push);
+            if (k + 1 - t->q >= s->W)
+                rc = sim_tokens_to_queue(s, in->xslot, s->xr + v, s->n, k);
+        }
+        if (rc)
+            return rc;
+    }
+    return PM_OK;
 }
 
 static inline void sim_note_begin(sim *s, uint32_t v, uint64_t k, int64_t x)
@@ -627,7 +662,9 @@ static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uin
     s->free[c] = x + s->nd[v].free_off;
     if (s->free[c] > s->makespan)
         s->makespan = s->free[c];
-    int rc = s->nx ? sim_outputs(s, c, v, k, x, end) : PM_OK;
+    int rc = s->nx ? sim_outputs(s, c, v, k, end) : PM_OK;
+    if (!rc && s->nx)
+        rc = sim_count_tokens(s, v, k, x);
     if (!rc && k < s->record)
         rc = sim_record_firing(s, c, v, k, x);
     if (rc)
@@ -668,6 +705,9 @@ static void sim_prefetch(const sim *s, uint32_t c, uint32_t ahead)
     const sim_nd *nd = &s->nd[v];
     __builtin_prefetch(nd);
     __builtin_prefetch(&s->ins[nd->in_lo]);
+    if (nd->in_hi > nd->in_lo)
+        __builtin_prefetch(&s->ins[nd->in_hi - 1]);
+    __builtin_prefetch(&s->fo[nd->xo_lo]);
     __builtin_prefetch(&s->done[v], 1);
     __builtin_prefetch(sim_x_at(s, v, s->iter[c]), 1);
 }
@@ -722,15 +762,16 @@ static int sim_bus_grant(sim *s, int64_t g)
     uint32_t xs = r.xslot;
     size_t slot = (size_t)(r.iter & s->mask) * s->nx + xs;
     s->gr[slot] = g;
-    s->ar[slot] = g + s->x[xs].cost;
+    s->ar[2 * slot] = g + r.cost;
+    s->ar[2 * slot + 1] = r.time;
     s->br[slot] = s->bus_free > r.time ? s->bus_last : 0;
     s->bi[slot] = s->bus_last_iter;
-    s->bus_free = s->ar[slot];
+    s->bus_free = g + r.cost;
     s->bus_last = xs + 1;
     s->bus_last_iter = r.iter;
     s->granted[xs]++;
     int rc = r.iter < s->record ? sim_record_transfer(s, xs, r.iter, r.time, g) : PM_OK;
-    sim_wake(s, s->x[xs].src);
+    sim_wake(s, r.src);
     return rc;
 }
 
@@ -797,6 +838,9 @@ static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opt
     s->granted = calloc(s->nx + 1, sizeof *s->granted);
     if (!s->granted)
         return PM_ENOMEM;
+    rc = sim_tokens_init(s);
+    if (rc)
+        return rc;
     rc = sim_check_range(s, diag);
     if (!rc)
         rc = sim_ring_fit(s, diag);
@@ -812,7 +856,7 @@ static void sim_free(sim *s)
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
                    s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->ar, s->gr,
                    s->br, s->bi, s->granted, s->f1, s->lbr, s->lmin, s->lmax, s->half,
-                   s->pend.a, s->trace, s->tr };
+                   s->pend.a, s->trace, s->tr, s->cur, s->fo };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);
     if (s->occ)
@@ -849,8 +893,6 @@ uint32_t sim_prev_on_core(const sim *s, uint32_t c, uint32_t pos, uint32_t *back
 
 static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
 {
-    for (uint32_t i = 0; i < s->nx; i++)
-        sim_occ_flush(&s->occ[i]);
     r->firings = s->firings;
     r->makespan = s->makespan;
     r->latency_max = s->lat_max;
@@ -858,7 +900,11 @@ static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
         if (s->iter[c] < s->N)
             return sim_report_deadlock(s, r, diag);
     r->iterations = s->N;
-    int rc = sim_report_steady(s, r);
+    int rc = sim_tokens_tail(s);
+    for (uint32_t i = 0; i < s->nx; i++)
+        sim_occ_flush(&s->occ[i]);
+    if (!rc)
+        rc = sim_report_steady(s, r);
     if (!rc)
         rc = sim_report_resources(s, r);
     if (!rc)

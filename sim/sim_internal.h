@@ -15,10 +15,20 @@
 #include "pacemap/sim.h"
 
 /* An input of a node: edge from src with `delay` delays; xslot is the
- * edge's index among cross-core edges, or PM_NONE on the same core. */
+ * edge's index among cross-core edges, or PM_NONE on the same core; w is
+ * the source's end offset (so the input needs no look at its record). */
 typedef struct sim_in {
     uint32_t src, edge, xslot, delay;
+    int64_t w;
 } sim_in;
+
+/* A cross-core output, next to its node's others: its transfer time, and
+ * its room (--fifo): firing k of the producer waits for firing k - back of
+ * the consumer dst (back = capacity - delays). */
+typedef struct sim_fo {
+    uint32_t dst, edge, back, xslot;
+    int64_t cost;
+} sim_fo;
 
 /* What a firing of a node needs, packed for the hot loop (times are
  * offsets from the firing's begin). */
@@ -46,13 +56,26 @@ typedef struct sim_occ {
     uint64_t *budget; /* bytes all queues of the run may still take (shared) */
 } sim_occ;
 
+/* The token counter of a cross-core edge (sim_tokens.c): pops counted,
+ * and the begin of pop q once the consumer has begun it. */
+typedef struct sim_cursor {
+    int64_t bq;
+    uint64_t q;   /* or SIM_QUEUED: the edge counts with its sim_occ queue */
+    int64_t max;  /* most tokens held so far */
+} sim_cursor;
+
+#define SIM_QUEUED UINT64_MAX
+
+/* A bus request; cost and src ride along so that granting it needs no
+ * look at the edge's record. */
 typedef struct sim_ev {
     int64_t time;
+    uint64_t iter;
+    int64_t cost;
     uint32_t phase; /* 0 core try, 1 bus request, 2 bus grant */
     uint32_t core;
     uint32_t xslot;
-    uint32_t pad;
-    uint64_t iter;
+    uint32_t src;
 } sim_ev;
 
 typedef struct sim_heap {
@@ -74,12 +97,14 @@ typedef struct sim {
     uint32_t *in_off;
     sim_in *ins;
     uint32_t *xout_off, *xout;   /* cross-core out edges (xslots) */
+    sim_fo *fo;                  /* the same, as room conditions */
     uint32_t *xs_of;             /* per edge: its xslot or PM_NONE */
     uint32_t *pos_of;            /* position of v in its core's order */
     uint64_t *done;              /* firings begun */
     uint32_t *wait_head;         /* first core waiting for this node */
     sim_x *x;
     sim_occ *occ;
+    sim_cursor *cur;             /* per xslot */
     uint64_t occ_budget;         /* what the occ queues may still allocate */
     /* per core */
     uint32_t *pos, *cnt, *first;
@@ -94,7 +119,7 @@ typedef struct sim {
     uint64_t mask;
     int64_t *xr;        /* begin times, W * n */
     uint32_t *cr;       /* causes, W * n: kind | edge << 3 */
-    int64_t *ar;        /* bus arrivals, W * nx */
+    int64_t *ar;        /* bus arrival and request times, W * nx pairs */
     int64_t *gr;        /* bus grants, W * nx */
     uint32_t *br;       /* bus grant cause: previous xslot + 1, or 0 */
     uint64_t *bi;       /* bus grant cause: previous transfer's iteration */
@@ -220,6 +245,42 @@ static inline uint64_t sim_mix(uint64_t d, uint32_t v)
     uint64_t z = (d + ((uint64_t)v << 32) + v) * UINT64_C(0x9e3779b97f4a7c15);
     return z ^ (z >> 29);
 }
+
+/* Count push `push` of cursor t, whose consumer began iteration k at x;
+ * col[(j & mask) * stride] is the consumer's begin in iteration j.
+ * Between iterations either every pop begun is counted (q = k + 1) or
+ * t->bq holds pop q's begin.  Which pops a push passes depends on two
+ * cores' timing, so the usual cases (none, one or two) are taken without
+ * branches; the ring is read in a loop only when a push passes more.  The
+ * caller moves the edge to its queue once k + 1 - q reaches the ring's
+ * depth (sim_tokens_to_queue). */
+static inline __attribute__((always_inline)) void
+sim_cursor_push(sim_cursor *t, const int64_t *col, size_t stride, uint64_t mask, uint64_t k,
+                int64_t x, int64_t push)
+{
+    uint64_t q = t->q;
+    int64_t b = q == k ? x : t->bq;
+    for (int step = 0; step < 2; step++) {
+        bool pass = b <= push && q <= k;
+        q += pass;
+        uint64_t r = q < k ? q : k; /* row k is at hand; older rows only when needed */
+        int64_t next = q < k ? col[(size_t)(r & mask) * stride] : x;
+        b = pass ? next : b;
+    }
+    while (__builtin_expect(b <= push && q <= k, 0)) {
+        q++;
+        b = q < k ? col[(size_t)(q & mask) * stride] : x;
+    }
+    t->q = q, t->bq = b;
+    int64_t held = (int64_t)(k + 1 - q);
+    t->max = held > t->max ? held : t->max;
+}
+
+/* Token counters (sim_tokens.c). */
+int sim_tokens_init(sim *s);
+int sim_tokens_to_queue(sim *s, uint32_t xs, const int64_t *col, size_t stride, uint64_t k);
+int sim_tokens_queued(sim *s, uint32_t xs, uint64_t k, int64_t begin, int64_t push);
+int sim_tokens_tail(sim *s);
 
 /* Iteration bookkeeping and trace records shared by both engines. */
 void sim_slot_reset(sim *s, uint64_t k);

@@ -27,18 +27,8 @@
  * too large to index in 32 bits, run on the causal engine: same results,
  * slower.
  *
- * Token counts.  An edge with d delays gets pushes at E_j (producer ends)
- * and pops at B_j (consumer begins), both non-decreasing, and a pop goes
- * before a push of the same cycle.  After push j the edge holds
- * d + j + 1 - #{pops at or before E_j} tokens.  Pops after B_{j+d} come no
- * earlier than E_{j+1} + transfer > E_j (as long as the producer's
- * occupancy plus the transfer is positive: else the causal engine runs),
- * so when the consumer fires iteration k = j + d, every pop that counts is
- * known and E_j is the arrival it just read, less the transfer.  A cursor
- * of pops counted advances over the ring of begin times.  When an edge
- * holds so many tokens that the cursor would fall out of the ring, that
- * edge moves its pending pops into the causal engine's merge queue and
- * goes on there (order-free: each side is still fed in time order).
+ * Token counts (sim_tokens.c) are taken at the consumer, block by block:
+ * the counters sit in consumer order, each with its producer's ring offset.
  */
 #include <stdlib.h>
 #include <string.h>
@@ -46,7 +36,6 @@
 #include "sim_internal.h"
 
 #define SW_START UINT32_MAX   /* cause index: nothing, began at time 0 */
-#define SW_QUEUED UINT64_MAX  /* token cursor: the edge counts with a queue */
 #define SW_HOT static inline __attribute__((always_inline))
 #define SW_BLOCK 256          /* slots swept between two rounds of token counts */
 #define SW_LAST (UINT32_C(1) << 31) /* in sw_pred.off: the node's last predecessor */
@@ -70,11 +59,9 @@ typedef struct sw_node {
     int32_t recv, end_off;
 } sw_node;
 
-/* The token counter of a cross-core input. */
+/* The token counter of a cross-core input, and where its push time is. */
 typedef struct sw_tok {
-    int64_t bq;     /* begin of pop q, once the consumer has begun it */
-    uint64_t q;     /* pops counted, or SW_QUEUED */
-    int64_t max;    /* most tokens held so far */
+    sim_cursor c;
     uint32_t off;   /* the producer's ring offset, as in its sw_pred */
     int32_t end;    /* the producer's end offset: its push time */
 } sw_tok;
@@ -181,9 +168,9 @@ static bool sw_compile_pred(const sim *s, sw *w, const uint32_t *slot_of, const 
     if (g->xslot == PM_NONE)
         return true;
     int64_t cost = s->x[g->xslot].cost;
-    if (cost + s->nd[g->u].free_off <= 0 || !sw_fits(cost))
-        return false; /* zero-time producer and transfer: pops may tie later pushes */
-    w->tok[*t] = (sw_tok){ 0, 0, g->delay, w->pred[p].off, (int32_t)(g->w - cost) };
+    if (!sw_fits(cost))
+        return false;
+    w->tok[*t] = (sw_tok){ s->cur[g->xslot], w->pred[p].off, (int32_t)(g->w - cost) };
     w->tdelay[*t] = g->delay;
     w->tslot[*t] = slot;
     w->txs[(*t)++] = g->xslot;
@@ -309,67 +296,10 @@ static int sw_build(const sim *s, sw *w)
 
 /* ---- token counts --------------------------------------------------------- */
 
-/* The edge of counter t holds W or more tokens: its pending pops (begins
- * of slot i from iteration q to k) move to the merge queue. */
-static __attribute__((noinline)) int sw_to_queue(sim *s, const sw *w, sw_tok *t, uint64_t k,
-                                                 uint32_t i)
-{
-    sim_occ *o = &s->occ[w->txs[t - w->tok]];
-    o->occ = (int64_t)(k + 1 - t->q);
-    o->max = t->max;
-    for (uint64_t j = t->q; j <= k; j++) {
-        int rc = sim_occ_queue(o, s->xr[(size_t)(j & s->mask) * w->n + i], true);
-        if (rc)
-            return rc;
-    }
-    t->q = SW_QUEUED;
-    return PM_OK;
-}
-
-/* A counter on the queue: pop at this firing's begin, push of the token it took. */
-static __attribute__((noinline)) int sw_count_queued(sim *s, const sw *w, sw_tok *t,
-                                                     uint64_t k, int64_t begin, int64_t push)
-{
-    uint32_t j = (uint32_t)(t - w->tok);
-    sim_occ *o = &s->occ[w->txs[j]];
-    int rc = sim_occ_pop(o, begin);
-    if (!rc && k >= w->tdelay[j])
-        rc = sim_occ_push(o, push);
-    return rc;
-}
-
 SW_HOT int64_t sw_at(const int64_t *ring, size_t base, uint32_t off, size_t wn)
 {
     size_t j = base + off;
     return ring[j >= wn ? j - wn : j];
-}
-
-/* Count push `push` of counter t, whose consumer (slot i) began iteration
- * k at x: advance over the pops at or before it.  Between iterations
- * either every pop begun is counted (q = k + 1) or t->bq holds pop q's
- * begin.  Which pops a push passes depends on two cores' timing, so the
- * usual cases (passing none, one or two) are taken without branches; the
- * ring is read in a loop only when a push passes more. */
-SW_HOT void sw_count_push(const sim *s, sw_tok *t, uint64_t k, uint32_t i, int64_t x,
-                          int64_t push)
-{
-    const int64_t *col = s->xr + i;
-    uint64_t q = t->q;
-    int64_t b = q == k ? x : t->bq;
-    for (int step = 0; step < 2; step++) {
-        bool pass = b <= push && q <= k;
-        q += pass;
-        uint64_t r = q < k ? q : k; /* row k is at hand; older rows only when needed */
-        int64_t next = q < k ? col[(size_t)(r & s->mask) * s->n] : x;
-        b = pass ? next : b;
-    }
-    while (__builtin_expect(b <= push && q <= k, 0)) {
-        q++;
-        b = q < k ? col[(size_t)(q & s->mask) * s->n] : x;
-    }
-    t->q = q, t->bq = b;
-    int64_t held = (int64_t)(k + 1 - q);
-    t->max = held > t->max ? held : t->max;
 }
 
 /* The counters [tb, te) in iteration k, once their consumers have begun.
@@ -378,64 +308,32 @@ SW_HOT void sw_count_push(const sim *s, sw_tok *t, uint64_t k, uint32_t i, int64
 SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, size_t base,
                     bool early)
 {
+    const size_t n = w->n;
     for (uint32_t j = tb; j < te; j++) {
         sw_tok *t = &w->tok[j];
         uint32_t i = w->tslot[j];
         int64_t x = s->xr[base + i];
-        if (early && k < w->tdelay[j]) { /* it took an initial token: nothing pushed */
-            if (t->q == SW_QUEUED) {
-                int rc = sw_count_queued(s, w, t, k, x, 0);
-                if (rc)
-                    return rc;
-            } else if (t->q == k) {
-                t->bq = x;
-            }
-            continue;
-        }
-        int64_t push = sw_at(s->xr, base, t->off, w->wn) + t->end;
-        if (__builtin_expect(t->q == SW_QUEUED, 0)) {
-            int rc = sw_count_queued(s, w, t, k, x, push);
+        bool initial = early && k < w->tdelay[j]; /* it took an initial token */
+        int64_t push = initial ? 0 : sw_at(s->xr, base, t->off, w->wn) + t->end;
+        if (__builtin_expect(t->c.q == SIM_QUEUED, 0)) {
+            int rc = sim_tokens_queued(s, w->txs[j], k, x, push);
             if (rc)
                 return rc;
             continue;
         }
-        sw_count_push(s, t, k, i, x, push);
-        if (__builtin_expect(k + 1 - t->q >= w->W, 0)) {
-            int rc = sw_to_queue(s, w, t, k, i);
+        if (initial) {
+            if (t->c.q == k)
+                t->c.bq = x;
+            continue;
+        }
+        sim_cursor_push(&t->c, s->xr + i, n, s->mask, k, x, push);
+        if (__builtin_expect(k + 1 - t->c.q >= w->W, 0)) {
+            s->cur[w->txs[j]] = t->c;
+            int rc = sim_tokens_to_queue(s, w->txs[j], s->xr + i, n, k);
+            t->c = s->cur[w->txs[j]];
             if (rc)
                 return rc;
         }
-    }
-    return PM_OK;
-}
-
-/* After the last iteration: the pushes no consumer firing counted (the
- * last d of each edge), as if the consumer fired iterations N .. N+d-1
- * without popping. */
-static int sw_count_tail(sim *s, sw *w)
-{
-    for (uint32_t j = 0; j < s->nx; j++) {
-        sw_tok *t = &w->tok[j];
-        uint64_t d = w->tdelay[j];
-        const int64_t *col = s->xr + w->tslot[j];
-        sim_occ *o = &s->occ[w->txs[j]];
-        for (uint64_t k = s->N > d ? s->N : d; k < s->N + d; k++) {
-            int64_t push = sw_at(s->xr, (size_t)(k & s->mask) * w->n, t->off, w->wn) + t->end;
-            if (t->q == SW_QUEUED) {
-                int rc = sim_occ_push(o, push);
-                if (rc)
-                    return rc;
-                continue;
-            }
-            uint64_t q = t->q;
-            while (q < s->N && col[(size_t)(q & s->mask) * w->n] <= push)
-                q++;
-            t->q = q;
-            if ((int64_t)(k + 1 - q) > t->max)
-                t->max = (int64_t)(k + 1 - q);
-        }
-        if (t->q != SW_QUEUED)
-            o->max = t->max; /* sim_collect flushes the queued ones */
     }
     return PM_OK;
 }
@@ -607,8 +505,8 @@ static int sw_run(sim *s, sw *w)
         if (!rc)
             sim_iteration_done(s, s->completed++);
     }
-    if (!rc)
-        rc = sw_count_tail(s, w);
+    for (uint32_t j = 0; j < s->nx; j++)
+        s->cur[w->txs[j]] = w->tok[j].c;
     if (!rc)
         rc = sw_unslot(s, w);
     return rc;
