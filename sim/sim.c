@@ -22,21 +22,18 @@
 
 #define SIM_MEM_LIMIT (UINT64_C(1) << 30) /* bytes of rings before PM_ELIMIT */
 #define SIM_LAG 8 /* causal engine: iterations a core may run ahead of the slowest */
+#define SIM_RINGS 7 /* arrays that slide with the window of iterations */
 #define SIM_PREFETCH 6 /* firings ahead whose data is prefetched */
 
-/* ---- heap of bus requests, keyed (time, phase, core, edge, iteration) --- */
+/* ---- heap of bus requests ----------------------------------------------- */
 
-static bool sim_ev_less(const sim_ev *a, const sim_ev *b)
+/* Which of two requests goes first depends on timing, not predictable:
+ * compare the whole key without branches. */
+static inline bool sim_ev_less(const sim_ev *a, const sim_ev *b)
 {
-    if (a->time != b->time)
-        return a->time < b->time;
-    if (a->phase != b->phase)
-        return a->phase < b->phase;
-    if (a->core != b->core)
-        return a->core < b->core;
-    if (a->xslot != b->xslot)
-        return a->xslot < b->xslot;
-    return a->iter < b->iter;
+    bool t_lt = a->time < b->time, t_eq = a->time == b->time;
+    bool o_lt = a->order < b->order, o_eq = a->order == b->order;
+    return t_lt | (t_eq & (o_lt | (o_eq & (a->iter < b->iter))));
 }
 
 static int sim_heap_push(sim_heap *h, sim_ev e)
@@ -285,7 +282,7 @@ static uint64_t sim_ring_bytes(const sim *s, uint64_t W)
     /* saturates: a window of 2^62 iterations must not wrap to a small size */
     /* the same sizes sim_ring_alloc asks for, per slot of the window */
     uint64_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
-    uint64_t per = n * 12 + nx * 36 + 24 + SIM_LBR * sizeof(uint64_t);
+    uint64_t per = n * 12 + nx * sizeof(sim_grant) + 24 + SIM_LBR * sizeof(uint64_t);
     unsigned __int128 b = (unsigned __int128)W * per;
     return b > UINT64_MAX ? UINT64_MAX : (uint64_t)b;
 }
@@ -306,29 +303,29 @@ static int sim_ring_alloc(sim *s, uint64_t W, void **p)
     size_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
     p[0] = malloc(W * n * sizeof(int64_t));
     p[1] = malloc(W * n * sizeof(uint32_t));
-    p[2] = malloc(W * nx * 2 * sizeof(int64_t));
-    p[3] = malloc(W * nx * sizeof(int64_t));
-    p[4] = malloc(W * nx * sizeof(uint32_t));
-    p[5] = malloc(W * nx * sizeof(uint64_t));
-    p[6] = calloc(W, sizeof(uint64_t));
-    p[7] = calloc(W, SIM_LBR * sizeof(uint64_t));
-    p[8] = malloc(W * sizeof(int64_t));
-    p[9] = malloc(W * sizeof(int64_t));
-    for (int i = 0; i < 10; i++)
+    p[2] = malloc(W * nx * sizeof(sim_grant));
+    p[3] = calloc(W, sizeof(uint64_t));
+    p[4] = calloc(W, SIM_LBR * sizeof(uint64_t));
+    p[5] = malloc(W * sizeof(int64_t));
+    p[6] = malloc(W * sizeof(int64_t));
+    for (int i = 0; i < SIM_RINGS; i++)
         if (!p[i]) {
-            for (int j = 0; j < 10; j++)
+            for (int j = 0; j < SIM_RINGS; j++)
                 free(p[j]);
             return PM_ENOMEM;
         }
+    sim_grant *bg = p[2];
+    for (size_t i = 0; i < W * nx; i++)
+        bg[i].iter = UINT64_MAX;
     return PM_OK;
 }
 
 static void sim_ring_install(sim *s, uint64_t W, void **p)
 {
-    free(s->xr), free(s->cr), free(s->ar), free(s->gr), free(s->br), free(s->bi);
+    free(s->xr), free(s->cr), free(s->bg);
     free(s->f1), free(s->lbr), free(s->lmin), free(s->lmax);
-    s->xr = p[0], s->cr = p[1], s->ar = p[2], s->gr = p[3], s->br = p[4], s->bi = p[5];
-    s->f1 = p[6], s->lbr = p[7], s->lmin = p[8], s->lmax = p[9];
+    s->xr = p[0], s->cr = p[1], s->bg = p[2];
+    s->f1 = p[3], s->lbr = p[4], s->lmin = p[5], s->lmax = p[6];
     s->W = (uint32_t)W;
     s->mask = W - 1;
 }
@@ -343,19 +340,16 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
         sim_ring_move(p[0], s->xr, sizeof(int64_t), s->n, lo, hi, om, nm, v);
         sim_ring_move(p[1], s->cr, sizeof(uint32_t), s->n, lo, hi, om, nm, v);
     }
-    for (uint32_t i = 0; i < s->nx; i++) {
-        uint64_t hi = s->granted[i], lo = hi > s->W ? hi - s->W : 0;
-        sim_ring_move(p[2], s->ar, 2 * sizeof(int64_t), s->nx, lo, hi, om, nm, i);
-        sim_ring_move(p[3], s->gr, sizeof(int64_t), s->nx, lo, hi, om, nm, i);
-        sim_ring_move(p[4], s->br, sizeof(uint32_t), s->nx, lo, hi, om, nm, i);
-        sim_ring_move(p[5], s->bi, sizeof(uint64_t), s->nx, lo, hi, om, nm, i);
-    }
+    sim_grant *bg = p[2];
+    for (size_t i = 0; i < (size_t)s->W * s->nx; i++) /* each grant knows its iteration */
+        if (s->bg[i].iter != UINT64_MAX)
+            bg[(s->bg[i].iter & nm) * s->nx + i % s->nx] = s->bg[i];
     /* iteration max_iter is new (reset after the move); older ones live */
     uint64_t hi = s->max_iter, lo = hi > s->W ? hi - s->W : 0;
-    sim_ring_move(p[6], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
-    sim_ring_move(p[7], s->lbr, SIM_LBR * sizeof(uint64_t), 1, lo, hi, om, nm, 0);
-    sim_ring_move(p[8], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);
-    sim_ring_move(p[9], s->lmax, sizeof(int64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[3], s->f1, sizeof(uint64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[4], s->lbr, SIM_LBR * sizeof(uint64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[5], s->lmin, sizeof(int64_t), 1, lo, hi, om, nm, 0);
+    sim_ring_move(p[6], s->lmax, sizeof(int64_t), 1, lo, hi, om, nm, 0);
 }
 
 /* The cross-core edge with the most tokens waiting (for the message). */
@@ -417,7 +411,7 @@ static int sim_ring_fit(sim *s, pm_diag *diag)
         sim_window_message(s, diag);
         return PM_ELIMIT;
     }
-    void *p[10] = { 0 };
+    void *p[SIM_RINGS] = { 0 };
     if (sim_ring_alloc(s, W, p))
         return PM_ENOMEM;
     if (s->xr)
@@ -484,7 +478,7 @@ static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
         sim_iteration_done(s, s->completed++);
     for (uint32_t d = 0; d < s->P; d++)
         if (s->lagged[d])
-            s->lagged[d] = false, sim_runnable(s, d);
+            s->lagged[d] = false, s->nlagged--, sim_runnable(s, d);
     return PM_OK;
 }
 
@@ -523,13 +517,14 @@ static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, ui
             continue;
         uint64_t j = k - in->delay;
         bool bus = s->bus && in->xslot != PM_NONE;
-        if (s->done[in->src] <= j || (bus && s->granted[in->xslot] <= j)) {
+        const sim_grant *gr = bus ? &s->bg[(size_t)(j & s->mask) * s->nx + in->xslot] : NULL;
+        if (bus ? gr->iter != j : s->done[in->src] <= j) {
             sim_wait(s, c, in->src, in->edge, false);
             return false;
         }
         int64_t a;
         if (bus)
-            a = s->ar[2 * ((size_t)(j & s->mask) * s->nx + in->xslot)];
+            a = gr->arrival;
         else
             a = *sim_x_at(s, in->src, j) + in->w +
                 (in->xslot != PM_NONE ? s->x[in->xslot].cost : 0);
@@ -595,7 +590,8 @@ static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t end)
     for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
         const sim_fo *f = &s->fo[i];
         if (s->bus)
-            rc = sim_heap_push(&s->pend, (sim_ev){ end, k, f->cost, 1, c, f->xslot, v });
+            rc = sim_heap_push(&s->pend, (sim_ev){ end, (uint64_t)c << 32 | f->xslot, k, f->cost,
+                                                   v, 0 });
         else if (k < s->record)
             rc = sim_record_transfer(s, f->xslot, k, end, end);
     }
@@ -615,7 +611,7 @@ static int sim_count_tokens(sim *s, uint32_t v, uint64_t k, int64_t x)
         bool initial = k < in->delay;
         int64_t push = 0;
         if (!initial && s->bus) /* the request time, next to the arrival just read */
-            push = s->ar[2 * ((size_t)((k - in->delay) & s->mask) * s->nx + in->xslot) + 1];
+            push = s->bg[(size_t)((k - in->delay) & s->mask) * s->nx + in->xslot].request;
         else if (!initial)
             push = *sim_x_at(s, in->src, k - in->delay) + in->w;
         int rc = PM_OK;
@@ -720,6 +716,7 @@ static int sim_run_core(sim *s, uint32_t c, pm_diag *diag)
     while (s->iter[c] < s->N) {
         if (s->iter[c] >= s->completed + SIM_LAG && !s->relax[c]) {
             s->lagged[c] = true;
+            s->nlagged++;
             return PM_OK;
         }
         s->relax[c] = false;
@@ -746,6 +743,7 @@ static bool sim_release_lagged(sim *s, int64_t g)
     for (uint32_t c = 0; c < s->P; c++)
         if (s->lagged[c] && s->free[c] <= g) {
             s->lagged[c] = false;
+            s->nlagged--;
             s->relax[c] = true;
             sim_runnable(s, c);
             any = true;
@@ -759,17 +757,13 @@ static bool sim_release_lagged(sim *s, int64_t g)
 static int sim_bus_grant(sim *s, int64_t g)
 {
     sim_ev r = sim_heap_pop(&s->pend);
-    uint32_t xs = r.xslot;
+    uint32_t xs = (uint32_t)r.order;
     size_t slot = (size_t)(r.iter & s->mask) * s->nx + xs;
-    s->gr[slot] = g;
-    s->ar[2 * slot] = g + r.cost;
-    s->ar[2 * slot + 1] = r.time;
-    s->br[slot] = s->bus_free > r.time ? s->bus_last : 0;
-    s->bi[slot] = s->bus_last_iter;
+    s->bg[slot] = (sim_grant){ g + r.cost, r.time, r.iter, s->bus_last_iter,
+                               s->bus_free > r.time ? s->bus_last : 0, 0 };
     s->bus_free = g + r.cost;
     s->bus_last = xs + 1;
     s->bus_last_iter = r.iter;
-    s->granted[xs]++;
     int rc = r.iter < s->record ? sim_record_transfer(s, xs, r.iter, r.time, g) : PM_OK;
     sim_wake(s, r.src);
     return rc;
@@ -794,7 +788,7 @@ static int sim_loop_causal(sim *s, pm_diag *diag)
         if (!s->pend.len)
             return PM_OK; /* finished, or deadlocked (sim_collect tells) */
         int64_t g = s->pend.a[0].time > s->bus_free ? s->pend.a[0].time : s->bus_free;
-        if (sim_release_lagged(s, g))
+        if (s->nlagged && sim_release_lagged(s, g))
             continue;
         int rc = sim_bus_grant(s, g);
         if (rc)
@@ -835,9 +829,6 @@ static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opt
     if (rc)
         return rc;
     sim_build_cores(s);
-    s->granted = calloc(s->nx + 1, sizeof *s->granted);
-    if (!s->granted)
-        return PM_ENOMEM;
     rc = sim_tokens_init(s);
     if (rc)
         return rc;
@@ -854,8 +845,7 @@ static void sim_free(sim *s)
     void *ps[] = { s->t, s->recv, s->send, s->nd, s->in_off, s->ins, s->xout_off, s->xout,
                    s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
-                   s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->ar, s->gr,
-                   s->br, s->bi, s->granted, s->f1, s->lbr, s->lmin, s->lmax, s->half,
+                   s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->bg, s->f1, s->lbr, s->lmin, s->lmax, s->half,
                    s->pend.a, s->trace, s->tr, s->cur, s->fo };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);

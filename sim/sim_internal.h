@@ -66,17 +66,28 @@ typedef struct sim_cursor {
 
 #define SIM_QUEUED UINT64_MAX
 
-/* A bus request; cost and src ride along so that granting it needs no
- * look at the edge's record. */
+/* A bus request, keyed (time, core << 32 | xslot, iteration): the oldest
+ * first, then the lower core, the edge written first, the earlier
+ * iteration.  cost and src ride along so that granting it needs no look
+ * at the edge's record. */
 typedef struct sim_ev {
     int64_t time;
+    uint64_t order;
     uint64_t iter;
     int64_t cost;
-    uint32_t phase; /* 0 core try, 1 bus request, 2 bus grant */
-    uint32_t core;
-    uint32_t xslot;
     uint32_t src;
+    uint32_t pad;
 } sim_ev;
+
+/* A granted bus transfer of (xslot, iteration `iter`), all in one place
+ * so that a grant and a read each touch one record of the ring. */
+typedef struct sim_grant {
+    int64_t arrival, request;  /* grant = arrival - the edge's cost */
+    uint64_t iter;             /* whose transfer this is; UINT64_MAX: none yet */
+    uint64_t prev_iter;        /* the transfer the bus finished just before, */
+    uint32_t prev_xs;          /* when this one waited for it: xslot + 1, else 0 */
+    uint32_t pad;
+} sim_grant;
 
 typedef struct sim_heap {
     sim_ev *a;
@@ -113,17 +124,14 @@ typedef struct sim {
     uint32_t *wait_next, *wait_node, *wait_edge;
     bool *wait_fifo, *queued;
     bool *lagged, *relax;        /* held by the lag limit / let go once */
+    uint32_t nlagged;            /* cores held by the lag limit */
     uint32_t *runq, runq_head, runq_len; /* cores that may fire */
     /* rings */
     uint32_t W;
     uint64_t mask;
     int64_t *xr;        /* begin times, W * n */
     uint32_t *cr;       /* causes, W * n: kind | edge << 3 */
-    int64_t *ar;        /* bus arrival and request times, W * nx pairs */
-    int64_t *gr;        /* bus grants, W * nx */
-    uint32_t *br;       /* bus grant cause: previous xslot + 1, or 0 */
-    uint64_t *bi;       /* bus grant cause: previous transfer's iteration */
-    uint64_t *granted;  /* per xslot */
+    sim_grant *bg;      /* bus grants, W * nx */
     uint64_t *f1;       /* fingerprint of each iteration's begin differences */
     int64_t *lmin, *lmax;
     uint64_t completed, max_iter;

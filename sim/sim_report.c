@@ -271,7 +271,7 @@ static int64_t sim_walk_time(const sim *s, sim_walk w)
 {
     if (w.node != PM_NONE)
         return *sim_x_at(s, w.node, w.k);
-    return s->gr[(size_t)(w.k & s->mask) * s->nx + w.xs];
+    return s->bg[(size_t)(w.k & s->mask) * s->nx + w.xs].arrival - s->x[w.xs].cost;
 }
 
 /* The element that held `w` back; false at a start or outside the window. */
@@ -282,11 +282,12 @@ static bool sim_walk_back(const sim *s, const uint32_t *xs_of, sim_walk w, sim_w
     if (w.node == PM_NONE) {
         size_t slot = (size_t)(w.k & s->mask) * s->nx + w.xs;
         const sim_x *x = &s->x[w.xs];
-        if (s->br[slot] == 0) {
+        const sim_grant *gr = &s->bg[slot];
+        if (gr->prev_xs == 0) {
             *prev = (sim_walk){ x->src, PM_NONE, w.k };
             step->via = PM_CAUSE_EDGE, step->via_edge = x->edge;
         } else {
-            *prev = (sim_walk){ PM_NONE, s->br[slot] - 1, s->bi[slot] };
+            *prev = (sim_walk){ PM_NONE, gr->prev_xs - 1, gr->prev_iter };
             step->via = PM_CAUSE_BUS_BUSY;
         }
         return true;
