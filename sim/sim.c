@@ -281,7 +281,7 @@ static uint64_t sim_ring_bytes(const sim *s, uint64_t W)
 {
     /* saturates: a window of 2^62 iterations must not wrap to a small size */
     /* the same sizes sim_ring_alloc asks for, per slot of the window */
-    uint64_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
+    uint64_t n = s->n ? s->n : 1, nx = s->bus && s->nx ? s->nx : 1;
     uint64_t per = n * 12 + nx * sizeof(sim_grant) + 24 + SIM_LBR * sizeof(uint64_t);
     unsigned __int128 b = (unsigned __int128)W * per;
     return b > UINT64_MAX ? UINT64_MAX : (uint64_t)b;
@@ -300,7 +300,7 @@ static void sim_ring_move(void *dst, const void *src, size_t item, size_t width,
 
 static int sim_ring_alloc(sim *s, uint64_t W, void **p)
 {
-    size_t n = s->n ? s->n : 1, nx = s->nx ? s->nx : 1;
+    size_t n = s->n ? s->n : 1, nx = s->bus && s->nx ? s->nx : 1; /* grants: bus only */
     p[0] = malloc(W * n * sizeof(int64_t));
     p[1] = malloc(W * n * sizeof(uint32_t));
     p[2] = malloc(W * nx * sizeof(sim_grant));
@@ -341,7 +341,7 @@ static void sim_ring_copy(sim *s, uint64_t W, void **p)
         sim_ring_move(p[1], s->cr, sizeof(uint32_t), s->n, lo, hi, om, nm, v);
     }
     sim_grant *bg = p[2];
-    for (size_t i = 0; i < (size_t)s->W * s->nx; i++) /* each grant knows its iteration */
+    for (size_t i = 0; s->bus && i < (size_t)s->W * s->nx; i++) /* each grant knows its iteration */
         if (s->bg[i].iter != UINT64_MAX)
             bg[(s->bg[i].iter & nm) * s->nx + i % s->nx] = s->bg[i];
     /* iteration max_iter is new (reset after the move); older ones live */
@@ -516,6 +516,8 @@ static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, ui
         if (k < in->delay)
             continue;
         uint64_t j = k - in->delay;
+        if (in->xslot != PM_NONE) /* for counting its tokens once (v,k) begins */
+            __builtin_prefetch(&s->cur[in->xslot], 1);
         bool bus = s->bus && in->xslot != PM_NONE;
         const sim_grant *gr = bus ? &s->bg[(size_t)(j & s->mask) * s->nx + in->xslot] : NULL;
         if (bus ? gr->iter != j : s->done[in->src] <= j) {
