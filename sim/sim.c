@@ -1,17 +1,18 @@
 /*
- * sim.c - the engines of the self-timed simulator (sim.h).
+ * sim.c - the self-timed simulator (sim.h): preparation, the causal
+ * engine, and what both engines share.
  *
- * Three ways to run the same semantics (docs/simulation.md):
- *  - the sweep: point-to-point links and no zero-delay cycle in the IPC
- *    graph; the max-plus recursion evaluated iteration by iteration in one
- *    topological order (fastest, cannot deadlock);
- *  - the causal engine: a bus, or a map that deadlocks; cores fire
- *    whatever is ready, sleep on wake-up lists, and the bus grants the
- *    oldest request once nothing can fire any more;
- *  - shared bookkeeping: sliding rings of begin times and causes, token
- *    counts per cross-core edge, fingerprints for the steady state.
- * The end-of-run analysis (period, chain, deadlock cycle) is in
- * sim_report.c.  Nothing here prints.
+ * Two ways to run the same semantics (docs/simulation.md):
+ *  - the sweep (sim_sweep.c): point-to-point links and no zero-delay
+ *    cycle in the IPC graph; the max-plus recursion evaluated iteration by
+ *    iteration in one topological order (fastest, cannot deadlock);
+ *  - the causal engine (here): a bus, or a map that may deadlock; cores
+ *    fire whatever is ready, sleep on wake-up lists, and the bus grants the
+ *    oldest request once nothing can fire any more.
+ * Shared: sliding rings of begin times and causes, token counts per
+ * cross-core edge (sim_tokens.c), fingerprints for the steady state.  The
+ * end-of-run analysis (period, chain, deadlock cycle) is in sim_report.c.
+ * Nothing here prints.
  */
 #include "pacemap/sim.h"
 

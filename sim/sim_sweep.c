@@ -19,16 +19,19 @@
  *    times and causes are kept by slot during the run and put back in node
  *    order at the end, for the report;
  *  - a predecessor is 8 bytes: its ring offset with the delay folded in
- *    and its weight; a firing's cause is the index of the predecessor that
- *    set it, turned into a cause code at the end;
- *  - the tokens of a cross-core edge are counted without a queue, at its
- *    consumer (below).
+ *    and its weight; one that reads the same source and delay as another
+ *    with a larger weight is dropped (it can never set a begin); a
+ *    firing's cause is the index of the predecessor that set it, kept only
+ *    in the last W iterations (the report reads no others) and turned into
+ *    a cause code at the end;
+ *  - predecessors with delays read rows that have left the cache: they are
+ *    prefetched a block of slots ahead;
+ *  - token counts (sim_tokens.c) are taken at the consumer, a block of
+ *    slots at a time, so that the pass over the nodes never branches on
+ *    whether a node has cross-core inputs.
  * Graphs whose times do not fit these narrow fields, or whose rings are
- * too large to index in 32 bits, run on the causal engine: same results,
+ * too large to index in 31 bits, run on the causal engine: same results,
  * slower.
- *
- * Token counts (sim_tokens.c) are taken at the consumer, block by block:
- * the counters sit in consumer order, each with its producer's ring offset.
  */
 #include <stdlib.h>
 #include <string.h>

@@ -555,6 +555,67 @@ static void test_tokens_match_trace(void **state)
     }
 }
 
+/* g with every node time and transfer cost multiplied by `scale`. */
+static pm_graph *mk_scaled(const pm_graph *g, int64_t scale)
+{
+    int64_t t[16];
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        t[v] = g->nodes[v].cycles * scale;
+    pm_graph *h = mk_graph(g->platform.ncores, g->nnodes, t);
+    const pm_comm *c = &g->platform.comm;
+    h->platform.comm = (pm_comm){ c->latency * scale, c->per_word * scale, c->send * scale,
+                                  c->recv * scale };
+    h->platform.interconnect = g->platform.interconnect;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        pm_edge x = g->edges[e];
+        pm_edge y = pm_edge_default(x.src, x.dst);
+        y.delay = x.delay, y.words = x.words;
+        assert_int_equal(pm_graph_add_edge(h, &y, NULL), PM_OK);
+    }
+    assert_int_equal(pm_graph_finalize(h), PM_OK);
+    return h;
+}
+
+/* Self-timed begin times are max-plus sums of the times, so multiplying
+ * every time by S multiplies every begin by S.  With S = 2^33 the times no
+ * longer fit the point-to-point sweep's 32-bit fields and the causal
+ * engine runs instead: both engines must give the same period, transient,
+ * buffer counts and critical chain, up to the factor. */
+static void test_engines_agree_on_scaled_times(void **state)
+{
+    (void)state;
+    const int64_t S = INT64_C(1) << 33;
+    for (int trial = 0; trial < 100; trial++) {
+        uint32_t n = 2 + rnd(10), procs = 1 + rnd(4);
+        pm_graph *g = mk_random(n, procs, PM_P2P);
+        g->platform.comm.send = rnd(3), g->platform.comm.recv = rnd(3);
+        pm_graph *h = mk_scaled(g, S);
+        pm_map *m = mk_random_map(g, procs);
+        pm_sim_opts o = { .iterations = 100 + rnd(200), .record = 3,
+                          .fifo_cap = rnd(2) ? 0 : 1 + rnd(3) };
+        pm_sim_result r, rh;
+        int rc = pm_sim_run(g, m, &o, &r, NULL);
+        assert_int_equal(pm_sim_run(h, m, &o, &rh, NULL), rc);
+        if (rc == PM_OK) {
+            assert_int_equal(rh.period.num * r.period.den, r.period.num * S * rh.period.den);
+            assert_int_equal(rh.steady, r.steady);
+            assert_int_equal(rh.transient, r.transient);
+            assert_int_equal(rh.cyclicity, r.cyclicity);
+            assert_int_equal(rh.makespan, r.makespan * S);
+            assert_int_equal(rh.ncritical, r.ncritical);
+            for (size_t i = 0; i < r.ntrace; i++)
+                assert_int_equal(rh.trace[i].begin, r.trace[i].begin * S);
+            for (uint32_t e = 0; e < g->nedges; e++)
+                assert_int_equal(rh.max_tokens[e], r.max_tokens[e]);
+        }
+        pm_sim_result_free(&r);
+        pm_sim_result_free(&rh);
+        pm_map_destroy(m);
+        pm_graph_destroy(g);
+        pm_graph_destroy(h);
+    }
+}
+
 /* Regression: the last iterations of a bus run see less contention (no
  * later requests compete for the bus), which once hid the steady state of
  * every bus run.  A chain over 4 cores with feedback, as in the bench. */
@@ -655,6 +716,7 @@ int main(void)
         cmocka_unit_test(test_bus_never_beats_p2p),
         cmocka_unit_test(test_free_bus_equals_p2p),
         cmocka_unit_test(test_tokens_match_trace),
+        cmocka_unit_test(test_engines_agree_on_scaled_times),
         cmocka_unit_test(test_bus_run_reaches_steady_state),
         cmocka_unit_test(test_deterministic),
         cmocka_unit_test(test_bad_input),
