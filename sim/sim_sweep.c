@@ -435,8 +435,7 @@ static int sw_iteration_window(sim *s, sw *w, uint64_t k)
     return sw_iteration(s, w, k, false, true);
 }
 
-/* Trace records of iteration k, in sweep order (as the causal engine's
- * report expects them: sorted later). */
+/* Trace records of iteration k, in sweep order (the report sorts them). */
 static int sw_record(sim *s, const sw *w, uint64_t k)
 {
     const int64_t *row = s->xr + (size_t)(k & s->mask) * w->n;
