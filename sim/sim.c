@@ -26,7 +26,7 @@
 #define SIM_RINGS 7 /* arrays that slide with the window of iterations */
 #define SIM_PREFETCH 6 /* firings ahead whose data is prefetched */
 
-/* ---- heap of bus requests ----------------------------------------------- */
+/* ---- bus requests not granted yet ------------------------------------------ */
 
 /* Which of two requests goes first depends on timing, not predictable:
  * compare the whole key without branches. */
@@ -37,47 +37,84 @@ static inline bool sim_ev_less(const sim_ev *a, const sim_ev *b)
     return t_lt | (t_eq & (o_lt | (o_eq & (a->iter < b->iter))));
 }
 
-static int sim_heap_push(sim_heap *h, sim_ev e)
+static const sim_ev *sim_bq_first(const sim_bq *b, uint32_t c)
 {
-    if (h->len == h->cap) {
-        size_t nc = h->cap ? h->cap * 2 : 64;
-        sim_ev *na = realloc(h->a, nc * sizeof *na);
-        if (!na)
-            return PM_ENOMEM;
-        h->a = na;
-        h->cap = nc;
+    return c == PM_NONE || !b->q[c].len ? NULL : &b->q[c].a[b->q[c].head];
+}
+
+/* Core c's first request changed: replay its matches up the tree. */
+static void sim_bq_fix(sim_bq *b, uint32_t c)
+{
+    size_t i = b->leaves + c;
+    b->tree[i] = b->q[c].len ? c : PM_NONE;
+    for (i >>= 1; i; i >>= 1) {
+        uint32_t l = b->tree[2 * i], r = b->tree[2 * i + 1];
+        const sim_ev *el = sim_bq_first(b, l), *er = sim_bq_first(b, r);
+        b->tree[i] = !el || (er && sim_ev_less(er, el)) ? r : l;
     }
-    size_t i = h->len++;
-    while (i > 0) {
-        size_t p = (i - 1) / 2;
-        if (!sim_ev_less(&e, &h->a[p]))
-            break;
-        h->a[i] = h->a[p];
-        i = p;
-    }
-    h->a[i] = e;
+}
+
+static int sim_bq_init(sim_bq *b, uint32_t cores)
+{
+    b->leaves = 1;
+    while (b->leaves < cores)
+        b->leaves *= 2;
+    b->q = calloc(cores + 1, sizeof *b->q);
+    b->tree = malloc(2 * (size_t)b->leaves * sizeof *b->tree);
+    if (!b->q || !b->tree)
+        return PM_ENOMEM;
+    for (size_t i = 0; i < 2 * (size_t)b->leaves; i++)
+        b->tree[i] = PM_NONE;
     return PM_OK;
 }
 
-static sim_ev sim_heap_pop(sim_heap *h)
+static void sim_bq_free(sim_bq *b, uint32_t cores)
 {
-    sim_ev top = h->a[0];
-    sim_ev last = h->a[--h->len];
-    size_t i = 0, n = h->len;
-    for (;;) {
-        size_t l = 2 * i + 1;
-        if (l >= n)
-            break;
-        if (l + 1 < n && sim_ev_less(&h->a[l + 1], &h->a[l]))
-            l++;
-        if (!sim_ev_less(&h->a[l], &last))
-            break;
-        h->a[i] = h->a[l];
-        i = l;
+    for (uint32_t c = 0; b->q && c < cores; c++)
+        free(b->q[c].a);
+    free(b->q), free(b->tree);
+}
+
+static int sim_reqs_grow(sim_reqs *q)
+{
+    uint32_t nc = q->cap ? 2 * q->cap : 16;
+    sim_ev *na = malloc(nc * sizeof *na);
+    if (!na)
+        return PM_ENOMEM;
+    for (uint32_t i = 0; i < q->len; i++)
+        na[i] = q->a[(q->head + i) & (q->cap - 1)];
+    free(q->a);
+    q->a = na, q->cap = nc, q->head = 0;
+    return PM_OK;
+}
+
+static int sim_bq_push(sim_bq *b, uint32_t c, sim_ev e)
+{
+    sim_reqs *q = &b->q[c];
+    if (q->len == q->cap && sim_reqs_grow(q))
+        return PM_ENOMEM;
+    uint32_t m = q->cap - 1, i = q->len++;
+    while (i > 0 && sim_ev_less(&e, &q->a[(q->head + i - 1) & m])) { /* a tie of time */
+        q->a[(q->head + i) & m] = q->a[(q->head + i - 1) & m];
+        i--;
     }
-    if (n)
-        h->a[i] = last;
-    return top;
+    q->a[(q->head + i) & m] = e;
+    b->len++;
+    if (i == 0)
+        sim_bq_fix(b, c);
+    return PM_OK;
+}
+
+static sim_ev sim_bq_pop(sim_bq *b)
+{
+    uint32_t c = b->tree[1];
+    sim_reqs *q = &b->q[c];
+    sim_ev e = q->a[q->head];
+    q->head = (q->head + 1) & (q->cap - 1);
+    q->len--;
+    b->len--;
+    sim_bq_fix(b, c);
+    return e;
 }
 
 /* ---- token counts ----------------------------------------------------- */
@@ -237,7 +274,12 @@ static int sim_build_xlists(sim *s)
     for (uint32_t i = 0; i < s->in_off[s->n]; i++)
         s->ins[i].w = s->nd[s->ins[i].src].end_off;
     s->fo = malloc(((size_t)s->nx + 1) * sizeof *s->fo);
-    if (!s->fo)
+    uint32_t most = 0;
+    for (uint32_t v = 0; v < s->n; v++)
+        if (s->in_off[v + 1] - s->in_off[v] > most)
+            most = s->in_off[v + 1] - s->in_off[v];
+    s->take = malloc(((size_t)most + 1) * sizeof *s->take);
+    if (!s->fo || !s->take)
         return PM_ENOMEM;
     for (uint32_t i = 0; i < s->nx; i++) {
         const sim_x *x = &s->x[s->xout[i]];
@@ -512,25 +554,34 @@ static void sim_wake(sim *s, uint32_t node)
 static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, uint32_t *cause)
 {
     const sim_nd *nd = &s->nd[v];
+    s->ntake = 0;
     for (uint32_t i = nd->in_lo; i < nd->in_hi; i++) {
         const sim_in *in = &s->ins[i];
-        if (k < in->delay)
+        bool cross = in->xslot != PM_NONE;
+        if (k < in->delay) {
+            if (cross)
+                s->take[s->ntake++] = (sim_take){ in->xslot, true, 0 };
             continue;
+        }
         uint64_t j = k - in->delay;
-        if (in->xslot != PM_NONE) /* for counting its tokens once (v,k) begins */
+        if (cross) /* for counting its tokens once (v,k) begins */
             __builtin_prefetch(&s->cur[in->xslot], 1);
-        bool bus = s->bus && in->xslot != PM_NONE;
+        bool bus = s->bus && cross;
         const sim_grant *gr = bus ? &s->bg[(size_t)(j & s->mask) * s->nx + in->xslot] : NULL;
         if (bus ? gr->iter != j : s->done[in->src] <= j) {
             sim_wait(s, c, in->src, in->edge, false);
             return false;
         }
         int64_t a;
-        if (bus)
+        if (bus) {
             a = gr->arrival;
-        else
-            a = *sim_x_at(s, in->src, j) + in->w +
-                (in->xslot != PM_NONE ? s->x[in->xslot].cost : 0);
+            s->take[s->ntake++] = (sim_take){ in->xslot, false, gr->request };
+        } else {
+            int64_t end = *sim_x_at(s, in->src, j) + in->w;
+            a = end + (cross ? s->x[in->xslot].cost : 0);
+            if (cross)
+                s->take[s->ntake++] = (sim_take){ in->xslot, false, end };
+        }
         if (a > *x)
             *x = a, *cause = (bus ? PM_CAUSE_BUS : PM_CAUSE_EDGE) | in->edge << 3;
     }
@@ -593,7 +644,7 @@ static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t end)
     for (uint32_t i = nd->xo_lo; i < nd->xo_hi && !rc; i++) {
         const sim_fo *f = &s->fo[i];
         if (s->bus)
-            rc = sim_heap_push(&s->pend, (sim_ev){ end, (uint64_t)c << 32 | f->xslot, k, f->cost,
+            rc = sim_bq_push(&s->pend, c, (sim_ev){ end, (uint64_t)c << 32 | f->xslot, k, f->cost,
                                                    v, 0 });
         else if (k < s->record)
             rc = sim_record_transfer(s, f->xslot, k, end, end);
@@ -605,27 +656,18 @@ static int sim_outputs(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t end)
  * push of that token (sim_tokens.c). */
 static int sim_count_tokens(sim *s, uint32_t v, uint64_t k, int64_t x)
 {
-    const sim_nd *nd = &s->nd[v];
-    for (uint32_t i = nd->in_lo; i < nd->in_hi; i++) {
-        const sim_in *in = &s->ins[i];
-        if (in->xslot == PM_NONE)
-            continue;
-        sim_cursor *t = &s->cur[in->xslot];
-        bool initial = k < in->delay;
-        int64_t push = 0;
-        if (!initial && s->bus) /* the request time, next to the arrival just read */
-            push = s->bg[(size_t)((k - in->delay) & s->mask) * s->nx + in->xslot].request;
-        else if (!initial)
-            push = *sim_x_at(s, in->src, k - in->delay) + in->w;
+    for (uint32_t i = 0; i < s->ntake; i++) {
+        const sim_take *tk = &s->take[i];
+        sim_cursor *t = &s->cur[tk->xslot];
         int rc = PM_OK;
         if (t->q == SIM_QUEUED)
-            rc = sim_tokens_queued(s, in->xslot, k, x, push);
-        else if (initial && t->q == k)
+            rc = sim_tokens_queued(s, tk->xslot, k, x, tk->push);
+        else if (tk->initial && t->q == k)
             t->bq = x;
-        else if (!initial) {
-            sim_cursor_push(t, s->xr + v, s->n, s->mask, k, x, push);
+        else if (!tk->initial) {
+            sim_cursor_push(t, s->xr + v, s->n, s->mask, k, x, tk->push);
             if (k + 1 - t->q >= s->W)
-                rc = sim_tokens_to_queue(s, in->xslot, s->xr + v, s->n, k);
+                rc = sim_tokens_to_queue(s, tk->xslot, s->xr + v, s->n, k);
         }
         if (rc)
             return rc;
@@ -759,7 +801,7 @@ static bool sim_release_lagged(sim *s, int64_t g)
 /* Grant the oldest request (the head of the queue) at g. */
 static int sim_bus_grant(sim *s, int64_t g)
 {
-    sim_ev r = sim_heap_pop(&s->pend);
+    sim_ev r = sim_bq_pop(&s->pend);
     uint32_t xs = (uint32_t)r.order;
     size_t slot = (size_t)(r.iter & s->mask) * s->nx + xs;
     s->bg[slot] = (sim_grant){ g + r.cost, r.time, r.iter, s->bus_last_iter,
@@ -790,7 +832,8 @@ static int sim_loop_causal(sim *s, pm_diag *diag)
         }
         if (!s->pend.len)
             return PM_OK; /* finished, or deadlocked (sim_collect tells) */
-        int64_t g = s->pend.a[0].time > s->bus_free ? s->pend.a[0].time : s->bus_free;
+        int64_t t = sim_bq_first(&s->pend, s->pend.tree[1])->time;
+        int64_t g = t > s->bus_free ? t : s->bus_free;
         if (s->nlagged && sim_release_lagged(s, g))
             continue;
         int rc = sim_bus_grant(s, g);
@@ -833,6 +876,8 @@ static int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opt
         return rc;
     sim_build_cores(s);
     rc = sim_tokens_init(s);
+    if (!rc && s->bus)
+        rc = sim_bq_init(&s->pend, s->P);
     if (rc)
         return rc;
     rc = sim_check_range(s, diag);
@@ -849,9 +894,10 @@ static void sim_free(sim *s)
                    s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
                    s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->bg, s->f1, s->lbr, s->lmin, s->lmax, s->half,
-                   s->pend.a, s->trace, s->tr, s->cur, s->fo };
+                   s->trace, s->tr, s->cur, s->fo, s->take };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);
+    sim_bq_free(&s->pend, s->P);
     if (s->occ)
         for (uint32_t i = 0; i < s->nx; i++)
             free(s->occ[i].q);

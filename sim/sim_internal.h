@@ -58,6 +58,14 @@ typedef struct sim_occ {
 
 /* The token counter of a cross-core edge (sim_tokens.c): pops counted,
  * and the begin of pop q once the consumer has begun it. */
+/* A cross-core input of the firing being tried: what counting its token
+ * needs once the firing begins (noted while its inputs are checked). */
+typedef struct sim_take {
+    uint32_t xslot;
+    bool initial;   /* an initial token: nothing was pushed for it */
+    int64_t push;   /* else the end of the firing that made it */
+} sim_take;
+
 typedef struct sim_cursor {
     int64_t bq;
     uint64_t q;   /* or SIM_QUEUED: the edge counts with its sim_occ queue */
@@ -89,10 +97,22 @@ typedef struct sim_grant {
     uint32_t pad;
 } sim_grant;
 
-typedef struct sim_heap {
+/* One core's bus requests not granted yet, in key order: a core asks in
+ * firing order, so requests come sorted but for ties of time (a ring that
+ * doubles). */
+typedef struct sim_reqs {
     sim_ev *a;
-    size_t len, cap;
-} sim_heap;
+    uint32_t cap, head, len;
+} sim_reqs;
+
+/* All requests not granted yet: per core, and a winner tree over the
+ * cores' first requests (tree[1] is the next to grant). */
+typedef struct sim_bq {
+    sim_reqs *q;
+    uint32_t *tree;   /* 2 * leaves core ids, PM_NONE where empty */
+    uint32_t leaves;
+    size_t len;
+} sim_bq;
 
 typedef struct sim {
     const pm_graph *g;
@@ -116,6 +136,8 @@ typedef struct sim {
     sim_x *x;
     sim_occ *occ;
     sim_cursor *cur;             /* per xslot */
+    sim_take *take;              /* the tried firing's cross-core inputs */
+    uint32_t ntake;
     uint64_t occ_budget;         /* what the occ queues may still allocate */
     /* per core */
     uint32_t *pos, *cnt, *first;
@@ -141,7 +163,7 @@ typedef struct sim {
     uint64_t end;       /* iterations the analysis looks at (N minus the tail) */
     int64_t *half;      /* begin times of iteration N/2 */
     /* events */
-    sim_heap pend;               /* bus requests not granted yet */
+    sim_bq pend;                 /* bus requests not granted yet */
     int64_t bus_free;
     uint32_t bus_last;  /* xslot + 1 of the last granted transfer, 0 = none */
     uint64_t bus_last_iter;
