@@ -18,6 +18,7 @@
 
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 
 #include "sim_internal.h"
 
@@ -166,9 +167,9 @@ static int sim_alloc_nodes(sim *s)
     s->t = calloc(n + 1, sizeof *s->t);
     s->recv = calloc(n + 1, sizeof *s->recv);
     s->send = calloc(n + 1, sizeof *s->send);
-    s->nd = calloc(n + 1, sizeof *s->nd);
+    s->nd = sim_alloc_big((n + 1) * sizeof *s->nd);
     s->in_off = calloc(n + 1, sizeof *s->in_off);
-    s->ins = calloc(e + 1, sizeof *s->ins);
+    s->ins = sim_alloc_big((e + 1) * sizeof *s->ins);
     s->xout_off = calloc(n + 1, sizeof *s->xout_off);
     s->xout = calloc(e + 1, sizeof *s->xout);
     s->xs_of = calloc(e + 1, sizeof *s->xs_of);
@@ -200,6 +201,8 @@ static int sim_alloc_nodes(sim *s)
         !s->free || !s->wait_next || !s->wait_node || !s->wait_edge || !s->wait_fifo ||
         !s->queued || !s->lagged || !s->relax || !s->runq)
         return PM_ENOMEM;
+    memset(s->nd, 0, (n + 1) * sizeof *s->nd);
+    memset(s->ins, 0, (e + 1) * sizeof *s->ins);
     for (uint32_t v = 0; v < s->n; v++)
         s->wait_head[v] = PM_NONE;
     return PM_OK;
@@ -273,7 +276,7 @@ static int sim_build_xlists(sim *s)
                              s->xout_off[v + 1] };
     for (uint32_t i = 0; i < s->in_off[s->n]; i++)
         s->ins[i].w = s->nd[s->ins[i].src].end_off;
-    s->fo = malloc(((size_t)s->nx + 1) * sizeof *s->fo);
+    s->fo = sim_alloc_big(((size_t)s->nx + 1) * sizeof *s->fo);
     uint32_t most = 0;
     for (uint32_t v = 0; v < s->n; v++)
         if (s->in_off[v + 1] - s->in_off[v] > most)
@@ -341,12 +344,28 @@ static void sim_ring_move(void *dst, const void *src, size_t item, size_t width,
                (const char *)src + ((k & omask) * width + idx) * item, item);
 }
 
+/* Rings are read at scattered places; large ones ask for huge pages so
+ * that those reads do not also miss the address translation cache (a
+ * hint: where the system gives none, ordinary pages serve). */
+void *sim_alloc_big(size_t bytes)
+{
+    const size_t huge = (size_t)2 << 20;
+    if (bytes < 2 * huge)
+        return malloc(bytes ? bytes : 1);
+    void *p = aligned_alloc(huge, (bytes + huge - 1) / huge * huge);
+#ifdef MADV_HUGEPAGE
+    if (p)
+        (void)madvise(p, (bytes + huge - 1) / huge * huge, MADV_HUGEPAGE);
+#endif
+    return p;
+}
+
 static int sim_ring_alloc(sim *s, uint64_t W, void **p)
 {
     size_t n = s->n ? s->n : 1, nx = s->bus && s->nx ? s->nx : 1; /* grants: bus only */
-    p[0] = malloc(W * n * sizeof(int64_t));
-    p[1] = malloc(W * n * sizeof(uint32_t));
-    p[2] = malloc(W * nx * sizeof(sim_grant));
+    p[0] = sim_alloc_big(W * n * sizeof(int64_t));
+    p[1] = sim_alloc_big(W * n * sizeof(uint32_t));
+    p[2] = sim_alloc_big(W * nx * sizeof(sim_grant));
     p[3] = calloc(W, sizeof(uint64_t));
     p[4] = calloc(W, SIM_LBR * sizeof(uint64_t));
     p[5] = malloc(W * sizeof(int64_t));

@@ -306,6 +306,9 @@ sim_cursor_push(sim_cursor *t, const int64_t *col, size_t stride, uint64_t mask,
     t->max = held > t->max ? held : t->max;
 }
 
+/* malloc for large arrays, on huge pages where the system has them. */
+void *sim_alloc_big(size_t bytes);
+
 /* Token counters (sim_tokens.c). */
 int sim_tokens_init(sim *s);
 int sim_tokens_to_queue(sim *s, uint32_t xs, const int64_t *col, size_t stride, uint64_t k);

@@ -243,11 +243,11 @@ static int sw_alloc(const sim *s, sw *w, size_t np)
 {
     size_t n = s->n;
     w->step = malloc((n + 1) * sizeof *w->step);
-    w->node = malloc((n + 1) * sizeof *w->node);
-    w->pred = malloc((np + 1) * sizeof *w->pred);
+    w->node = sim_alloc_big((n + 1) * sizeof *w->node);
+    w->pred = sim_alloc_big((np + 1) * sizeof *w->pred);
     w->pdelay = malloc((np + 1) * sizeof *w->pdelay);
     w->pcause = malloc((np + 1) * sizeof *w->pcause);
-    w->tok = malloc(((size_t)s->nx + 1) * sizeof *w->tok);
+    w->tok = sim_alloc_big(((size_t)s->nx + 1) * sizeof *w->tok);
     w->txs = malloc(((size_t)s->nx + 1) * sizeof *w->txs);
     w->tdelay = malloc(((size_t)s->nx + 1) * sizeof *w->tdelay);
     w->tslot = malloc(((size_t)s->nx + 1) * sizeof *w->tslot);

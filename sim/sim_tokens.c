@@ -20,14 +20,16 @@
  * ring, from then on.
  */
 #include <stdlib.h>
+#include <string.h>
 
 #include "sim_internal.h"
 
 int sim_tokens_init(sim *s)
 {
-    s->cur = calloc((size_t)s->nx + 1, sizeof *s->cur);
+    s->cur = sim_alloc_big(((size_t)s->nx + 1) * sizeof *s->cur);
     if (!s->cur)
         return PM_ENOMEM;
+    memset(s->cur, 0, ((size_t)s->nx + 1) * sizeof *s->cur);
     for (uint32_t i = 0; i < s->nx; i++) {
         const sim_x *x = &s->x[i];
         s->cur[i].max = x->delay;
