@@ -103,30 +103,21 @@ typedef struct sb_frac {
 static int sb_gallop(karp *k, sb_frac a, sb_frac b, int dir, bnd_i128 cap, bnd_i128 *kbest,
                      sb_frac *hit, bool *found)
 {
+    /* gallop (c = 2, 4, 8, ...) until the sign turns or cap is passed,
+     * then bisect (lo, hi) */
     bnd_i128 lo = 1, hi = 0, step = 2;
-    while (hi == 0) {
-        bnd_i128 c = step > cap ? cap + 1 : step;
-        if (c > cap) {
-            hi = c;
-            break;
+    for (;;) {
+        bnd_i128 c;
+        if (hi == 0 && step > cap) {
+            hi = cap + 1;
+            continue;
         }
-        sb_frac f = dir > 0 ? (sb_frac){ a.p + c * b.p, a.q + c * b.q }
-                            : (sb_frac){ c * a.p + b.p, c * a.q + b.q };
-        int s, rc = karp_ask(k, f.p, f.q, &s);
-        if (rc)
-            return rc;
-        if (s == 0) {
-            *hit = f;
-            *found = true;
-            return PM_OK;
-        }
-        if (s == dir)
-            lo = c, step *= 2;
+        if (hi == 0)
+            c = step;
+        else if (hi - lo > 1)
+            c = lo + (hi - lo) / 2;
         else
-            hi = c;
-    }
-    while (hi - lo > 1) {
-        bnd_i128 c = lo + (hi - lo) / 2;
+            break;
         sb_frac f = dir > 0 ? (sb_frac){ a.p + c * b.p, a.q + c * b.q }
                             : (sb_frac){ c * a.p + b.p, c * a.q + b.q };
         int s, rc = karp_ask(k, f.p, f.q, &s);
@@ -138,7 +129,7 @@ static int sb_gallop(karp *k, sb_frac a, sb_frac b, int dir, bnd_i128 cap, bnd_i
             return PM_OK;
         }
         if (s == dir)
-            lo = c;
+            lo = c, step = hi == 0 ? 2 * step : step;
         else
             hi = c;
     }
