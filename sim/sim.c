@@ -621,15 +621,25 @@ static bool sim_ready(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t *x, ui
     return true;
 }
 
+/* a (len of *cap items of `size` used) with room for one more; NULL when
+ * out of memory (a is then untouched). */
+static void *sim_record_room(void *a, size_t len, size_t *cap, size_t size)
+{
+    if (len < *cap)
+        return a;
+    size_t nc = *cap ? *cap * 2 : 64;
+    void *na = realloc(a, nc * size);
+    if (na)
+        *cap = nc;
+    return na;
+}
+
 int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x)
 {
-    if (s->ntrace == s->trace_cap) {
-        size_t nc = s->trace_cap ? s->trace_cap * 2 : 64;
-        pm_sim_firing *nt = realloc(s->trace, nc * sizeof *nt);
-        if (!nt)
-            return PM_ENOMEM;
-        s->trace = nt, s->trace_cap = nc;
-    }
+    pm_sim_firing *nt = sim_record_room(s->trace, s->ntrace, &s->trace_cap, sizeof *nt);
+    if (!nt)
+        return PM_ENOMEM;
+    s->trace = nt;
     int64_t st = x + s->recv[v];
     s->trace[s->ntrace++] = (pm_sim_firing){ v, c, k, x, st, st + s->t[v],
                                              st + s->t[v] + s->send[v] };
@@ -638,13 +648,10 @@ int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x)
 
 int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr)
 {
-    if (s->ntr == s->tr_cap) {
-        size_t nc = s->tr_cap ? s->tr_cap * 2 : 64;
-        pm_sim_transfer *nt = realloc(s->tr, nc * sizeof *nt);
-        if (!nt)
-            return PM_ENOMEM;
-        s->tr = nt, s->tr_cap = nc;
-    }
+    pm_sim_transfer *nt = sim_record_room(s->tr, s->ntr, &s->tr_cap, sizeof *nt);
+    if (!nt)
+        return PM_ENOMEM;
+    s->tr = nt;
     pm_sim_transfer *t = &s->tr[s->ntr++];
     memset(t, 0, sizeof *t); /* no stray padding bytes in results */
     t->edge = s->x[xs].edge;
@@ -677,17 +684,8 @@ static int sim_count_tokens(sim *s, uint32_t v, uint64_t k, int64_t x)
 {
     for (uint32_t i = 0; i < s->ntake; i++) {
         const sim_take *tk = &s->take[i];
-        sim_cursor *t = &s->cur[tk->xslot];
-        int rc = PM_OK;
-        if (t->q == SIM_QUEUED)
-            rc = sim_tokens_queued(s, tk->xslot, k, x, tk->push);
-        else if (tk->initial && t->q == k)
-            t->bq = x;
-        else if (!tk->initial) {
-            sim_cursor_push(t, s->xr + v, s->n, s->mask, k, x, tk->push);
-            if (k + 1 - t->q >= s->W)
-                rc = sim_tokens_to_queue(s, tk->xslot, s->xr + v, s->n, k);
-        }
+        int rc = sim_tokens_take(s, &s->cur[tk->xslot], tk->xslot, s->xr + v, s->n, k, x,
+                                 tk->initial, tk->push);
         if (rc)
             return rc;
     }

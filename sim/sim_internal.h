@@ -311,9 +311,30 @@ void *sim_alloc_big(size_t bytes);
 
 /* Token counters (sim_tokens.c). */
 int sim_tokens_init(sim *s);
-int sim_tokens_to_queue(sim *s, uint32_t xs, const int64_t *col, size_t stride, uint64_t k);
+int sim_tokens_to_queue(sim *s, sim_cursor *t, uint32_t xs, const int64_t *col, size_t stride,
+                        uint64_t k);
 int sim_tokens_queued(sim *s, uint32_t xs, uint64_t k, int64_t begin, int64_t push);
 int sim_tokens_tail(sim *s);
+
+/* The consumer of edge xs (cursor t; its begins at col, as in
+ * sim_cursor_push) began iteration k at x and took a token: an initial one,
+ * or the one pushed at `push`.  Both engines count through here. */
+static inline __attribute__((always_inline)) int
+sim_tokens_take(sim *s, sim_cursor *t, uint32_t xs, const int64_t *col, size_t stride,
+                uint64_t k, int64_t x, bool initial, int64_t push)
+{
+    if (__builtin_expect(t->q == SIM_QUEUED, 0))
+        return sim_tokens_queued(s, xs, k, x, push);
+    if (initial) {
+        if (t->q == k)
+            t->bq = x;
+        return PM_OK;
+    }
+    sim_cursor_push(t, col, stride, s->mask, k, x, push);
+    if (__builtin_expect(k + 1 - t->q >= s->W, 0))
+        return sim_tokens_to_queue(s, t, xs, col, stride, k);
+    return PM_OK;
+}
 
 /* Iteration bookkeeping and trace records shared by both engines. */
 void sim_slot_reset(sim *s, uint64_t k);

@@ -318,25 +318,9 @@ SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, size_t 
         int64_t x = s->xr[base + i];
         bool initial = early && k < w->tdelay[j]; /* it took an initial token */
         int64_t push = initial ? 0 : sw_at(s->xr, base, t->off, w->wn) + t->end;
-        if (__builtin_expect(t->c.q == SIM_QUEUED, 0)) {
-            int rc = sim_tokens_queued(s, w->txs[j], k, x, push);
-            if (rc)
-                return rc;
-            continue;
-        }
-        if (initial) {
-            if (t->c.q == k)
-                t->c.bq = x;
-            continue;
-        }
-        sim_cursor_push(&t->c, s->xr + i, n, s->mask, k, x, push);
-        if (__builtin_expect(k + 1 - t->c.q >= w->W, 0)) {
-            s->cur[w->txs[j]] = t->c;
-            int rc = sim_tokens_to_queue(s, w->txs[j], s->xr + i, n, k);
-            t->c = s->cur[w->txs[j]];
-            if (rc)
-                return rc;
-        }
+        int rc = sim_tokens_take(s, &t->c, w->txs[j], s->xr + i, n, k, x, initial, push);
+        if (rc)
+            return rc;
     }
     return PM_OK;
 }

@@ -39,9 +39,9 @@ int sim_tokens_init(sim *s)
     return PM_OK;
 }
 
-int sim_tokens_to_queue(sim *s, uint32_t xs, const int64_t *col, size_t stride, uint64_t k)
+int sim_tokens_to_queue(sim *s, sim_cursor *t, uint32_t xs, const int64_t *col, size_t stride,
+                        uint64_t k)
 {
-    sim_cursor *t = &s->cur[xs];
     sim_occ *o = &s->occ[xs];
     o->occ = (int64_t)(k + 1 - t->q);
     o->max = t->max;
