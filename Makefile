@@ -25,8 +25,9 @@ DEBIAN_PACKAGES = build-essential pkg-config libcmocka-dev libhwloc-dev hwloc \
            clang libclang-rt-dev graphviz python3-jsonschema
 
 # ---- sources ----------------------------------------------------------------
-CLI_SRC  := $(wildcard sim/main.c sim/cli*.c sim/cmd_*.c)
-LIB_SRC  := $(wildcard sched/*.c) $(filter-out $(CLI_SRC),$(wildcard sim/*.c))
+# The library is every folder of sched/ and sim/ but the command line's.
+CLI_SRC  := $(wildcard sim/cli/*.c)
+LIB_SRC  := $(wildcard sched/*/*.c) $(filter-out $(CLI_SRC),$(wildcard sim/*/*.c))
 LIB_OBJ  := $(LIB_SRC:%.c=$(BUILD)/%.o)
 CLI_OBJ  := $(CLI_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(wildcard tests/test_*.c)

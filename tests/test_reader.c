@@ -22,7 +22,7 @@
 #include "pacemap/graph.h"
 #include "pacemap/reader.h"
 
-#include "../sched/reader_internal.h"
+#include "../sched/read/reader_internal.h"
 
 /* Read `text` as "t.pace"; on success return the graph, else fail. */
 static pm_graph *read_ok(const char *text)

@@ -3,8 +3,8 @@
 #
 # usage: sh tests/fuzz/run.sh SECONDS     (from the project root; `make fuzz`)
 #
-# Builds the library sources (sched/*.c and sim/*.c except the command-line
-# files) and tests/fuzz/fuzz_*.c with clang -fsanitize=fuzzer,address,
+# Builds the library sources (sched/*/*.c and sim/*/*.c except the
+# command line's folder, sim/cli/) and tests/fuzz/fuzz_*.c with clang -fsanitize=fuzzer,address,
 # undefined into build-fuzz/, seeds a corpus per target from scenarios/,
 # tests/bad/, tests/fuzz/corpus/ and tests/fuzz/regress/, replays the
 # regression inputs, then fuzzes each target for SECONDS.  Exits non-zero on
@@ -34,10 +34,10 @@ fi
 mkdir -p "$OUT/obj" || exit 2
 
 # Library objects, rebuilt when the source or any header is newer.
-newest_header=$(ls -t include/pacemap/*.h sched/*.h sim/*.h 2>/dev/null | head -n 1)
+newest_header=$(ls -t include/pacemap/*.h sched/*/*.h sim/*/*.h 2>/dev/null | head -n 1)
 objs=""
-for src in sched/*.c sim/*.c; do
-    case "$src" in sim/main.c|sim/cli*.c|sim/cmd_*.c) continue ;; esac
+for src in sched/*/*.c sim/*/*.c; do
+    case "$src" in sim/cli/*) continue ;; esac
     obj="$OUT/obj/$(echo "$src" | tr / _ | sed 's/\.c$/.o/')"
     objs="$objs $obj"
     if [ -f "$obj" ] && [ "$obj" -nt "$src" ] && [ "$obj" -nt "$newest_header" ]; then

@@ -2,7 +2,7 @@
  * cli.h - shared pieces of the command-line front end (internal to the
  * pacemap program, not part of the library).
  *
- * Each command lives in sim/cmd_<name>.c as `int pm_cmd_<name>(argc, argv)`
+ * Each command lives in sim/cli/cmd_<name>.c as `int pm_cmd_<name>(argc, argv)`
  * and returns an exit status.  Options are parsed from a table per command;
  * errors are printed through cli_error() only, one line each.
  */

@@ -3,7 +3,7 @@
  * engine, and what both engines share.
  *
  * Two ways to run the same semantics (docs/simulation.md):
- *  - the sweep (sim_sweep.c): point-to-point links and no zero-delay
+ *  - the compiled pass (sim_p2p.c): point-to-point links and no zero-delay
  *    cycle in the IPC graph; the max-plus recursion evaluated iteration by
  *    iteration in one topological order (fastest, cannot deadlock);
  *  - the causal engine (here): a bus, or a map that may deadlock; cores
@@ -736,7 +736,7 @@ static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uin
     return PM_OK;
 }
 
-/* The causal engine, for a bus and for maps the sweep cannot run.  A
+/* The causal engine, for a bus and for maps the compiled pass cannot run.  A
  * firing whose inputs are all known has fixed times (max-plus), so cores
  * fire in any order, each as far as it can: until it waits for a node (it
  * then sits on that node's wake-up list), or until it is SIM_LAG
@@ -862,7 +862,7 @@ static int sim_loop_causal(sim *s, pm_diag *diag)
 static int sim_loop(sim *s, pm_diag *diag)
 {
     if (!s->bus) {
-        int rc = sim_loop_sweep(s, diag);
+        int rc = sim_loop_p2p(s, diag);
         if (rc != 1)
             return rc;
     }

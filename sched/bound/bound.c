@@ -8,7 +8,7 @@
  * floors for P cores (floors.c), or print anything.
  */
 #include "bound_internal.h"
-#include "scc_internal.h"
+#include "../graph/scc_internal.h"
 
 #include <stdio.h>
 #include <stdlib.h>

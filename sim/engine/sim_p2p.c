@@ -1,5 +1,5 @@
 /*
- * sim_sweep.c - the point-to-point engine of the simulator.
+ * sim_p2p.c - the point-to-point engine of the simulator.
  *
  * Without a shared bus nothing but data, core order and FIFO room decides
  * a begin time, so self-timed execution is the max-plus recursion of the
@@ -13,9 +13,9 @@
  * room, and a later one wins only when strictly later: the same tie rule
  * as the causal engine.
  *
- * The sweep is bound by memory traffic (docs/performance.md), so its data
+ * The pass is bound by memory traffic (docs/performance.md), so its data
  * is compiled for one front-to-back pass per iteration:
- *  - nodes are renumbered into sweep order ("slots"); the rings of begin
+ *  - nodes are renumbered into pass order ("slots"); the rings of begin
  *    times and causes are kept by slot during the run and put back in node
  *    order at the end, for the report;
  *  - a predecessor is 8 bytes: its ring offset with the delay folded in
@@ -38,59 +38,59 @@
 
 #include "sim_internal.h"
 
-#define SW_START UINT32_MAX   /* cause index: nothing, began at time 0 */
-#define SW_HOT static inline __attribute__((always_inline))
-#define SW_BLOCK 256          /* slots swept between two rounds of token counts */
-#define SW_LAST (UINT32_C(1) << 31) /* in sw_pred.off: the node's last predecessor */
-#define SW_DEDUP_MAX 32       /* nodes with more predecessors keep duplicates */
-#define SW_AHEAD 64           /* slots: how far ahead older rows are fetched */
+#define P2P_START UINT32_MAX   /* cause index: nothing, began at time 0 */
+#define P2P_HOT static inline __attribute__((always_inline))
+#define P2P_BLOCK 256          /* slots swept between two rounds of token counts */
+#define P2P_LAST (UINT32_C(1) << 31) /* in p2p_pred.off: the node's last predecessor */
+#define P2P_DEDUP_MAX 32       /* nodes with more predecessors keep duplicates */
+#define P2P_AHEAD 64           /* slots: how far ahead older rows are fetched */
 
 /* A predecessor as the builder lists it. */
-typedef struct sw_wide {
+typedef struct p2p_wide {
     uint32_t u, delay, cause;
     uint32_t xslot; /* a cross-core input, or PM_NONE */
     int64_t w;
-} sw_wide;
+} p2p_wide;
 
-/* A node's predecessors follow one another; the last has SW_LAST in off. */
-typedef struct sw_pred {
+/* A node's predecessors follow one another; the last has P2P_LAST in off. */
+typedef struct p2p_pred {
     uint32_t off; /* ((W - delay) mod W) * n + slot of the source */
     int32_t w;    /* source's end (or free) offset, plus the transfer */
-} sw_pred;
+} p2p_pred;
 
-typedef struct sw_node {
+typedef struct p2p_node {
     int32_t recv, end_off;
-} sw_node;
+} p2p_node;
 
 /* The token counter of a cross-core input, and where its push time is. */
-typedef struct sw_tok {
+typedef struct p2p_tok {
     sim_cursor c;
-    uint32_t off;   /* the producer's ring offset, as in its sw_pred */
+    uint32_t off;   /* the producer's ring offset, as in its p2p_pred */
     int32_t end;    /* the producer's end offset: its push time */
-} sw_tok;
+} p2p_tok;
 
-typedef struct sw {
+typedef struct p2p {
     uint32_t n, W;
     size_t wn;          /* ring entries: W * n */
     uint64_t early;     /* iterations in which some delay reaches before 0 */
     uint32_t *step;     /* slot -> node */
-    sw_node *node;
-    sw_pred *pred;
+    p2p_node *node;
+    p2p_pred *pred;
     uint32_t *pdelay;   /* per predecessor: its delay (early iterations) */
     uint32_t *pcause;   /* per predecessor: its cause code */
-    sw_tok *tok;
+    p2p_tok *tok;
     uint32_t *txs;      /* per token counter: the edge's xslot */
     uint32_t *tdelay;   /* per token counter: the edge's delays */
     uint32_t *tslot;    /* per token counter: the consumer's slot */
     uint32_t *btend;    /* per block of slots: its counters end here */
     uint32_t *far;      /* ring offsets read from older rows, in slot order */
-    uint32_t *bfar;     /* per SW_AHEAD slots: where their entries of far end */
+    uint32_t *bfar;     /* per P2P_AHEAD slots: where their entries of far end */
     uint32_t nfar;
-} sw;
+} p2p;
 
 /* ---- building ----------------------------------------------------------- */
 
-static uint32_t sw_count_preds(const sim *s, uint32_t v)
+static uint32_t p2p_count_preds(const sim *s, uint32_t v)
 {
     uint32_t k = 1 + s->nd[v].in_hi - s->nd[v].in_lo;
     if (s->fifo)
@@ -98,28 +98,28 @@ static uint32_t sw_count_preds(const sim *s, uint32_t v)
     return k;
 }
 
-static void sw_list_preds(const sim *s, uint32_t v, sw_wide *p)
+static void p2p_list_preds(const sim *s, uint32_t v, p2p_wide *p)
 {
     uint32_t c = s->m->core_of[v], back;
     uint32_t prev = sim_prev_on_core(s, c, s->pos_of[v], &back);
-    *p++ = (sw_wide){ prev, back, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off };
+    *p++ = (p2p_wide){ prev, back, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off };
     for (uint32_t i = s->nd[v].in_lo; i < s->nd[v].in_hi; i++) {
         const sim_in *in = &s->ins[i];
         int64_t cost = in->xslot != PM_NONE ? s->x[in->xslot].cost : 0;
-        *p++ = (sw_wide){ in->src, in->delay, PM_CAUSE_EDGE | in->edge << 3, in->xslot,
+        *p++ = (p2p_wide){ in->src, in->delay, PM_CAUSE_EDGE | in->edge << 3, in->xslot,
                           s->nd[in->src].end_off + cost };
     }
     if (!s->fifo)
         return;
     for (uint32_t i = s->nd[v].xo_lo; i < s->nd[v].xo_hi; i++) {
         const sim_x *xe = &s->x[s->xout[i]];
-        *p++ = (sw_wide){ xe->dst, (uint32_t)(xe->cap - xe->delay), PM_CAUSE_FIFO | xe->edge << 3,
+        *p++ = (p2p_wide){ xe->dst, (uint32_t)(xe->cap - xe->delay), PM_CAUSE_FIFO | xe->edge << 3,
                           PM_NONE, 0 };
     }
 }
 
 /* Kahn's algorithm over the zero-delay predecessors; false on a cycle. */
-static bool sw_order(uint32_t n, const uint32_t *p_off, const sw_wide *wide, uint32_t *step)
+static bool p2p_order(uint32_t n, const uint32_t *p_off, const p2p_wide *wide, uint32_t *step)
 {
     uint32_t *indeg = calloc(2 * (size_t)n + 1, sizeof *indeg);
     uint32_t *succ_off = calloc((size_t)n + 2, sizeof *succ_off);
@@ -151,19 +151,19 @@ static bool sw_order(uint32_t n, const uint32_t *p_off, const sw_wide *wide, uin
     return tail == n;
 }
 
-static bool sw_fits(int64_t v)
+static bool p2p_fits(int64_t v)
 {
     return v >= INT32_MIN && v <= INT32_MAX;
 }
 
 /* Compile predecessor `g` of the node in `slot` into entry p; false when
  * it does not fit the narrow form. */
-static bool sw_compile_pred(const sim *s, sw *w, const uint32_t *slot_of, const sw_wide *g,
+static bool p2p_compile_pred(const sim *s, p2p *w, const uint32_t *slot_of, const p2p_wide *g,
                             uint32_t slot, uint32_t p, uint32_t *t)
 {
-    if (!sw_fits(g->w) || g->w < 0 || g->delay >= w->W)
+    if (!p2p_fits(g->w) || g->w < 0 || g->delay >= w->W)
         return false;
-    w->pred[p] = (sw_pred){ ((w->W - g->delay) & (w->W - 1)) * w->n + slot_of[g->u], (int32_t)g->w };
+    w->pred[p] = (p2p_pred){ ((w->W - g->delay) & (w->W - 1)) * w->n + slot_of[g->u], (int32_t)g->w };
     w->pdelay[p] = g->delay;
     w->pcause[p] = g->cause;
     if (g->delay > w->early)
@@ -171,9 +171,9 @@ static bool sw_compile_pred(const sim *s, sw *w, const uint32_t *slot_of, const 
     if (g->xslot == PM_NONE)
         return true;
     int64_t cost = s->x[g->xslot].cost;
-    if (!sw_fits(cost))
+    if (!p2p_fits(cost))
         return false;
-    w->tok[*t] = (sw_tok){ s->cur[g->xslot], w->pred[p].off, (int32_t)(g->w - cost) };
+    w->tok[*t] = (p2p_tok){ s->cur[g->xslot], w->pred[p].off, (int32_t)(g->w - cost) };
     w->tdelay[*t] = g->delay;
     w->tslot[*t] = slot;
     w->txs[(*t)++] = g->xslot;
@@ -183,7 +183,7 @@ static bool sw_compile_pred(const sim *s, sw *w, const uint32_t *slot_of, const 
 /* Entry j of [p0, p1) never sets a begin when another entry reads the same
  * source and delay with a larger weight, or the same weight earlier (a
  * later one wins only when strictly later). */
-static bool sw_dominated(const sw *w, uint32_t p0, uint32_t p1, uint32_t j)
+static bool p2p_dominated(const p2p *w, uint32_t p0, uint32_t p1, uint32_t j)
 {
     for (uint32_t o = p0; o < p1; o++)
         if (o != j && w->pred[o].off == w->pred[j].off &&
@@ -194,13 +194,13 @@ static bool sw_dominated(const sw *w, uint32_t p0, uint32_t p1, uint32_t j)
 
 /* Drop the dominated entries of one node's [p0, p1) (a core-order
  * predecessor often shadows a data edge from the same node); the new end. */
-static uint32_t sw_dedup(sw *w, uint32_t p0, uint32_t p1)
+static uint32_t p2p_dedup(p2p *w, uint32_t p0, uint32_t p1)
 {
-    bool dead[SW_DEDUP_MAX];
-    if (p1 - p0 > SW_DEDUP_MAX)
+    bool dead[P2P_DEDUP_MAX];
+    if (p1 - p0 > P2P_DEDUP_MAX)
         return p1;
     for (uint32_t j = p0; j < p1; j++)
-        dead[j - p0] = sw_dominated(w, p0, p1, j);
+        dead[j - p0] = p2p_dominated(w, p0, p1, j);
     uint32_t out = p0;
     for (uint32_t j = p0; j < p1; j++) {
         if (dead[j - p0])
@@ -212,7 +212,7 @@ static uint32_t sw_dedup(sw *w, uint32_t p0, uint32_t p1)
     return out;
 }
 
-static bool sw_compile(const sim *s, sw *w, const uint32_t *p_off, const sw_wide *wide,
+static bool p2p_compile(const sim *s, p2p *w, const uint32_t *p_off, const p2p_wide *wide,
                        uint32_t *slot_of)
 {
     uint32_t p = 0, t = 0;
@@ -221,25 +221,25 @@ static bool sw_compile(const sim *s, sw *w, const uint32_t *p_off, const sw_wide
     for (uint32_t i = 0; i < w->n; i++) {
         uint32_t v = w->step[i], p0 = p;
         for (uint32_t j = p_off[v]; j < p_off[v + 1]; j++)
-            if (!sw_compile_pred(s, w, slot_of, &wide[j], i, p++, &t))
+            if (!p2p_compile_pred(s, w, slot_of, &wide[j], i, p++, &t))
                 return false;
-        p = sw_dedup(w, p0, p);
+        p = p2p_dedup(w, p0, p);
         for (uint32_t j = p0; j < p; j++)
             if (w->pdelay[j] > 0)
                 w->far[w->nfar++] = w->pred[j].off;
-        w->pred[p - 1].off |= SW_LAST;
-        if ((i & (SW_AHEAD - 1)) == SW_AHEAD - 1 || i == w->n - 1)
-            w->bfar[i / SW_AHEAD] = w->nfar;
-        if (!sw_fits(s->nd[v].recv) || !sw_fits(s->nd[v].end_off))
+        w->pred[p - 1].off |= P2P_LAST;
+        if ((i & (P2P_AHEAD - 1)) == P2P_AHEAD - 1 || i == w->n - 1)
+            w->bfar[i / P2P_AHEAD] = w->nfar;
+        if (!p2p_fits(s->nd[v].recv) || !p2p_fits(s->nd[v].end_off))
             return false;
-        w->node[i] = (sw_node){ (int32_t)s->nd[v].recv, (int32_t)s->nd[v].end_off };
-        if ((i & (SW_BLOCK - 1)) == SW_BLOCK - 1 || i == w->n - 1)
-            w->btend[i / SW_BLOCK] = t;
+        w->node[i] = (p2p_node){ (int32_t)s->nd[v].recv, (int32_t)s->nd[v].end_off };
+        if ((i & (P2P_BLOCK - 1)) == P2P_BLOCK - 1 || i == w->n - 1)
+            w->btend[i / P2P_BLOCK] = t;
     }
     return true;
 }
 
-static int sw_alloc(const sim *s, sw *w, size_t np)
+static int p2p_alloc(const sim *s, p2p *w, size_t np)
 {
     size_t n = s->n;
     w->step = malloc((n + 1) * sizeof *w->step);
@@ -251,46 +251,46 @@ static int sw_alloc(const sim *s, sw *w, size_t np)
     w->txs = malloc(((size_t)s->nx + 1) * sizeof *w->txs);
     w->tdelay = malloc(((size_t)s->nx + 1) * sizeof *w->tdelay);
     w->tslot = malloc(((size_t)s->nx + 1) * sizeof *w->tslot);
-    w->btend = malloc((n / SW_BLOCK + 1) * sizeof *w->btend);
+    w->btend = malloc((n / P2P_BLOCK + 1) * sizeof *w->btend);
     w->far = malloc((np + 1) * sizeof *w->far);
-    w->bfar = malloc((n / SW_AHEAD + 2) * sizeof *w->bfar);
+    w->bfar = malloc((n / P2P_AHEAD + 2) * sizeof *w->bfar);
     bool ok = w->step && w->node && w->pred && w->pdelay && w->pcause && w->tok && w->txs &&
               w->tdelay && w->tslot && w->btend && w->far && w->bfar;
     return ok ? PM_OK : PM_ENOMEM;
 }
 
-static void sw_free(sw *w)
+static void p2p_free(p2p *w)
 {
     free(w->step), free(w->node), free(w->pred), free(w->pdelay), free(w->pcause);
     free(w->tok), free(w->txs), free(w->tdelay), free(w->tslot), free(w->btend);
     free(w->far), free(w->bfar);
 }
 
-/* PM_OK with the sweep built; 1 when it cannot run this map (a zero-delay
+/* PM_OK with the pass built; 1 when it cannot run this map (a zero-delay
  * cycle, or times or rings too wide for its fields). */
-static int sw_build(const sim *s, sw *w)
+static int p2p_build(const sim *s, p2p *w)
 {
     uint32_t n = s->n;
     w->n = n, w->W = s->W, w->wn = (size_t)s->W * n;
-    if ((uint64_t)s->W * n > SW_LAST)
+    if ((uint64_t)s->W * n > P2P_LAST)
         return 1;
     uint32_t *p_off = calloc((size_t)n + 1, sizeof *p_off);
     if (!p_off)
         return PM_ENOMEM;
     uint64_t np = 0;
     for (uint32_t v = 0; v < n; v++) {
-        np += sw_count_preds(s, v);
+        np += p2p_count_preds(s, v);
         p_off[v + 1] = np < UINT32_MAX ? (uint32_t)np : UINT32_MAX;
     }
-    int rc = np < UINT32_MAX ? sw_alloc(s, w, np) : 1;
-    sw_wide *wide = rc ? NULL : malloc((np + 1) * sizeof *wide);
+    int rc = np < UINT32_MAX ? p2p_alloc(s, w, np) : 1;
+    p2p_wide *wide = rc ? NULL : malloc((np + 1) * sizeof *wide);
     uint32_t *slot_of = rc ? NULL : malloc(((size_t)n + 1) * sizeof *slot_of);
     if (!rc && (!wide || !slot_of))
         rc = PM_ENOMEM;
     if (!rc) {
         for (uint32_t v = 0; v < n; v++)
-            sw_list_preds(s, v, &wide[p_off[v]]);
-        if (!sw_order(n, p_off, wide, w->step) || !sw_compile(s, w, p_off, wide, slot_of))
+            p2p_list_preds(s, v, &wide[p_off[v]]);
+        if (!p2p_order(n, p_off, wide, w->step) || !p2p_compile(s, w, p_off, wide, slot_of))
             rc = 1;
     }
     free(p_off), free(wide), free(slot_of);
@@ -299,7 +299,7 @@ static int sw_build(const sim *s, sw *w)
 
 /* ---- token counts --------------------------------------------------------- */
 
-SW_HOT int64_t sw_at(const int64_t *ring, size_t base, uint32_t off, size_t wn)
+P2P_HOT int64_t p2p_at(const int64_t *ring, size_t base, uint32_t off, size_t wn)
 {
     size_t j = base + off;
     return ring[j >= wn ? j - wn : j];
@@ -308,16 +308,16 @@ SW_HOT int64_t sw_at(const int64_t *ring, size_t base, uint32_t off, size_t wn)
 /* The counters [tb, te) in iteration k, once their consumers have begun.
  * Run in blocks of slots, apart from the begin times, so that neither
  * loop branches on whether a node has cross-core inputs. */
-SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, size_t base,
+P2P_HOT int p2p_count(sim *s, p2p *w, uint32_t tb, uint32_t te, uint64_t k, size_t base,
                     bool early)
 {
     const size_t n = w->n;
     for (uint32_t j = tb; j < te; j++) {
-        sw_tok *t = &w->tok[j];
+        p2p_tok *t = &w->tok[j];
         uint32_t i = w->tslot[j];
         int64_t x = s->xr[base + i];
         bool initial = early && k < w->tdelay[j]; /* it took an initial token */
-        int64_t push = initial ? 0 : sw_at(s->xr, base, t->off, w->wn) + t->end;
+        int64_t push = initial ? 0 : p2p_at(s->xr, base, t->off, w->wn) + t->end;
         int rc = sim_tokens_take(s, &t->c, w->txs[j], s->xr + i, n, k, x, initial, push);
         if (rc)
             return rc;
@@ -325,27 +325,27 @@ SW_HOT int sw_count(sim *s, sw *w, uint32_t tb, uint32_t te, uint64_t k, size_t 
     return PM_OK;
 }
 
-/* ---- the sweep ------------------------------------------------------------ */
+/* ---- the pass ------------------------------------------------------------ */
 
 /* Begin of the node whose predecessors start at *pp in iteration k, and
  * the index of the one that set it; *pp moves past them.  `early` while
  * some delay still reaches before iteration 0; `causes` in the iterations
  * whose causes the report reads. */
-SW_HOT int64_t sw_begin(const sim *s, const sw *w, const sw_pred **pp, uint64_t k, size_t base,
+P2P_HOT int64_t p2p_begin(const sim *s, const p2p *w, const p2p_pred **pp, uint64_t k, size_t base,
                         bool early, bool causes, uint32_t *cause)
 {
-    const sw_pred *p = *pp;
+    const p2p_pred *p = *pp;
     int64_t x = 0;
-    *cause = SW_START;
+    *cause = P2P_START;
     if (!early || k >= w->pdelay[p - w->pred]) {
-        x = sw_at(s->xr, base, p->off & ~SW_LAST, w->wn) + p->w;
+        x = p2p_at(s->xr, base, p->off & ~P2P_LAST, w->wn) + p->w;
         *cause = (uint32_t)(p - w->pred);
     }
-    while (!(p->off & SW_LAST)) {
+    while (!(p->off & P2P_LAST)) {
         p++;
         if (early && k < w->pdelay[p - w->pred])
             continue;
-        int64_t a = sw_at(s->xr, base, p->off & ~SW_LAST, w->wn) + p->w;
+        int64_t a = p2p_at(s->xr, base, p->off & ~P2P_LAST, w->wn) + p->w;
         bool later = a > x; /* data-dependent: keep it free of branches */
         x = later ? a : x;
         if (causes)
@@ -355,9 +355,9 @@ SW_HOT int64_t sw_begin(const sim *s, const sw *w, const sw_pred **pp, uint64_t 
     return x;
 }
 
-/* Older rows are out of cache by the time the sweep reads them: ask for
- * those the next SW_AHEAD slots read while sweeping block b. */
-SW_HOT void sw_fetch_ahead(const sim *s, const sw *w, uint32_t b, size_t base)
+/* Older rows are out of cache by the time the pass reads them: ask for
+ * those the next P2P_AHEAD slots read while passing over block b. */
+P2P_HOT void p2p_fetch_ahead(const sim *s, const p2p *w, uint32_t b, size_t base)
 {
     uint32_t lo = w->bfar[b], hi = w->bfar[b + 1];
     for (uint32_t j = lo; j < hi; j++)
@@ -365,22 +365,22 @@ SW_HOT void sw_fetch_ahead(const sim *s, const sw *w, uint32_t b, size_t base)
                                                             : base + w->far[j]]);
 }
 
-SW_HOT int sw_iteration(sim *s, sw *w, uint64_t k, bool early, bool causes)
+P2P_HOT int p2p_iteration(sim *s, p2p *w, uint64_t k, bool early, bool causes)
 {
     const size_t n = w->n, base = (size_t)(k & s->mask) * n;
     const size_t prev = (size_t)((k - 1) & s->mask) * n;
     int64_t *row = s->xr + base;
     uint32_t *crow = s->cr + base;
-    const sw_pred *p = w->pred;
+    const p2p_pred *p = w->pred;
     uint64_t fp = 0;
     int64_t lmin = INT64_MAX, lmax = INT64_MIN;
     uint32_t tb = 0;
     for (uint32_t i = 0; i < n; i++) {
-        if ((i & (SW_AHEAD - 1)) == 0 && i + SW_AHEAD < n)
-            sw_fetch_ahead(s, w, i / SW_AHEAD, base);
-        const sw_node nd = w->node[i];
+        if ((i & (P2P_AHEAD - 1)) == 0 && i + P2P_AHEAD < n)
+            p2p_fetch_ahead(s, w, i / P2P_AHEAD, base);
+        const p2p_node nd = w->node[i];
         uint32_t cause;
-        int64_t x = sw_begin(s, w, &p, k, base, early, causes, &cause);
+        int64_t x = p2p_begin(s, w, &p, k, base, early, causes, &cause);
         row[i] = x;
         if (causes)
             crow[i] = cause;
@@ -388,9 +388,9 @@ SW_HOT int sw_iteration(sim *s, sw *w, uint64_t k, bool early, bool causes)
             fp += sim_mix((uint64_t)(x - s->xr[prev + i]), i);
         lmin = x + nd.recv < lmin ? x + nd.recv : lmin;
         lmax = x + nd.end_off > lmax ? x + nd.end_off : lmax;
-        if ((i & (SW_BLOCK - 1)) == SW_BLOCK - 1 || i == n - 1) {
-            uint32_t te = w->btend[i / SW_BLOCK];
-            int rc = sw_count(s, w, tb, te, k, base, early);
+        if ((i & (P2P_BLOCK - 1)) == P2P_BLOCK - 1 || i == n - 1) {
+            uint32_t te = w->btend[i / P2P_BLOCK];
+            int rc = p2p_count(s, w, tb, te, k, base, early);
             if (rc)
                 return rc;
             tb = te;
@@ -404,23 +404,23 @@ SW_HOT int sw_iteration(sim *s, sw *w, uint64_t k, bool early, bool causes)
 }
 
 /* The three kinds of iteration, each compiled on its own. */
-static int sw_iteration_early(sim *s, sw *w, uint64_t k)
+static int p2p_iteration_early(sim *s, p2p *w, uint64_t k)
 {
-    return sw_iteration(s, w, k, true, true);
+    return p2p_iteration(s, w, k, true, true);
 }
 
-static int sw_iteration_plain(sim *s, sw *w, uint64_t k)
+static int p2p_iteration_plain(sim *s, p2p *w, uint64_t k)
 {
-    return sw_iteration(s, w, k, false, false);
+    return p2p_iteration(s, w, k, false, false);
 }
 
-static int sw_iteration_window(sim *s, sw *w, uint64_t k)
+static int p2p_iteration_window(sim *s, p2p *w, uint64_t k)
 {
-    return sw_iteration(s, w, k, false, true);
+    return p2p_iteration(s, w, k, false, true);
 }
 
-/* Trace records of iteration k, in sweep order (the report sorts them). */
-static int sw_record(sim *s, const sw *w, uint64_t k)
+/* Trace records of iteration k, in pass order (the report sorts them). */
+static int p2p_record(sim *s, const p2p *w, uint64_t k)
 {
     const int64_t *row = s->xr + (size_t)(k & s->mask) * w->n;
     int rc = PM_OK;
@@ -436,7 +436,7 @@ static int sw_record(sim *s, const sw *w, uint64_t k)
 }
 
 /* Put the rings of the last iterations back in node order, with cause codes. */
-static int sw_unslot(sim *s, const sw *w)
+static int p2p_unslot(sim *s, const p2p *w)
 {
     size_t n = w->n;
     int64_t *x = malloc((n + 1) * sizeof *x);
@@ -451,7 +451,7 @@ static int sw_unslot(sim *s, const sw *w)
         memcpy(c, s->cr + base, n * sizeof *c);
         for (size_t i = 0; i < n; i++) {
             s->xr[base + w->step[i]] = x[i];
-            s->cr[base + w->step[i]] = c[i] == SW_START ? PM_CAUSE_START : w->pcause[c[i]];
+            s->cr[base + w->step[i]] = c[i] == P2P_START ? PM_CAUSE_START : w->pcause[c[i]];
         }
     }
     free(x), free(c);
@@ -459,7 +459,7 @@ static int sw_unslot(sim *s, const sw *w)
 }
 
 /* A core's firings follow one another, so its last one frees it last. */
-static void sw_makespan(sim *s)
+static void p2p_makespan(sim *s)
 {
     for (uint32_t c = 0; c < s->P; c++) {
         if (!s->cnt[c])
@@ -471,20 +471,20 @@ static void sw_makespan(sim *s)
     }
 }
 
-static int sw_run(sim *s, sw *w)
+static int p2p_run(sim *s, p2p *w)
 {
     int rc = PM_OK;
     for (uint64_t k = 0; rc == PM_OK && k < s->N; k++) {
         s->max_iter = k;
         sim_slot_reset(s, k);
         if (k < w->early)
-            rc = sw_iteration_early(s, w, k);
+            rc = p2p_iteration_early(s, w, k);
         else if (k + s->W < s->N)
-            rc = sw_iteration_plain(s, w, k); /* its causes are never read */
+            rc = p2p_iteration_plain(s, w, k); /* its causes are never read */
         else
-            rc = sw_iteration_window(s, w, k);
+            rc = p2p_iteration_window(s, w, k);
         if (!rc && k < s->record)
-            rc = sw_record(s, w, k);
+            rc = p2p_record(s, w, k);
         if (!rc && k == s->N / 2)
             for (uint32_t i = 0; i < w->n; i++)
                 s->half[w->step[i]] = s->xr[(size_t)(k & s->mask) * w->n + i];
@@ -494,21 +494,21 @@ static int sw_run(sim *s, sw *w)
     for (uint32_t j = 0; j < s->nx; j++)
         s->cur[w->txs[j]] = w->tok[j].c;
     if (!rc)
-        rc = sw_unslot(s, w);
+        rc = p2p_unslot(s, w);
     return rc;
 }
 
-int sim_loop_sweep(sim *s, pm_diag *diag)
+int sim_loop_p2p(sim *s, pm_diag *diag)
 {
     (void)diag;
-    sw w = { 0 };
-    int rc = sw_build(s, &w);
+    p2p w = { 0 };
+    int rc = p2p_build(s, &w);
     if (!rc)
-        rc = sw_run(s, &w);
-    sw_free(&w);
+        rc = p2p_run(s, &w);
+    p2p_free(&w);
     if (rc)
         return rc;
-    sw_makespan(s);
+    p2p_makespan(s);
     s->firings = s->N * s->n;
     for (uint32_t v = 0; v < s->n; v++)
         s->done[v] = s->N;

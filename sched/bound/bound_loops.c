@@ -14,7 +14,7 @@
  * of a nontrivial part of the nodes >= s, and we stop after max + 1 loops.
  */
 #include "bound_internal.h"
-#include "scc_internal.h"
+#include "../graph/scc_internal.h"
 
 #include <stdlib.h>
 #include <string.h>

@@ -4,7 +4,7 @@
  * (the next bottlenecks), the floors for P cores and the real-time budget.
  *
  * Prints only; the numbers come from pm_bound_compute and pm_floors_compute
- * (sched/bound.c, sched/floors.c).  What it does not do: schedule.
+ * (sched/bound/bound.c, sched/bound/floors.c).  What it does not do: schedule.
  */
 #include "cli.h"
 

@@ -342,8 +342,8 @@ void sim_iteration_done(sim *s, uint64_t k);
 int sim_record_firing(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x);
 int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr);
 
-/* The point-to-point engine (sim_sweep.c); 1 when it cannot run this map. */
-int sim_loop_sweep(sim *s, pm_diag *diag);
+/* The point-to-point engine (sim_p2p.c); 1 when it cannot run this map. */
+int sim_loop_p2p(sim *s, pm_diag *diag);
 
 /* End-of-run analysis (sim_report.c). */
 int sim_report_steady(sim *s, pm_sim_result *r);
