@@ -65,8 +65,9 @@ static void test_zero_delay_loop_is_named_in_order(void **state)
     assert_int_equal(d.line, 13); /* the last written edge of the loop, c -> a */
     assert_int_equal(b.ncritical, 0);
     pm_bound_free(&b);
-    /* the shortest zero-delay loop through the first node found (p), from
-     * its smallest node; the diagnostic points at p -> q, written last */
+    /* the shortest zero-delay loop through the lowest node on one (p; the
+     * shorter self-loop q -> q does not pass p), from p; the diagnostic
+     * points at p -> q, written last */
     pm_graph_destroy(g);
     g = mk("p:1 q:1 r:1", "q>r:0 r>p:0 p>q:0 q>q:0");
     assert_int_equal(pm_bound_compute(g, NULL, &b, &d), PM_EZERODELAY);

@@ -9,8 +9,8 @@
  */
 #include "bound_internal.h"
 #include "../graph/scc_internal.h"
+#include "pacemap/order.h"
 
-#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -93,140 +93,6 @@ int bound_node_times(const pm_graph *g, int64_t **t_out, int64_t *total, int64_t
     if (t_out)
         *t_out = t;
     return PM_OK;
-}
-
-/* ---- loops without delay ------------------------------------------------ */
-
-/* Kahn's topological sort of the zero-delay edges; afterwards indeg[v] > 0
- * exactly for the nodes left on or behind a loop without delay.  Returns
- * how many nodes were sorted. */
-static uint32_t zero_kahn(const pm_graph *g, uint32_t *indeg, uint32_t *queue)
-{
-    uint32_t head = 0, tail = 0;
-    memset(indeg, 0, (size_t)g->nnodes * sizeof *indeg);
-    for (uint32_t e = 0; e < g->nedges; e++)
-        if (g->edges[e].delay == 0)
-            indeg[g->edges[e].dst]++;
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        if (indeg[v] == 0)
-            queue[tail++] = v;
-    while (head < tail) {
-        uint32_t u = queue[head++];
-        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++) {
-            const pm_edge *ed = &g->edges[g->out_edge[k]];
-            if (ed->delay == 0 && --indeg[ed->dst] == 0)
-                queue[tail++] = ed->dst;
-        }
-    }
-    return tail;
-}
-
-/* A node on a loop without delay: walk zero-delay in-edges backwards among
- * the unsorted nodes until a node repeats.  mark[] is zeroed scratch. */
-static uint32_t zero_find_loop_node(const pm_graph *g, const uint32_t *indeg, uint8_t *mark)
-{
-    uint32_t v = 0;
-    while (indeg[v] == 0)
-        v++;
-    while (!mark[v]) {
-        mark[v] = 1;
-        for (uint32_t k = g->in_off[v]; k < g->in_off[v + 1]; k++) {
-            const pm_edge *ed = &g->edges[g->in_edge[k]];
-            if (ed->delay == 0 && indeg[ed->src] > 0) {
-                v = ed->src;
-                break;
-            }
-        }
-    }
-    return v;
-}
-
-/* Shortest zero-delay loop through s (breadth first); its edges into
- * loop[] in order from s.  Returns the length. */
-static uint32_t zero_shortest_loop(const pm_graph *g, uint32_t s, uint32_t *parent,
-                                   uint32_t *queue, uint32_t *loop)
-{
-    uint32_t head = 0, tail = 0, last = PM_NONE;
-    memset(parent, 0xff, (size_t)g->nnodes * sizeof *parent);
-    queue[tail++] = s;
-    while (head < tail && last == PM_NONE) {
-        uint32_t u = queue[head++];
-        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1] && last == PM_NONE; k++) {
-            uint32_t e = g->out_edge[k], w = g->edges[e].dst;
-            if (g->edges[e].delay != 0)
-                continue;
-            if (w == s)
-                last = e;
-            else if (parent[w] == PM_NONE) {
-                parent[w] = e;
-                queue[tail++] = w;
-            }
-        }
-    }
-    uint32_t len = 0;
-    for (uint32_t e = last;; e = parent[g->edges[e].src]) {
-        loop[len++] = e;
-        if (g->edges[e].src == s)
-            break;
-    }
-    for (uint32_t i = 0; i < len / 2; i++) {
-        uint32_t tmp = loop[i];
-        loop[i] = loop[len - 1 - i];
-        loop[len - 1 - i] = tmp;
-    }
-    return len;
-}
-
-/* "loop without delay: a -> b -> a (...)" from the smallest node on. */
-static void zero_report(const pm_graph *g, const uint32_t *loop, uint32_t len, pm_diag *diag)
-{
-    uint32_t first = 0, last = 0;
-    for (uint32_t i = 1; i < len; i++) {
-        if (g->edges[loop[i]].src < g->edges[loop[first]].src)
-            first = i;
-        if (loop[i] > loop[last])
-            last = i;
-    }
-    char names[400];
-    size_t at = 0;
-    bool elided = false;
-    for (uint32_t i = 0; i <= len; i++) {
-        const char *name = pm_graph_node_name(g, g->edges[loop[(first + i) % len]].src);
-        if (i < len && (elided || at + strlen(name) + 32 >= sizeof names)) {
-            elided = true; /* too long: leave out the middle */
-            continue;
-        }
-        int n = snprintf(names + at, sizeof names - at, "%s%s%s", i ? " -> " : "",
-                         elided ? "... -> " : "", name);
-        if (n > 0)
-            at += (size_t)n < sizeof names - at ? (size_t)n : sizeof names - at - 1;
-    }
-    const pm_edge *ed = &g->edges[loop[last]];
-    pm_diag_set(diag, g->file, ed->line, ed->col,
-                "loop without delay: %s (add a delay on one of its edges)", names);
-}
-
-int bound_check_zero_delay(const pm_graph *g, pm_diag *diag)
-{
-    size_t n = (size_t)g->nnodes + 1;
-    uint32_t *indeg = malloc(n * sizeof *indeg), *queue = malloc(n * sizeof *queue);
-    int rc = indeg && queue ? PM_OK : PM_ENOMEM;
-    if (rc == PM_OK && zero_kahn(g, indeg, queue) < g->nnodes) {
-        uint8_t *mark = calloc(n, 1);
-        uint32_t *parent = malloc(n * sizeof *parent), *loop = malloc(n * sizeof *loop);
-        rc = mark && parent && loop ? PM_EZERODELAY : PM_ENOMEM;
-        if (rc == PM_EZERODELAY) {
-            uint32_t s = zero_find_loop_node(g, indeg, mark);
-            uint32_t len = zero_shortest_loop(g, s, parent, queue, loop);
-            zero_report(g, loop, len, diag);
-        }
-        free(mark);
-        free(parent);
-        free(loop);
-    }
-    free(indeg);
-    free(queue);
-    return rc;
 }
 
 /* ---- parts and the answer ----------------------------------------------- */
@@ -335,28 +201,11 @@ static int bound_solve_parts(howard *h, const pm_scc *s, uint32_t **first, uint3
  * node stays unsorted, i.e. a loop without delay exists. */
 static bool bound_zero_free(const pm_graph *g, const uint32_t *dst, const uint8_t *d8)
 {
-    size_t n = (size_t)g->nnodes + 1;
-    uint32_t *indeg = calloc(n, sizeof *indeg), *queue = malloc(n * sizeof *queue);
-    uint32_t head = 0, tail = 0;
-    if (!indeg || !queue) {
-        free(indeg);
-        free(queue);
-        return false; /* the slow check then says which */
-    }
-    for (uint32_t k = 0; k < g->nedges; k++)
-        indeg[dst[k]] += d8[k] == 0;
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        if (indeg[v] == 0)
-            queue[tail++] = v;
-    while (head < tail) {
-        uint32_t u = queue[head++];
-        for (uint32_t k = g->out_off[u]; k < g->out_off[u + 1]; k++)
-            if (d8[k] == 0 && --indeg[dst[k]] == 0)
-                queue[tail++] = dst[k];
-    }
-    free(indeg);
-    free(queue);
-    return tail == g->nnodes;
+    uint32_t *order = malloc(((size_t)g->nnodes + 1) * sizeof *order), count = 0;
+    bool sorted = order && pm_order_csr(g->nnodes, g->out_off, dst, d8, PM_ORDER_FIFO,
+                                        order, &count) == PM_OK && count == g->nnodes;
+    free(order);
+    return sorted; /* on failure the slow check says which */
 }
 
 /* Gather, per out-edge position, the target and the delay saturated at
@@ -376,7 +225,7 @@ static int bound_gather(const pm_graph *g, uint32_t *dst, uint8_t *d8, bool *exa
     }
     if (bound_zero_free(g, dst, d8))
         return PM_OK;
-    return bound_check_zero_delay(g, diag); /* names the loop */
+    return pm_order_check_zero_delay(g, diag); /* names the loop */
 }
 
 /* Parts of g and the local arrays of the iteration.  The targets and

@@ -17,9 +17,6 @@ typedef __int128 bnd_i128;
 int bound_node_times(const pm_graph *g, int64_t **t, int64_t *total, int64_t *sum_delays,
                      uint32_t *largest, pm_diag *diag);
 
-/* PM_EZERODELAY with its diagnostic when a loop of g carries no delay. */
-int bound_check_zero_delay(const pm_graph *g, pm_diag *diag);
-
 /* A policy cycle's ratio p/q (reduced) and the smallest node on it
  * (a local index). */
 typedef struct howard_cycle {

@@ -15,9 +15,11 @@
  * Search: the bound is a fraction W/D with D at most the sum of delays, so
  * a Stern-Brocot descent with a three-way oracle ends on it exactly; runs
  * in one direction are crossed by galloping and bisection.
- * Shares only the input checks with bound.c.
+ * Shares only the input checks with bound.c; a loop without delay is
+ * reported by pacemap/order.h, as everywhere.
  */
 #include "bound_internal.h"
+#include "pacemap/order.h"
 
 #include <stdlib.h>
 #include <string.h>
@@ -207,7 +209,7 @@ int pm_bound_karp(const pm_graph *g, bool *has_loop, pm_rat *bound, pm_diag *dia
         k.maxd = g->edges[e].delay > k.maxd ? g->edges[e].delay : k.maxd;
         dsum += g->edges[e].delay;
     }
-    rc = bound_check_zero_delay(g, diag);
+    rc = pm_order_check_zero_delay(g, diag);
     if (rc == PM_OK)
         rc = karp_alloc(&k, g->nnodes);
     int s = 2;

@@ -1,9 +1,12 @@
 /*
  * levels.c - graph facts the scheduler needs: input checks, the zero-delay
- * topological order, strongly connected components (for loops), which
- * cores may run a node, and transfer costs.  No placement happens here.
+ * topological order and the strongly connected components (for loops),
+ * both from sched/graph (order.c, scc.c), which cores may run a node, and
+ * transfer costs.  No placement happens here.
  */
 #include "sched_internal.h"
+#include "pacemap/order.h"
+#include "pacemap/scc.h"
 
 #include <stdlib.h>
 #include <string.h>
@@ -27,141 +30,34 @@ int64_t sched_edge_cost(const pm_graph *g, uint32_t e, bool *overflow)
     return sched_add(c->latency, pw, overflow);
 }
 
-/* Kahn's algorithm over zero-delay edges, first-in first-out: a fixed order. */
+/* Kahn's algorithm over zero-delay edges, first-in first-out: a fixed
+ * order.  A loop is named as 'check' and 'bound' name it. */
 int sched_topo(const pm_graph *g, uint32_t *order, pm_diag *diag)
 {
-    uint32_t n = g->nnodes, head = 0, k = 0;
-    uint32_t *deg = calloc((size_t)n + 1, sizeof *deg);
-    if (!deg)
-        return PM_ENOMEM;
-    for (uint32_t e = 0; e < g->nedges; e++)
-        if (g->edges[e].delay == 0)
-            deg[g->edges[e].dst]++;
-    for (uint32_t v = 0; v < n; v++) /* order[] doubles as the FIFO queue */
-        if (deg[v] == 0)
-            order[k++] = v;
-    while (head < k) {
-        uint32_t v = order[head++];
-        for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
-            const pm_edge *e = &g->edges[g->out_edge[i]];
-            if (e->delay == 0 && --deg[e->dst] == 0)
-                order[k++] = e->dst;
-        }
+    uint32_t count = 0;
+    int rc = pm_order_zero_delay(g, PM_ORDER_FIFO, order, &count);
+    if (rc == PM_OK && count < g->nnodes) {
+        rc = pm_order_check_zero_delay(g, diag);
+        if (rc == PM_OK) /* not reached: the sort found a loop */
+            rc = PM_EZERODELAY;
     }
-    int rc = PM_OK;
-    if (k < n) {
-        uint32_t v = 0;
-        while (deg[v] == 0)
-            v++;
-        pm_diag_set(diag, g->file, g->nodes[v].line, g->nodes[v].col,
-                    "node '%s' lies on a loop without delay, so no iteration can start",
-                    pm_graph_node_name(g, v));
-        rc = PM_EZERODELAY;
-    }
-    free(deg);
     return rc;
-}
-
-/* Iterative Tarjan state: an explicit call stack of (node, next out-edge). */
-typedef struct scc_state {
-    uint32_t *index, *low, *stack, *call, *next;
-    bool *on;
-    uint32_t counter, sp, ncomp;
-} scc_state;
-
-static void scc_open(scc_state *s, const pm_graph *g, uint32_t v, uint32_t *csp)
-{
-    s->index[v] = s->low[v] = s->counter++;
-    s->stack[s->sp++] = v;
-    s->on[v] = true;
-    s->call[(*csp)++] = v;
-    s->next[v] = g->out_off[v];
-}
-
-/* Pop v's component when v is its root. */
-static void scc_close(scc_state *s, uint32_t v, uint32_t *comp)
-{
-    if (s->low[v] != s->index[v])
-        return;
-    uint32_t w;
-    do {
-        w = s->stack[--s->sp];
-        s->on[w] = false;
-        comp[w] = s->ncomp;
-    } while (w != v);
-    s->ncomp++;
-}
-
-static void scc_from(scc_state *s, const pm_graph *g, uint32_t root, uint32_t *comp)
-{
-    uint32_t csp = 0;
-    scc_open(s, g, root, &csp);
-    while (csp > 0) {
-        uint32_t v = s->call[csp - 1];
-        if (s->next[v] < g->out_off[v + 1]) {
-            uint32_t w = g->edges[g->out_edge[s->next[v]++]].dst;
-            if (s->index[w] == PM_NONE)
-                scc_open(s, g, w, &csp);
-            else if (s->on[w] && s->index[w] < s->low[v])
-                s->low[v] = s->index[w];
-            continue;
-        }
-        csp--;
-        scc_close(s, v, comp);
-        if (csp > 0) {
-            uint32_t u = s->call[csp - 1];
-            if (s->low[v] < s->low[u])
-                s->low[u] = s->low[v];
-        }
-    }
-}
-
-static int scc_cyclic(const pm_graph *g, const uint32_t *comp, uint32_t ncomp, bool **cyclic)
-{
-    uint32_t *size = calloc((size_t)ncomp + 1, sizeof *size);
-    *cyclic = calloc((size_t)ncomp + 1, sizeof **cyclic);
-    if (!size || !*cyclic) {
-        free(size);
-        free(*cyclic);
-        *cyclic = NULL;
-        return PM_ENOMEM;
-    }
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        if (++size[comp[v]] > 1)
-            (*cyclic)[comp[v]] = true;
-    for (uint32_t e = 0; e < g->nedges; e++)
-        if (g->edges[e].src == g->edges[e].dst)
-            (*cyclic)[comp[g->edges[e].src]] = true;
-    free(size);
-    return PM_OK;
 }
 
 int sched_scc(const pm_graph *g, uint32_t *comp, uint32_t *ncomp, bool **cyclic)
 {
-    size_t n = (size_t)g->nnodes + 1;
-    scc_state s = {0};
-    s.index = malloc(n * sizeof *s.index);
-    s.low = malloc(n * sizeof *s.low);
-    s.stack = malloc(n * sizeof *s.stack);
-    s.call = malloc(n * sizeof *s.call);
-    s.next = malloc(n * sizeof *s.next);
-    s.on = calloc(n, sizeof *s.on);
-    int rc = PM_ENOMEM;
-    if (s.index && s.low && s.stack && s.call && s.next && s.on) {
-        for (uint32_t v = 0; v < g->nnodes; v++)
-            s.index[v] = PM_NONE;
-        for (uint32_t v = 0; v < g->nnodes; v++)
-            if (s.index[v] == PM_NONE)
-                scc_from(&s, g, v, comp);
+    pm_scc s;
+    int rc = pm_scc_compute(g, NULL, NULL, &s);
+    *cyclic = rc == PM_OK ? calloc((size_t)s.ncomp + 1, sizeof **cyclic) : NULL;
+    if (rc == PM_OK && !*cyclic)
+        rc = PM_ENOMEM;
+    if (rc == PM_OK) {
+        memcpy(comp, s.comp, (size_t)g->nnodes * sizeof *comp);
         *ncomp = s.ncomp;
-        rc = scc_cyclic(g, comp, s.ncomp, cyclic);
+        for (uint32_t c = 0; c < s.ncomp; c++)
+            (*cyclic)[c] = pm_scc_has_cycle(g, &s, c, NULL, NULL);
     }
-    free(s.index);
-    free(s.low);
-    free(s.stack);
-    free(s.call);
-    free(s.next);
-    free(s.on);
+    pm_scc_free(&s);
     return rc;
 }
 

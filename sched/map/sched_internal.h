@@ -43,13 +43,13 @@ void sched_lane_reserve_occ(sched_lane *l, int64_t s, int64_t w);
 /* a + b saturating at INT64_MAX; sets *overflow when it saturates. */
 int64_t sched_add(int64_t a, int64_t b, bool *overflow);
 
-/* Kahn order of the zero-delay edges into order[n] (sources by id, then
+/* Kahn order of the zero-delay edges into order[n] (pm_order_zero_delay,
  * first in, first out).
- * PM_EZERODELAY with diag naming a node on a zero-delay loop. */
+ * PM_EZERODELAY with diag naming the loop (pm_order_check_zero_delay). */
 int sched_topo(const pm_graph *g, uint32_t *order, pm_diag *diag);
 
-/* Strongly connected components over all edges (iterative Tarjan, no
- * recursion).  comp[v] in [0, *ncomp); *cyclic (ncomp entries, malloc'd)
+/* Strongly connected components over all edges (pm_scc_compute, same
+ * numbering).  comp[v] in [0, *ncomp); *cyclic (ncomp entries, malloc'd)
  * says whether a component holds a cycle (two nodes or a self-loop). */
 int sched_scc(const pm_graph *g, uint32_t *comp, uint32_t *ncomp, bool **cyclic);
 

@@ -5,7 +5,8 @@
  * Besides what the reader checks, 'check' refuses a graph with a loop that
  * carries no delay: such a graph cannot run at all (every node of the loop
  * waits for another one in the same iteration), so it is reported as an
- * input error naming the loop's nodes in order, in the words 'bound' uses.
+ * input error naming the loop's nodes in order: the canonical loop of
+ * pacemap/order.h, at the same place and in the same words as 'bound'.
  * Loops are counted as strongly connected parts that contain a cycle (two
  * or more nodes, or one node with an edge to itself), from pm_scc (Tarjan
  * and Pearce's algorithm, iterative).  Both checks are O(V + E) and work
@@ -17,6 +18,7 @@
 #include "cli.h"
 
 #include "pacemap/json.h"
+#include "pacemap/order.h"
 #include "pacemap/rational.h"
 #include "pacemap/scc.h"
 #include "pacemap/sdf.h"
@@ -26,87 +28,16 @@
 #include <stdlib.h>
 #include <string.h>
 
-static bool check_zero_delay(const pm_graph *g, uint32_t e, void *ctx)
-{
-    (void)ctx;
-    return g->edges[e].delay == 0;
-}
-
-/* A zero-delay out-edge of v that stays inside v's component (one exists
- * when the component holds a cycle of zero-delay edges). */
-static uint32_t check_inner_edge(const pm_graph *g, const pm_scc *s, uint32_t v)
-{
-    for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
-        uint32_t e = g->out_edge[i];
-        if (g->edges[e].delay == 0 && s->comp[g->edges[e].dst] == s->comp[v])
-            return e;
-    }
-    return PM_NONE;
-}
-
-/* "a -> b -> ... -> a" for the cycle through the edges cyc[0..len), cut
- * short with "..." if it does not fit in buf. */
-static void check_loop_text(const pm_graph *g, const uint32_t *cyc, uint32_t len,
-                            char *buf, size_t cap)
-{
-    size_t used = 0;
-    buf[0] = '\0';
-    for (uint32_t i = 0; i <= len; i++) {
-        uint32_t v = g->edges[cyc[i % len]].src;
-        const char *name = pm_graph_node_name(g, v);
-        if (used + strlen(name) + 8 >= cap) {
-            snprintf(buf + used, cap - used, " ...");
-            return;
-        }
-        used += (size_t)snprintf(buf + used, cap - used, "%s%s", i ? " -> " : "", name);
-    }
-}
-
-/* Print the error for a cycle of zero-delay edges in component c: walk
- * inner edges from its smallest node until a node repeats.  The message
- * and the position (the loop's last written edge) are those of 'bound'. */
-static int check_report_zero_loop(const pm_graph *g, const pm_scc *s, uint32_t c)
-{
-    uint32_t start = s->order[s->start[c]];
-    uint32_t size = s->start[c + 1] - s->start[c];
-    uint32_t *pos = malloc(((size_t)g->nnodes + 1) * sizeof *pos);
-    uint32_t *walk = malloc(((size_t)size + 1) * sizeof *walk);
-    if (!pos || !walk) {
-        free(pos);
-        free(walk);
-        return PM_ENOMEM;
-    }
-    memset(pos, 0xff, ((size_t)g->nnodes + 1) * sizeof *pos);
-    uint32_t len = 0, v = start;
-    while (pos[v] == PM_NONE) {
-        pos[v] = len;
-        walk[len] = check_inner_edge(g, s, v);
-        v = g->edges[walk[len++]].dst;
-    }
-    uint32_t *cyc = walk + pos[v], n = len - pos[v], last = cyc[0];
-    for (uint32_t i = 1; i < n; i++)
-        last = cyc[i] > last ? cyc[i] : last;
-    char text[400];
-    check_loop_text(g, cyc, n, text, sizeof text);
-    pm_diag d;
-    pm_diag_set(&d, g->file, g->edges[last].line, g->edges[last].col,
-                "loop without delay: %s (add a delay on one of its edges)", text);
-    cli_error(&d);
-    free(pos);
-    free(walk);
-    return PM_EZERODELAY;
-}
-
 /* PM_EZERODELAY (reported) when some loop carries no delay at all: such a
- * graph cannot run, whatever its rates. */
+ * graph cannot run, whatever its rates.  The loop named is the one 'bound'
+ * names (pm_order_check_zero_delay). */
 static int check_zero_delay_loops(const pm_graph *g)
 {
-    pm_scc s;
-    int rc = pm_scc_compute(g, check_zero_delay, NULL, &s);
-    for (uint32_t c = 0; rc == PM_OK && c < s.ncomp; c++)
-        if (pm_scc_has_cycle(g, &s, c, check_zero_delay, NULL))
-            rc = check_report_zero_loop(g, &s, c);
-    pm_scc_free(&s);
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = pm_order_check_zero_delay(g, &d);
+    if (rc == PM_EZERODELAY)
+        cli_error(&d);
     return rc;
 }
 

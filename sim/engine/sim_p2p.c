@@ -36,6 +36,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "pacemap/order.h"
 #include "sim_internal.h"
 
 #define P2P_START UINT32_MAX   /* cause index: nothing, began at time 0 */
@@ -118,14 +119,15 @@ static void p2p_list_preds(const sim *s, uint32_t v, p2p_wide *p)
     }
 }
 
-/* Kahn's algorithm over the zero-delay predecessors; false on a cycle. */
+/* Kahn's algorithm (pm_order_csr, first in first out) over the zero-delay
+ * predecessors, turned into successor lists; false on a cycle. */
 static bool p2p_order(uint32_t n, const uint32_t *p_off, const p2p_wide *wide, uint32_t *step)
 {
-    uint32_t *indeg = calloc(2 * (size_t)n + 1, sizeof *indeg);
+    uint32_t *fill = calloc((size_t)n + 1, sizeof *fill);
     uint32_t *succ_off = calloc((size_t)n + 2, sizeof *succ_off);
     uint32_t *succ = malloc(((size_t)p_off[n] + 1) * sizeof *succ);
-    uint32_t head = 0, tail = 0;
-    if (indeg && succ_off && succ) {
+    uint32_t done = 0;
+    if (fill && succ_off && succ) {
         for (uint32_t i = 0; i < p_off[n]; i++)
             if (wide[i].delay == 0)
                 succ_off[wide[i].u + 1]++;
@@ -133,22 +135,13 @@ static bool p2p_order(uint32_t n, const uint32_t *p_off, const p2p_wide *wide, u
             succ_off[v + 1] += succ_off[v];
         for (uint32_t v = 0; v < n; v++)
             for (uint32_t i = p_off[v]; i < p_off[v + 1]; i++)
-                if (wide[i].delay == 0) {
-                    succ[succ_off[wide[i].u] + indeg[n + wide[i].u]++] = v;
-                    indeg[v]++;
-                }
-        for (uint32_t v = 0; v < n; v++)
-            if (indeg[v] == 0)
-                step[tail++] = v;
-        while (head < tail) {
-            uint32_t u = step[head++];
-            for (uint32_t i = succ_off[u]; i < succ_off[u + 1]; i++)
-                if (--indeg[succ[i]] == 0)
-                    step[tail++] = succ[i];
-        }
+                if (wide[i].delay == 0)
+                    succ[succ_off[wide[i].u] + fill[wide[i].u]++] = v;
+        if (pm_order_csr(n, succ_off, succ, NULL, PM_ORDER_FIFO, step, &done) != PM_OK)
+            done = 0;
     }
-    free(indeg), free(succ_off), free(succ);
-    return tail == n;
+    free(fill), free(succ_off), free(succ);
+    return done == n;
 }
 
 static bool p2p_fits(int64_t v)

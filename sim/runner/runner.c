@@ -19,6 +19,7 @@
 #include <time.h>
 
 #include "pacemap/kernels.h"
+#include "pacemap/order.h"
 #include "pacemap/ring.h"
 #include "pacemap/sim.h"
 
@@ -88,33 +89,12 @@ static int run_kernel_for(const pm_graph *g, const pm_run_config *cfg, uint32_t 
 /* ---- orders and trivial maps ----------------------------------------------- */
 
 /* Kahn's algorithm over the zero-delay edges, smallest index first among
- * the ready nodes (a linear scan keeps it simple and deterministic). */
+ * the ready nodes: the serial map and the dealt maps list nodes in it. */
 static int run_topo_order(const pm_graph *g, uint32_t *order)
 {
-    uint32_t n = g->nnodes;
-    uint32_t *indeg = calloc(n ? n : 1, sizeof *indeg);
-    if (!indeg)
-        return PM_ENOMEM;
-    for (uint32_t e = 0; e < g->nedges; e++)
-        indeg[g->edges[e].dst] += g->edges[e].delay == 0;
     uint32_t done = 0;
-    for (uint32_t next = 0; done < n;) {
-        uint32_t v = next;
-        while (v < n && indeg[v] != 0)
-            v++;
-        if (v == n)
-            break; /* no ready node left: a zero-delay cycle */
-        order[done++] = v;
-        indeg[v] = UINT32_MAX;
-        next = 0;
-        for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
-            const pm_edge *e = &g->edges[g->out_edge[i]];
-            if (e->delay == 0 && indeg[e->dst] != UINT32_MAX)
-                indeg[e->dst]--;
-        }
-    }
-    free(indeg);
-    return done == n ? PM_OK : PM_EZERODELAY;
+    int rc = pm_order_zero_delay(g, PM_ORDER_SMALLEST, order, &done);
+    return rc != PM_OK ? rc : done == g->nnodes ? PM_OK : PM_EZERODELAY;
 }
 
 int pm_run_serial_map(const pm_graph *g, pm_map **out)

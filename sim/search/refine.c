@@ -11,6 +11,7 @@
 #include "pacemap/refine.h"
 
 #include "pacemap/bound.h"
+#include "pacemap/order.h"
 #include "pacemap/sdf.h"
 #include "pacemap/sim.h"
 
@@ -33,39 +34,18 @@ typedef struct refine {
     pm_rat good_enough;     /* lower bound + 1 cycle: no move can gain more */
 } refine;
 
-/* Kahn's order on zero-delay edges: a unit's rank comes after its
+/* Kahn's order on zero-delay edges (FIFO): a unit's rank comes after its
  * producers', so ties in start time keep data order. */
 static int refine_ranks(refine *r)
 {
-    const pm_graph *u = r->units;
-    uint32_t *indeg = calloc((size_t)r->n + 1, sizeof *indeg);
-    uint32_t *queue = malloc(((size_t)r->n + 1) * sizeof *queue);
-    if (!indeg || !queue) {
-        free(indeg);
-        free(queue);
-        return PM_ENOMEM;
-    }
-    for (uint32_t e = 0; e < u->nedges; e++)
-        if (u->edges[e].delay == 0 && u->edges[e].src != u->edges[e].dst)
-            indeg[u->edges[e].dst]++;
-    uint32_t head = 0, tail = 0;
-    for (uint32_t v = 0; v < r->n; v++)
-        if (!indeg[v])
-            queue[tail++] = v;
-    for (uint32_t v = 0; v < r->n; v++)
+    uint32_t *order = malloc(((size_t)r->n + 1) * sizeof *order), count = 0;
+    int rc = order ? pm_order_zero_delay(r->units, PM_ORDER_FIFO, order, &count) : PM_ENOMEM;
+    for (uint32_t v = 0; rc == PM_OK && v < r->n; v++)
         r->rank[v] = r->n; /* units on a zero-delay cycle (multirate) keep id order */
-    while (head < tail) {
-        uint32_t v = queue[head];
-        r->rank[v] = head++;
-        for (uint32_t i = u->out_off[v]; i < u->out_off[v + 1]; i++) {
-            const pm_edge *e = &u->edges[u->out_edge[i]];
-            if (e->delay == 0 && e->dst != v && --indeg[e->dst] == 0)
-                queue[tail++] = e->dst;
-        }
-    }
-    free(indeg);
-    free(queue);
-    return PM_OK;
+    for (uint32_t i = 0; rc == PM_OK && i < count; i++)
+        r->rank[order[i]] = i;
+    free(order);
+    return rc;
 }
 
 /* Start cores and keys of the units from map m and schedule sc. */
