@@ -91,14 +91,14 @@ static void test_cd_dat_from_refdata(void **state)
     const char *dir = getenv("PM_REFDATA");
     if (!dir) {
         printf("note: PM_REFDATA not set, skipping the cd_dat.pace check\n");
-        return;
+        skip();
     }
     char path[1024];
     snprintf(path, sizeof path, "%s/cd_dat.pace", dir);
     FILE *f = fopen(path, "r");
     if (!f) {
         printf("note: %s absent, skipping the cd_dat.pace check\n", path);
-        return;
+        skip();
     }
     fclose(f);
     pm_graph *g = NULL;
