@@ -22,6 +22,7 @@
 #include "pacemap/map.h"
 #include "pacemap/reader.h"
 #include "pacemap/sdf.h"
+#include "support/testkit.h"
 
 /* ---- building graphs ---------------------------------------------------------- */
 
@@ -356,10 +357,7 @@ static uint64_t rng_state = 0x9e3779b97f4a7c15ULL;
 
 static uint32_t rnd(uint32_t n)
 {
-    rng_state ^= rng_state << 13;
-    rng_state ^= rng_state >> 7;
-    rng_state ^= rng_state << 17;
-    return (uint32_t)(rng_state % n);
+    return tk_rand(&rng_state, n);
 }
 
 static uint64_t gcd64(uint64_t a, uint64_t b)
