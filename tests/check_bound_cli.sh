@@ -1,6 +1,6 @@
 #!/bin/sh
 # check_bound_cli.sh - `pacemap bound` end to end: text, JSON keys of
-# DESIGN section 6, -p, the budget, exit codes and the loop-without-delay
+# docs/schema.json, -p, the budget, exit codes and the loop-without-delay
 # message.  The scenarios are invented here; expected values are worked out
 # by hand in the comments.
 set -u

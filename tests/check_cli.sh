@@ -1,7 +1,7 @@
 #!/bin/sh
 # check_cli.sh - end-to-end checks of the command line on the shipped
 # scenarios: exit codes, -h, --json output (parsed with Python's json
-# module and checked for the keys of DESIGN §6), DOT accepted by Graphviz,
+# module and checked for the keys of docs/schema.json), DOT accepted by Graphviz,
 # and error lines in the FILE:LINE:COL: error: form.
 #
 # Outside references: Graphviz `dot -Tsvg` must accept every DOT text;
@@ -107,7 +107,7 @@ for f in scenarios/*.pace; do
     grep -q 'the scenario is valid' "$TMP/out" && ok "check $n says valid" ||
         bad "check $n: no 'the scenario is valid' line"
     expect_rc 0 "check --json $n" check --json "$f"
-    json_keys "check --json $n has the DESIGN keys" nodes edges loops total_cycles repetition
+    json_keys "check --json $n has the schema keys" nodes edges loops total_cycles repetition
     json_schema "check --json $n follows docs/schema.json" check
     if $have_ref; then
         ref "check $n agrees with the networkx reference" check "$f" "$TMP/out"
@@ -135,7 +135,7 @@ for f in scenarios/*.pace; do
     elif $have_bound; then
         expect_rc 0 "bound $n" bound "$f"
         expect_rc 0 "bound --json $n" bound --json "$f"
-        json_keys "bound --json $n has the DESIGN keys" iteration_bound critical_loops \
+        json_keys "bound --json $n has the schema keys" iteration_bound critical_loops \
             total_cycles lower_bound
         json_schema "bound --json $n follows docs/schema.json" bound
         if $have_ref; then

@@ -1,6 +1,6 @@
 #!/bin/sh
-# check_outfiles.sh - output files appear whole or not at all (DESIGN §3,
-# include/pacemap/outfile.h).
+# check_outfiles.sh - output files appear whole or not at all (docs/simulation.md,
+# "Outputs"; include/pacemap/outfile.h).
 #
 # For every command option that writes a file (--svg, --vcd, --emit-map):
 #   - a failing run (bad scenario, or a bad --map) leaves no file and no

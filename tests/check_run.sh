@@ -1,5 +1,5 @@
 #!/bin/sh
-# check_run.sh - `pacemap run` end to end: JSON keys of DESIGN §6, outputs
+# check_run.sh - `pacemap run` end to end: JSON keys of docs/schema.json, outputs
 # equal to the single-threaded run, a hand map, and the errors of the
 # issue (too few processing units names both counts, exit 1; usage, exit 2;
 # multirate scenarios run on their single-rate expansion).  Small N; timings are not checked.

@@ -1,7 +1,7 @@
 #!/bin/sh
 # check_sweep_cli.sh - `pacemap sweep` end to end on a scenario invented
 # here (a recursive smoother beside three filters; its answers are derived
-# by hand in tests/test_sweep.c): JSON keys of DESIGN §6 and values, CSV
+# by hand in tests/test_sweep.c): JSON keys of docs/schema.json and values, CSV
 # rows, SVG well-formed (parsed by Python's xml.etree), human text within
 # 100 columns with the caution, no progress line when stderr is not a
 # terminal, a progress line on a pseudo-terminal (util-linux `script`,

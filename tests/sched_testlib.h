@@ -9,13 +9,7 @@
 #include <string.h>
 
 #include "pacemap/graph.h"
-
-/* A deterministic generator (64-bit LCG, Knuth's MMIX constants). */
-static inline uint32_t tl_rand(uint64_t *s, uint32_t n)
-{
-    *s = *s * 6364136223846793005ULL + 1442695040888963407ULL;
-    return (uint32_t)((*s >> 33) % n);
-}
+#include "support/testkit.h" /* tk_rand, the tests' random generator */
 
 /* A graph with P identical cores. */
 static inline pm_graph *tl_graph(uint32_t P)

@@ -46,10 +46,10 @@ static void ref_write_edges(FILE *f, const pm_graph *g)
 
 #define BGL_GRAPHS 500
 
-static uint32_t bgl_size(gen_rng *r, int i)
+static uint32_t bgl_size(uint64_t *r, int i)
 {
     /* half small graphs, half up to 2000 nodes */
-    return i < BGL_GRAPHS / 2 ? 2 + gen_below(r, 59) : 60 + gen_below(r, 1941);
+    return i < BGL_GRAPHS / 2 ? 2 + tk_rand(r, 59) : 60 + tk_rand(r, 1941);
 }
 
 /* Boost's critical cycle must be a cycle of g whose exact ratio is ours. */
@@ -102,9 +102,9 @@ static void test_bound_equals_boost_max_cycle_ratio(void **state)
     assert_non_null(f);
     pm_graph *gs[BGL_GRAPHS];
     pm_bound bs[BGL_GRAPHS];
-    gen_rng r = gen_seed(2026);
+    uint64_t r = 2026;
     for (int i = 0; i < BGL_GRAPHS; i++) {
-        uint32_t n = bgl_size(&r, i), m = n + gen_below(&r, 3 * n + 1);
+        uint32_t n = bgl_size(&r, i), m = n + tk_rand(&r, 3 * n + 1);
         gs[i] = gen_graph_random(1000 + (uint64_t)i, n, m, 50, 3);
         assert_non_null(gs[i]);
         assert_int_equal(pm_bound_compute(gs[i], NULL, &bs[i], NULL), PM_OK);
@@ -131,22 +131,22 @@ static void test_bound_equals_boost_max_cycle_ratio(void **state)
 
 /* ---- (b) networkx ------------------------------------------------------- */
 
-#define NX_GRAPHS 200
+#define NX_GRAPHS 300
 
-/* Small graphs without parallel edges, with many ties (times 0..4). */
-static pm_graph *nx_graph(uint64_t seed)
+/* Small graphs without parallel edges, with many ties (times 0..4), drawn
+ * from the generator state *r. */
+static pm_graph *nx_graph(uint64_t *r)
 {
-    gen_rng r = gen_seed(seed);
-    uint32_t n = 2 + gen_below(&r, 7), m = gen_below(&r, 2 * n + 1);
+    uint32_t n = 2 + tk_rand(r, 7), m = tk_rand(r, 2 * n + 1);
     pm_graph *g = pm_graph_create("nx");
     char name[16], used[9][9] = { { 0 } };
     for (uint32_t i = 0; i < n; i++) {
         int len = snprintf(name, sizeof name, "v%u", i);
-        assert_int_equal(pm_graph_add_node(g, name, (size_t)len, gen_below(&r, 5), NULL), 0);
+        assert_int_equal(pm_graph_add_node(g, name, (size_t)len, tk_rand(r, 5), NULL), 0);
     }
     for (uint32_t i = 0; i < m; i++) {
         pm_edge e = pm_edge_default(0, 0);
-        gen_edge(&r, n, 2, &e.src, &e.dst, &e.delay);
+        gen_edge(r, n, 2, &e.src, &e.dst, &e.delay);
         if (used[e.src][e.dst]++)
             continue;
         assert_int_equal(pm_graph_add_edge(g, &e, NULL), 0);
@@ -231,8 +231,9 @@ static void test_bound_and_critical_set_equal_networkx(void **state)
     FILE *f = ref_tmpfile(path, sizeof path);
     assert_non_null(f);
     pm_graph *gs[NX_GRAPHS];
+    uint64_t r = 7000;
     for (int i = 0; i < NX_GRAPHS; i++) {
-        gs[i] = nx_graph(7000 + (uint64_t)i);
+        gs[i] = nx_graph(&r);
         nx_write(f, gs[i]);
     }
     fclose(f);

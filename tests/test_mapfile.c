@@ -1,5 +1,5 @@
 /*
- * test_mapfile.c - `.map` files (DESIGN §4): reading with comments and
+ * test_mapfile.c - `.map` files (docs/format.md): reading with comments and
  * blank lines, writing, and every error with its line and column; maps
  * that contradict the graph when timed.
  */

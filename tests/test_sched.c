@@ -224,21 +224,21 @@ static pm_graph *random_graph(uint64_t *seed, uint32_t n, uint32_t P, int varian
     char name[32];
     for (uint32_t v = 0; v < n; v++) {
         snprintf(name, sizeof name, "n%u", v);
-        tl_node(g, name, tl_rand(seed, 20));
+        tl_node(g, name, tk_rand(seed, 20));
         if (variant % 3 == 2) {
-            int64_t row[2] = {tl_rand(seed, 20), tl_rand(seed, 4) ? (int64_t)tl_rand(seed, 30) : -1};
+            int64_t row[2] = {tk_rand(seed, 20), tk_rand(seed, 4) ? (int64_t)tk_rand(seed, 30) : -1};
             pm_graph_set_class_cycles(g, v, row);
         }
-        if (tl_rand(seed, 10) == 0)
+        if (tk_rand(seed, 10) == 0)
             g->nodes[v].pin_core = 0;
     }
     for (uint32_t v = 1; v < n; v++)
-        for (uint32_t k = 0, m = tl_rand(seed, 3); k < m; k++)
-            tl_edge(g, tl_rand(seed, v), v, 0, 1 + tl_rand(seed, 4));
+        for (uint32_t k = 0, m = tk_rand(seed, 3); k < m; k++)
+            tl_edge(g, tk_rand(seed, v), v, 0, 1 + tk_rand(seed, 4));
     for (uint32_t k = 0; k < n / 4; k++)
-        tl_edge(g, n - 1 - tl_rand(seed, n / 2 + 1), tl_rand(seed, n / 2 + 1), 1, 1);
+        tl_edge(g, n - 1 - tk_rand(seed, n / 2 + 1), tk_rand(seed, n / 2 + 1), 1, 1);
     int64_t sr = variant % 2 ? 2 : 0;
-    tl_comm(g, tl_rand(seed, 8), tl_rand(seed, 3), sr, sr, variant % 4 == 1 ? PM_BUS : PM_P2P);
+    tl_comm(g, tk_rand(seed, 8), tk_rand(seed, 3), sr, sr, variant % 4 == 1 ? PM_BUS : PM_P2P);
     pm_graph_finalize(g);
     return g;
 }
@@ -286,7 +286,7 @@ static void test_random_checked(void **state)
     (void)state;
     uint64_t seed = 12345;
     for (int i = 0; i < 1000; i++) {
-        uint32_t n = 2 + tl_rand(&seed, 40), P = 1 + tl_rand(&seed, 5);
+        uint32_t n = 2 + tk_rand(&seed, 40), P = 1 + tk_rand(&seed, 5);
         pm_graph *g = random_graph(&seed, n, P, i);
         for (int mode = 0; mode < 3; mode++) {
             pm_sched_opts o = {.loop_blind = mode == 1, .greedy = mode == 2};
@@ -375,10 +375,10 @@ static void test_map_garbage(void **state)
     static const char alphabet[] = "core 01:n2345#\n\t x";
     for (int i = 0; i < 3000; i++) {
         char buf[64];
-        size_t len = tl_rand(&seed, sizeof buf);
+        size_t len = tk_rand(&seed, sizeof buf);
         for (size_t k = 0; k < len; k++)
-            buf[k] = tl_rand(&seed, 8) ? alphabet[tl_rand(&seed, sizeof alphabet - 1)]
-                                       : (char)tl_rand(&seed, 256);
+            buf[k] = tk_rand(&seed, 8) ? alphabet[tk_rand(&seed, sizeof alphabet - 1)]
+                                       : (char)tk_rand(&seed, 256);
         pm_map *m = NULL;
         pm_diag d;
         int rc = pm_map_read_string(buf, len, "junk.map", g, &m, &d);

@@ -1,6 +1,6 @@
 /*
  * test_sched_cli.c - the `pacemap schedule` command end to end ($PM_BIN):
- * JSON keys of DESIGN §6 (parsed by Python's json module, an outside
+ * JSON keys of docs/schema.json (parsed by Python's json module, an outside
  * parser, when /usr/bin/python3 exists), --emit-map then --map gives the
  * same slots, errors with FILE:LINE:COL and exit codes, human output within
  * 100 columns, no output file left behind on error.

@@ -110,16 +110,16 @@ static long long glpk_optimum(const pm_graph *g, uint32_t P)
 
 static pm_graph *small_dag(uint64_t *seed, uint32_t P)
 {
-    uint32_t n = 5 + tl_rand(seed, 5);
+    uint32_t n = 5 + tk_rand(seed, 5);
     pm_graph *g = tl_graph(P);
     char name[32];
     for (uint32_t v = 0; v < n; v++) {
         snprintf(name, sizeof name, "t%u", v);
-        tl_node(g, name, 1 + tl_rand(seed, 9));
+        tl_node(g, name, 1 + tk_rand(seed, 9));
     }
     for (uint32_t a = 0; a < n; a++)
         for (uint32_t b = a + 1; b < n; b++)
-            if (tl_rand(seed, 4) == 0)
+            if (tk_rand(seed, 4) == 0)
                 tl_edge(g, a, b, 0, 1);
     pm_graph_finalize(g);
     return g;
@@ -147,7 +147,7 @@ static void test_against_glpk(void **state)
     uint64_t seed = 2024;
     int solved = 0, tight_greedy = 0;
     for (int i = 0; i < 120; i++) {
-        uint32_t P = 2 + tl_rand(&seed, 2);
+        uint32_t P = 2 + tk_rand(&seed, 2);
         pm_graph *g = small_dag(&seed, P);
         long long opt = glpk_optimum(g, P); /* GLPK glpsol, exact MILP optimum */
         assert_true(opt > 0);

@@ -16,6 +16,7 @@
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
 #include "pacemap/sim.h"
+#include "support/testkit.h"
 
 /* ---- building graphs ---------------------------------------------------- */
 
@@ -352,8 +353,7 @@ static void test_deadlock_fifo(void **state)
 static uint64_t rng_state = 12345;
 static uint32_t rnd(uint32_t n)
 {
-    rng_state = rng_state * UINT64_C(6364136223846793005) + UINT64_C(1442695040888963407);
-    return (uint32_t)((rng_state >> 33) % n);
+    return tk_rand(&rng_state, n);
 }
 
 /* A random graph: forward edges (i < j) with few delays, backward edges

@@ -20,6 +20,7 @@
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
 #include "pacemap/sim.h"
+#include "support/testkit.h"
 
 #define MAXN 8
 #define MAXE 20
@@ -29,8 +30,7 @@
 static uint64_t rng_state = 777;
 static uint32_t rnd(uint32_t n)
 {
-    rng_state = rng_state * UINT64_C(6364136223846793005) + UINT64_C(1442695040888963407);
-    return (uint32_t)((rng_state >> 33) % n);
+    return tk_rand(&rng_state, n);
 }
 
 typedef struct ref {

@@ -24,7 +24,7 @@
 #define PM_CANNOT_RUN INT64_C(-1)     /* per-class cycles: class cannot run the node */
 #define PM_MAX_VALUE ((INT64_C(1) << 62) - 1) /* largest integer in a scenario */
 
-/* What the real-core runner executes for a node (DESIGN §7). */
+/* What the real-core runner executes for a node (docs/runner.md). */
 typedef enum pm_work_kind {
     PM_WORK_SPIN = 0, /* calibrated busy loop for the node's cycles */
     PM_WORK_FIR,      /* FIR filter, param = taps */
@@ -65,7 +65,7 @@ typedef struct pm_comm {
 } pm_comm;
 
 /* Cores and how data moves between them.  Without a `procs` statement there
- * is one class named "core" with one core (DESIGN §3 default). */
+ * is one class named "core" with one core (the default of docs/format.md). */
 typedef struct pm_platform {
     uint32_t nclasses;
     char **class_names;    /* nclasses names, owned */

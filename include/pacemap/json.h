@@ -37,7 +37,7 @@ void pm_json_uint(pm_json *j, uint64_t v);
 void pm_json_double(pm_json *j, double v);
 void pm_json_bool(pm_json *j, bool v);
 void pm_json_null(pm_json *j);
-/* {"num": N, "den": D, "value": X} (DESIGN §6) */
+/* {"num": N, "den": D, "value": X} (docs/schema.json, "rational") */
 void pm_json_rat(pm_json *j, pm_rat r);
 /* Ends the document with a newline. */
 void pm_json_finish(pm_json *j);

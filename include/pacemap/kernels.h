@@ -1,6 +1,6 @@
 /*
  * kernels.h - the signal-processing work the real-core runner executes for
- * a node (DESIGN §7): FIR filter, biquad cascade, radix-2 FFT, and the
+ * a node (docs/runner.md): FIR filter, biquad cascade, radix-2 FFT, and the
  * calibrated busy loop, all over blocks of float samples, plus the
  * deterministic test signal that feeds the source nodes.
  *

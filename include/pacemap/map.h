@@ -1,7 +1,8 @@
 /*
  * map.h - a mapping of a graph onto cores: which core runs each node and in
- * what order (DESIGN §4).  The scheduler makes one, a user can write one by
- * hand (`.map` files), and the simulator and the real-core runner execute it.
+ * what order.  The scheduler makes one, a user can write one by hand
+ * (`.map` files, docs/format.md), and the simulator and the real-core
+ * runner execute it.
  *
  * Ownership: a pm_map owns its arrays; pm_map_destroy(NULL) is a no-op.
  * A map refers to nodes by index into the graph it was made for.
@@ -34,7 +35,7 @@ void pm_map_destroy(pm_map *m);
  * describes the first problem in `diag` (no position). */
 int pm_map_check(const pm_map *m, const pm_graph *g, pm_diag *diag);
 
-/* Read a `.map` file for graph g (DESIGN §4); errors carry FILE:LINE:COL.
+/* Read a `.map` file for graph g (docs/format.md); errors carry FILE:LINE:COL.
  * The result is checked with pm_map_check. */
 int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag *diag);
 int pm_map_read_string(const char *text, size_t len, const char *name,

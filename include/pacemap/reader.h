@@ -1,5 +1,5 @@
 /*
- * reader.h - the scenario reader: `.pace` text (DESIGN §3) into a pm_graph.
+ * reader.h - the scenario reader: `.pace` text into a pm_graph.
  *
  * The reader checks the whole format: syntax, names, values and limits
  * (docs/format.md).  On failure it returns a negative PM_E* code, fills

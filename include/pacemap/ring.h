@@ -1,7 +1,7 @@
 /*
  * ring.h - a bounded single-producer single-consumer queue of fixed-size
  * slots, for handing tokens between two pinned threads of the real-core
- * runner (DESIGN §7).
+ * runner (docs/runner.md).
  *
  * Lock-free with C11 atomics: the producer owns `head`, the consumer owns
  * `tail`, each on its own cache line; a slot is published with a release

@@ -1,14 +1,14 @@
 /*
- * runner.h - execute a map with real threads on real cores (DESIGN §7) and
- * measure it against the model.
+ * runner.h - execute a map with real threads on real cores and measure it
+ * against the model (docs/runner.md).
  *
  * One thread per core of the map, optionally pinned to a processing unit
  * chosen by topo.h.  Each thread runs its nodes in map order, iteration
- * after iteration (self-timed, DESIGN §5).  A token is a block of float
- * samples; a node's input is the mean of its input tokens, where a source
- * (a node whose only in-edges are self-loops) counts the deterministic test
- * signal (stream = node index) as one more input; its work is the
- * kernel of kernels.h, and its output token goes to every out-edge.
+ * after iteration (self-timed, docs/simulation.md).  A token is a block
+ * of float samples; a node's input is the mean of its input tokens, where
+ * a source (a node whose only in-edges are self-loops) counts the
+ * deterministic test signal (stream = node index) as one more input; its
+ * work is the kernel of kernels.h, and its output token goes to every out-edge.
  * Cross-core edges are SPSC rings (ring.h), same-core edges plain FIFOs,
  * both pre-filled with the edge's delays as zero-sample tokens.  Each token
  * carries the producing iteration as a sequence number, checked on receipt.

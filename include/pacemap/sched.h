@@ -2,12 +2,13 @@
  * sched.h - static scheduling of one iteration of a graph onto its cores:
  * the list scheduler, the timing of a given map, and the loop-time floor.
  *
- * Model (one iteration, DESIGN §5).  Only zero-delay edges order nodes
- * within an iteration; they must form a DAG.  Edges with delays link
- * iterations: they do not constrain one iteration's timetable, but they
- * close feedback loops, which the loop-aware scheduler keeps on one core
- * where it can (see pm_sched_opts.loop_blind) and pm_sched_loop_floor()
- * measures.  Node v takes pm_graph_cycles_on(g, v, class of its core).
+ * Model (one iteration; the method is in docs/methods.md).  Only
+ * zero-delay edges order nodes within an iteration; they must form a DAG.
+ * Edges with delays link iterations: they do not constrain one iteration's
+ * timetable, but they close feedback loops, which the loop-aware scheduler
+ * keeps on one core where it can (see pm_sched_opts.loop_blind) and
+ * pm_sched_loop_floor() measures.  Node v takes
+ * pm_graph_cycles_on(g, v, class of its core).
  *
  * Transfer of a zero-delay edge u -> v when u and v sit on different cores
  * (cost = latency + per_word * words):

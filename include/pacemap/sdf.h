@@ -86,7 +86,7 @@ int pm_sdf_check_iteration(const pm_graph *g, const uint64_t *rep, pm_diag *diag
  * production the run is consumed.  Expanded edges keep the original edge's
  * line and column, appear grouped by original edge in edge order, and have
  * produce = consume = 1.  No order edges are added between firings of a
- * node: a node that keeps state carries a self-loop (DESIGN §3), and the
+ * node: a node that keeps state carries a self-loop (docs/format.md), and the
  * self-loop `v -> v delay=1` expands to the chain v#0 -> v#1 -> ... ->
  * v#(q-1) -> v#0 with one delay on the last link.
  * The platform is copied.  *out is finalized.  *origin (may be NULL: then

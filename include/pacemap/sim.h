@@ -1,6 +1,6 @@
 /*
  * sim.h - cycle-accurate discrete-event simulation of a map running
- * self-timed (DESIGN §5) over many overlapping iterations.
+ * self-timed (docs/simulation.md) over many overlapping iterations.
  *
  * Each core runs its map order again and again, non-preemptively; a firing
  * begins when its core is free and every input token has arrived (and, with

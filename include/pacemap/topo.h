@@ -1,6 +1,6 @@
 /*
  * topo.h - the host's processing units (hwloc) and which of them the
- * real-core runner's threads use (DESIGN §7).
+ * real-core runner's threads use (docs/runner.md).
  *
  * Choice rule: distinct physical cores first, then SMT siblings of cores
  * already used; among cores, those of the first L3 cache (else package)

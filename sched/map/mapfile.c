@@ -1,5 +1,5 @@
 /*
- * mapfile.c - `.map` files (DESIGN §4): read them for a graph, write them.
+ * mapfile.c - `.map` files (docs/format.md): read them for a graph, write them.
  *
  *   file  := { line }
  *   line  := [ "core" INT ":" { NAME } ] [ "#" comment ] NEWLINE

@@ -18,14 +18,12 @@
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
 #include "pacemap/sim.h"
+#include "../support/testkit.h" /* tk_rand */
 
 static uint64_t bench_rng = 88172645463325252u;
 static uint32_t bench_rnd(uint32_t n)
 {
-    bench_rng ^= bench_rng << 13;
-    bench_rng ^= bench_rng >> 7;
-    bench_rng ^= bench_rng << 17;
-    return (uint32_t)(bench_rng % n);
+    return tk_rand(&bench_rng, n);
 }
 
 static pm_graph *bench_graph(uint32_t n, uint32_t procs, int bus)

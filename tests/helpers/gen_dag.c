@@ -17,12 +17,7 @@
 #include <time.h>
 
 #include "pacemap/sched.h"
-
-static uint32_t gd_rand(uint64_t *s, uint32_t n)
-{
-    *s = *s * 6364136223846793005ULL + 1442695040888963407ULL;
-    return (uint32_t)((*s >> 33) % n);
-}
+#include "../support/testkit.h" /* tk_rand */
 
 /* Calls emit(v, cycles) per node and edge(a, b, words) per edge. */
 typedef struct gd_sink {
@@ -34,11 +29,11 @@ typedef struct gd_sink {
 static void gd_generate(uint32_t n, uint64_t seed, const gd_sink *k)
 {
     for (uint32_t v = 0; v < n; v++)
-        k->node(k->ctx, v, 1 + gd_rand(&seed, 100));
+        k->node(k->ctx, v, 1 + tk_rand(&seed, 100));
     for (uint32_t v = 1; v < n; v++) {
-        uint32_t w = v < 1000 ? v : 1000, m = 1 + gd_rand(&seed, 3);
+        uint32_t w = v < 1000 ? v : 1000, m = 1 + tk_rand(&seed, 3);
         for (uint32_t i = 0; i < m; i++)
-            k->edge(k->ctx, v - 1 - gd_rand(&seed, w), v, 1 + gd_rand(&seed, 4));
+            k->edge(k->ctx, v - 1 - tk_rand(&seed, w), v, 1 + tk_rand(&seed, 4));
     }
 }
 

@@ -38,9 +38,9 @@ static void gen_emit(gen_out *o, uint32_t u, uint32_t v, uint32_t tu, uint32_t d
 
 static void gen_random(gen_out *o, uint32_t n, uint32_t m, uint64_t seed, uint32_t *t)
 {
-    gen_rng r = gen_seed(seed);
+    uint64_t r = seed;
     for (uint32_t v = 0; v < n; v++)
-        t[v] = 1 + gen_below(&r, 100);
+        t[v] = 1 + tk_rand(&r, 100);
     for (uint32_t v = 0; v < n; v++)
         fprintf(o->pace, "node n%u cycles=%u\n", v, t[v]);
     for (uint32_t i = 0; i < m; i++) {
@@ -56,9 +56,9 @@ static void gen_random(gen_out *o, uint32_t n, uint32_t m, uint64_t seed, uint32
 
 static void gen_chain(gen_out *o, uint32_t n, uint64_t seed, uint32_t *t)
 {
-    gen_rng r = gen_seed(seed);
+    uint64_t r = seed;
     for (uint32_t v = 0; v < n; v++)
-        t[v] = v % 8 == 7 ? 6 + gen_below(&r, 6) : 18 + gen_below(&r, 12);
+        t[v] = v % 8 == 7 ? 6 + tk_rand(&r, 6) : 18 + tk_rand(&r, 12);
     for (uint32_t v = 0; v < n; v++)
         fprintf(o->pace, "node n%u cycles=%u\n", v, t[v]);
     for (uint32_t v = 0; v < n; v++) {

@@ -10,12 +10,6 @@
 
 #include "testkit.h"
 
-uint32_t tk_rand(uint64_t *state, uint32_t n)
-{
-    *state = *state * UINT64_C(6364136223846793005) + UINT64_C(1442695040888963407);
-    return (uint32_t)((*state >> 33) % n);
-}
-
 pm_map *tk_random_map(uint64_t *state, uint32_t n, uint32_t procs, uint32_t shuffle_one_in)
 {
     uint32_t lists[8][64], counts[8] = { 0 };

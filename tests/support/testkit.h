@@ -12,8 +12,17 @@
 
 #include "pacemap/map.h"
 
-/* Next number in [0, n) of the linear congruential sequence in *state. */
-uint32_t tk_rand(uint64_t *state, uint32_t n);
+/* The one random generator of the tests and the bench helpers: the next
+ * number in [0, n) (n > 0) of the 64-bit linear congruential sequence in
+ * *state (Knuth's MMIX constants; the high bits are used), so a seed gives
+ * the same numbers on every machine.  Any value is a valid seed.  Inline so
+ * that the helpers in tests/helpers/, which do not link this folder, draw
+ * from it too. */
+static inline uint32_t tk_rand(uint64_t *state, uint32_t n)
+{
+    *state = *state * UINT64_C(6364136223846793005) + UINT64_C(1442695040888963407);
+    return (uint32_t)((*state >> 33) % n);
+}
 
 /* Nodes 0..n-1 (n <= 64) on random cores of `procs` (<= 8); each core's
  * order is increasing node index, or (one case in `shuffle_one_in`) a
