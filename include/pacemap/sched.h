@@ -83,7 +83,7 @@ typedef struct pm_schedule {
 
 /* How the list scheduler runs.  Zero-initialise for the defaults. */
 typedef struct pm_sched_opts {
-    /* false (default): the loop rule (listsched.c explains why).  With
+    /* false (default): the loop rule (listsched_loops.c explains why).  With
      * T = the target period below: a strongly connected part with a loop
      * whose work is <= T stays on one core; else the loop that sets the
      * part's own bound stays on one core when its work is <= T; else the

@@ -1,6 +1,7 @@
 /*
  * sched_internal.h - pieces shared by the scheduler's files (listsched.c,
- * schedtime.c, levels.c, timeline.c, loopfloor.c); not part of the API.
+ * listsched_place.c, listsched_loops.c, schedtime.c, levels.c, timeline.c,
+ * loopfloor.c); not part of the API.
  *
  * A timeline is the busy/free picture of one core or of the bus: free from
  * `tail` onwards, plus at most PM_SCHED_GAPS remembered idle gaps before the
@@ -103,5 +104,54 @@ int sched_heap_init(sched_heap *h, uint32_t cap, sched_less_fn less, const void 
 void sched_heap_free(sched_heap *h);
 void sched_heap_push(sched_heap *h, uint32_t id);
 uint32_t sched_heap_pop(sched_heap *h);
+
+/* ---- the list scheduler (listsched*.c) ------------------------------------ */
+
+/* The list scheduler's working state: listsched.c makes it and ranks the
+ * nodes, listsched_loops.c marks the loop rule's groups and floor,
+ * listsched_place.c places every node (slot, seq). */
+typedef struct ls_ctx {
+    const pm_graph *g;
+    sched_adj a;         /* zero-delay edges, compact */
+    uint32_t P;
+    double *rank;
+    sched_lane *lanes;
+    sched_lane bus;
+    pm_slot *slot;
+    uint32_t *seq;       /* placement order of each node */
+    uint32_t *byseq;     /* node placed i-th */
+    uint32_t nplaced;
+    uint32_t *deps;
+    uint32_t *cluster;   /* loop part kept on one core, or PM_NONE */
+    uint32_t *cl_core;   /* core of each such part once chosen, or PM_NONE */
+    bool *cl_class_ok;   /* part x class: every member may run there */
+    int64_t *arr;        /* per in-edge of the node being placed: remote arrival */
+    uint32_t *mark;      /* per core: node id + 1 when a producer of it sits there */
+    uint32_t *nsent;     /* per node: sends committed so far */
+    /* period guard of the loop rule (cap 0: off) */
+    int64_t cap;         /* the rule's period floor T */
+    bool capping;        /* while choosing: only cores that stay within cap */
+    int64_t *load;       /* per core: committed cycles per iteration */
+    int64_t *pend;       /* per core: unplaced work of groups bound there */
+    int64_t *cl_left;    /* per group: work of its unplaced members */
+    uint64_t *via;       /* per node: cores (bit c % 64) of it and its ancestors */
+    int64_t *first;      /* per core: earliest start placed there */
+    bool overflow;
+} ls_ctx;
+
+static inline int64_t ls_max(int64_t a, int64_t b)
+{
+    return a > b ? a : b;
+}
+
+/* Mark the groups the loop rule keeps on one core and set its floor
+ * (listsched_loops.c); PM_ENOMEM. */
+int ls_loop_parts(ls_ctx *x, const pm_sched_opts *o);
+
+/* Place every node (listsched_place.c): earliest finish with insertion,
+ * or Graham's greedy mode (PM_EINVAL, with diag, for a bad priority
+ * list). */
+int ls_heft(ls_ctx *x);
+int ls_greedy(ls_ctx *x, const pm_sched_opts *o, pm_diag *diag);
 
 #endif

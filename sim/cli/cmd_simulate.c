@@ -5,7 +5,8 @@
  * the period against the floors, latency, utilisation, buffer depths, bus
  * load and the chain that sets the period; write a VCD waveform and an SVG
  * Gantt chart of the first iterations through pm_outfile.  The simulation
- * itself is sim/engine/sim.c; this file only loads, calls and prints.
+ * itself is in sim/engine/ (entry point sim.c); this file only loads,
+ * calls and prints.
  */
 #include "cli.h"
 

@@ -1,6 +1,9 @@
 /*
- * sim_internal.h - the simulator's working state, shared by the event
- * engine (sim.c) and the end-of-run analysis (sim_report.c).  Not public.
+ * sim_internal.h - the simulator's working state, shared by its files:
+ * the entry point and what both engines share (sim.c), preparation
+ * (sim_prep.c), the causal engine (sim_causal.c), the point-to-point engine
+ * (sim_p2p.c), token counts (sim_tokens.c) and the end-of-run analysis
+ * (sim_report.c).  Not public.
  *
  * Times are kept in sliding rings of W iterations (W a power of two):
  * x_ring[(k & mask) * n + v] is the begin time of firing (v,k).  W grows
@@ -306,6 +309,16 @@ sim_cursor_push(sim_cursor *t, const int64_t *col, size_t stride, uint64_t mask,
     t->max = held > t->max ? held : t->max;
 }
 
+/* Preparation (sim_prep.c).  sim_init builds the arrays and rings for g
+ * and m; sim_free releases them, also after a failed sim_init. */
+int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
+             pm_diag *diag);
+void sim_free(sim *s);
+
+/* Make room in the rings for iterations [completed - look-back, max_iter];
+ * PM_ELIMIT, with the reason in diag, past the memory limit. */
+int sim_ring_fit(sim *s, pm_diag *diag);
+
 /* malloc for large arrays, on huge pages where the system has them. */
 void *sim_alloc_big(size_t bytes);
 
@@ -344,6 +357,13 @@ int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr
 
 /* The point-to-point engine (sim_p2p.c); 1 when it cannot run this map. */
 int sim_loop_p2p(sim *s, pm_diag *diag);
+
+/* The causal engine (sim_causal.c), for a bus and for maps the
+ * point-to-point engine cannot run; the queue of bus requests it grants
+ * from (sim_init makes it on a bus, sim_free frees it). */
+int sim_loop_causal(sim *s, pm_diag *diag);
+int sim_bq_init(sim_bq *b, uint32_t cores);
+void sim_bq_free(sim_bq *b, uint32_t cores);
 
 /* End-of-run analysis (sim_report.c). */
 int sim_report_steady(sim *s, pm_sim_result *r);

@@ -8,7 +8,7 @@
  * with no delay form no cycle the run cannot deadlock, and the recursion
  * is evaluated iteration by iteration in one fixed topological order: no
  * readiness checks, no waiting.  With a zero-delay cycle the causal engine
- * (sim.c) runs instead and reports where it stalls.  Predecessors are
+ * (sim_causal.c) runs instead and reports where it stalls.  Predecessors are
  * listed core order first, then inputs in the graph's order, then FIFO
  * room, and a later one wins only when strictly later: the same tie rule
  * as the causal engine.
