@@ -33,7 +33,7 @@ typedef struct run_opts {
 
 typedef struct run_state {
     run_opts o;
-    cli_scenario scn;  /* the scenario; g is its (expanded) graph */
+    pm_plan scn;       /* the scenario; g is its (expanded) graph */
     pm_graph *g;
     pm_map *m;
     bool scheduled_map;     /* made by the list scheduler (else --map) */
@@ -124,7 +124,8 @@ static int run_make_map(run_state *s)
         s->scheduled_map = false;
         return cli_read_map(&s->scn, s->o.map, &s->m);
     }
-    rc = cli_schedule(&s->scn, NULL, !s->o.no_refine, NULL, &s->m, &d);
+    pm_plan_opts po = {.refine = !s->o.no_refine};
+    rc = pm_plan_map(&s->scn, &po, NULL, &s->m, &d);
     s->scheduled_map = true;
     if (rc != PM_OK) {
         if (!d.msg[0])
@@ -466,7 +467,7 @@ static void run_free(run_state *s)
     pm_topo_choice_free(&s->pus);
     pm_topo_close(s->topo);
     pm_map_destroy(s->m);
-    cli_scenario_free(&s->scn);
+    pm_plan_free(&s->scn);
 }
 
 static int run_steps(run_state *s)

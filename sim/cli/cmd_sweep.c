@@ -453,7 +453,7 @@ static int sw_range(const pm_graph *g, const char *file, sw_args *a)
 }
 
 /* --map: the scenario at -p N (or its own cores) and the map for it. */
-static int sw_load_map(const char *file, sw_args *a, cli_scenario *s, pm_map **m)
+static int sw_load_map(const char *file, sw_args *a, pm_plan *s, pm_map **m)
 {
     if (a->range_set && a->range[0] != a->range[1]) {
         cli_usage_error("sweep: --map fixes the core count: give -p N or no -p");
@@ -470,14 +470,15 @@ static int sw_load_map(const char *file, sw_args *a, cli_scenario *s, pm_map **m
 /* The map of one point: the scenario's own cores follow the point's (a
  * multirate scenario maps whole nodes), then the list schedule, refined
  * for the period unless --no-refine. */
-static int sw_point_map(const pm_graph *g, cli_scenario *s, bool refine, pm_map **out,
+static int sw_point_map(const pm_graph *g, pm_plan *s, bool refine, pm_map **out,
                         pm_diag *diag)
 {
     int rc = PM_OK;
     if (s->source != s->graph)
         rc = pm_graph_set_procs_override(s->source, g->platform.ncores, diag);
+    pm_plan_opts po = {.refine = refine};
     if (rc == PM_OK)
-        rc = cli_schedule(s, NULL, refine, NULL, out, diag);
+        rc = pm_plan_map(s, &po, NULL, out, diag);
     return rc;
 }
 
@@ -504,7 +505,7 @@ static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
     return CLI_EXIT_OK;
 }
 
-static int sw_run(cli_scenario *scn, const char *file, const sw_args *a, const pm_map *m)
+static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map *m)
 {
     pm_graph *g = scn->graph;
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
@@ -565,7 +566,7 @@ int pm_cmd_sweep(int argc, char **argv)
         cli_usage_error("sweep: -n must be at least 1");
         return CLI_EXIT_USAGE;
     }
-    cli_scenario scn;
+    pm_plan scn;
     pm_map *m = NULL;
     memset(&scn, 0, sizeof scn);
     if (a.map)
@@ -577,6 +578,6 @@ int pm_cmd_sweep(int argc, char **argv)
     if (ex == CLI_EXIT_OK)
         ex = sw_run(&scn, file, &a, m);
     pm_map_destroy(m);
-    cli_scenario_free(&scn);
+    pm_plan_free(&scn);
     return ex;
 }
