@@ -467,31 +467,6 @@ static int sw_load_map(const char *file, sw_args *a, pm_plan *s, pm_map **m)
     return ex;
 }
 
-/* The map of one point: the scenario's own cores follow the point's (a
- * multirate scenario maps whole nodes), then the list schedule, refined
- * for the period unless --no-refine. */
-static int sw_point_map(const pm_graph *g, pm_plan *s, bool refine, pm_map **out,
-                        pm_diag *diag)
-{
-    int rc = PM_OK;
-    if (s->source != s->graph)
-        rc = pm_graph_set_procs_override(s->source, g->platform.ncores, diag);
-    pm_plan_opts po = {.refine = refine};
-    if (rc == PM_OK)
-        rc = pm_plan_map(s, &po, NULL, out, diag);
-    return rc;
-}
-
-static int sw_multirate_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag)
-{
-    return sw_point_map(g, ctx, false, out, diag);
-}
-
-static int sw_refined_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag)
-{
-    return sw_point_map(g, ctx, true, out, diag);
-}
-
 static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
 {
     if (a->svg && cli_write_file(a->svg, sw_write_svg, r) != PM_OK)
@@ -510,17 +485,14 @@ static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map
     pm_graph *g = scn->graph;
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
-                       .iterations = iterations, .faster = a->faster, .map = m};
-    if (scn->multirate || !a->no_refine) {
-        o.mapper = a->no_refine ? sw_multirate_map : sw_refined_map;
-        o.mapper_ctx = scn;
-    }
+                       .iterations = iterations, .faster = a->faster,
+                       .refine = !a->no_refine, .map = m};
     if (!a->quiet && isatty(STDERR_FILENO))
         o.progress = sw_progress;
     pm_sweep s;
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_sweep_run(g, &o, &s, &d);
+    int rc = pm_sweep_run(scn, &o, &s, &d);
     if (rc != PM_OK) {
         if (!d.msg[0])
             pm_diag_set(&d, file, 0, 0, "sweep failed: %s", pm_strerror(rc));
