@@ -86,12 +86,13 @@ int cli_read_map(const pm_plan *p, const char *path, pm_map **out);
 typedef int (*cli_writer)(const void *ctx, FILE *out);
 int cli_write_file(const char *path, cli_writer write, const void *ctx);
 
-/* A loop as {"nodes": [...], "cycles": N, "delays": N} (DESIGN §6). */
+/* A loop as {"nodes": [...], "cycles": N, "delays": N} (docs/schema.json). */
 struct pm_json;
 struct pm_loop;
 void cli_json_loop(struct pm_json *j, const pm_graph *g, const struct pm_loop *l);
 
-/* Safety caution of DESIGN §9, one short paragraph for reports. */
+/* The safety caution of docs/guide.md ("A caution"), one short paragraph
+ * for reports. */
 extern const char cli_caution[];
 
 /* The commands. */

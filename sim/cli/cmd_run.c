@@ -1,9 +1,9 @@
 /*
  * cmd_run.c - `pacemap run FILE -p N [-n ITER] [--map F] [--cores LIST]
  * [--oversubscribe] [--ring N] [--json]`: execute a map on real cores and
- * compare the measured period with the model's prediction (DESIGN §7).
+ * compare the measured period with the model's prediction (docs/runner.md).
  *
- * Steps: load, map (--map, else the list scheduler's), choose PUs,
+ * Steps: load, map (--map, else pm_plan_map's), choose PUs,
  * calibrate, time each node alone,
  * measure the handoff, predict, run, rerun single-threaded to check the
  * outputs, report.  All computing is in runner.h/topo.h; this file parses,
@@ -114,7 +114,7 @@ static int run_config(run_state *s)
     return CLI_EXIT_OK;
 }
 
-/* The map to run: --map, else the list scheduler's (sched.h). */
+/* The map to run: --map, else the plan's (pm_plan_map, refined unless --no-refine). */
 static int run_make_map(run_state *s)
 {
     pm_diag d;
