@@ -21,6 +21,7 @@
 
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
+#include "pacemap/plan.h"
 #include "pacemap/reader.h"
 #include "pacemap/sweep.h"
 
@@ -37,12 +38,20 @@ static pm_graph *load(const char *text)
     return g;
 }
 
+/* A single-rate graph is its own plan: what pm_plan_init makes of it, but
+ * borrowed, so that the tests keep and destroy g themselves. */
+static int sweep(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_diag *d)
+{
+    pm_plan p = {.graph = g, .source = g};
+    return pm_sweep_run(g ? &p : NULL, o, s, d);
+}
+
 static void run(pm_graph *g, uint32_t from, uint32_t to, pm_sweep *s)
 {
     pm_sweep_opts o = {.procs_from = from, .procs_to = to, .iterations = 200};
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_sweep_run(g, &o, s, &d);
+    int rc = sweep(g, &o, s, &d);
     if (rc != PM_OK)
         fail_msg("sweep: %s (%s)", pm_strerror(rc), d.msg);
     assert_int_equal(s->npoints, to - from + 1);
@@ -341,7 +350,7 @@ static void test_hand_map(void **state)
                      PM_OK);
     pm_sweep s;
     pm_sweep_opts o = {.procs_from = 3, .procs_to = 3, .iterations = 200, .map = m};
-    assert_int_equal(pm_sweep_run(g, &o, &s, &d), PM_OK);
+    assert_int_equal(sweep(g, &o, &s, &d), PM_OK);
     expect_period(&s, 3, 50, 1);
     const pm_sweep_limit *l = &s.points[0].limit;
     assert_int_equal(l->kind, PM_LIMIT_MAPPING);
@@ -362,7 +371,7 @@ static void test_hand_map(void **state)
     pm_sweep_free(&s);
     /* a map fixes the core count */
     o.procs_from = 2;
-    assert_int_equal(pm_sweep_run(g, &o, &s, &d), PM_EINVAL);
+    assert_int_equal(sweep(g, &o, &s, &d), PM_EINVAL);
     pm_sweep_free(&s);
     pm_map_destroy(m);
     pm_graph_destroy(g);
@@ -467,7 +476,7 @@ static int sweep_rc(pm_graph *g, uint32_t from, uint32_t to, pm_diag *d)
     pm_sweep s;
     pm_sweep_opts o = {.procs_from = from, .procs_to = to, .iterations = 50};
     pm_diag_clear(d);
-    int rc = pm_sweep_run(g, &o, &s, d);
+    int rc = sweep(g, &o, &s, d);
     pm_sweep_free(&s);
     pm_sweep_free(&s); /* twice is safe */
     return rc;
@@ -495,7 +504,7 @@ static void test_refusals(void **state)
     /* its own core count is fine: a is 4 cycles at best */
     pm_sweep s;
     pm_sweep_opts o = {.procs_from = 2, .procs_to = 2};
-    assert_int_equal(pm_sweep_run(g, &o, &s, &d), PM_OK);
+    assert_int_equal(sweep(g, &o, &s, &d), PM_OK);
     assert_int_equal(s.points[0].period.num, 4);
     pm_sweep_free(&s);
     pm_graph_destroy(g);
@@ -504,8 +513,8 @@ static void test_refusals(void **state)
     assert_int_equal(pm_graph_finalize(g), PM_OK);
     assert_int_equal(sweep_rc(g, 1, 2, &d), PM_EINVAL);
     pm_graph_destroy(g);
-    assert_int_equal(pm_sweep_run(NULL, &o, &s, &d), PM_EINVAL);
-    assert_int_equal(pm_sweep_run(g = load(recursive), NULL, &s, &d), PM_EINVAL);
+    assert_int_equal(sweep(NULL, &o, &s, &d), PM_EINVAL);
+    assert_int_equal(sweep(g = load(recursive), NULL, &s, &d), PM_EINVAL);
     pm_graph_destroy(g);
 }
 

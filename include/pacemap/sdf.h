@@ -126,10 +126,10 @@ int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
 /*
  * The map of g's nodes that a map xm of the expanded graph implies: node v
  * goes to the core of its firing 0, and the nodes on a core are ordered by
- * where their firing 0 runs.  For scheduling a multirate graph: schedule
- * the expansion, collapse, then pm_sdf_expand_map the result so that every
- * firing of a node runs on one core.  pm_sdf_collapse_map of the result of
- * pm_sdf_expand_map(m) is m.
+ * where their firing 0 runs.  Meant for maps that keep a node's firings
+ * together: pm_sdf_collapse_map of the result of pm_sdf_expand_map(m) is
+ * m.  To map a multirate graph, pm_plan_map (pacemap/plan.h) places each
+ * node by the cycles its firings ran on each core instead.
  * Errors: PM_EMAP when xm does not list every firing exactly once (sum of
  * rep entries); PM_ENOMEM.  O(sum of q * log V).
  */

@@ -1,7 +1,8 @@
 /*
- * sweep.h - how far more cores help: for each core count P of a range,
- * list-schedule the graph (pm_sched_list), simulate the map self-timed
- * (pm_sim_run), compare the achieved period with the floors (pm_floors) and
+ * sweep.h - how far more cores help: for each core count P of a range, map
+ * the plan (pm_plan_map: the list schedule, every firing of a multirate
+ * node on one core, and the refinement when asked), simulate the map
+ * self-timed (pm_sim_run), compare the achieved period with the floors (pm_floors) and
  * name what limits it, with evidence and what-if numbers.
  *
  * The limit of one point, in the trade's words (docs/sweep.md states the
@@ -33,8 +34,9 @@
  *
  * Ownership: a pm_sweep owns every array in it; free with pm_sweep_free()
  * (safe on a zeroed or already freed result).  Node and edge ids index the
- * graph the sweep was run on.  Not thread-safe on the graph: the sweep
- * changes its core count while it runs (and restores it).
+ * plan's graph (for a multirate scenario its expansion).  Not thread-safe
+ * on the plan: the sweep changes its core count while it runs (and
+ * restores it).
  */
 #ifndef PACEMAP_SWEEP_H
 #define PACEMAP_SWEEP_H
@@ -46,6 +48,7 @@
 #include "pacemap/error.h"
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
+#include "pacemap/plan.h"
 #include "pacemap/rational.h"
 #include "pacemap/sched.h"
 
@@ -161,43 +164,41 @@ typedef struct pm_sweep {
 /* Called after each point (done of total), e.g. to show progress. */
 typedef void (*pm_sweep_progress)(void *ctx, uint32_t procs, uint32_t done, uint32_t total);
 
-/* Makes the map of one point when the list scheduler alone does not fit
- * (e.g. a multirate expansion whose firings must share their node's core):
- * g has its core count set for the point; PM_OK with *out set, or an error
- * with diag filled. */
-typedef int (*pm_sweep_mapper)(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag);
-
 typedef struct pm_sweep_opts {
     uint32_t procs_from, procs_to; /* 1 <= from <= to; to - from < PM_SWEEP_MAX_POINTS */
     uint64_t iterations;           /* simulated per point; 0 = simulator default */
     int64_t faster;                /* what-if cycles; 0 = PM_SWEEP_DEFAULT_FASTER */
     const pm_sched_opts *sched;    /* NULL = scheduler defaults */
-    const pm_map *map;             /* NULL = list-schedule each point; else this map
-                                      (a hand map) for the one point procs_from ==
-                                      procs_to == map->ncores (borrowed) */
-    pm_sweep_mapper mapper;        /* NULL = pm_sched_list with `sched` */
-    void *mapper_ctx;
+    bool refine;                   /* refine each point's map (pm_plan_opts.refine) */
+    const pm_map *map;             /* NULL = pm_plan_map at each point; else this map
+                                      of the plan's graph (a hand map) for the one
+                                      point procs_from == procs_to == map->ncores
+                                      (borrowed) */
     pm_sweep_progress progress;    /* may be NULL */
     void *progress_ctx;
 } pm_sweep_opts;
 
 /*
- * Sweep finalized single-rate graph g over opts->procs_from ..
- * opts->procs_to identical cores.  A platform with named core classes
- * sweeps only its own core count (from == to == its ncores, else
- * PM_EPLATFORM).  The graph's core count is set for each point with
- * pm_graph_set_procs_override and restored before returning.  With
- * opts->map, the one point uses that map instead of the list scheduler
- * (PM_EINVAL unless from == to == map->ncores; PM_EMAP if it does not fit).
- * Errors: PM_EINVAL (bad options, empty graph), PM_ELIMIT (too many
- * points), PM_EPLATFORM (a pin beyond some P, classes; diag says which),
- * and any error of pm_bound_compute, pm_sched_list and pm_sim_run
- * (PM_EZERODELAY, PM_EUNSUPPORTED for multirate, PM_EDEADLOCK, ...), diag
- * naming the core count.  *out is filled on PM_OK; free it in every case.
- * Complexity: per point one schedule and one simulation; the what-ifs add
- * up to 2 * PM_SWEEP_MAX_WHATIF bound computations or simulations.
+ * Sweep the plan (pm_plan_init: a single-rate scenario or the expansion of
+ * a multirate one) over opts->procs_from .. opts->procs_to identical cores.
+ * Each point's map is pm_plan_map's with opts->sched and opts->refine, so
+ * a multirate node keeps all its firings on one core.  A platform with
+ * named core classes sweeps only its own core count (from == to == its
+ * ncores, else PM_EPLATFORM).  The core count of both graphs of the plan
+ * is set for each point with pm_plan_set_procs and restored before
+ * returning.  With opts->map, the one point uses that map instead of
+ * pm_plan_map (PM_EINVAL unless from == to == map->ncores; PM_EMAP if it
+ * does not fit).
+ * Errors: PM_EINVAL (NULL plan, bad options, empty graph), PM_ELIMIT (too
+ * many points), PM_EPLATFORM (a pin beyond some P, classes; diag says
+ * which), and any error of pm_bound_compute, pm_plan_map and pm_sim_run
+ * (PM_EZERODELAY, PM_EDEADLOCK, ...), diag naming the core count.  *out is
+ * filled on PM_OK; free it in every case.  The plan stays the caller's.
+ * Complexity: per point one mapping (with refinement, many simulations)
+ * and one simulation; the what-ifs add up to 2 * PM_SWEEP_MAX_WHATIF bound
+ * computations or simulations.
  */
-int pm_sweep_run(pm_graph *g, const pm_sweep_opts *opts, pm_sweep *out, pm_diag *diag);
+int pm_sweep_run(pm_plan *plan, const pm_sweep_opts *opts, pm_sweep *out, pm_diag *diag);
 
 void pm_sweep_free(pm_sweep *s);
 

@@ -15,6 +15,8 @@
 
 #include "pacemap/error.h"
 #include "pacemap/graph.h"
+#include "pacemap/map.h"
+#include "pacemap/plan.h"
 
 enum cli_exit {
     CLI_EXIT_OK = 0,
@@ -62,50 +64,21 @@ void cli_warning(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 /* Exit status for a library error code (input errors 1, misuse 2). */
 int cli_exit_for(int err);
 
-/* A scenario as loaded for a command.  Analysis, scheduling and simulation
- * run on `graph`: the scenario itself, or for a multirate scenario its
- * single-rate expansion (firings named v#i).  Map files name the nodes of
- * `source`, the scenario as written. */
-typedef struct cli_scenario {
-    pm_graph *graph;   /* owned */
-    pm_graph *source;  /* owned; the same pointer as graph for single rate */
-    uint64_t *rep;     /* repetition vector of source; NULL for single rate */
-    uint32_t *origin;  /* expanded node -> source node; NULL for single rate */
-    bool multirate;
-} cli_scenario;
-
-/* Read and validate a scenario, applying `-p procs` when procs_set
- * (identical cores only), and expand it when it is multirate.  Prints the
- * error and returns its exit status on failure; CLI_EXIT_OK on success. */
-int cli_load_scenario(const char *file, bool procs_set, uint32_t procs, cli_scenario *out);
-void cli_scenario_free(cli_scenario *s);
+/* Read and validate a scenario and make its plan (pm_plan_init: a
+ * multirate scenario is expanded), applying `-p procs` when procs_set
+ * (identical cores only; pm_plan_set_procs).  Prints the error and returns
+ * its exit status on failure (*out zeroed); CLI_EXIT_OK on success, *out
+ * then the caller's to pm_plan_free. */
+int cli_load_scenario(const char *file, bool procs_set, uint32_t procs, pm_plan *out);
 
 /* Like cli_load_scenario for commands that need only the graph to analyse:
  * *out is that graph (the expansion of a multirate scenario), owned by the
  * caller. */
 int cli_load(const char *file, bool procs_set, uint32_t procs, pm_graph **out);
 
-/* Read a map file naming the scenario's nodes and turn it into a map of
- * s->graph (all firings of a node on its core).  Prints the error and
- * returns its exit status on failure. */
-struct pm_map;
-int cli_read_map(const cli_scenario *s, const char *path, struct pm_map **out);
-/* The same without printing: library error code, diag filled. */
-int cli_map_read(const cli_scenario *s, const char *path, struct pm_map **out, pm_diag *diag);
-
-/* List-schedule s->graph (pm_sched_list with `opts`, may be NULL); for a
- * multirate scenario the map is then made to keep all firings of a node on
- * one core, in firing order.  With `refine`, a local search then moves
- * nodes between cores while that lowers the simulated period
- * (pm_refine_map).  The map is timed again.  Library error code; diag
- * filled. */
-struct pm_sched_opts;
-struct pm_schedule;
-int cli_schedule(const cli_scenario *s, const struct pm_sched_opts *opts, bool refine,
-                 struct pm_schedule **sched, struct pm_map **map, pm_diag *diag);
-
-/* Write map m of s->graph as a `.map` file naming the scenario's nodes. */
-int cli_write_map(const cli_scenario *s, const struct pm_map *m, FILE *out);
+/* pm_plan_map_read (a map file naming the scenario's nodes, as a map of
+ * p->graph), printing the error and returning its exit status on failure. */
+int cli_read_map(const pm_plan *p, const char *path, pm_map **out);
 
 /* Write an output file whole or not at all (pm_outfile): `write` fills the
  * stream from ctx.  On failure prints the error (nothing is left behind)
@@ -113,12 +86,13 @@ int cli_write_map(const cli_scenario *s, const struct pm_map *m, FILE *out);
 typedef int (*cli_writer)(const void *ctx, FILE *out);
 int cli_write_file(const char *path, cli_writer write, const void *ctx);
 
-/* A loop as {"nodes": [...], "cycles": N, "delays": N} (DESIGN §6). */
+/* A loop as {"nodes": [...], "cycles": N, "delays": N} (docs/schema.json). */
 struct pm_json;
 struct pm_loop;
 void cli_json_loop(struct pm_json *j, const pm_graph *g, const struct pm_loop *l);
 
-/* Safety caution of DESIGN §9, one short paragraph for reports. */
+/* The safety caution of docs/guide.md ("A caution"), one short paragraph
+ * for reports. */
 extern const char cli_caution[];
 
 /* The commands. */

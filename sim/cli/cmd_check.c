@@ -355,7 +355,7 @@ int pm_cmd_check(int argc, char **argv)
     int st = cli_parse(&cmd, argc, argv, &file);
     if (st >= 0)
         return st;
-    cli_scenario scn;
+    pm_plan scn;
     st = cli_load_scenario(file, procs_set, procs, &scn);
     if (st != CLI_EXIT_OK)
         return st;
@@ -367,6 +367,6 @@ int pm_cmd_check(int argc, char **argv)
     else if (st == CLI_EXIT_OK)
         check_print_text(file, g, &sum);
     free(sum.rep);
-    cli_scenario_free(&scn);
+    pm_plan_free(&scn);
     return st;
 }

@@ -333,7 +333,7 @@ static uint32_t dot_source_edge(const pm_graph *g, uint32_t u, uint32_t v)
 /* A multirate scenario's bound is computed on its expansion; draw its
  * loops on the scenario's own nodes and edges (firings of one node fold
  * onto that node). */
-static void dot_fold_loop(const cli_scenario *s, pm_loop *l)
+static void dot_fold_loop(const pm_plan *s, pm_loop *l)
 {
     for (uint32_t i = 0; i < l->len; i++) {
         uint32_t u = s->origin[l->nodes[i]];
@@ -344,7 +344,7 @@ static void dot_fold_loop(const cli_scenario *s, pm_loop *l)
         l->nodes[i] = s->origin[l->nodes[i]];
 }
 
-static void dot_fold_bound(const cli_scenario *s, pm_bound *b)
+static void dot_fold_bound(const pm_plan *s, pm_bound *b)
 {
     for (uint32_t i = 0; i < b->ncritical; i++)
         dot_fold_loop(s, &b->critical[i]);
@@ -352,7 +352,7 @@ static void dot_fold_bound(const cli_scenario *s, pm_bound *b)
         dot_fold_loop(s, &b->parts[i].worst);
 }
 
-static int dot_draw(const char *file, const cli_scenario *s, bool json)
+static int dot_draw(const char *file, const pm_plan *s, bool json)
 {
     pm_bound b;
     pm_diag d;
@@ -401,11 +401,11 @@ int pm_cmd_dot(int argc, char **argv)
     int st = cli_parse(&cmd, argc, argv, &file);
     if (st >= 0)
         return st;
-    cli_scenario scn;
+    pm_plan scn;
     st = cli_load_scenario(file, false, 0, &scn);
     if (st != CLI_EXIT_OK)
         return st;
     st = dot_draw(file, &scn, json);
-    cli_scenario_free(&scn);
+    pm_plan_free(&scn);
     return st;
 }

@@ -1,9 +1,9 @@
 /*
  * cmd_run.c - `pacemap run FILE -p N [-n ITER] [--map F] [--cores LIST]
  * [--oversubscribe] [--ring N] [--json]`: execute a map on real cores and
- * compare the measured period with the model's prediction (DESIGN §7).
+ * compare the measured period with the model's prediction (docs/runner.md).
  *
- * Steps: load, map (--map, else the list scheduler's), choose PUs,
+ * Steps: load, map (--map, else pm_plan_map's), choose PUs,
  * calibrate, time each node alone,
  * measure the handoff, predict, run, rerun single-threaded to check the
  * outputs, report.  All computing is in runner.h/topo.h; this file parses,
@@ -33,7 +33,7 @@ typedef struct run_opts {
 
 typedef struct run_state {
     run_opts o;
-    cli_scenario scn;  /* the scenario; g is its (expanded) graph */
+    pm_plan scn;       /* the scenario; g is its (expanded) graph */
     pm_graph *g;
     pm_map *m;
     bool scheduled_map;     /* made by the list scheduler (else --map) */
@@ -114,7 +114,7 @@ static int run_config(run_state *s)
     return CLI_EXIT_OK;
 }
 
-/* The map to run: --map, else the list scheduler's (sched.h). */
+/* The map to run: --map, else the plan's (pm_plan_map, refined unless --no-refine). */
 static int run_make_map(run_state *s)
 {
     pm_diag d;
@@ -124,7 +124,8 @@ static int run_make_map(run_state *s)
         s->scheduled_map = false;
         return cli_read_map(&s->scn, s->o.map, &s->m);
     }
-    rc = cli_schedule(&s->scn, NULL, !s->o.no_refine, NULL, &s->m, &d);
+    pm_plan_opts po = {.refine = !s->o.no_refine};
+    rc = pm_plan_map(&s->scn, &po, NULL, &s->m, &d);
     s->scheduled_map = true;
     if (rc != PM_OK) {
         if (!d.msg[0])
@@ -466,7 +467,7 @@ static void run_free(run_state *s)
     pm_topo_choice_free(&s->pus);
     pm_topo_close(s->topo);
     pm_map_destroy(s->m);
-    cli_scenario_free(&s->scn);
+    pm_plan_free(&s->scn);
 }
 
 static int run_steps(run_state *s)

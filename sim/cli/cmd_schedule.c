@@ -30,7 +30,7 @@ typedef struct sc_result {
     pm_rat floor;
     uint32_t *loop, nloop;
     const char *file;
-    const cli_scenario *scn;
+    const pm_plan *scn;
 } sc_result;
 
 #define SC_NAME_W 24
@@ -87,7 +87,7 @@ static int sc_chart_make(const sc_result *r, sc_chart *c)
 static int sc_write_map(const void *ctx, FILE *f)
 {
     const sc_result *r = ctx;
-    return cli_write_map(r->scn, r->m, f);
+    return pm_plan_map_write(r->scn, r->m, f);
 }
 
 static int sc_write_svg(const void *ctx, FILE *f)
@@ -300,14 +300,15 @@ static int sc_compute(const sc_args *a, sc_result *r)
 {
     pm_diag d;
     pm_diag_clear(&d);
-    pm_sched_opts o = {.loop_blind = a->loop_blind};
+    pm_sched_opts so = {.loop_blind = a->loop_blind};
+    pm_plan_opts o = {.sched = &so, .refine = a->refine};
     int rc;
     if (a->map) {
         if (cli_read_map(r->scn, a->map, &r->m) != CLI_EXIT_OK)
             return PM_EMAP; /* already reported */
         rc = pm_sched_from_map(r->g, r->m, &r->s, &d);
     } else {
-        rc = cli_schedule(r->scn, &o, a->refine, &r->s, &r->m, &d);
+        rc = pm_plan_map(r->scn, &o, &r->s, &r->m, &d);
     }
     if (rc == PM_OK) {
         rc = pm_sched_loop_floor(r->g, r->m, &r->floor, &r->loop, &r->nloop, &d);
@@ -367,7 +368,7 @@ int pm_cmd_schedule(int argc, char **argv)
     if (st >= 0)
         return st;
     sc_result r = {.file = file};
-    cli_scenario scn;
+    pm_plan scn;
     st = cli_load_scenario(file, a.procs_set, a.procs, &scn);
     if (st != CLI_EXIT_OK)
         return st;
@@ -379,6 +380,6 @@ int pm_cmd_schedule(int argc, char **argv)
     pm_schedule_destroy(r.s);
     pm_map_destroy(r.m);
     free(r.loop);
-    cli_scenario_free(&scn);
+    pm_plan_free(&scn);
     return st;
 }

@@ -35,7 +35,7 @@ typedef struct sm_args {
 
 typedef struct sm_run {
     const char *file;
-    cli_scenario scn; /* the scenario; g is its (expanded) graph */
+    pm_plan scn;      /* the scenario; g is its (expanded) graph */
     pm_graph *g;
     pm_map *m;
     pm_sim_result r;
@@ -422,8 +422,9 @@ static void sm_json(const sm_run *s)
 static int sm_map(const sm_args *a, sm_run *s, pm_diag *d)
 {
     if (a->map)
-        return cli_map_read(&s->scn, a->map, &s->m, d);
-    return cli_schedule(&s->scn, NULL, !a->no_refine, NULL, &s->m, d);
+        return pm_plan_map_read(&s->scn, a->map, &s->m, d);
+    pm_plan_opts po = {.refine = !a->no_refine};
+    return pm_plan_map(&s->scn, &po, NULL, &s->m, d);
 }
 
 static int sm_compute(const sm_args *a, sm_run *s)
@@ -509,6 +510,6 @@ int pm_cmd_simulate(int argc, char **argv)
     if (s.has_bound)
         pm_bound_free(&s.b);
     pm_map_destroy(s.m);
-    cli_scenario_free(&s.scn);
+    pm_plan_free(&s.scn);
     return st;
 }

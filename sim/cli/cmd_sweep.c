@@ -453,7 +453,7 @@ static int sw_range(const pm_graph *g, const char *file, sw_args *a)
 }
 
 /* --map: the scenario at -p N (or its own cores) and the map for it. */
-static int sw_load_map(const char *file, sw_args *a, cli_scenario *s, pm_map **m)
+static int sw_load_map(const char *file, sw_args *a, pm_plan *s, pm_map **m)
 {
     if (a->range_set && a->range[0] != a->range[1]) {
         cli_usage_error("sweep: --map fixes the core count: give -p N or no -p");
@@ -465,30 +465,6 @@ static int sw_load_map(const char *file, sw_args *a, cli_scenario *s, pm_map **m
     if (ex == CLI_EXIT_OK)
         a->range[0] = a->range[1] = s->graph->platform.ncores;
     return ex;
-}
-
-/* The map of one point: the scenario's own cores follow the point's (a
- * multirate scenario maps whole nodes), then the list schedule, refined
- * for the period unless --no-refine. */
-static int sw_point_map(const pm_graph *g, cli_scenario *s, bool refine, pm_map **out,
-                        pm_diag *diag)
-{
-    int rc = PM_OK;
-    if (s->source != s->graph)
-        rc = pm_graph_set_procs_override(s->source, g->platform.ncores, diag);
-    if (rc == PM_OK)
-        rc = cli_schedule(s, NULL, refine, NULL, out, diag);
-    return rc;
-}
-
-static int sw_multirate_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag)
-{
-    return sw_point_map(g, ctx, false, out, diag);
-}
-
-static int sw_refined_map(const pm_graph *g, void *ctx, pm_map **out, pm_diag *diag)
-{
-    return sw_point_map(g, ctx, true, out, diag);
 }
 
 static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
@@ -504,22 +480,19 @@ static int sw_outputs(const sw_report *r, const sw_args *a, uint64_t iterations)
     return CLI_EXIT_OK;
 }
 
-static int sw_run(cli_scenario *scn, const char *file, const sw_args *a, const pm_map *m)
+static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map *m)
 {
     pm_graph *g = scn->graph;
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
-                       .iterations = iterations, .faster = a->faster, .map = m};
-    if (scn->multirate || !a->no_refine) {
-        o.mapper = a->no_refine ? sw_multirate_map : sw_refined_map;
-        o.mapper_ctx = scn;
-    }
+                       .iterations = iterations, .faster = a->faster,
+                       .refine = !a->no_refine, .map = m};
     if (!a->quiet && isatty(STDERR_FILENO))
         o.progress = sw_progress;
     pm_sweep s;
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_sweep_run(g, &o, &s, &d);
+    int rc = pm_sweep_run(scn, &o, &s, &d);
     if (rc != PM_OK) {
         if (!d.msg[0])
             pm_diag_set(&d, file, 0, 0, "sweep failed: %s", pm_strerror(rc));
@@ -565,7 +538,7 @@ int pm_cmd_sweep(int argc, char **argv)
         cli_usage_error("sweep: -n must be at least 1");
         return CLI_EXIT_USAGE;
     }
-    cli_scenario scn;
+    pm_plan scn;
     pm_map *m = NULL;
     memset(&scn, 0, sizeof scn);
     if (a.map)
@@ -577,6 +550,6 @@ int pm_cmd_sweep(int argc, char **argv)
     if (ex == CLI_EXIT_OK)
         ex = sw_run(&scn, file, &a, m);
     pm_map_destroy(m);
-    cli_scenario_free(&scn);
+    pm_plan_free(&scn);
     return ex;
 }

@@ -20,7 +20,7 @@ typedef struct sw_report {
 /* "30", "45/2" style exact text of a rational into buf. */
 const char *sw_rat_text(char *buf, size_t n, pm_rat r);
 
-/* --json on stdout (DESIGN §6 `sweep` plus extras). */
+/* --json on stdout (docs/schema.json `sweep`, docs/sweep.md). */
 void sw_write_json(const sw_report *r, FILE *out);
 /* --csv: a header row, then one row per core count.  PM_EIO on failure. */
 int sw_write_csv(const void *ctx, FILE *out);

@@ -1,6 +1,6 @@
 /*
  * cmd_sweep_out.c - the sweep command's machine and file outputs: JSON
- * (DESIGN §6 `sweep`: points with procs, period, lower_bound, limit {kind,
+ * (docs/schema.json `sweep`: points with procs, period, lower_bound, limit {kind,
  * nodes}, plus extras), CSV (one row per core count) and the SVG plot
  * (pm_plot: period and floors, throughput, against the core count).
  */

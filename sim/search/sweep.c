@@ -1,10 +1,13 @@
 /*
- * sweep.c - the speedup sweep: for each core count of a range, schedule,
- * simulate, take the floors and classify the limit; then the saturation
- * point and, through sweep_whatif.c, what would move it.
+ * sweep.c - the speedup sweep: for each core count of a range, map the
+ * plan (pm_plan_map: the list schedule, one core per multirate node, the
+ * refinement when asked) or take the caller's map, simulate, take the
+ * floors and classify the limit; then the saturation point and, through
+ * sweep_whatif.c, what would move it.  Multirate scenarios are swept on
+ * their expansion, the plan's graph.
  *
- * What it does not do: print (the sweep command does), choose maps other
- * than the list scheduler's, or handle multirate graphs (expand first).
+ * What it does not do: print (the sweep command does) or choose a core
+ * count's map itself (the plan module does).
  */
 #include "sweep_internal.h"
 
@@ -44,32 +47,33 @@ void pm_sweep_free(pm_sweep *s)
     memset(s, 0, sizeof *s);
 }
 
-static int sweep_set_procs(pm_graph *g, uint32_t procs, pm_diag *diag)
+/* Both graphs of the plan share one core count; a platform with core
+ * classes is left alone at its own (sweep_check allows only that). */
+static int sweep_set_procs(pm_plan *p, uint32_t procs, pm_diag *diag)
 {
-    if (g->platform.ncores == procs)
+    if (p->graph->platform.ncores == procs)
         return PM_OK;
-    return pm_graph_set_procs_override(g, procs, diag);
+    return pm_plan_set_procs(p, procs, diag);
 }
 
-int sweep_sched_sim(pm_graph *g, const pm_sweep_opts *o, uint32_t procs,
+int sweep_sched_sim(pm_plan *p, const pm_sweep_opts *o, uint32_t procs,
                     const int64_t *node_cycles, pm_map **own, const pm_map **use,
                     pm_sim_result *r, pm_diag *diag)
 {
     *own = NULL;
     *use = o->map;
-    int rc = sweep_set_procs(g, procs, diag);
+    pm_plan_opts po = {.sched = o->sched, .refine = o->refine};
+    int rc = sweep_set_procs(p, procs, diag);
     if (rc == PM_OK && o->map)
-        rc = pm_map_check(o->map, g, diag);
-    else if (rc == PM_OK && o->mapper)
-        rc = o->mapper(g, o->mapper_ctx, own, diag);
+        rc = pm_map_check(o->map, p->graph, diag);
     else if (rc == PM_OK)
-        rc = pm_sched_list(g, o->sched, NULL, own, diag);
+        rc = pm_plan_map(p, &po, NULL, own, diag);
     if (rc != PM_OK)
         return rc;
     if (!o->map)
         *use = *own;
     pm_sim_opts so = {.iterations = o->iterations, .node_cycles = node_cycles};
-    return pm_sim_run(g, *use, &so, r, diag);
+    return pm_sim_run(p->graph, *use, &so, r, diag);
 }
 
 static uint32_t sweep_cross_edges(const pm_graph *g, const pm_map *m)
@@ -92,16 +96,17 @@ static void sweep_diag_procs(pm_diag *diag, uint32_t procs)
     memcpy(diag->msg, msg, sizeof msg);
 }
 
-static int sweep_point(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, uint32_t i,
+static int sweep_point(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, uint32_t i,
                        pm_diag *diag)
 {
+    const pm_graph *g = p->graph;
     pm_sweep_point *pt = &s->points[i];
     pt->procs = o->procs_from + i;
     pm_map *own = NULL;
     const pm_map *m = NULL;
     pm_sim_result r;
     memset(&r, 0, sizeof r);
-    int rc = sweep_sched_sim(g, o, pt->procs, NULL, &own, &m, &r, diag);
+    int rc = sweep_sched_sim(p, o, pt->procs, NULL, &own, &m, &r, diag);
     if (rc == PM_OK)
         rc = pm_floors_compute(g, &s->bound, pt->procs, &pt->floors);
     if (rc == PM_OK) {
@@ -178,14 +183,14 @@ static int sweep_check(const pm_graph *g, const pm_sweep_opts *o, pm_diag *diag)
     return PM_OK;
 }
 
-static int sweep_points(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag)
+static int sweep_points(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag)
 {
     s->npoints = o->procs_to - o->procs_from + 1;
     s->points = calloc(s->npoints, sizeof *s->points);
     if (!s->points)
         return PM_ENOMEM;
     for (uint32_t i = 0; i < s->npoints; i++) {
-        int rc = sweep_point(g, o, s, i, diag);
+        int rc = sweep_point(p, o, s, i, diag);
         if (rc != PM_OK)
             return rc;
         if (o->progress)
@@ -194,23 +199,24 @@ static int sweep_points(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_dia
     return PM_OK;
 }
 
-int pm_sweep_run(pm_graph *g, const pm_sweep_opts *opts, pm_sweep *out, pm_diag *diag)
+int pm_sweep_run(pm_plan *plan, const pm_sweep_opts *opts, pm_sweep *out, pm_diag *diag)
 {
     if (!out)
         return PM_EINVAL;
     memset(out, 0, sizeof *out);
+    pm_graph *g = plan ? plan->graph : NULL;
     int rc = sweep_check(g, opts, diag);
     if (rc != PM_OK)
         return rc;
     uint32_t orig = g->platform.ncores;
     rc = pm_bound_compute(g, NULL, &out->bound, diag);
     if (rc == PM_OK)
-        rc = sweep_points(g, opts, out, diag);
+        rc = sweep_points(plan, opts, out, diag);
     if (rc == PM_OK) {
         sweep_speedups(out);
         sweep_saturation(out);
-        rc = sweep_whatif_run(g, opts, out, diag);
+        rc = sweep_whatif_run(plan, opts, out, diag);
     }
-    int rc2 = sweep_set_procs(g, orig, NULL);
+    int rc2 = sweep_set_procs(plan, orig, NULL);
     return rc != PM_OK ? rc : rc2;
 }

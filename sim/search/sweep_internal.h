@@ -10,10 +10,11 @@
 #include "pacemap/sim.h"
 #include "pacemap/sweep.h"
 
-/* Set g to `procs` cores (unless it already has them), list-schedule it
- * (or take o->map) and simulate the map.  *use is the map simulated; *own
- * is the caller's to destroy (NULL with o->map), like *r, also on error. */
-int sweep_sched_sim(pm_graph *g, const pm_sweep_opts *o, uint32_t procs,
+/* Set the plan to `procs` cores (unless it already has them), map it with
+ * pm_plan_map (or take o->map) and simulate the map on p->graph.  *use is
+ * the map simulated; *own is the caller's to destroy (NULL with o->map),
+ * like *r, also on error. */
+int sweep_sched_sim(pm_plan *p, const pm_sweep_opts *o, uint32_t procs,
                     const int64_t *node_cycles, pm_map **own, const pm_map **use,
                     pm_sim_result *r, pm_diag *diag);
 
@@ -24,7 +25,7 @@ int sweep_limit_classify(const pm_graph *g, const pm_map *m, const pm_bound *b,
 void sweep_limit_free(pm_sweep_limit *l);
 
 /* The what-ifs and next bottleneck for point s->saturation. */
-int sweep_whatif_run(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag);
+int sweep_whatif_run(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag);
 
 void sweep_whatif_free(pm_sweep_whatif *w);
 

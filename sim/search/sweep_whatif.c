@@ -143,15 +143,16 @@ static int whatif_resim(pm_graph *g, pm_graph *c, const pm_sweep_opts *o, const 
     return rc;
 }
 
-static int whatif_map_rows(pm_graph *g, pm_graph *c, const pm_sweep_opts *o,
+static int whatif_map_rows(pm_plan *p, pm_graph *c, const pm_sweep_opts *o,
                            const pm_sweep_point *pt, pm_sweep_whatif *w, pm_diag *diag)
 {
+    pm_graph *g = p->graph;
     const pm_sweep_limit *l = &pt->limit;
     pm_map *own = NULL;
     const pm_map *m = NULL;
     pm_sim_result r;
     memset(&r, 0, sizeof r);
-    int rc = sweep_sched_sim(g, o, pt->procs, NULL, &own, &m, &r, diag);
+    int rc = sweep_sched_sim(p, o, pt->procs, NULL, &own, &m, &r, diag);
     pm_sim_result_free(&r);
     int64_t *t = rc == PM_OK ? whatif_times(g, m) : NULL;
     uint32_t n = l->nnodes < PM_SWEEP_MAX_WHATIF ? l->nnodes : PM_SWEEP_MAX_WHATIF;
@@ -322,7 +323,7 @@ static int whatif_next(const pm_graph *c, const pm_bound *b, const pm_sweep_poin
     return whatif_pick(w, cand, n);
 }
 
-int sweep_whatif_run(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag)
+int sweep_whatif_run(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag)
 {
     pm_sweep_whatif *w = &s->whatif;
     uint32_t at = s->saturation;
@@ -332,7 +333,7 @@ int sweep_whatif_run(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_diag *
         at++;
     const pm_sweep_point *pt = &s->points[at];
     pm_graph *c = NULL;
-    int rc = whatif_copy(g, &c);
+    int rc = whatif_copy(p->graph, &c);
     if (rc != PM_OK)
         return rc;
     w->present = true;
@@ -342,7 +343,7 @@ int sweep_whatif_run(pm_graph *g, const pm_sweep_opts *o, pm_sweep *s, pm_diag *
     if (w->kind == PM_LIMIT_LOOP || w->kind == PM_LIMIT_NODE)
         rc = whatif_floor_rows(c, pt, w, diag);
     else if (w->kind == PM_LIMIT_MAPPING && pt->limit.delays > 0)
-        rc = whatif_map_rows(g, c, o, pt, w, diag);
+        rc = whatif_map_rows(p, c, o, pt, w, diag);
     if (rc == PM_OK && w->kind == PM_LIMIT_LOOP)
         rc = whatif_delay(c, pt, w, diag);
     if (rc == PM_OK)
