@@ -28,7 +28,7 @@ static inline uint32_t tl_node(pm_graph *g, const char *name, int64_t cycles)
 
 static inline void tl_edge(pm_graph *g, uint32_t a, uint32_t b, int64_t delay, int64_t words)
 {
-    pm_edge e = pm_edge_default(a, b);
+    pm_edge e = pm_graph_edge_default(a, b);
     e.delay = delay;
     e.words = words;
     pm_graph_add_edge(g, &e, NULL);

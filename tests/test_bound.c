@@ -34,7 +34,7 @@ static pm_graph *mk(const char *nodes, const char *edges)
     uint32_t line = 10;
     for (const char *p = edges; p && sscanf(p, " %63[^>]>%63[^:]:%lld%n", a, b, &d, &n) == 3;
          p += n) {
-        pm_edge e = pm_edge_default(pm_graph_find(g, a, strlen(a)),
+        pm_edge e = pm_graph_edge_default(pm_graph_find(g, a, strlen(a)),
                                     pm_graph_find(g, b, strlen(b)));
         assert_true(e.src != PM_NONE && e.dst != PM_NONE);
         e.delay = d;
@@ -97,7 +97,7 @@ static void test_zero_delay_long_loop_is_shortened(void **state)
         assert_int_equal(pm_graph_add_node(g, name, (size_t)len, 1, NULL), PM_OK);
     }
     for (uint32_t i = 0; i < 200; i++) {
-        pm_edge e = pm_edge_default(i, (i + 1) % 200);
+        pm_edge e = pm_graph_edge_default(i, (i + 1) % 200);
         assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
     }
     pm_graph_finalize(g);
@@ -125,7 +125,7 @@ static void test_feed_forward_graph_has_no_loop(void **state)
     assert_int_equal(b.largest_node, 1);
     assert_int_equal(b.largest_cycles, 5);
     pm_floors f;
-    assert_int_equal(pm_floors_compute(g, &b, 4, &f), PM_OK);
+    assert_int_equal(pm_bound_floors(g, &b, 4, &f), PM_OK);
     /* cores 10/4 = 5/2 < node 5: the node binds */
     assert_true(rat_is(f.cores, 5, 2));
     assert_true(rat_is(f.lower_bound, 5, 1));
@@ -223,7 +223,7 @@ static void test_multirate_and_class_times(void **state)
     uint32_t a, c;
     pm_graph_add_node(g, "a", 1, 4, &a);
     pm_graph_add_node(g, "c", 1, 4, &c);
-    pm_edge e = pm_edge_default(a, c);
+    pm_edge e = pm_graph_edge_default(a, c);
     e.produce = 2;
     e.line = 7;
     pm_graph_add_edge(g, &e, NULL);
@@ -244,9 +244,9 @@ static void test_multirate_and_class_times(void **state)
     pm_graph_set_class_cycles(g, a, row);
     pm_graph_add_node(g, "y", 1, 0, &c);
     pm_graph_set_class_cycles(g, c, row2);
-    e = pm_edge_default(a, c);
+    e = pm_graph_edge_default(a, c);
     pm_graph_add_edge(g, &e, NULL);
-    e = pm_edge_default(c, a);
+    e = pm_graph_edge_default(c, a);
     e.delay = 2;
     pm_graph_add_edge(g, &e, NULL);
     pm_graph_finalize(g);
@@ -267,7 +267,7 @@ static void test_floors_binding_and_budget(void **state)
     pm_bound b;
     assert_int_equal(pm_bound_compute(g, NULL, &b, NULL), PM_OK);
     pm_floors f;
-    assert_int_equal(pm_floors_compute(g, &b, 1, &f), PM_OK);
+    assert_int_equal(pm_bound_floors(g, &b, 1, &f), PM_OK);
     assert_true(rat_is(f.lower_bound, 110, 1)); /* cores: 110 / 1 */
     assert_int_equal(f.binding, PM_FLOOR_CORES);
     assert_true(f.has_budget);
@@ -275,19 +275,19 @@ static void test_floors_binding_and_budget(void **state)
     assert_true(rat_is(f.margin, 12390, 1));
     assert_true(fabs(f.margin_us - 12390.0 / 600.0) < 1e-9); /* 20.65 us */
     assert_true(f.loop_fits && f.lower_fits);
-    assert_int_equal(pm_floors_compute(g, &b, 2, &f), PM_OK);
+    assert_int_equal(pm_bound_floors(g, &b, 2, &f), PM_OK);
     assert_int_equal(f.binding, PM_FLOOR_NODE); /* 55 < 60 */
-    assert_int_equal(pm_floors_compute(g, &b, 8, &f), PM_OK);
+    assert_int_equal(pm_bound_floors(g, &b, 8, &f), PM_OK);
     assert_int_equal(f.binding, PM_FLOOR_NODE); /* 60 > 25 > 13.75 */
-    assert_string_equal(pm_floor_name(f.binding), "node");
+    assert_string_equal(pm_bound_floor_name(f.binding), "node");
     pm_bound_free(&b);
     pm_graph_destroy(g);
     /* loop 60 ties with the node 60 and with cores 120/2: the loop binds */
     g = mk("a:60 b:0 c:60", "a>b:0 b>a:1");
     assert_int_equal(pm_bound_compute(g, NULL, &b, NULL), PM_OK);
-    assert_int_equal(pm_floors_compute(g, &b, 2, &f), PM_OK);
+    assert_int_equal(pm_bound_floors(g, &b, 2, &f), PM_OK);
     assert_int_equal(f.binding, PM_FLOOR_LOOP);
-    assert_string_equal(pm_floor_name(f.binding), "loop");
+    assert_string_equal(pm_bound_floor_name(f.binding), "loop");
     assert_false(f.has_budget);
     /* node ties with cores (120/2 = 60) when the loop is smaller */
     pm_bound_free(&b);
@@ -297,13 +297,13 @@ static void test_floors_binding_and_budget(void **state)
     g->platform.rate_hz = 30; /* budget 100/3 < 60: does not fit */
     assert_int_equal(pm_bound_compute(g, NULL, &b, NULL), PM_OK);
     assert_true(rat_is(b.iteration_bound, 30, 1));
-    assert_int_equal(pm_floors_compute(g, &b, 2, &f), PM_OK);
+    assert_int_equal(pm_bound_floors(g, &b, 2, &f), PM_OK);
     assert_int_equal(f.binding, PM_FLOOR_NODE);
     assert_true(rat_is(f.budget, 100, 3));
     assert_true(f.loop_fits);   /* 30 <= 33.3 */
     assert_false(f.lower_fits); /* 60 > 33.3 */
     assert_true(rat_is(f.margin, -80, 3));
-    assert_int_equal(pm_floors_compute(g, &b, 0, &f), PM_EINVAL);
+    assert_int_equal(pm_bound_floors(g, &b, 0, &f), PM_EINVAL);
     pm_bound_free(&b);
     pm_graph_destroy(g);
 }
@@ -425,13 +425,13 @@ static void test_large_values_stay_exact(void **state)
     uint32_t a, c;
     pm_graph_add_node(g, "a", 1, big, &a);
     pm_graph_add_node(g, "c", 1, 5, &c);
-    pm_edge e = pm_edge_default(a, c);
+    pm_edge e = pm_graph_edge_default(a, c);
     e.delay = (INT64_C(1) << 61) - 1;
     pm_graph_add_edge(g, &e, NULL);
-    e = pm_edge_default(c, a);
+    e = pm_graph_edge_default(c, a);
     e.delay = 2;
     pm_graph_add_edge(g, &e, NULL);
-    e = pm_edge_default(c, c);
+    e = pm_graph_edge_default(c, c);
     e.delay = 3;
     pm_graph_add_edge(g, &e, NULL);
     pm_graph_finalize(g);
@@ -446,7 +446,7 @@ static void test_large_values_stay_exact(void **state)
     pm_graph_destroy(g);
     g = pm_graph_create("over");
     pm_graph_add_node(g, "a", 1, 1, &a);
-    e = pm_edge_default(a, a);
+    e = pm_graph_edge_default(a, a);
     e.delay = PM_MAX_VALUE;
     pm_graph_add_edge(g, &e, NULL);
     pm_graph_add_edge(g, &e, NULL);

@@ -145,7 +145,7 @@ static pm_graph *nx_graph(uint64_t *r)
         assert_int_equal(pm_graph_add_node(g, name, (size_t)len, tk_rand(r, 5), NULL), 0);
     }
     for (uint32_t i = 0; i < m; i++) {
-        pm_edge e = pm_edge_default(0, 0);
+        pm_edge e = pm_graph_edge_default(0, 0);
         gen_edge(r, n, 2, &e.src, &e.dst, &e.delay);
         if (used[e.src][e.dst]++)
             continue;
@@ -291,7 +291,7 @@ static void test_published_examples(void **state)
         snprintf(path, sizeof path, "%s/%s", dir, refdata[i].file);
         pm_graph *g = NULL;
         pm_diag d;
-        int rc = pm_scenario_read_file(path, &g, &d);
+        int rc = pm_reader_read_file(path, &g, &d);
         if (rc == PM_EUNSUPPORTED) {
             printf("note: scenario reader not available, published examples skipped\n");
             skip();
@@ -330,17 +330,17 @@ static void test_literature_biquad_by_hand(void **state)
     pm_graph_add_node(g, "A2", 2, 1, &a2);
     pm_graph_add_node(g, "M1", 2, 2, &m1);
     pm_graph_add_node(g, "M2", 2, 2, &m2);
-    pm_edge e = pm_edge_default(in, a1);
+    pm_edge e = pm_graph_edge_default(in, a1);
     pm_graph_add_edge(g, &e, NULL);
     e = (pm_edge){ .src = a1, .dst = m1, .delay = 1, .words = 1, .produce = 1, .consume = 1 };
     pm_graph_add_edge(g, &e, NULL);
-    e = pm_edge_default(m1, a1);
+    e = pm_graph_edge_default(m1, a1);
     pm_graph_add_edge(g, &e, NULL);
     e = (pm_edge){ .src = a1, .dst = m2, .delay = 2, .words = 1, .produce = 1, .consume = 1 };
     pm_graph_add_edge(g, &e, NULL);
-    e = pm_edge_default(m2, a2);
+    e = pm_graph_edge_default(m2, a2);
     pm_graph_add_edge(g, &e, NULL);
-    e = pm_edge_default(a2, a1);
+    e = pm_graph_edge_default(a2, a1);
     pm_graph_add_edge(g, &e, NULL);
     assert_int_equal(pm_graph_finalize(g), 0);
     pm_bound b;

@@ -60,7 +60,7 @@ static void regress_scenario(const regress_input *in)
     pm_graph *g = NULL;
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_scenario_read_string(in->data, in->len, in->path, &g, &d);
+    int rc = pm_reader_read_string(in->data, in->len, in->path, &g, &d);
     if (rc != PM_OK) {
         fuzz_check_diag(rc, g, &d);
         return;
@@ -89,7 +89,7 @@ static pm_graph *regress_graph(const char *text, size_t len)
     pm_graph *g = NULL;
     pm_diag d;
     pm_diag_clear(&d);
-    assert_int_equal(pm_scenario_read_string(text, len, "fuzz.pace", &g, &d), PM_OK);
+    assert_int_equal(pm_reader_read_string(text, len, "fuzz.pace", &g, &d), PM_OK);
     return g;
 }
 

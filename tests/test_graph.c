@@ -20,7 +20,7 @@ static pm_graph *graph_chain(uint32_t n)
         assert_int_equal(pm_graph_add_node(g, name, (size_t)len, i + 1, NULL), PM_OK);
     }
     for (uint32_t i = 0; i + 1 < n; i++) {
-        pm_edge e = pm_edge_default(i, i + 1);
+        pm_edge e = pm_graph_edge_default(i, i + 1);
         assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
     }
     return g;
@@ -43,7 +43,7 @@ static void test_adjacency_lists_every_edge_once(void **state)
 {
     (void)state;
     pm_graph *g = graph_chain(4);
-    pm_edge back = pm_edge_default(3, 0);
+    pm_edge back = pm_graph_edge_default(3, 0);
     back.delay = 2;
     assert_int_equal(pm_graph_add_edge(g, &back, NULL), PM_OK);
     assert_int_equal(pm_graph_finalize(g), PM_OK);

@@ -30,8 +30,8 @@ static void test_signal_range_and_determinism(void **state)
 {
     (void)state;
     float a[1000], b[1000];
-    pm_signal_fill(a, 1000, 3, 12345);
-    pm_signal_fill(b, 1000, 3, 12345);
+    pm_kernel_signal_fill(a, 1000, 3, 12345);
+    pm_kernel_signal_fill(b, 1000, 3, 12345);
     assert_memory_equal(a, b, sizeof a);
     double sum = 0, sq = 0;
     for (int i = 0; i < 1000; i++) {
@@ -41,7 +41,7 @@ static void test_signal_range_and_determinism(void **state)
     }
     /* not a constant and roughly zero-mean */
     assert_true(sq / 1000 - (sum / 1000) * (sum / 1000) > 0.01);
-    pm_signal_fill(b, 1000, 4, 12345);
+    pm_kernel_signal_fill(b, 1000, 4, 12345);
     assert_true(memcmp(a, b, sizeof a) != 0);
 }
 
@@ -63,14 +63,14 @@ static void test_fir_impulse_response_is_taps(void **state)
     }
     double sum = 0;
     for (uint32_t n = 0; n < 64; n++) {
-        float want = (n >= 13 && n < 13 + taps) ? pm_fir_tap(taps, n - 13) : 0.0f;
+        float want = (n >= 13 && n < 13 + taps) ? pm_kernel_fir_tap(taps, n - 13) : 0.0f;
         assert_true(resp[n] == want);
         if (n >= 13 && n < 13 + taps)
             sum += want;
     }
     /* the taps are a normalised triangle: unit DC gain, symmetric */
     assert_true(fabs(sum - 1.0) < 1e-6);
-    assert_true(pm_fir_tap(taps, 0) == pm_fir_tap(taps, taps - 1));
+    assert_true(pm_kernel_fir_tap(taps, 0) == pm_kernel_fir_tap(taps, taps - 1));
     pm_kernel_reset(k);
     memset(in, 0, sizeof in);
     pm_kernel_process(k, in, out);
@@ -91,7 +91,7 @@ static void biquad_reference(uint32_t sections, const float *x, double *y, size_
         y[i] = x[i];
     for (uint32_t s = 0; s < sections; s++) {
         float c[5];
-        pm_biquad_coefs(s, c);
+        pm_kernel_biquad_coefs(s, c);
         double x1 = 0, x2 = 0, y1 = 0, y2 = 0;
         for (size_t i = 0; i < n; i++) {
             double xn = y[i];
@@ -109,7 +109,7 @@ static void test_biquad_matches_direct_form_reference(void **state)
     const uint32_t sections = 6;
     float x[N], y[N];
     double ref[N];
-    pm_signal_fill(x, N, 1, 0);
+    pm_kernel_signal_fill(x, N, 1, 0);
     x[5] += 1.0f; /* an impulse on top of the test signal */
     pm_kernel *k = make(PM_WORK_BIQUAD, sections, BLOCK);
     for (int b = 0; b < BLOCKS; b++)
@@ -124,7 +124,7 @@ static void test_biquad_matches_direct_form_reference(void **state)
     pm_kernel_destroy(k);
     /* unity DC gain per section: sum b / (1 + a1 + a2) == 1 */
     float c[5];
-    pm_biquad_coefs(4, c);
+    pm_kernel_biquad_coefs(4, c);
     assert_true(fabs((c[0] + c[1] + c[2]) / (1.0 + c[3] + c[4]) - 1.0) < 1e-6);
 }
 
@@ -146,8 +146,8 @@ static void dft(const float *xr, const float *xi, double *yr, double *yi, uint32
 
 static void fft_input(float *re, float *im, uint32_t n)
 {
-    pm_signal_fill(re, n, 7, 0);
-    pm_signal_fill(im, n, 8, 0);
+    pm_kernel_signal_fill(re, n, 7, 0);
+    pm_kernel_signal_fill(im, n, 8, 0);
 }
 
 static void test_fft_matches_direct_dft(void **state)
@@ -159,15 +159,15 @@ static void test_fft_matches_direct_dft(void **state)
         assert_true(re && im && yr && yi);
         fft_input(re, im, n);
         dft(re, im, yr, yi, n);
-        pm_fft *f = NULL;
-        assert_int_equal(pm_fft_create(n, &f), PM_OK);
-        pm_fft_forward(f, re, im);
+        pm_kernel_fft *f = NULL;
+        assert_int_equal(pm_kernel_fft_create(n, &f), PM_OK);
+        pm_kernel_fft_forward(f, re, im);
         double tol = 1e-6 * n + 1e-6; /* |x| < 0.5: float rounding grows ~ log N */
         for (uint32_t k = 0; k < n; k++) {
             assert_true(fabs(re[k] - yr[k]) < tol);
             assert_true(fabs(im[k] - yi[k]) < tol);
         }
-        pm_fft_destroy(f);
+        pm_kernel_fft_destroy(f);
         free(re); free(im); free(yr); free(yi);
     }
 }
@@ -192,16 +192,16 @@ static void test_fft_matches_fftw(void **state)
     fftw_plan pd = fftw_plan_dft_1d((int)n, di, dout, FFTW_FORWARD, FFTW_ESTIMATE);
     fftwf_execute(pf);
     fftw_execute(pd);
-    pm_fft *f = NULL;
-    assert_int_equal(pm_fft_create(n, &f), PM_OK);
-    pm_fft_forward(f, re, im);
+    pm_kernel_fft *f = NULL;
+    assert_int_equal(pm_kernel_fft_create(n, &f), PM_OK);
+    pm_kernel_fft_forward(f, re, im);
     for (uint32_t k = 0; k < n; k++) {
         assert_true(fabs(re[k] - crealf(fo[k])) < 2e-3);
         assert_true(fabs(im[k] - cimagf(fo[k])) < 2e-3);
         assert_true(fabs(re[k] - creal(dout[k])) < 2e-3);
         assert_true(fabs(im[k] - cimag(dout[k])) < 2e-3);
     }
-    pm_fft_destroy(f);
+    pm_kernel_fft_destroy(f);
     fftwf_destroy_plan(pf);
     fftw_destroy_plan(pd);
     fftwf_free(fi); fftwf_free(fo); fftw_free(di); fftw_free(dout);
@@ -218,7 +218,7 @@ static void test_fft_node_block_mapping(void **state)
     enum { B = 24, N = 16 };
     float in[B], out[B], zr[N], zi[N] = {0};
     double yr[N], yi[N];
-    pm_signal_fill(in, B, 2, 99);
+    pm_kernel_signal_fill(in, B, 2, 99);
     for (int j = 0; j < N; j++)
         zr[j] = in[j % B];
     dft(zr, zi, yr, yi, N);
@@ -233,13 +233,13 @@ static void test_spin_passes_input_through(void **state)
 {
     (void)state;
     float in[8], out[8];
-    pm_signal_fill(in, 8, 0, 0);
+    pm_kernel_signal_fill(in, 8, 0, 0);
     pm_kernel *k = NULL;
     assert_int_equal(pm_kernel_create(PM_WORK_SPIN, 0, 8, 1000, &k), PM_OK);
     pm_kernel_process(k, in, out);
     assert_memory_equal(in, out, sizeof in);
     pm_kernel_destroy(k);
-    assert_int_not_equal(pm_spin(10), pm_spin(11));
+    assert_int_not_equal(pm_kernel_spin(10), pm_kernel_spin(11));
 }
 
 static void test_bad_parameters(void **state)
@@ -253,11 +253,11 @@ static void test_bad_parameters(void **state)
     assert_int_equal(pm_kernel_create(PM_WORK_BIQUAD, PM_KERNEL_MAX_SECTIONS + 1, 8, 0, &k),
                      PM_ERANGE);
     assert_int_equal(pm_kernel_create(PM_WORK_FIR, 4, 0, 0, &k), PM_ERANGE);
-    pm_fft *f = (pm_fft *)1;
-    assert_int_equal(pm_fft_create(3, &f), PM_ERANGE);
+    pm_kernel_fft *f = (pm_kernel_fft *)1;
+    assert_int_equal(pm_kernel_fft_create(3, &f), PM_ERANGE);
     assert_null(f);
     pm_kernel_destroy(NULL);
-    pm_fft_destroy(NULL);
+    pm_kernel_fft_destroy(NULL);
 }
 
 int main(void)

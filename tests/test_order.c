@@ -36,7 +36,7 @@ static pm_graph *mk(const char *nodes, const char *edges)
     uint32_t line = 1;
     for (const char *p = edges; sscanf(p, " %63[^>]>%63[^:]:%lld%n", a, b, &d, &n) == 3;
          p += n) {
-        pm_edge e = pm_edge_default(pm_graph_find(g, a, strlen(a)),
+        pm_edge e = pm_graph_edge_default(pm_graph_find(g, a, strlen(a)),
                                     pm_graph_find(g, b, strlen(b)));
         assert_true(e.src != PM_NONE && e.dst != PM_NONE);
         e.delay = d;
@@ -225,7 +225,7 @@ static pm_graph *random_graph(uint64_t *seed, int dist[RN][RN])
             dist[i][j] = INF;
     uint32_t m = 4 + rnd(seed, 12);
     for (uint32_t k = 0; k < m; k++) {
-        pm_edge e = pm_edge_default(rnd(seed, RN), rnd(seed, RN));
+        pm_edge e = pm_graph_edge_default(rnd(seed, RN), rnd(seed, RN));
         e.delay = rnd(seed, 3) == 0;
         e.line = k + 1;
         pm_graph_add_edge(g, &e, NULL);

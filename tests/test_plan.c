@@ -58,7 +58,7 @@ static void plan_of(const char *text, pm_plan *p)
     pm_graph *g = NULL;
     pm_diag d;
     pm_diag_clear(&d);
-    if (pm_scenario_read_string(text, strlen(text), "plan.pace", &g, &d) != PM_OK)
+    if (pm_reader_read_string(text, strlen(text), "plan.pace", &g, &d) != PM_OK)
         fail_msg("scenario: %u:%u: %s", d.line, d.col, d.msg);
     if (pm_plan_init(p, g, &d) != PM_OK)
         fail_msg("plan: %s", d.msg);
@@ -145,8 +145,8 @@ static void test_multirate_rule(void **state)
     /* the schedule returned times that map */
     for (uint32_t x = 0; x < p.graph->nnodes; x++)
         assert_int_equal(sc->slots[x].core, m->core_of[x]);
-    pm_schedule_destroy(xs);
-    pm_schedule_destroy(sc);
+    pm_sched_destroy(xs);
+    pm_sched_destroy(sc);
     pm_map_destroy(xm);
     pm_map_destroy(m);
     pm_plan_free(&p);
@@ -178,7 +178,7 @@ static void expect_refine_no_worse(const char *text)
     assert_int_equal(pm_plan_map(&p, &refined, &s1, &m1, &d), PM_OK);
     assert_non_null(s1);
     assert_true(pm_rat_cmp(period_of(&p, m1), period_of(&p, m0)) <= 0);
-    pm_schedule_destroy(s1);
+    pm_sched_destroy(s1);
     pm_map_destroy(m0);
     pm_map_destroy(m1);
     pm_plan_free(&p);
@@ -285,7 +285,7 @@ static void test_sweep_multirate(void **state)
     pm_diag_clear(&d);
     int rc = pm_sweep_run(&p, &o, &s, &d);
     if (rc != PM_OK)
-        fail_msg("sweep: %s (%s)", pm_strerror(rc), d.msg);
+        fail_msg("sweep: %s (%s)", pm_error_name(rc), d.msg);
     assert_int_equal(s.points[0].period.num, 14);
     assert_int_equal(s.points[0].period.den, 1);
     for (uint32_t i = 1; i < s.npoints; i++)

@@ -29,7 +29,7 @@ static pm_graph *read_ok(const char *text)
 {
     pm_graph *g = NULL;
     pm_diag d;
-    int rc = pm_scenario_read_string(text, strlen(text), "t.pace", &g, &d);
+    int rc = pm_reader_read_string(text, strlen(text), "t.pace", &g, &d);
     if (rc != PM_OK)
         print_error("unexpected error: %s:%u:%u: error: %s\n", d.file, d.line, d.col, d.msg);
     assert_int_equal(rc, PM_OK);
@@ -49,7 +49,7 @@ static void expect_error_n(const char *text, size_t len, int code, const char *w
     pm_graph *g = (pm_graph *)1;
     pm_diag d;
     char got[1200];
-    int rc = pm_scenario_read_string(text, len, "t.pace", &g, &d);
+    int rc = pm_reader_read_string(text, len, "t.pace", &g, &d);
     diag_line(&d, got, sizeof got);
     if (strcmp(got, want) != 0 || rc != code)
         print_error("input: %.60s\n  want: %s (%d)\n  got:  %s (%d)\n", text, want, code, got,
@@ -698,20 +698,20 @@ static void test_file_errors(void **state)
     pm_graph *g = (pm_graph *)1;
     pm_diag d;
     char got[1200];
-    int rc = pm_scenario_read_file("/nonexistent/x.pace", &g, &d);
+    int rc = pm_reader_read_file("/nonexistent/x.pace", &g, &d);
     diag_line(&d, got, sizeof got);
     assert_int_equal(rc, PM_EIO);
     assert_null(g);
     assert_string_equal(got, "/nonexistent/x.pace:0:0: error: cannot open file: No such file "
                         "or directory");
-    rc = pm_scenario_read_file("/tmp", &g, &d);
+    rc = pm_reader_read_file("/tmp", &g, &d);
     diag_line(&d, got, sizeof got);
     assert_int_equal(rc, PM_EIO);
     assert_string_equal(got, "/tmp:0:0: error: cannot read file: Is a directory");
     char *path = write_temp("node a cycles=1\n", 16);
     if (geteuid() != 0) { /* root reads anything */
         assert_int_equal(chmod(path, 0), 0);
-        rc = pm_scenario_read_file(path, &g, &d);
+        rc = pm_reader_read_file(path, &g, &d);
         assert_int_equal(rc, PM_EIO);
         assert_true(strstr(d.msg, "cannot open file: Permission denied") != NULL);
     }
@@ -734,8 +734,8 @@ static void test_big_file_matches_string(void **state)
     char *path = write_temp(text, len);
     pm_graph *a, *b;
     pm_diag d;
-    assert_int_equal(pm_scenario_read_file(path, &a, &d), PM_OK);
-    assert_int_equal(pm_scenario_read_string(text, len, path, &b, &d), PM_OK);
+    assert_int_equal(pm_reader_read_file(path, &a, &d), PM_OK);
+    assert_int_equal(pm_reader_read_string(text, len, path, &b, &d), PM_OK);
     assert_int_equal(a->nnodes, 20000);
     assert_int_equal(a->nedges, b->nedges);
     assert_true(a->nedges > 50000);
@@ -754,7 +754,7 @@ static void test_big_file_matches_string(void **state)
     assert_non_null(f);
     fwrite(tail, 1, PM_READER_MAX_LINE + 5, f);
     fclose(f);
-    assert_int_equal(pm_scenario_read_file(path, &a, &d), PM_ELIMIT);
+    assert_int_equal(pm_reader_read_file(path, &a, &d), PM_ELIMIT);
     assert_null(a);
     assert_int_equal(d.col, PM_READER_MAX_LINE + 1);
     assert_string_equal(d.msg, "line too long: more than 65536 bytes");
@@ -802,7 +802,7 @@ static void test_refdata_scenarios(void **state)
         snprintf(path, sizeof path, "%s/%s", dir, de->d_name);
         pm_graph *g;
         pm_diag d;
-        int rc = pm_scenario_read_file(path, &g, &d);
+        int rc = pm_reader_read_file(path, &g, &d);
         if (rc)
             print_error("%s:%u:%u: error: %s\n", d.file, d.line, d.col, d.msg);
         assert_int_equal(rc, PM_OK);

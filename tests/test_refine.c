@@ -25,7 +25,7 @@ static pm_graph *refine_loop_graph(uint32_t pin_a, uint32_t pin_b)
     assert_int_equal(pm_graph_add_node(g, "b", 1, 10, NULL), PM_OK);
     g->nodes[0].pin_core = pin_a;
     g->nodes[1].pin_core = pin_b;
-    pm_edge ab = pm_edge_default(0, 1), ba = pm_edge_default(1, 0);
+    pm_edge ab = pm_graph_edge_default(0, 1), ba = pm_graph_edge_default(1, 0);
     ba.delay = 1;
     assert_int_equal(pm_graph_add_edge(g, &ab, NULL), PM_OK);
     assert_int_equal(pm_graph_add_edge(g, &ba, NULL), PM_OK);
@@ -71,7 +71,7 @@ static void test_loop_split_is_joined(void **state)
     assert_int_equal(out->core_of[0], out->core_of[1]);
     assert_int_equal(pm_rat_cmp(refine_period(g, out), pm_rat_int(20)), 0);
     pm_map_destroy(out);
-    pm_schedule_destroy(sc);
+    pm_sched_destroy(sc);
     pm_map_destroy(m);
     pm_graph_destroy(g);
 }
@@ -90,7 +90,7 @@ static void test_pins_are_kept(void **state)
     assert_int_equal(out->core_of[0], 0);
     assert_int_equal(out->core_of[1], 1);
     pm_map_destroy(out);
-    pm_schedule_destroy(sc);
+    pm_sched_destroy(sc);
     pm_map_destroy(m);
     pm_graph_destroy(g);
 }
@@ -111,9 +111,9 @@ static pm_graph *refine_random_graph(unsigned *seed, uint32_t n)
     }
     for (uint32_t k = 0; k < 2 * n; k++) {
         uint32_t u = (uint32_t)rand_r(seed) % n, v = (uint32_t)rand_r(seed) % n;
-        pm_edge e = pm_edge_default(u < v ? u : v, u < v ? v : u);
+        pm_edge e = pm_graph_edge_default(u < v ? u : v, u < v ? v : u);
         if (u == v || rand_r(seed) % 4 == 0) {
-            e = pm_edge_default(u < v ? v : u, u < v ? u : v); /* backwards: needs delay */
+            e = pm_graph_edge_default(u < v ? v : u, u < v ? u : v); /* backwards: needs delay */
             e.delay = 1 + rand_r(seed) % 2;
         }
         assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
@@ -143,7 +143,7 @@ static void test_never_worse_on_random_graphs(void **state)
         better += improved;
         pm_map_destroy(out);
         pm_map_destroy(m);
-        pm_schedule_destroy(sc);
+        pm_sched_destroy(sc);
         pm_graph_destroy(g);
     }
     print_message("refinement lowered the period on %d of 60 random graphs\n", better);

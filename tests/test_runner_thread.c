@@ -45,7 +45,7 @@ static uint32_t node(pm_graph *g, const char *name, int64_t cycles, pm_work_kind
 
 static void edge(pm_graph *g, uint32_t a, uint32_t b, int64_t delay)
 {
-    pm_edge e = pm_edge_default(a, b);
+    pm_edge e = pm_graph_edge_default(a, b);
     e.delay = delay;
     assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
 }
@@ -65,9 +65,9 @@ static pm_map *map2(const uint32_t *c0, uint32_t n0, const uint32_t *c1, uint32_
     return m;
 }
 
-static void config(pm_run_config *c, uint32_t iters)
+static void config(pm_runner_config *c, uint32_t iters)
 {
-    pm_run_config_default(c);
+    pm_runner_config_default(c);
     c->iterations = iters;
     c->warmup = 5;
     c->block = 32;
@@ -99,7 +99,15 @@ static pm_graph *kernel_graph(void)
     return g;
 }
 
-static void check_delivery(const pm_graph *g, const pm_run_result *r)
+/* The library fills a caller-owned result; these tests keep theirs on the
+ * heap so that helpers can hand them back. */
+static void result_drop(pm_runner_result *r)
+{
+    pm_runner_result_free(r);
+    free(r);
+}
+
+static void check_delivery(const pm_graph *g, const pm_runner_result *r)
 {
     uint64_t total = (uint64_t)r->warmup + r->iterations;
     assert_int_equal(r->order_errors, 0);
@@ -109,10 +117,10 @@ static void check_delivery(const pm_graph *g, const pm_run_result *r)
     }
 }
 
-static pm_run_result *run_ok(const pm_graph *g, const pm_map *m, const pm_run_config *c)
+static pm_runner_result *run_ok(const pm_graph *g, const pm_map *m, const pm_runner_config *c)
 {
-    pm_run_result *r = NULL;
-    assert_int_equal(pm_run_execute(g, m, c, &r), PM_OK);
+    pm_runner_result *r = calloc(1, sizeof *r);
+    assert_int_equal(pm_runner_execute(g, m, c, r), PM_OK);
     assert_non_null(r);
     assert_false(r->stalled);
     check_delivery(g, r);
@@ -125,19 +133,19 @@ static void test_two_cores_match_one(void **state)
     pm_graph *g = kernel_graph();
     const uint32_t c0[] = {0, 2, 4}, c1[] = {1, 3};
     pm_map *m = map2(c0, 3, c1, 2, g->nnodes), *serial = NULL;
-    assert_int_equal(pm_run_serial_map(g, &serial), PM_OK);
+    assert_int_equal(pm_runner_serial_map(g, &serial), PM_OK);
     pm_topo *t = NULL;
     pm_topo_choice ch = {0};
-    pm_run_config c;
+    pm_runner_config c;
     config(&c, 150);
-    if (pm_topo_open(NULL, &t) == PM_OK &&
+    if (pm_topo_create(NULL, &t) == PM_OK &&
         pm_topo_choose(t, 2, NULL, 0, true, &ch, NULL) == PM_OK) {
         c.topo = t;
         c.pu = ch.pu;
     }
-    pm_run_result *par = run_ok(g, m, &c);
+    pm_runner_result *par = run_ok(g, m, &c);
     c.topo = NULL;
-    pm_run_result *one = run_ok(g, serial, &c);
+    pm_runner_result *one = run_ok(g, serial, &c);
     assert_int_equal(par->nsinks, 1);
     assert_int_equal(one->nsinks, 1);
     assert_int_equal(par->sinks[0], 4);
@@ -152,10 +160,10 @@ static void test_two_cores_match_one(void **state)
     printf("# 2 cores: period median %.0f ns p99 %.0f ns, busy %.2f %.2f, pinned %d %d\n",
            par->period_ns_median, par->period_ns_p99, par->busy[0], par->busy[1],
            par->pinned[0], par->pinned[1]);
-    pm_run_result_destroy(par);
-    pm_run_result_destroy(one);
+    result_drop(par);
+    result_drop(one);
     pm_topo_choice_free(&ch);
-    pm_topo_close(t);
+    pm_topo_destroy(t);
     pm_map_destroy(m);
     pm_map_destroy(serial);
     pm_graph_destroy(g);
@@ -174,17 +182,17 @@ static void test_fir_stage_is_convolution(void **state)
     assert_int_equal(pm_graph_finalize(g), PM_OK);
     const uint32_t c0[] = {s}, c1[] = {f};
     pm_map *m = map2(c0, 1, c1, 1, 2);
-    pm_run_config c;
+    pm_runner_config c;
     config(&c, 20);
-    pm_run_result *r = run_ok(g, m, &c);
+    pm_runner_result *r = run_ok(g, m, &c);
     uint32_t total = c.warmup + c.iterations;
     for (uint32_t n = 0; n < total * c.block; n++) {
         double y = 0;
         for (uint32_t k = 0; k < 8 && k <= n; k++)
-            y += (double)pm_fir_tap(8, k) * pm_signal_sample(s, n - k);
+            y += (double)pm_kernel_fir_tap(8, k) * pm_kernel_signal_sample(s, n - k);
         assert_true(fabs(r->outputs[n] - y) < 1e-6);
     }
-    pm_run_result_destroy(r);
+    result_drop(r);
     pm_map_destroy(m);
     pm_graph_destroy(g);
 }
@@ -203,7 +211,7 @@ static void check_scenario(const char *path)
 {
     pm_graph *g = NULL;
     pm_diag d;
-    assert_int_equal(pm_scenario_read_file(path, &g, &d), PM_OK);
+    assert_int_equal(pm_reader_read_file(path, &g, &d), PM_OK);
     if (!has_kernels(g) || !pm_graph_is_single_rate(g) || g->platform.classes_named) {
         pm_graph_destroy(g);
         return;
@@ -212,18 +220,18 @@ static void check_scenario(const char *path)
         assert_int_equal(pm_graph_set_procs_override(g, 2, &d), PM_OK);
     pm_map *m = NULL, *serial = NULL;
     assert_int_equal(pm_sched_list(g, NULL, NULL, &m, &d), PM_OK);
-    assert_int_equal(pm_run_serial_map(g, &serial), PM_OK);
-    pm_run_config c;
+    assert_int_equal(pm_runner_serial_map(g, &serial), PM_OK);
+    pm_runner_config c;
     config(&c, 12);
     c.ns_per_cycle = 0.05; /* keep spin nodes short: only outputs are checked */
-    pm_run_result *par = run_ok(g, m, &c), *one = run_ok(g, serial, &c);
+    pm_runner_result *par = run_ok(g, m, &c), *one = run_ok(g, serial, &c);
     size_t n = (size_t)par->nsinks * (c.warmup + c.iterations) * c.block;
     assert_int_equal(par->nsinks, one->nsinks);
     assert_memory_equal(par->outputs, one->outputs, n * sizeof(float));
     printf("# %s: %u nodes on %u cores, sink outputs bit-identical\n", path, g->nnodes,
            m->ncores);
-    pm_run_result_destroy(par);
-    pm_run_result_destroy(one);
+    result_drop(par);
+    result_drop(one);
     pm_map_destroy(m);
     pm_map_destroy(serial);
     pm_graph_destroy(g);
@@ -266,12 +274,12 @@ static void test_watchdog_names_waits(void **state)
     const uint32_t c0[] = {a, b}, c1[] = {cc, d};
     pm_map *m = map2(c0, 2, c1, 2, 4);
     double t[4] = {1, 1, 1, 1}, p;
-    assert_int_equal(pm_run_predict(g, m, t, 0, 0, &p, NULL, NULL), PM_EDEADLOCK);
-    pm_run_config c;
+    assert_int_equal(pm_runner_predict(g, m, t, 0, 0, &p, NULL, NULL), PM_EDEADLOCK);
+    pm_runner_config c;
     config(&c, 10);
     c.watchdog_ms = 100;
-    pm_run_result *r = NULL;
-    assert_int_equal(pm_run_execute(g, m, &c, &r), PM_EDEADLOCK);
+    pm_runner_result *r = calloc(1, sizeof *r);
+    assert_int_equal(pm_runner_execute(g, m, &c, r), PM_EDEADLOCK);
     assert_non_null(r);
     assert_true(r->stalled);
     assert_int_equal(r->waits[0].node, a);
@@ -280,7 +288,7 @@ static void test_watchdog_names_waits(void **state)
     assert_int_equal(r->waits[1].node, cc);
     assert_int_equal(r->waits[1].edge, 0);
     assert_int_equal(r->waits[0].iteration, 0);
-    pm_run_result_destroy(r);
+    result_drop(r);
     pm_map_destroy(m);
     pm_graph_destroy(g);
 }
@@ -297,13 +305,13 @@ static void test_same_core_wait_stops(void **state)
     uint32_t cnt = 2;
     pm_map *m = NULL;
     assert_int_equal(pm_map_create(1, 2, lists, &cnt, &m), PM_OK);
-    pm_run_config c;
+    pm_runner_config c;
     config(&c, 10);
-    pm_run_result *r = NULL;
-    assert_int_equal(pm_run_execute(g, m, &c, &r), PM_EDEADLOCK);
+    pm_runner_result *r = calloc(1, sizeof *r);
+    assert_int_equal(pm_runner_execute(g, m, &c, r), PM_EDEADLOCK);
     assert_int_equal(r->waits[0].node, b);
     assert_int_equal(r->waits[0].edge, 0);
-    pm_run_result_destroy(r);
+    result_drop(r);
     pm_map_destroy(m);
     pm_graph_destroy(g);
 }
@@ -323,12 +331,12 @@ static void test_predict_hand_cases(void **state)
     assert_int_equal(pm_graph_finalize(g), PM_OK);
     double t[3] = {100, 300, 50}, p;
     pm_map *one = NULL;
-    assert_int_equal(pm_run_serial_map(g, &one), PM_OK);
-    assert_int_equal(pm_run_predict(g, one, t, 1000, 0, &p, NULL, NULL), PM_OK);
+    assert_int_equal(pm_runner_serial_map(g, &one), PM_OK);
+    assert_int_equal(pm_runner_predict(g, one, t, 1000, 0, &p, NULL, NULL), PM_OK);
     assert_true(fabs(p - 450) < 1e-6);
     const uint32_t c0[] = {a}, c1[] = {b, cc};
     pm_map *two = map2(c0, 1, c1, 2, 3);
-    assert_int_equal(pm_run_predict(g, two, t, 20, 0, &p, NULL, NULL), PM_OK);
+    assert_int_equal(pm_runner_predict(g, two, t, 20, 0, &p, NULL, NULL), PM_OK);
     assert_true(fabs(p - 350) < 1e-6);
     pm_map_destroy(one);
     pm_map_destroy(two);
@@ -344,7 +352,7 @@ static void test_predict_hand_cases(void **state)
     const uint32_t d0[] = {a}, d1[] = {b};
     pm_map *m = map2(d0, 1, d1, 1, 2);
     double u[2] = {100, 200};
-    assert_int_equal(pm_run_predict(g, m, u, 30, 0, &p, NULL, NULL), PM_OK);
+    assert_int_equal(pm_runner_predict(g, m, u, 30, 0, &p, NULL, NULL), PM_OK);
     assert_true(fabs(p - 360) < 1e-6);
     pm_map_destroy(m);
     pm_graph_destroy(g);
@@ -362,11 +370,11 @@ static void test_maps_and_refusals(void **state)
     edge(g, b, a, 0);
     assert_int_equal(pm_graph_finalize(g), PM_OK);
     pm_map *m = NULL;
-    assert_int_equal(pm_run_round_robin_map(g, 2, &m), PM_OK);
+    assert_int_equal(pm_runner_round_robin_map(g, 2, &m), PM_OK);
     assert_int_equal(m->core_of[a], 1);                  /* pin honoured */
     assert_int_equal(pm_map_check(m, g, NULL), PM_OK);
     pm_map_destroy(m);
-    assert_int_equal(pm_run_serial_map(g, &m), PM_OK);
+    assert_int_equal(pm_runner_serial_map(g, &m), PM_OK);
     assert_int_equal(m->order[0], cc);                   /* topological */
     assert_int_equal(m->order[2], a);
     pm_map_destroy(m);
@@ -375,16 +383,17 @@ static void test_maps_and_refusals(void **state)
     g = pm_graph_create("multirate");
     a = node(g, "A", 1, PM_WORK_SPIN, 0);
     b = node(g, "B", 1, PM_WORK_SPIN, 0);
-    pm_edge e = pm_edge_default(a, b);
+    pm_edge e = pm_graph_edge_default(a, b);
     e.produce = 2;
     assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
     assert_int_equal(pm_graph_finalize(g), PM_OK);
-    assert_int_equal(pm_run_serial_map(g, &m), PM_OK);
-    pm_run_config c;
+    assert_int_equal(pm_runner_serial_map(g, &m), PM_OK);
+    pm_runner_config c;
     config(&c, 5);
-    pm_run_result *r = NULL;
-    assert_int_equal(pm_run_execute(g, m, &c, &r), PM_EUNSUPPORTED);
-    assert_null(r);
+    pm_runner_result *r = calloc(1, sizeof *r);
+    assert_int_equal(pm_runner_execute(g, m, &c, r), PM_EUNSUPPORTED);
+    assert_null(r->busy); /* nothing was allocated */
+    result_drop(r);
     pm_map_destroy(m);
     pm_graph_destroy(g);
 }
@@ -394,18 +403,18 @@ static void test_measurements_run(void **state)
     (void)state;
     double tpn = 0, med = 0, p99 = 0;
     bool pinned = false;
-    assert_int_equal(pm_run_calibrate(&tpn), PM_OK);
+    assert_int_equal(pm_runner_calibrate(&tpn), PM_OK);
     assert_true(tpn > 0);
-    pm_run_config c;
+    pm_runner_config c;
     config(&c, 1);
-    assert_int_equal(pm_run_handoff(&c, 0, 0, 200, &med, &p99, &pinned), PM_OK);
+    assert_int_equal(pm_runner_handoff(&c, 0, 0, 200, &med, &p99, &pinned), PM_OK);
     assert_true(med > 0 && p99 >= med);
     pm_graph *g = kernel_graph();
     pm_map *m = NULL;
-    assert_int_equal(pm_run_serial_map(g, &m), PM_OK);
+    assert_int_equal(pm_runner_serial_map(g, &m), PM_OK);
     double ns[5];
     c.turns_per_ns = tpn;
-    assert_int_equal(pm_run_node_times(g, m, &c, 5, ns), PM_OK);
+    assert_int_equal(pm_runner_node_times(g, m, &c, 5, ns), PM_OK);
     for (int v = 0; v < 5; v++)
         assert_true(ns[v] > 0);
     printf("# %.3f spin turns/ns; handoff median %.0f ns p99 %.0f ns; "

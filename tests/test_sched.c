@@ -32,7 +32,7 @@ static pm_schedule *run_checked(const pm_graph *g, const pm_sched_opts *o, pm_ma
     pm_diag_clear(&d);
     int rc = pm_sched_list(g, o, &s, map, &d);
     if (rc != PM_OK)
-        print_error("pm_sched_list: %s: %s\n", pm_strerror(rc), d.msg);
+        print_error("pm_sched_list: %s: %s\n", pm_error_name(rc), d.msg);
     assert_int_equal(rc, PM_OK);
     const char *bad = sched_checker_verify(g, s);
     if (bad)
@@ -72,7 +72,7 @@ static void test_hand_p2p(void **state)
     assert_int_equal(s->transfers[1].arrival, 37);
     assert_int_equal(s->busy[0], 25);
     assert_int_equal(s->busy[1], 25);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_graph_destroy(g);
 }
 
@@ -96,7 +96,7 @@ static void hand_bus_case(pm_interconnect ic, int64_t c_start)
     expect_slot(s, c, 2, c_start, c_start + 5);
     assert_int_equal(s->transfers[1].wire_start, c_start - 10);
     assert_int_equal(s->makespan, c_start + 5);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_graph_destroy(g);
 }
 
@@ -134,7 +134,7 @@ static void test_hand_send_recv(void **state)
     assert_int_equal(t->recv_end, 17);
     assert_int_equal(s->busy[0], 8);
     assert_int_equal(s->busy[1], 17);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_graph_destroy(g);
 }
 
@@ -169,7 +169,7 @@ static void test_send_spreads(void **state)
     assert_int_not_equal(s->slots[mid[0]].core, s->slots[mid[2]].core);
     assert_int_not_equal(s->slots[mid[1]].core, s->slots[mid[2]].core);
     assert_true(s->makespan >= 564 && s->makespan <= 566);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_graph_destroy(g);
 }
 
@@ -195,7 +195,7 @@ static int64_t graham_makespan(uint32_t P, int64_t minus)
     pm_sched_opts o = {.greedy = true, .priority = list};
     pm_schedule *s = run_checked(g, &o, NULL);
     int64_t m = s->makespan;
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_graph_destroy(g);
     return m;
 }
@@ -266,7 +266,7 @@ static void round_trip(const pm_graph *g, const pm_map *m, const pm_schedule *s)
         assert_int_equal(s2->slots[v].end, s->slots[v].end);
     }
     assert_int_equal(s2->makespan, s->makespan);
-    pm_schedule_destroy(s2);
+    pm_sched_destroy(s2);
     pm_map_destroy(back);
     free(buf);
 }
@@ -294,7 +294,7 @@ static void test_random_checked(void **state)
             pm_schedule *s = run_checked(g, &o, &m);
             check_lower_bounds(g, s);
             round_trip(g, m, s);
-            pm_schedule_destroy(s);
+            pm_sched_destroy(s);
             pm_map_destroy(m);
         }
         pm_graph_destroy(g);
@@ -310,8 +310,8 @@ static void test_deterministic(void **state)
     pm_schedule *a = run_checked(g1, NULL, NULL), *b = run_checked(g2, NULL, NULL);
     assert_memory_equal(a->slots, b->slots, 60 * sizeof *a->slots);
     assert_int_equal(a->ntransfers, b->ntransfers);
-    pm_schedule_destroy(a);
-    pm_schedule_destroy(b);
+    pm_sched_destroy(a);
+    pm_sched_destroy(b);
     pm_graph_destroy(g1);
     pm_graph_destroy(g2);
 }
@@ -324,7 +324,7 @@ static void test_edge_cases(void **state)
     pm_graph_finalize(g);
     pm_schedule *s = run_checked(g, NULL, NULL);
     assert_int_equal(s->makespan, 0);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_graph_destroy(g);
 
     g = tl_graph(1);
@@ -335,7 +335,7 @@ static void test_edge_cases(void **state)
     s = run_checked(g, NULL, NULL);
     expect_slot(s, b, 0, 3, 3); /* zero-cycle node between its neighbours */
     assert_int_equal(s->makespan, 7);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_graph_destroy(g);
 
     g = tl_graph(1);

@@ -133,7 +133,7 @@ static int64_t makespan_of(const pm_graph *g, bool greedy)
     assert_int_equal(pm_sched_list(g, &o, &s, NULL, &d), PM_OK);
     assert_null(sched_checker_verify(g, s));
     int64_t m = s->makespan;
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     return m;
 }
 

@@ -135,7 +135,7 @@ static pm_rat floor_of(const pm_graph *g, bool blind)
     pm_rat f;
     uint32_t n;
     assert_int_equal(pm_sched_loop_floor(g, m, &f, NULL, &n, &d), PM_OK);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_map_destroy(m);
     return f;
 }
@@ -172,7 +172,7 @@ static pm_rat sim_period_of(const pm_graph *g, bool blind)
     assert_int_equal(pm_sim_run(g, m, &so, &r, &d), PM_OK);
     pm_rat p = r.period;
     pm_sim_result_free(&r);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     pm_map_destroy(m);
     return p;
 }
@@ -209,7 +209,7 @@ static void test_decimating_receiver(void **state)
     uint64_t *rep = NULL;
     pm_diag d;
     uint32_t two = 2;
-    assert_int_equal(pm_scenario_read_file("scenarios/rx_decimating.pace", &src, &d), PM_OK);
+    assert_int_equal(pm_reader_read_file("scenarios/rx_decimating.pace", &src, &d), PM_OK);
     assert_int_equal(pm_graph_set_cores(src, 1, NULL, &two), PM_OK);
     assert_int_equal(pm_sdf_single_rate(src, &g, &rep, NULL, &d), PM_OK);
     pm_bound b = {0};
@@ -248,8 +248,8 @@ static void test_loop_rule_respects_target(void **state)
     assert_null(sched_checker_verify(g, s));
     assert_null(sched_checker_verify(g, b));
     assert_memory_equal(s->slots, b->slots, g->nnodes * sizeof *s->slots);
-    pm_schedule_destroy(s);
-    pm_schedule_destroy(b);
+    pm_sched_destroy(s);
+    pm_sched_destroy(b);
     pm_graph_destroy(g);
 }
 

@@ -43,7 +43,7 @@ static int64_t schedule_makespan(const pm_graph *g, const pm_sched_opts *o)
     assert_int_equal(pm_sched_list(g, o, &s, NULL, &d), PM_OK);
     assert_null(sched_checker_verify(g, s));
     int64_t m = s->makespan;
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     return m;
 }
 
@@ -62,7 +62,7 @@ static void test_graham_file(void **state)
     for (int i = 0; i < 2; i++) {
         pm_graph *g = NULL;
         pm_diag d;
-        int rc = pm_scenario_read_file(path, &g, &d);
+        int rc = pm_reader_read_file(path, &g, &d);
         if (rc == PM_EUNSUPPORTED) {
             print_message("note: scenario reader not available; Graham file check skipped\n");
             skip();

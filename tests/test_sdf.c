@@ -40,7 +40,7 @@ static pm_graph *build(uint32_t n, const char *const *names, const spec_edge *es
     for (uint32_t v = 0; v < n; v++)
         assert_int_equal(pm_graph_add_node(g, names[v], strlen(names[v]), 10, NULL), PM_OK);
     for (uint32_t i = 0; i < ne; i++) {
-        pm_edge e = pm_edge_default(es[i].src, es[i].dst);
+        pm_edge e = pm_graph_edge_default(es[i].src, es[i].dst);
         e.produce = es[i].produce;
         e.consume = es[i].consume;
         e.delay = es[i].delay;
@@ -104,7 +104,7 @@ static void test_cd_dat_from_refdata(void **state)
     fclose(f);
     pm_graph *g = NULL;
     pm_diag d;
-    assert_int_equal(pm_scenario_read_file(path, &g, &d), PM_OK);
+    assert_int_equal(pm_reader_read_file(path, &g, &d), PM_OK);
     static const char *const names[] = { "A", "B", "C", "D", "E", "F" };
     uint64_t *rep = NULL;
     assert_int_equal(pm_sdf_repetition(g, &rep, &d), PM_OK);
@@ -381,7 +381,7 @@ typedef struct rgraph {
 static void random_edge(rgraph *r, uint32_t u, uint32_t v, uint32_t max_delay)
 {
     uint64_t g = gcd64(r->q[u], r->q[v]), k = 1 + rnd(3);
-    pm_edge e = pm_edge_default(u, v);
+    pm_edge e = pm_graph_edge_default(u, v);
     e.produce = (int64_t)(r->q[v] / g * k);
     e.consume = (int64_t)(r->q[u] / g * k);
     e.delay = max_delay ? rnd(max_delay + 1) : 0;
@@ -467,7 +467,7 @@ static pm_graph *random_single_rate(void)
     }
     for (uint32_t k = rnd(3 * n); k > 0; k--) {
         uint32_t u = rnd(n), v = rnd(n);
-        pm_edge e = pm_edge_default(u <= v ? u : v, u <= v ? v : u);
+        pm_edge e = pm_graph_edge_default(u <= v ? u : v, u <= v ? v : u);
         e.delay = u == v ? 1 + rnd(2) : rnd(3); /* zero delays only go forward */
         e.words = rnd(5);
         e.line = 100 + k;

@@ -118,14 +118,14 @@ static void write_ipc(FILE *f, const tcase *tc)
 static bool ipc_exceeds(const tcase *tc, pm_rat lambda)
 {
     uint32_t n = tc->xg->nnodes;
-    __int128 *dist = calloc(n, sizeof *dist);
+    pm_i128 *dist = calloc(n, sizeof *dist);
     assert_non_null(dist);
     bool changed = true;
     for (uint32_t pass = 0; pass <= n && changed; pass++) {
         changed = false;
         for (uint32_t i = 0; i < tc->nipc; i++) {
             const ipc_edge *e = &tc->ipc[i];
-            __int128 cand = dist[e->u] + (__int128)lambda.den * e->w - (__int128)lambda.num * e->d;
+            pm_i128 cand = dist[e->u] + (pm_i128)lambda.den * e->w - (pm_i128)lambda.num * e->d;
             if (cand > dist[e->v]) {
                 dist[e->v] = cand;
                 changed = true;
@@ -184,7 +184,7 @@ static uint32_t gcd32(uint32_t a, uint32_t b)
 /* Rates that balance q on u -> v: q[u] * produce == q[v] * consume. */
 static pm_edge balanced_edge(const uint32_t *q, uint32_t u, uint32_t v)
 {
-    pm_edge e = pm_edge_default(u, v);
+    pm_edge e = pm_graph_edge_default(u, v);
     uint32_t l = q[u] / gcd32(q[u], q[v]) * q[v], k = 1 + rnd(2);
     e.produce = (int64_t)(l / q[u] * k);
     e.consume = (int64_t)(l / q[v] * k);
@@ -284,12 +284,12 @@ static void check_floors(const tcase *tc)
     pm_diag d;
     if (pm_bound_compute(tc->xg, NULL, &b, &d) != PM_OK)
         fail_msg("%s: pm_bound_compute: %s", tc->label, d.msg);
-    if (b.has_loop && (__int128)p.num * b.iteration_bound.den <
-                          (__int128)b.iteration_bound.num * p.den)
+    if (b.has_loop && (pm_i128)p.num * b.iteration_bound.den <
+                          (pm_i128)b.iteration_bound.num * p.den)
         fail_msg("%s: period %lld/%lld below the iteration bound %lld/%lld", tc->label,
                  (long long)p.num, (long long)p.den, (long long)b.iteration_bound.num,
                  (long long)b.iteration_bound.den);
-    assert_true((__int128)p.num * tc->xm->ncores >= (__int128)b.total_cycles * p.den);
+    assert_true((pm_i128)p.num * tc->xm->ncores >= (pm_i128)b.total_cycles * p.den);
     pm_bound_free(&b);
 }
 
@@ -318,7 +318,7 @@ static void compare_all(void)
         pm_rat p = tc->r.period;
         /* Self-timed theorem (Sriram & Bhattacharyya 2000) with the
          * critical cycle of Boost's maximum_cycle_ratio: period == W/D */
-        if ((__int128)p.num * d != (__int128)w * p.den)
+        if ((pm_i128)p.num * d != (pm_i128)w * p.den)
             fail_msg("%s: simulated period %lld/%lld, Boost's IPC cycle %ld/%ld (%u firings)",
                      tc->label, (long long)p.num, (long long)p.den, w, d, tc->xg->nnodes);
         /* and, exactly, no IPC cycle beats the period (Boost uses doubles) */
@@ -407,7 +407,7 @@ static void test_rx_decimating(void **state)
     (void)state;
     pm_graph *g = NULL;
     pm_diag d;
-    if (pm_scenario_read_file("scenarios/rx_decimating.pace", &g, &d) != PM_OK)
+    if (pm_reader_read_file("scenarios/rx_decimating.pace", &g, &d) != PM_OK)
         fail_msg("scenarios/rx_decimating.pace: %s", d.msg);
     assert_false(pm_graph_is_single_rate(g));
     uint64_t *rep = NULL;

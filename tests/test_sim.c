@@ -34,7 +34,7 @@ static pm_graph *mk_graph(uint32_t procs, uint32_t n, const int64_t *cycles)
 
 static void mk_edge(pm_graph *g, uint32_t u, uint32_t v, int64_t delay)
 {
-    pm_edge e = pm_edge_default(u, v);
+    pm_edge e = pm_graph_edge_default(u, v);
     e.delay = delay;
     assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
 }
@@ -369,7 +369,7 @@ static pm_graph *mk_random(uint32_t n, uint32_t procs, pm_interconnect ic)
     uint32_t ne = n + rnd(2 * n);
     for (uint32_t i = 0; i < ne; i++) {
         uint32_t u = rnd(n), v = rnd(n);
-        pm_edge e = pm_edge_default(u < v ? u : v, u < v ? v : u);
+        pm_edge e = pm_graph_edge_default(u < v ? u : v, u < v ? v : u);
         e.delay = u == v ? 1 + rnd(2) : rnd(4) == 0;
         e.words = 1 + rnd(3);
         if (u > v && rnd(2)) { /* a backward edge */
@@ -568,7 +568,7 @@ static pm_graph *mk_scaled(const pm_graph *g, int64_t scale)
     h->platform.interconnect = g->platform.interconnect;
     for (uint32_t e = 0; e < g->nedges; e++) {
         pm_edge x = g->edges[e];
-        pm_edge y = pm_edge_default(x.src, x.dst);
+        pm_edge y = pm_graph_edge_default(x.src, x.dst);
         y.delay = x.delay, y.words = x.words;
         assert_int_equal(pm_graph_add_edge(h, &y, NULL), PM_OK);
     }
@@ -686,7 +686,7 @@ static void test_bad_input(void **state)
     (void)state;
     int64_t t[] = { 1, 1 };
     pm_graph *g = mk_graph(2, 2, t);
-    pm_edge e = pm_edge_default(0, 1);
+    pm_edge e = pm_graph_edge_default(0, 1);
     e.produce = 2;
     assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
     assert_int_equal(pm_graph_finalize(g), PM_OK);

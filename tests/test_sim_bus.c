@@ -167,7 +167,7 @@ static pm_graph *random_graph(uint32_t n, uint32_t procs)
     uint32_t ne = 1 + rnd(MAXE - 1);
     for (uint32_t i = 0; i < ne; i++) {
         uint32_t u = rnd(n), v = rnd(n);
-        pm_edge e = pm_edge_default(u, v);
+        pm_edge e = pm_graph_edge_default(u, v);
         e.words = 1 + rnd(3);
         e.delay = u < v ? (rnd(4) == 0) : 1 + rnd(2);
         assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);

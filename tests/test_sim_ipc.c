@@ -68,7 +68,7 @@ static pm_graph *random_graph(uint32_t n, uint32_t procs)
     uint32_t ne = rnd(2 * n + 1);
     for (uint32_t i = 0; i < ne; i++) {
         uint32_t u = rnd(n), v = rnd(n);
-        pm_edge e = pm_edge_default(u, v);
+        pm_edge e = pm_graph_edge_default(u, v);
         e.words = 1 + rnd(4);
         /* forward edges may carry no delay; others need one (no zero-delay loop) */
         e.delay = u < v ? (rnd(3) == 0 ? 1 + rnd(2) : 0) : 1 + rnd(3);
@@ -158,8 +158,8 @@ static void check_floors(const tcase *tc, bool has_loop, long w, long d)
     }
     /* (c): p >= w/d (iteration bound), p >= total/P, p >= largest node */
     if (has_loop)
-        assert_true((__int128)p.num * d >= (__int128)w * p.den);
-    assert_true((__int128)p.num * tc->m->ncores >= (__int128)total * p.den);
+        assert_true((pm_i128)p.num * d >= (pm_i128)w * p.den);
+    assert_true((pm_i128)p.num * tc->m->ncores >= (pm_i128)total * p.den);
     assert_true(p.num >= largest * p.den);
 }
 
@@ -215,7 +215,7 @@ static void test_self_timed_theorem(void **state)
             fail_msg("case %d: no steady state in 1500 iterations", i);
         steady++;
         /* (a): period == W/D of Boost's critical cycle, exactly */
-        if ((__int128)tc->r.period.num * d != (__int128)w * tc->r.period.den)
+        if ((pm_i128)tc->r.period.num * d != (pm_i128)w * tc->r.period.den)
             fail_msg("case %d: simulated %lld/%lld, Boost cycle %ld/%ld", i,
                      (long long)tc->r.period.num, (long long)tc->r.period.den, w, d);
         check_floors(tc, has_loop, bw, bd);

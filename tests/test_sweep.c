@@ -32,7 +32,7 @@ static pm_graph *load(const char *text)
     pm_graph *g = NULL;
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_scenario_read_string(text, strlen(text), "test.pace", &g, &d);
+    int rc = pm_reader_read_string(text, strlen(text), "test.pace", &g, &d);
     if (rc != PM_OK)
         fail_msg("scenario: %s:%u:%u: %s", d.file, d.line, d.col, d.msg);
     return g;
@@ -53,7 +53,7 @@ static void run(pm_graph *g, uint32_t from, uint32_t to, pm_sweep *s)
     pm_diag_clear(&d);
     int rc = sweep(g, &o, s, &d);
     if (rc != PM_OK)
-        fail_msg("sweep: %s (%s)", pm_strerror(rc), d.msg);
+        fail_msg("sweep: %s (%s)", pm_error_name(rc), d.msg);
     assert_int_equal(s->npoints, to - from + 1);
 }
 
@@ -84,7 +84,7 @@ static void dump(const pm_graph *g, const pm_sweep *s)
         print_message("P=%u period=%lld/%lld lb=%lld/%lld kind=%s", p->procs,
                       (long long)p->period.num, (long long)p->period.den,
                       (long long)p->floors.lower_bound.num, (long long)p->floors.lower_bound.den,
-                      pm_limit_name(p->limit.kind));
+                      pm_sweep_limit_name(p->limit.kind));
         for (uint32_t k = 0; k < p->limit.nnodes; k++)
             print_message(" %s", name(g, p->limit.nodes[k]));
         print_message(" hops=%u orders=%u\n", p->limit.nhops, p->limit.norders);

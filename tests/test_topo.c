@@ -55,7 +55,7 @@ static int distinct_cores(const char *desc, const pm_topo_choice *c)
 static pm_topo *open_synth(const char *desc)
 {
     pm_topo *t = NULL;
-    assert_int_equal(pm_topo_open(desc, &t), PM_OK);
+    assert_int_equal(pm_topo_create(desc, &t), PM_OK);
     return t;
 }
 
@@ -66,9 +66,9 @@ static void test_counts(void **state)
     assert_int_equal(pm_topo_npus(t), 8);
     assert_int_equal(pm_topo_ncores(t), 4);
     assert_int_equal(pm_topo_npackages(t), 2);
-    pm_topo_close(t);
-    pm_topo_close(NULL);
-    assert_int_equal(pm_topo_open("bogus:x", &t), PM_EPLATFORM);
+    pm_topo_destroy(t);
+    pm_topo_destroy(NULL);
+    assert_int_equal(pm_topo_create("bogus:x", &t), PM_EPLATFORM);
     assert_null(t);
 }
 
@@ -94,7 +94,7 @@ static void test_cores_before_siblings(void **state)
         printf("# n=%u: %s\n", n, c.summary);
         pm_topo_choice_free(&c);
     }
-    pm_topo_close(t);
+    pm_topo_destroy(t);
 }
 
 /* Two L3 caches of two cores in one package: two threads share an L3. */
@@ -111,7 +111,7 @@ static void test_shared_cache_preferred(void **state)
     assert_int_equal(pm_topo_choose(t, 3, NULL, 0, false, &c, NULL), PM_OK);
     assert_int_equal(distinct_cores(desc, &c), 3);
     pm_topo_choice_free(&c);
-    pm_topo_close(t);
+    pm_topo_destroy(t);
 }
 
 static void test_too_few_pus(void **state)
@@ -131,7 +131,7 @@ static void test_too_few_pus(void **state)
     assert_non_null(strstr(c.why[2], "--oversubscribe"));
     assert_non_null(strstr(c.summary, "PUs shared"));
     pm_topo_choice_free(&c);
-    pm_topo_close(t);
+    pm_topo_destroy(t);
 }
 
 static void test_listed_pus(void **state)
@@ -153,7 +153,7 @@ static void test_listed_pus(void **state)
     assert_int_equal(pm_topo_choose(t, 1, bad, 1, false, &c, &d), PM_ENAME);
     assert_non_null(strstr(d.msg, "PU 9"));
     assert_int_equal(pm_topo_choose(t, 3, list, 2, false, &c, &d), PM_EPLATFORM);
-    pm_topo_close(t);
+    pm_topo_destroy(t);
 }
 
 static void test_parse_list(void **state)
@@ -179,14 +179,14 @@ static void test_this_machine(void **state)
 {
     (void)state;
     pm_topo *t = NULL;
-    assert_int_equal(pm_topo_open(NULL, &t), PM_OK);
+    assert_int_equal(pm_topo_create(NULL, &t), PM_OK);
     assert_true(pm_topo_npus(t) >= 1);
     pm_topo_choice c;
     assert_int_equal(pm_topo_choose(t, 1, NULL, 0, false, &c, NULL), PM_OK);
     int rc = pm_topo_bind_thread(t, c.pu[0]);
-    printf("# this machine: %s; binding: %s\n", c.summary, pm_strerror(rc));
+    printf("# this machine: %s; binding: %s\n", c.summary, pm_error_name(rc));
     pm_topo_choice_free(&c);
-    pm_topo_close(t);
+    pm_topo_destroy(t);
 }
 
 int main(void)

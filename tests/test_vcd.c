@@ -124,7 +124,7 @@ static void test_vcd_pipeline(void **state)
     assert_int_equal(pm_graph_add_node(g, "a", 1, 3, NULL), PM_OK);
     assert_int_equal(pm_graph_add_node(g, "b", 1, 4, NULL), PM_OK);
     g->platform.comm.latency = 5;
-    pm_edge e = pm_edge_default(0, 1);
+    pm_edge e = pm_graph_edge_default(0, 1);
     assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
     assert_int_equal(pm_graph_finalize(g), PM_OK);
     uint32_t l0[] = { 0 }, l1[] = { 1 }, counts[] = { 1, 1 };

@@ -131,10 +131,10 @@ typedef struct pm_floors {
 } pm_floors;
 
 /* Floors for `procs` cores from a computed bound. */
-int pm_floors_compute(const pm_graph *g, const pm_bound *b, uint32_t procs,
+int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs,
                       pm_floors *out);
 
 /* Name of a floor kind: "loop", "cores", "node". */
-const char *pm_floor_name(pm_floor_kind k);
+const char *pm_bound_floor_name(pm_floor_kind k);
 
 #endif

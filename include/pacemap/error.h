@@ -4,13 +4,13 @@
  * Every library function that can fail returns an int: PM_OK (0) on success,
  * a negative PM_E* code on failure; results come back through out-parameters.
  * Functions that can point at a place in an input also fill a caller-supplied
- * pm_diag.  The library never prints: only the command-line front end writes
+ * pm_diag (diag.h).  The library never prints: only the command-line front end writes
  * the diagnostic, as "FILE:LINE:COL: error: message".
  */
 #ifndef PACEMAP_ERROR_H
 #define PACEMAP_ERROR_H
 
-#include <stdint.h>
+#include "pacemap/diag.h"
 
 typedef enum pm_err {
     PM_OK = 0,
@@ -30,25 +30,6 @@ typedef enum pm_err {
 } pm_err;
 
 /* Short, stable English name of an error code; never NULL. */
-const char *pm_strerror(int err);
-
-/*
- * Where and why an input is wrong.  `file` is copied (truncated if longer
- * than the buffer); line and col are 1-based, 0 when they do not apply.
- */
-typedef struct pm_diag {
-    char file[512];
-    uint32_t line;
-    uint32_t col;
-    char msg[512];
-} pm_diag;
-
-/* Fill `d` (may be NULL: then nothing happens).  printf-style message. */
-void pm_diag_set(pm_diag *d, const char *file, uint32_t line, uint32_t col,
-                 const char *fmt, ...)
-    __attribute__((format(printf, 5, 6)));
-
-/* Clear `d` to an empty diagnostic (may be NULL). */
-void pm_diag_clear(pm_diag *d);
+const char *pm_error_name(int err);
 
 #endif

@@ -134,7 +134,7 @@ void pm_graph_find_many(const pm_graph *g, const char *const *names, const size_
 int pm_graph_add_edge(pm_graph *g, const pm_edge *e, uint32_t *id);
 
 /* An edge with defaults: no delay, 1 word, rates 1/1. */
-pm_edge pm_edge_default(uint32_t src, uint32_t dst);
+pm_edge pm_graph_edge_default(uint32_t src, uint32_t dst);
 
 /* Set the platform's cores: `nclasses` classes with names and counts.
  * names == NULL means the identical-core form (one class "core").

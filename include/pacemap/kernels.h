@@ -32,40 +32,40 @@
 /* Sample i of test stream `stream`: half a triangle wave of period 64, half
  * white noise from a 64-bit mix of (stream, i).  Exact in float (both parts
  * are small dyadic fractions), in [-0.5, 0.5).  O(1), thread-safe. */
-float pm_signal_sample(uint32_t stream, uint64_t i);
+float pm_kernel_signal_sample(uint32_t stream, uint64_t i);
 
-/* out[j] = pm_signal_sample(stream, first + j) for j < n. */
-void pm_signal_fill(float *out, size_t n, uint32_t stream, uint64_t first);
+/* out[j] = pm_kernel_signal_sample(stream, first + j) for j < n. */
+void pm_kernel_signal_fill(float *out, size_t n, uint32_t stream, uint64_t first);
 
 /* Busy loop of `turns` dependent integer steps; returns a value the caller
  * must use (store it) so the compiler keeps the loop.  O(turns). */
-uint32_t pm_spin(uint64_t turns);
+uint32_t pm_kernel_spin(uint64_t turns);
 
 /* FIR tap k of a `taps`-tap filter: a triangular (Bartlett) window
  * normalised to sum 1, so the gain is at most 1 at every frequency. */
-float pm_fir_tap(uint32_t taps, uint32_t k);
+float pm_kernel_fir_tap(uint32_t taps, uint32_t k);
 
 /* Coefficients of biquad section s: {b0, b1, b2, a1, a2} of
  * H(z) = (b0 + b1 z^-1 + b2 z^-2) / (1 + a1 z^-1 + a2 z^-2), a low-pass with
  * two real poles in (0,1) and a double zero at z = -1, unity gain at DC
  * (so |H| <= 1: a graph loop of these never grows without bound). */
-void pm_biquad_coefs(uint32_t s, float c[5]);
+void pm_kernel_biquad_coefs(uint32_t s, float c[5]);
 
 /* An N-point forward complex FFT, N a power of two in [2, PM_KERNEL_MAX_FFT]
  * (iterative radix-2 decimation in time, Cooley & Tukey, Math. Comp. 1965),
  * in place on re[0..N), im[0..N); X[k] = sum x[n] e^{-2 pi i k n / N},
  * unscaled.  PM_ERANGE for a bad N, PM_ENOMEM. */
-typedef struct pm_fft pm_fft;
-int pm_fft_create(uint32_t n, pm_fft **out);
-void pm_fft_destroy(pm_fft *f);
-void pm_fft_forward(const pm_fft *f, float *re, float *im);
+typedef struct pm_kernel_fft pm_kernel_fft;
+int pm_kernel_fft_create(uint32_t n, pm_kernel_fft **out);
+void pm_kernel_fft_destroy(pm_kernel_fft *f);
+void pm_kernel_fft_forward(const pm_kernel_fft *f, float *re, float *im);
 
 /*
  * A node's work on blocks of `block` samples.  Input block in, output block
  * out (distinct buffers):
- *   spin:     out = in, then pm_spin(spin_turns);
- *   fir:T     a T-tap FIR (pm_fir_tap) with state carried between blocks;
- *   biquad:S  S cascaded sections (pm_biquad_coefs), transposed direct
+ *   spin:     out = in, then pm_kernel_spin(spin_turns);
+ *   fir:T     a T-tap FIR (pm_kernel_fir_tap) with state carried between blocks;
+ *   biquad:S  S cascaded sections (pm_kernel_biquad_coefs), transposed direct
  *             form II, state carried between blocks;
  *   fft:N     z[j] = in[j mod block] (j < N), Z = FFT(z),
  *             out[i] = Re Z[i mod N] / N.

@@ -11,6 +11,11 @@
 #include <stdbool.h>
 #include <stdint.h>
 
+/* The project's one 128-bit integer type (a GCC and Clang extension):
+ * exact intermediates, e.g. cross products of two 64-bit values. */
+__extension__ typedef __int128 pm_i128;
+__extension__ typedef unsigned __int128 pm_u128;
+
 typedef struct pm_rat {
     int64_t num;
     int64_t den; /* > 0 */
@@ -41,7 +46,8 @@ double pm_rat_to_double(pm_rat a);
 /* Smallest integer >= a. */
 int64_t pm_rat_ceil(pm_rat a);
 
-/* Greatest common divisor of |a| and |b| (gcd(0,0) = 0). */
-uint64_t pm_gcd_u64(uint64_t a, uint64_t b);
+/* Greatest common divisor of a and b (gcd(0,0) = 0): the project's one
+ * gcd, for 64-bit values too (it runs in 64-bit steps while they fit). */
+pm_u128 pm_rat_gcd(pm_u128 a, pm_u128 b);
 
 #endif

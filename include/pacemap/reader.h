@@ -19,10 +19,10 @@
 #define PM_READER_MAX_NAME 256            /* bytes in one name */
 
 /* Read the file at `path`. */
-int pm_scenario_read_file(const char *path, pm_graph **out, pm_diag *diag);
+int pm_reader_read_file(const char *path, pm_graph **out, pm_diag *diag);
 
 /* Read text[0..len) as if it came from a file called `name`. */
-int pm_scenario_read_string(const char *text, size_t len, const char *name,
+int pm_reader_read_string(const char *text, size_t len, const char *name,
                             pm_graph **out, pm_diag *diag);
 
 #endif

@@ -13,16 +13,18 @@
  * both pre-filled with the edge's delays as zero-sample tokens.  Each token
  * carries the producing iteration as a sequence number, checked on receipt.
  *
- * The procedure of a `pacemap run` is: pm_run_calibrate (busy loop),
- * pm_run_node_times (each node alone), pm_run_handoff (ring latency between
- * two pinned threads), pm_run_predict (the period the simulator gives
- * with those host times), pm_run_execute (the measured run), and a
- * second pm_run_execute of pm_run_serial_map to check the outputs bit for
+ * The procedure of a `pacemap run` is: pm_runner_calibrate (busy loop),
+ * pm_runner_node_times (each node alone), pm_runner_handoff (ring latency between
+ * two pinned threads), pm_runner_predict (the period the simulator gives
+ * with those host times), pm_runner_execute (the measured run), and a
+ * second pm_runner_execute of pm_runner_serial_map to check the outputs bit for
  * bit.
  *
  * Single-rate graphs only (PM_EUNSUPPORTED otherwise).  The library never
  * prints; pinning failures and stalls come back in the result.
- * Ownership: results are freed with pm_run_result_destroy (NULL is a no-op).
+ * Ownership: a pm_runner_result is the caller's struct; pm_runner_execute
+ * fills it and it owns its arrays: release them with pm_runner_result_free
+ * (NULL or a zeroed result is a no-op).
  */
 #ifndef PACEMAP_RUNNER_H
 #define PACEMAP_RUNNER_H
@@ -35,41 +37,41 @@
 #include "pacemap/map.h"
 #include "pacemap/topo.h"
 
-#define PM_RUN_BLOCK 64u             /* default samples per token */
-#define PM_RUN_RING_SLACK 16u        /* default ring slots beyond an edge's delay */
-#define PM_RUN_MAX_RECORDS (1u << 26)/* nodes x (warm-up + iterations) timestamps */
-#define PM_RUN_WATCHDOG_MS 2000u     /* default: stop after this long without progress */
+#define PM_RUNNER_BLOCK 64u             /* default samples per token */
+#define PM_RUNNER_RING_SLACK 16u        /* default ring slots beyond an edge's delay */
+#define PM_RUNNER_MAX_RECORDS (1u << 26)/* nodes x (warm-up + iterations) timestamps */
+#define PM_RUNNER_WATCHDOG_MS 2000u     /* default: stop after this long without progress */
 
-typedef struct pm_run_config {
+typedef struct pm_runner_config {
     uint32_t iterations;    /* measured iterations, >= 1 */
     uint32_t warmup;        /* iterations run before measuring */
     uint32_t block;         /* samples per token, 1..PM_KERNEL_MAX_BLOCK */
     uint32_t ring_capacity; /* slots per cross-core ring; 0 = edge_capacity, else
-                               delay + PM_RUN_RING_SLACK; always raised to delay + 1 */
+                               delay + PM_RUNNER_RING_SLACK; always raised to delay + 1 */
     const uint32_t *edge_capacity; /* NULL, or slots per edge (cross-core edges) */
     double ns_per_cycle;    /* spin nodes: host nanoseconds per node cycle */
-    double turns_per_ns;    /* spin calibration from pm_run_calibrate */
-    uint32_t watchdog_ms;   /* stall limit; 0 = PM_RUN_WATCHDOG_MS */
+    double turns_per_ns;    /* spin calibration from pm_runner_calibrate */
+    uint32_t watchdog_ms;   /* stall limit; 0 = PM_RUNNER_WATCHDOG_MS */
     const pm_topo *topo;    /* pin threads with it; NULL = do not pin */
     const uint32_t *pu;     /* map core c runs on PU pu[c] (OS index); with topo */
     bool yield;             /* sched_yield while waiting (PUs shared or busy host) */
     bool record_outputs;    /* keep every sink block in the result */
-} pm_run_config;
+} pm_runner_config;
 
-/* Defaults: 1000 iterations, 100 warm-up, PM_RUN_BLOCK, auto rings,
+/* Defaults: 1000 iterations, 100 warm-up, PM_RUNNER_BLOCK, auto rings,
  * 1 ns per cycle, no calibration (turns_per_ns 1), no pinning. */
-void pm_run_config_default(pm_run_config *c);
+void pm_runner_config_default(pm_runner_config *c);
 
 /* Where a stalled thread stood when the watchdog stopped the run. */
-typedef struct pm_run_wait {
+typedef struct pm_runner_wait {
     uint32_t core;
     uint32_t node;       /* node it was firing, PM_NONE when it had finished */
     uint32_t edge;       /* edge it waited on, PM_NONE when not waiting */
     bool for_space;      /* waited for room in the ring (else for a token) */
     uint64_t iteration;
-} pm_run_wait;
+} pm_runner_wait;
 
-typedef struct pm_run_result {
+typedef struct pm_runner_result {
     uint32_t ncores, nnodes, nedges;
     uint32_t iterations, warmup;
     double period_ns_median, period_ns_p99, period_ns_mean;
@@ -85,14 +87,14 @@ typedef struct pm_run_result {
     uint32_t *sinks;        /* nodes whose only out-edges are self-loops (all if none) */
     float *outputs;         /* record_outputs: [nsinks][warmup+iterations][block] */
     bool stalled;           /* the watchdog (or a same-core wait) stopped the run */
-    pm_run_wait *waits;     /* ncores, meaningful when stalled */
-} pm_run_result;
+    pm_runner_wait *waits;     /* ncores, meaningful when stalled */
+} pm_runner_result;
 
-void pm_run_result_destroy(pm_run_result *r);
+void pm_runner_result_free(pm_runner_result *r);
 
 /* Busy-loop turns per nanosecond on the calling thread: median of 9 timed
- * runs of pm_spin.  PM_EPLATFORM when the clock is unusable. ~20 ms. */
-int pm_run_calibrate(double *turns_per_ns);
+ * runs of pm_kernel_spin.  PM_EPLATFORM when the clock is unusable. ~20 ms. */
+int pm_runner_calibrate(double *turns_per_ns);
 
 /* Host time of one firing of each node alone on the calling thread (its
  * kernel on a test block; spin turns for the cycles of the class of its
@@ -100,7 +102,7 @@ int pm_run_calibrate(double *turns_per_ns);
  * to last >= 5 µs, taken in rounds over all nodes (a passing load on the
  * host then touches every node alike).  node_ns has g->nnodes entries.  PM_ERANGE for a bad
  * work parameter, PM_ENOMEM. */
-int pm_run_node_times(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
+int pm_runner_node_times(const pm_graph *g, const pm_map *m, const pm_runner_config *cfg,
                       uint32_t repeats, double *node_ns);
 
 /* One-way handoff latency of a token between a thread on PU pu_a and one
@@ -110,7 +112,7 @@ int pm_run_node_times(const pm_graph *g, const pm_map *m, const pm_run_config *c
  * pu_a afterwards; the other side is a new thread on pu_b.  *pinned says
  * whether both bindings held.  PM_EINVAL, PM_ENOMEM, PM_EPLATFORM (no
  * thread). */
-int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
+int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
                    uint32_t rounds, double *median_ns, double *p99_ns, bool *pinned);
 
 /* Predicted steady period (ns) of map m when node v takes node_ns[v] and a
@@ -125,29 +127,30 @@ int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
  * diag (may be NULL): PM_EDEADLOCK when the map admits no firing order
  * (diag names the waiting cycle), PM_EMAP, PM_ELIMIT, PM_ENOMEM.
  * Complexity: that of pm_sim_run for 1000 iterations. */
-int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
+int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
                    double handoff_ns, uint32_t fifo_cap, double *period_ns,
                    uint32_t *depth, pm_diag *diag);
 
 /* Run m with one thread per core: cfg->warmup + cfg->iterations
- * iterations.  PM_OK with *out filled; PM_EDEADLOCK with *out filled and
+ * iterations.  *out is zeroed first.  PM_OK with *out filled; PM_EDEADLOCK
+ * with *out filled and
  * stalled set when no thread progressed for cfg->watchdog_ms (or a thread
  * waited on its own core); PM_EUNSUPPORTED for a multirate graph;
- * PM_ELIMIT past PM_RUN_MAX_RECORDS; PM_ERANGE for a bad work parameter
+ * PM_ELIMIT past PM_RUNNER_MAX_RECORDS; PM_ERANGE for a bad work parameter
  * or block; PM_EINVAL when m does not fit g; PM_ENOMEM; PM_EPLATFORM when
  * a thread cannot be started.  Pinning failures do not fail the run. */
-int pm_run_execute(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
-                   pm_run_result **out);
+int pm_runner_execute(const pm_graph *g, const pm_map *m, const pm_runner_config *cfg,
+                      pm_runner_result *out);
 
 /* One core running every node in a topological order of the zero-delay
  * edges (ties by node index): the single-threaded reference.
  * PM_EZERODELAY when zero-delay edges form a cycle, PM_ENOMEM. O(V + E). */
-int pm_run_serial_map(const pm_graph *g, pm_map **out);
+int pm_runner_serial_map(const pm_graph *g, pm_map **out);
 
 /* A trivial map for `ncores` cores: nodes in that topological order dealt
  * round-robin to the cores that may run them (pins and classes honoured).
  * For tests and programs that want a map without scheduling.  PM_EPLATFORM when a node
  * has no core, PM_EZERODELAY, PM_ENOMEM.  O(V * ncores + E). */
-int pm_run_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out);
+int pm_runner_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out);
 
 #endif

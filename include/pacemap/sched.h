@@ -39,7 +39,7 @@
  * Determinism: all ties are broken by fixed rules (documented on each
  * function); results are bit-for-bit repeatable.
  *
- * Ownership: a pm_schedule owns its arrays; pm_schedule_destroy(NULL) is a
+ * Ownership: a pm_schedule owns its arrays; pm_sched_destroy(NULL) is a
  * no-op.  The graph is only read; functions are thread-safe on distinct
  * outputs.  Multirate graphs are refused (PM_EUNSUPPORTED): expand first.
  */
@@ -157,7 +157,7 @@ int pm_sched_list(const pm_graph *g, const pm_sched_opts *opts, pm_schedule **ou
 int pm_sched_from_map(const pm_graph *g, const pm_map *m, pm_schedule **out,
                       pm_diag *diag);
 
-void pm_schedule_destroy(pm_schedule *s);
+void pm_sched_destroy(pm_schedule *s);
 
 /*
  * Loop-time floor of map m: the largest, over directed cycles C of g (all

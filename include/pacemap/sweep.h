@@ -22,7 +22,7 @@
  *            Multiprocessors: Scheduling and Synchronization", 2000): its
  *            nodes, cross-core transfers and core-order links.
  * Ties go to loop, then node, then cores (the floors that more cores cannot
- * move are named first), as pm_floors_compute picks its binding floor.
+ * move are named first), as pm_bound_floors picks its binding floor.
  *
  * What-ifs explain the saturation point (the smallest P from which the
  * period no longer improves): for a loop, the iteration bound recomputed
@@ -203,7 +203,7 @@ int pm_sweep_run(pm_plan *plan, const pm_sweep_opts *opts, pm_sweep *out, pm_dia
 void pm_sweep_free(pm_sweep *s);
 
 /* "loop", "mapping", "cores", "node". */
-const char *pm_limit_name(pm_limit_kind k);
+const char *pm_sweep_limit_name(pm_limit_kind k);
 
 /* Smallest core count the graph's pins allow (1 without pins). */
 uint32_t pm_sweep_min_procs(const pm_graph *g);

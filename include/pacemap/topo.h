@@ -7,10 +7,10 @@
  * that holds enough cores come first, so threads share a cache where
  * possible.  Each chosen PU carries a one-line reason.  Only PUs allowed
  * to this process are considered: its cgroup cpuset and, on this machine,
- * its affinity mask at pm_topo_open (taskset).
+ * its affinity mask at pm_topo_create (taskset).
  *
- * Ownership: pm_topo_close(NULL) and pm_topo_choice_free(NULL) are no-ops;
- * a choice owns its arrays.  Thread safety: after pm_topo_open, every call
+ * Ownership: pm_topo_destroy(NULL) and pm_topo_choice_free(NULL) are no-ops;
+ * a choice owns its arrays.  Thread safety: after pm_topo_create, every call
  * only reads the topology, and pm_topo_bind_thread may be called from any
  * number of threads at once (hwloc binding calls do not modify it).
  */
@@ -30,8 +30,8 @@ typedef struct pm_topo pm_topo;
  * synthetic description such as "pack:2 l3:1 core:4 pu:2" (for tests; PU
  * OS indices then equal logical indices and binding is not possible).
  * PM_EPLATFORM when hwloc fails or the description is malformed. */
-int pm_topo_open(const char *synthetic, pm_topo **out);
-void pm_topo_close(pm_topo *t);
+int pm_topo_create(const char *synthetic, pm_topo **out);
+void pm_topo_destroy(pm_topo *t);
 
 /* Allowed PUs, physical cores having one, packages having one. O(PUs). */
 uint32_t pm_topo_npus(const pm_topo *t);

@@ -105,7 +105,7 @@ typedef struct part_key {
 static int part_key_cmp(const void *a, const void *b)
 {
     const part_key *x = a, *y = b;
-    bnd_i128 l = (bnd_i128)x->p * y->q, r = (bnd_i128)y->p * x->q;
+    pm_i128 l = (pm_i128)x->p * y->q, r = (pm_i128)y->p * x->q;
     if (l != r)
         return l > r ? -1 : 1; /* worst (largest) first */
     return (x->first > y->first) - (x->first < y->first);
@@ -327,12 +327,12 @@ void pm_bound_free(pm_bound *b)
 #define CERTIFY_MAX (INT64_C(1) << 40)
 
 /* One relaxation pass for longest paths; true when some value rose. */
-static bool certify_pass(const pm_graph *g, const int64_t *t, pm_rat l, bnd_i128 *dist)
+static bool certify_pass(const pm_graph *g, const int64_t *t, pm_rat l, pm_i128 *dist)
 {
     bool changed = false;
     for (uint32_t e = 0; e < g->nedges; e++) {
         const pm_edge *ed = &g->edges[e];
-        bnd_i128 w = (bnd_i128)l.den * t[ed->src] - (bnd_i128)l.num * ed->delay;
+        pm_i128 w = (pm_i128)l.den * t[ed->src] - (pm_i128)l.num * ed->delay;
         if (dist[ed->src] + w > dist[ed->dst]) {
             dist[ed->dst] = dist[ed->src] + w;
             changed = true;
@@ -354,7 +354,7 @@ int pm_bound_certify(const pm_graph *g, pm_rat lambda, bool *ok)
         return rc;
     if (lambda.num < 0) /* every loop exceeds a negative ratio: use 0 - 1/2 */
         lambda = (pm_rat){ -1, 2 };
-    bnd_i128 *dist = calloc((size_t)g->nnodes + 1, sizeof *dist);
+    pm_i128 *dist = calloc((size_t)g->nnodes + 1, sizeof *dist);
     if (!dist) {
         free(t);
         return PM_ENOMEM;

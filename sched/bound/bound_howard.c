@@ -116,7 +116,7 @@ int howard_init(howard *h, const pm_graph *g, const pm_scc *s, const uint32_t *d
         int64_t tv = pm_graph_min_cycles(g, v);
         maxt = tv > maxt ? tv : maxt;
     }
-    h->wide = (bnd_i128)sum_t * sum_d >= ((bnd_i128)1 << 60);
+    h->wide = (pm_i128)sum_t * sum_d >= ((pm_i128)1 << 60);
     h->map = malloc(((size_t)h->n + 1) * sizeof *h->map);
     h->off = calloc((size_t)h->n + 1, sizeof *h->off);
     if (!h->map || !h->off) {
@@ -162,7 +162,7 @@ void howard_free(howard *h)
 /* Exact order of two ratios (q > 0). */
 static inline int howard_cmp(const howard_cycle *a, const howard_cycle *b)
 {
-    bnd_i128 l = (bnd_i128)a->p * b->q, r = (bnd_i128)b->p * a->q;
+    pm_i128 l = (pm_i128)a->p * b->q, r = (pm_i128)b->p * a->q;
     return (l > r) - (l < r);
 }
 
@@ -202,16 +202,16 @@ static int howard_push_cycle(howard *h, int64_t w, int64_t d, uint32_t root)
         h->cycles = p;
         h->cycles_cap = cap;
     }
-    uint64_t gcd = pm_gcd_u64((uint64_t)w, (uint64_t)d);
+    uint64_t gcd = (uint64_t)pm_rat_gcd((uint64_t)w, (uint64_t)d);
     h->cycles[h->ncycles++] = (howard_cycle){ w / (int64_t)gcd, d / (int64_t)gcd, root, 0 };
     return PM_OK;
 }
 
 /* q*t(i) - p*d(k) + x(dst k): the bias i gets through local edge k. */
-static inline bnd_i128 howard_step(const howard *h, uint32_t i, uint32_t k,
+static inline pm_i128 howard_step(const howard *h, uint32_t i, uint32_t k,
                                    const howard_cycle *c)
 {
-    return (bnd_i128)c->q * ht(h, i) - (bnd_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
+    return (pm_i128)c->q * ht(h, i) - (pm_i128)c->p * he_delay(h, k) + hw_x(h, he_dst(h, k));
 }
 
 static inline bool bit_get(const uint64_t *b, uint32_t i)
@@ -240,7 +240,7 @@ static void bits_clear_range(uint64_t *b, uint32_t lo, uint32_t hi)
 /* Set node i's cycle entry and bias, and mark it dirty when its ratio or
  * bias differs from before (cycle entries of a part are never reused
  * while it is solved, so the old entry is still there). */
-static inline void howard_assign(howard *h, uint32_t i, uint32_t k, bnd_i128 x)
+static inline void howard_assign(howard *h, uint32_t i, uint32_t k, pm_i128 x)
 {
     uint32_t o = *hw_cyc(h, i);
     bool same = o != PM_NONE && h->cycles[o].p == h->cycles[k].p &&
@@ -394,7 +394,7 @@ howard_best(const howard *h, uint32_t i, bool wide)
     const howard_cycle *cy = h->cycles;
     uint32_t bc = wide ? ((hw_wide *)h->st)[i].cyc : ((hw_narrow *)h->st)[i].cyc;
     uint32_t best = wide ? ((hw_wide *)h->st)[i].pol : ((hw_narrow *)h->st)[i].pol;
-    bnd_i128 bx = wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
+    pm_i128 bx = wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
     int64_t ti = ht(h, i);
     for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
         uint32_t v = h->dst[k];
@@ -405,10 +405,10 @@ howard_best(const howard *h, uint32_t i, bool wide)
         int r = vc == bc ? 0 : howard_cmp(&cy[vc], &cy[bc]);
         if (r < 0)
             continue;
-        bnd_i128 vx = wide ? ((hw_wide *)h->st)[v].x : ((hw_narrow *)h->st)[v].x;
-        bnd_i128 val;
+        pm_i128 vx = wide ? ((hw_wide *)h->st)[v].x : ((hw_narrow *)h->st)[v].x;
+        pm_i128 val;
         if (wide)
-            val = (bnd_i128)cy[vc].q * ti - (bnd_i128)cy[vc].p * d + vx;
+            val = (pm_i128)cy[vc].q * ti - (pm_i128)cy[vc].p * d + vx;
         else /* fits: 4*T*D < 2^63 */
             val = cy[vc].q * ti - cy[vc].p * d + (int64_t)vx;
         if (r > 0 || val > bx) {
@@ -470,7 +470,7 @@ int howard_certify(const howard *h)
 {
     for (uint32_t i = 0; i < h->n; i++) {
         uint32_t cu = *hw_cyc(h, i);
-        bnd_i128 xi = hw_x(h, i);
+        pm_i128 xi = hw_x(h, i);
         for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
             if (!h->wide && k + 16 < h->off[h->n])
                 __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);
@@ -505,7 +505,7 @@ uint64_t *howard_tight_bits(const howard *h, int64_t p, int64_t q)
         uint32_t c = *hw_cyc(h, i);
         if (c == PM_NONE || h->cycles[c].p != p || h->cycles[c].q != q)
             continue;
-        bnd_i128 xi = hw_x(h, i);
+        pm_i128 xi = hw_x(h, i);
         for (uint32_t k = h->off[i]; k < h->off[i + 1]; k++) {
             if (!h->wide && k + 16 < m)
                 __builtin_prefetch(&((hw_narrow *)h->st)[h->dst[k + 16]]);

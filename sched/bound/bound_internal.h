@@ -8,8 +8,6 @@
 #include "pacemap/bound.h"
 #include "pacemap/scc.h"
 
-typedef __int128 bnd_i128;
-
 /* Check that the graph is single-rate, every node can run somewhere and
  * the sums of node times (pm_graph_min_cycles) and of delays fit in 62
  * bits.  When t is not NULL, *t gets the node times (malloc'd).  Any other
@@ -32,7 +30,7 @@ typedef struct hw_narrow {
     uint32_t cyc, pol;   /* index in cycles; policy (local edge position) */
 } hw_narrow;
 typedef struct hw_wide {
-    bnd_i128 x;
+    pm_i128 x;
     uint32_t cyc, pol;
     uint64_t pad;
 } hw_wide;
@@ -75,12 +73,12 @@ static inline uint32_t *hw_pol(const howard *h, uint32_t i)
     return h->wide ? &((hw_wide *)h->st)[i].pol : &((hw_narrow *)h->st)[i].pol;
 }
 
-static inline bnd_i128 hw_x(const howard *h, uint32_t i)
+static inline pm_i128 hw_x(const howard *h, uint32_t i)
 {
     return h->wide ? ((hw_wide *)h->st)[i].x : ((hw_narrow *)h->st)[i].x;
 }
 
-static inline void hw_set_x(const howard *h, uint32_t i, bnd_i128 x)
+static inline void hw_set_x(const howard *h, uint32_t i, pm_i128 x)
 {
     if (h->wide)
         ((hw_wide *)h->st)[i].x = x;

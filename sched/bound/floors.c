@@ -13,7 +13,7 @@
 
 #include <string.h>
 
-const char *pm_floor_name(pm_floor_kind k)
+const char *pm_bound_floor_name(pm_floor_kind k)
 {
     switch (k) {
     case PM_FLOOR_LOOP: return "loop";
@@ -58,7 +58,7 @@ static int floors_budget(const pm_graph *g, pm_floors *f)
     return PM_OK;
 }
 
-int pm_floors_compute(const pm_graph *g, const pm_bound *b, uint32_t procs, pm_floors *out)
+int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs, pm_floors *out)
 {
     if (!out)
         return PM_EINVAL;

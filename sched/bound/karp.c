@@ -24,19 +24,19 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define KARP_NEG_INF (-((bnd_i128)1 << 126))
+#define KARP_NEG_INF (-((pm_i128)1 << 126))
 
 typedef struct karp {
     const pm_graph *g;
     const int64_t *t;
-    bnd_i128 *a, *b;     /* rolling D_k rows */
-    bnd_i128 *dn;        /* D_n */
+    pm_i128 *a, *b;     /* rolling D_k rows */
+    pm_i128 *dn;        /* D_n */
     int8_t *sgn;         /* min_k sign(D_n - D_k) per node */
     int64_t maxt, maxd;
 } karp;
 
 /* row b = one more edge than row a. */
-static void karp_step(const karp *k, bnd_i128 p, bnd_i128 q, const bnd_i128 *a, bnd_i128 *b)
+static void karp_step(const karp *k, pm_i128 p, pm_i128 q, const pm_i128 *a, pm_i128 *b)
 {
     const pm_graph *g = k->g;
     for (uint32_t v = 0; v < g->nnodes; v++)
@@ -45,17 +45,17 @@ static void karp_step(const karp *k, bnd_i128 p, bnd_i128 q, const bnd_i128 *a, 
         const pm_edge *ed = &g->edges[e];
         if (a[ed->src] == KARP_NEG_INF)
             continue;
-        bnd_i128 w = a[ed->src] + q * k->t[ed->src] - p * ed->delay;
+        pm_i128 w = a[ed->src] + q * k->t[ed->src] - p * ed->delay;
         if (w > b[ed->dst])
             b[ed->dst] = w;
     }
 }
 
 /* Sign of (bound - p/q); 2 when g has no cycle. */
-static int karp_oracle(karp *k, bnd_i128 p, bnd_i128 q)
+static int karp_oracle(karp *k, pm_i128 p, pm_i128 q)
 {
     uint32_t n = k->g->nnodes;
-    bnd_i128 *a = k->a, *b = k->b, *tmp;
+    pm_i128 *a = k->a, *b = k->b, *tmp;
     memset(a, 0, (size_t)n * sizeof *a);
     for (uint32_t i = 0; i < n; i++) {
         karp_step(k, p, q, a, b);
@@ -84,7 +84,7 @@ static int karp_oracle(karp *k, bnd_i128 p, bnd_i128 q)
 }
 
 /* The oracle on a checked fraction: PM_ERANGE when weights could overflow. */
-static int karp_ask(karp *k, bnd_i128 p, bnd_i128 q, int *sign)
+static int karp_ask(karp *k, pm_i128 p, pm_i128 q, int *sign)
 {
     long double bound = ((long double)q * (long double)k->maxt +
                          (long double)p * (long double)k->maxd) *
@@ -96,20 +96,20 @@ static int karp_ask(karp *k, bnd_i128 p, bnd_i128 q, int *sign)
 }
 
 typedef struct sb_frac {
-    bnd_i128 p, q;
+    pm_i128 p, q;
 } sb_frac;
 
 /* Largest k in [1, cap] with sign(bound - (a + k*b)) > 0, knowing it holds
  * for k = 1 (sgn_dir = 1), or the mirror (sgn_dir = -1: k*a + b, sign < 0).
  * *hit is set when some candidate equals the bound exactly. */
-static int sb_gallop(karp *k, sb_frac a, sb_frac b, int dir, bnd_i128 cap, bnd_i128 *kbest,
+static int sb_gallop(karp *k, sb_frac a, sb_frac b, int dir, pm_i128 cap, pm_i128 *kbest,
                      sb_frac *hit, bool *found)
 {
     /* gallop (c = 2, 4, 8, ...) until the sign turns or cap is passed,
      * then bisect (lo, hi) */
-    bnd_i128 lo = 1, hi = 0, step = 2;
+    pm_i128 lo = 1, hi = 0, step = 2;
     for (;;) {
-        bnd_i128 c;
+        pm_i128 c;
         if (hi == 0 && step > cap) {
             hi = cap + 1;
             continue;
@@ -153,9 +153,9 @@ static int sb_search(karp *k, int64_t wmax, int64_t dmax, sb_frac *res)
             return PM_OK;
         }
         bool found = false;
-        bnd_i128 kb = 0; /* set by sb_gallop on success */
+        pm_i128 kb = 0; /* set by sb_gallop on success */
         /* caps: past them the denominator (or value) exceeds any cycle's */
-        bnd_i128 cap = s > 0 ? (r.q ? (dmax - l.q) / r.q + 1 : wmax + 1)
+        pm_i128 cap = s > 0 ? (r.q ? (dmax - l.q) / r.q + 1 : wmax + 1)
                              : (dmax - r.q) / l.q + 1;
         if (cap < 1)
             cap = 1;

@@ -1,13 +1,9 @@
 /*
- * error.c - names of error codes and the diagnostic record.
+ * error.c - names of error codes (the diagnostic record is in diag.c).
  */
 #include "pacemap/error.h"
 
-#include <stdarg.h>
-#include <stdio.h>
-#include <string.h>
-
-const char *pm_strerror(int err)
+const char *pm_error_name(int err)
 {
     switch (err) {
     case PM_OK: return "success";
@@ -26,24 +22,4 @@ const char *pm_strerror(int err)
     case PM_EUNSUPPORTED: return "unsupported";
     default: return "unknown error";
     }
-}
-
-void pm_diag_clear(pm_diag *d)
-{
-    if (d)
-        memset(d, 0, sizeof *d);
-}
-
-void pm_diag_set(pm_diag *d, const char *file, uint32_t line, uint32_t col,
-                 const char *fmt, ...)
-{
-    if (!d)
-        return;
-    snprintf(d->file, sizeof d->file, "%s", file ? file : "");
-    d->line = line;
-    d->col = col;
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(d->msg, sizeof d->msg, fmt, ap);
-    va_end(ap);
 }

@@ -31,19 +31,19 @@
 /* Exact number of expanded edges edge pe gives: 1 + the points in (0, T)
  * where the consumer firing changes (multiples of c) or the producer firing
  * changes (t = d mod p), counting points that are both once. */
-static sdf_u128 expand_edge_runs(const pm_edge *pe, const uint64_t *rep)
+static pm_u128 expand_edge_runs(const pm_edge *pe, const uint64_t *rep)
 {
-    sdf_u128 p = (sdf_u128)pe->produce, c = (sdf_u128)pe->consume;
-    sdf_u128 d = (sdf_u128)pe->delay, qu = rep[pe->src], qv = rep[pe->dst];
-    sdf_u128 T = qu * p, g = sdf_gcd128(p, c);
-    sdf_u128 zero = d % p == 0; /* t = 0 is a producer boundary: not inside */
-    sdf_u128 both = d % g == 0 ? T / (p / g * c) - zero : 0;
+    pm_u128 p = (pm_u128)pe->produce, c = (pm_u128)pe->consume;
+    pm_u128 d = (pm_u128)pe->delay, qu = rep[pe->src], qv = rep[pe->dst];
+    pm_u128 T = qu * p, g = pm_rat_gcd(p, c);
+    pm_u128 zero = d % p == 0; /* t = 0 is a producer boundary: not inside */
+    pm_u128 both = d % g == 0 ? T / (p / g * c) - zero : 0;
     return 1 + (qv - 1) + (qu - zero) - both;
 }
 
 static int expand_guard_firings(const pm_graph *g, const uint64_t *rep, pm_diag *diag)
 {
-    sdf_u128 sum = 0;
+    pm_u128 sum = 0;
     uint32_t big = 0;
     for (uint32_t v = 0; v < g->nnodes; v++) {
         sum += rep[v];
@@ -64,10 +64,10 @@ static int expand_guard_firings(const pm_graph *g, const uint64_t *rep, pm_diag 
 
 static int expand_guard_edges(const pm_graph *g, const uint64_t *rep, pm_diag *diag)
 {
-    sdf_u128 sum = 0, most = 0;
+    pm_u128 sum = 0, most = 0;
     uint32_t big = 0;
     for (uint32_t e = 0; e < g->nedges; e++) {
-        sdf_u128 n = expand_edge_runs(&g->edges[e], rep);
+        pm_u128 n = expand_edge_runs(&g->edges[e], rep);
         sum += n;
         if (n > most)
             most = n, big = e;
@@ -173,17 +173,17 @@ static int expand_nodes(const pm_graph *g, const uint64_t *rep, pm_graph *x,
 /* One run of tokens: firing i of the producer, `delay` iterations before
  * consumer firing j, `len` tokens. */
 static int expand_add_run(const pm_graph *g, const pm_edge *pe, pm_graph *x,
-                          const uint32_t *first, sdf_i128 i, sdf_i128 j, sdf_i128 delay,
-                          sdf_i128 len, pm_diag *diag)
+                          const uint32_t *first, pm_i128 i, pm_i128 j, pm_i128 delay,
+                          pm_i128 len, pm_diag *diag)
 {
-    sdf_i128 words = len * (sdf_i128)pe->words;
+    pm_i128 words = len * (pm_i128)pe->words;
     if (words > PM_MAX_VALUE) {
         pm_diag_set(diag, g->file, pe->line, pe->col,
                     "edge %s -> %s: one firing pair would exchange more than 2^62-1 words",
                     pm_graph_node_name(g, pe->src), pm_graph_node_name(g, pe->dst));
         return PM_ERANGE;
     }
-    pm_edge ne = pm_edge_default(first[pe->src] + (uint32_t)i, first[pe->dst] + (uint32_t)j);
+    pm_edge ne = pm_graph_edge_default(first[pe->src] + (uint32_t)i, first[pe->dst] + (uint32_t)j);
     ne.line = pe->line;
     ne.col = pe->col;
     ne.delay = (int64_t)delay;
@@ -195,19 +195,19 @@ static int expand_edge(const pm_graph *g, uint32_t e, const uint64_t *rep,
                        const uint32_t *first, pm_graph *x, pm_diag *diag)
 {
     const pm_edge *pe = &g->edges[e];
-    sdf_i128 p = pe->produce, c = pe->consume, d = pe->delay;
-    sdf_i128 qu = (sdf_i128)rep[pe->src];
-    sdf_i128 T = qu * p; /* tokens per iteration */
+    pm_i128 p = pe->produce, c = pe->consume, d = pe->delay;
+    pm_i128 qu = (pm_i128)rep[pe->src];
+    pm_i128 T = qu * p; /* tokens per iteration */
     int rc = PM_OK;
-    for (sdf_i128 t = 0; rc == PM_OK && t < T;) {
-        sdf_i128 j = t / c;                      /* consumer firing, iteration 0 */
-        sdf_i128 I = sdf_floordiv(t - d, p);     /* producer firing, any iteration */
-        sdf_i128 next = (j + 1) * c;
+    for (pm_i128 t = 0; rc == PM_OK && t < T;) {
+        pm_i128 j = t / c;                      /* consumer firing, iteration 0 */
+        pm_i128 I = sdf_floordiv(t - d, p);     /* producer firing, any iteration */
+        pm_i128 next = (j + 1) * c;
         if (d + (I + 1) * p < next)
             next = d + (I + 1) * p;
         if (T < next)
             next = T;
-        sdf_i128 iter = sdf_floordiv(I, qu);     /* <= 0 */
+        pm_i128 iter = sdf_floordiv(I, qu);     /* <= 0 */
         rc = expand_add_run(g, pe, x, first, I - iter * qu, j, -iter, next - t, diag);
         t = next;
     }

@@ -330,7 +330,7 @@ int pm_graph_set_class_cycles(pm_graph *g, uint32_t v, const int64_t *row)
     return PM_OK;
 }
 
-pm_edge pm_edge_default(uint32_t src, uint32_t dst)
+pm_edge pm_graph_edge_default(uint32_t src, uint32_t dst)
 {
     pm_edge e = { .src = src, .dst = dst, .words = 1, .produce = 1, .consume = 1 };
     return e;

@@ -9,9 +9,7 @@
 
 #include <stdlib.h>
 
-typedef __int128 i128;
-
-uint64_t pm_gcd_u64(uint64_t a, uint64_t b)
+static uint64_t rat_gcd64(uint64_t a, uint64_t b)
 {
     while (b) {
         uint64_t t = a % b;
@@ -21,10 +19,12 @@ uint64_t pm_gcd_u64(uint64_t a, uint64_t b)
     return a;
 }
 
-static unsigned __int128 rat_gcd128(unsigned __int128 a, unsigned __int128 b)
+pm_u128 pm_rat_gcd(pm_u128 a, pm_u128 b)
 {
     while (b) {
-        unsigned __int128 t = a % b;
+        if ((a | b) >> 64 == 0) /* 64-bit division is several times cheaper */
+            return rat_gcd64((uint64_t)a, (uint64_t)b);
+        pm_u128 t = a % b;
         a = b;
         b = t;
     }
@@ -32,7 +32,7 @@ static unsigned __int128 rat_gcd128(unsigned __int128 a, unsigned __int128 b)
 }
 
 /* Reduce a 128-bit fraction and narrow it to 64 bits. */
-static int rat_from128(i128 num, i128 den, pm_rat *out)
+static int rat_from128(pm_i128 num, pm_i128 den, pm_rat *out)
 {
     if (den == 0)
         return PM_EINVAL;
@@ -40,11 +40,11 @@ static int rat_from128(i128 num, i128 den, pm_rat *out)
         num = -num;
         den = -den;
     }
-    unsigned __int128 an = num < 0 ? (unsigned __int128)(-num) : (unsigned __int128)num;
-    unsigned __int128 g = rat_gcd128(an, (unsigned __int128)den);
+    pm_u128 an = num < 0 ? (pm_u128)(-num) : (pm_u128)num;
+    pm_u128 g = pm_rat_gcd(an, (pm_u128)den);
     if (g > 1) {
-        num /= (i128)g;
-        den /= (i128)g;
+        num /= (pm_i128)g;
+        den /= (pm_i128)g;
     }
     if (num > INT64_MAX || num < -INT64_MAX || den > INT64_MAX)
         return PM_ERANGE;
@@ -66,33 +66,33 @@ pm_rat pm_rat_int(int64_t n)
 
 int pm_rat_cmp(pm_rat a, pm_rat b)
 {
-    i128 l = (i128)a.num * b.den;
-    i128 r = (i128)b.num * a.den;
+    pm_i128 l = (pm_i128)a.num * b.den;
+    pm_i128 r = (pm_i128)b.num * a.den;
     return (l > r) - (l < r);
 }
 
 int pm_rat_add(pm_rat a, pm_rat b, pm_rat *out)
 {
-    return rat_from128((i128)a.num * b.den + (i128)b.num * a.den,
-                       (i128)a.den * b.den, out);
+    return rat_from128((pm_i128)a.num * b.den + (pm_i128)b.num * a.den,
+                       (pm_i128)a.den * b.den, out);
 }
 
 int pm_rat_sub(pm_rat a, pm_rat b, pm_rat *out)
 {
-    return rat_from128((i128)a.num * b.den - (i128)b.num * a.den,
-                       (i128)a.den * b.den, out);
+    return rat_from128((pm_i128)a.num * b.den - (pm_i128)b.num * a.den,
+                       (pm_i128)a.den * b.den, out);
 }
 
 int pm_rat_mul(pm_rat a, pm_rat b, pm_rat *out)
 {
-    return rat_from128((i128)a.num * b.num, (i128)a.den * b.den, out);
+    return rat_from128((pm_i128)a.num * b.num, (pm_i128)a.den * b.den, out);
 }
 
 int pm_rat_div(pm_rat a, pm_rat b, pm_rat *out)
 {
     if (b.num == 0)
         return PM_EINVAL;
-    return rat_from128((i128)a.num * b.den, (i128)a.den * b.num, out);
+    return rat_from128((pm_i128)a.num * b.den, (pm_i128)a.den * b.num, out);
 }
 
 pm_rat pm_rat_max(pm_rat a, pm_rat b)

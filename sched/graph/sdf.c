@@ -23,27 +23,17 @@
 
 /* ---- 128-bit helpers and diagnostics text -------------------------------- */
 
-sdf_u128 sdf_gcd128(sdf_u128 a, sdf_u128 b)
+bool sdf_mul128(pm_u128 a, pm_u128 b, pm_u128 *out)
 {
-    while (b) {
-        sdf_u128 t = a % b;
-        a = b;
-        b = t;
-    }
-    return a;
-}
-
-bool sdf_mul128(sdf_u128 a, sdf_u128 b, sdf_u128 *out)
-{
-    if (a && b > ~(sdf_u128)0 / a)
+    if (a && b > ~(pm_u128)0 / a)
         return false;
     *out = a * b;
     return true;
 }
 
-sdf_i128 sdf_floordiv(sdf_i128 a, sdf_i128 b)
+pm_i128 sdf_floordiv(pm_i128 a, pm_i128 b)
 {
-    sdf_i128 q = a / b;
+    pm_i128 q = a / b;
     if (a % b != 0 && a < 0)
         q--;
     return q;
@@ -65,7 +55,7 @@ void sdf_text_add(sdf_text *t, const char *s)
     t->len += n;
 }
 
-void sdf_text_u128(sdf_text *t, sdf_u128 v)
+void sdf_text_u128(sdf_text *t, pm_u128 v)
 {
     char digits[48];
     size_t i = sizeof digits - 1;
@@ -133,7 +123,7 @@ int sdf_tokens_init(sdf_tokens *s, const pm_graph *g, const sdf_adj *a,
         return PM_ENOMEM;
     }
     for (uint32_t e = 0; e < g->nedges; e++)
-        s->tokens[e] = (sdf_u128)g->edges[e].delay;
+        s->tokens[e] = (pm_u128)g->edges[e].delay;
     return PM_OK;
 }
 
@@ -148,20 +138,20 @@ void sdf_tokens_free(sdf_tokens *s)
 /* Firings an input edge allows.  Balance forces produce == consume on a
  * self-loop, so a self-loop that holds one firing's tokens holds them for
  * every firing. */
-static sdf_u128 sdf_edge_allows(const sdf_tokens *s, uint32_t e)
+static pm_u128 sdf_edge_allows(const sdf_tokens *s, uint32_t e)
 {
     const pm_edge *pe = &s->g->edges[e];
-    sdf_u128 tok = s->tokens[e], c = (sdf_u128)pe->consume;
+    pm_u128 tok = s->tokens[e], c = (pm_u128)pe->consume;
     if (pe->src != pe->dst)
         return tok / c;
-    return tok >= c ? ~(sdf_u128)0 : 0;
+    return tok >= c ? ~(pm_u128)0 : 0;
 }
 
 uint64_t sdf_tokens_ready(const sdf_tokens *s, uint32_t v)
 {
-    sdf_u128 k = s->rep[v] - s->fired[v];
+    pm_u128 k = s->rep[v] - s->fired[v];
     for (uint32_t i = s->adj->in_off[v]; i < s->adj->in_off[v + 1] && k; i++) {
-        sdf_u128 allow = sdf_edge_allows(s, s->adj->in_edge[i]);
+        pm_u128 allow = sdf_edge_allows(s, s->adj->in_edge[i]);
         if (allow < k)
             k = allow;
     }
@@ -173,11 +163,11 @@ void sdf_tokens_fire(sdf_tokens *s, uint32_t v, uint64_t k)
     /* outputs first, so that a self-loop never dips below zero */
     for (uint32_t i = s->adj->out_off[v]; i < s->adj->out_off[v + 1]; i++) {
         uint32_t e = s->adj->out_edge[i];
-        s->tokens[e] += (sdf_u128)k * (sdf_u128)s->g->edges[e].produce;
+        s->tokens[e] += (pm_u128)k * (pm_u128)s->g->edges[e].produce;
     }
     for (uint32_t i = s->adj->in_off[v]; i < s->adj->in_off[v + 1]; i++) {
         uint32_t e = s->adj->in_edge[i];
-        s->tokens[e] -= (sdf_u128)k * (sdf_u128)s->g->edges[e].consume;
+        s->tokens[e] -= (pm_u128)k * (pm_u128)s->g->edges[e].consume;
     }
     s->fired[v] += k;
 }
@@ -220,8 +210,8 @@ int sdf_check_balance(const pm_graph *g, const uint64_t *rep, pm_diag *diag)
         }
     for (uint32_t e = 0; e < g->nedges; e++) {
         const pm_edge *pe = &g->edges[e];
-        if ((sdf_u128)rep[pe->src] * (sdf_u128)pe->produce !=
-            (sdf_u128)rep[pe->dst] * (sdf_u128)pe->consume) {
+        if ((pm_u128)rep[pe->src] * (pm_u128)pe->produce !=
+            (pm_u128)rep[pe->dst] * (pm_u128)pe->consume) {
             pm_diag_set(diag, g->file, pe->line, pe->col,
                         "repetition vector does not balance edge %s -> %s",
                         pm_graph_node_name(g, pe->src), pm_graph_node_name(g, pe->dst));
@@ -275,10 +265,10 @@ static int sdf_forest_init(sdf_forest *f, uint32_t n)
 
 /* f * mul / div as a reduced 128-bit fraction (never overflows: the
  * factors are below 2^62). */
-static void sdf_scale(sdf_frac f, int64_t mul, int64_t div, sdf_u128 *num, sdf_u128 *den)
+static void sdf_scale(sdf_frac f, int64_t mul, int64_t div, pm_u128 *num, pm_u128 *den)
 {
-    sdf_u128 n = (sdf_u128)f.num * (sdf_u128)mul, d = (sdf_u128)f.den * (sdf_u128)div;
-    sdf_u128 k = sdf_gcd128(n, d);
+    pm_u128 n = (pm_u128)f.num * (pm_u128)mul, d = (pm_u128)f.den * (pm_u128)div;
+    pm_u128 k = pm_rat_gcd(n, d);
     *num = n / k;
     *den = d / k;
 }
@@ -291,10 +281,10 @@ static int sdf_reach(const pm_graph *g, sdf_forest *f, uint32_t e, uint32_t from
         return PM_OK;
     const pm_edge *pe = &g->edges[e];
     bool fwd = pe->src == from;
-    sdf_u128 n, d;
+    pm_u128 n, d;
     sdf_scale(f->frac[from], fwd ? pe->produce : pe->consume,
               fwd ? pe->consume : pe->produce, &n, &d);
-    if (n > (sdf_u128)PM_MAX_VALUE || d > (sdf_u128)PM_MAX_VALUE) {
+    if (n > (pm_u128)PM_MAX_VALUE || d > (pm_u128)PM_MAX_VALUE) {
         pm_diag_set(diag, g->file, pe->line, pe->col,
                     "the rates of edge %s -> %s make a firing count pass 2^62-1 "
                     "per iteration", pm_graph_node_name(g, pe->src),
@@ -374,13 +364,13 @@ static int sdf_cycle_text(const pm_graph *g, const sdf_forest *f, uint32_t e, sd
 /* Product of the count ratios the rates ask for around the cycle closed by
  * edge e (1 on a consistent cycle); false when it does not fit 128 bits. */
 static bool sdf_cycle_product(const pm_graph *g, const sdf_forest *f, uint32_t e,
-                              sdf_u128 *num, sdf_u128 *den)
+                              pm_u128 *num, pm_u128 *den)
 {
     const pm_edge *pe = &g->edges[e];
     sdf_frac fu = f->frac[pe->src], fv = f->frac[pe->dst];
-    sdf_u128 n1, d1;
+    pm_u128 n1, d1;
     sdf_scale(fu, pe->produce, pe->consume, &n1, &d1);
-    sdf_u128 g1 = sdf_gcd128(n1, fv.num), g2 = sdf_gcd128(d1, fv.den);
+    pm_u128 g1 = pm_rat_gcd(n1, fv.num), g2 = pm_rat_gcd(d1, fv.den);
     return sdf_mul128(n1 / g1, fv.den / g2, num) && sdf_mul128(d1 / g2, fv.num / g1, den);
 }
 
@@ -391,7 +381,7 @@ static int sdf_report_inconsistent(const pm_graph *g, const sdf_forest *f, uint3
     int rc = sdf_cycle_text(g, f, e, &t);
     if (rc != PM_OK)
         return rc;
-    sdf_u128 n, d;
+    pm_u128 n, d;
     if (sdf_cycle_product(g, f, e, &n, &d)) {
         const char *first = pm_graph_node_name(g, g->edges[e].src);
         sdf_text_add(&t, ": going around it, the rates ask '");
@@ -415,7 +405,7 @@ static int sdf_check_consistent(const pm_graph *g, const sdf_forest *f, pm_diag 
 {
     for (uint32_t e = 0; e < g->nedges; e++) {
         const pm_edge *pe = &g->edges[e];
-        sdf_u128 n, d;
+        pm_u128 n, d;
         sdf_scale(f->frac[pe->src], pe->produce, pe->consume, &n, &d);
         if (n != f->frac[pe->dst].num || d != f->frac[pe->dst].den)
             return sdf_report_inconsistent(g, f, e, diag);
@@ -427,11 +417,11 @@ static int sdf_check_consistent(const pm_graph *g, const sdf_forest *f, pm_diag 
 static int sdf_integer_part(const pm_graph *g, const sdf_forest *f, uint32_t begin,
                             uint32_t end, uint64_t *rep, pm_diag *diag)
 {
-    sdf_u128 lcm = 1;
+    pm_u128 lcm = 1;
     for (uint32_t i = begin; i < end; i++) {
         uint64_t den = f->frac[f->queue[i]].den;
-        lcm = lcm / sdf_gcd128(lcm, den) * den;
-        if (lcm > (sdf_u128)PM_MAX_VALUE) {
+        lcm = lcm / pm_rat_gcd(lcm, den) * den;
+        if (lcm > (pm_u128)PM_MAX_VALUE) {
             uint32_t root = f->queue[begin];
             pm_diag_set(diag, g->file, g->nodes[root].line, g->nodes[root].col,
                         "node '%s' would fire more than 2^62-1 times per iteration",
@@ -441,8 +431,8 @@ static int sdf_integer_part(const pm_graph *g, const sdf_forest *f, uint32_t beg
     }
     for (uint32_t i = begin; i < end; i++) {
         uint32_t v = f->queue[i];
-        sdf_u128 q = (sdf_u128)f->frac[v].num * (lcm / f->frac[v].den);
-        if (q > (sdf_u128)PM_MAX_VALUE) {
+        pm_u128 q = (pm_u128)f->frac[v].num * (lcm / f->frac[v].den);
+        if (q > (pm_u128)PM_MAX_VALUE) {
             pm_diag_set(diag, g->file, g->nodes[v].line, g->nodes[v].col,
                         "node '%s' would fire more than 2^62-1 times per iteration",
                         pm_graph_node_name(g, v));
@@ -506,7 +496,7 @@ static uint32_t sdf_blocking_edge(const sdf_tokens *s, uint32_t v)
 {
     for (uint32_t i = s->adj->in_off[v]; i < s->adj->in_off[v + 1]; i++) {
         uint32_t e = s->adj->in_edge[i];
-        if (s->tokens[e] < (sdf_u128)s->g->edges[e].consume)
+        if (s->tokens[e] < (pm_u128)s->g->edges[e].consume)
             return e;
     }
     return PM_NONE;

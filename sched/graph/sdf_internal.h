@@ -12,9 +12,8 @@
 #include <stdint.h>
 
 #include "pacemap/graph.h"
+#include "pacemap/rational.h"
 
-typedef unsigned __int128 sdf_u128;
-typedef __int128 sdf_i128;
 
 /* Out- and in-edges of every node (CSR), built from the edge array so that
  * an unfinalized graph works too. */
@@ -31,7 +30,7 @@ typedef struct sdf_tokens {
     const pm_graph *g;
     const sdf_adj *adj;
     const uint64_t *rep;
-    sdf_u128 *tokens; /* per edge: tokens on it now */
+    pm_u128 *tokens; /* per edge: tokens on it now */
     uint64_t *fired;  /* per node: firings done in this iteration */
 } sdf_tokens;
 
@@ -47,11 +46,10 @@ void sdf_tokens_fire(sdf_tokens *s, uint32_t v, uint64_t k);
  * else PM_EINVAL (diag says which edge). */
 int sdf_check_balance(const pm_graph *g, const uint64_t *rep, pm_diag *diag);
 
-sdf_u128 sdf_gcd128(sdf_u128 a, sdf_u128 b);
 /* a * b into *out; false when the product does not fit 128 bits. */
-bool sdf_mul128(sdf_u128 a, sdf_u128 b, sdf_u128 *out);
+bool sdf_mul128(pm_u128 a, pm_u128 b, pm_u128 *out);
 /* Floor division and the matching non-negative remainder, b > 0. */
-sdf_i128 sdf_floordiv(sdf_i128 a, sdf_i128 b);
+pm_i128 sdf_floordiv(pm_i128 a, pm_i128 b);
 
 /* A text buffer that stops growing at its capacity and then ends in "...". */
 typedef struct sdf_text {
@@ -61,6 +59,6 @@ typedef struct sdf_text {
 } sdf_text;
 
 void sdf_text_add(sdf_text *t, const char *s);
-void sdf_text_u128(sdf_text *t, sdf_u128 v);
+void sdf_text_u128(sdf_text *t, pm_u128 v);
 
 #endif

@@ -62,7 +62,7 @@ int sched_scc(const pm_graph *g, uint32_t *comp, uint32_t *ncomp, bool **cyclic)
 }
 
 /* Every node must have a core that may run it. */
-static int check_runnable(const pm_graph *g, pm_diag *diag)
+static int sched_check_runnable(const pm_graph *g, pm_diag *diag)
 {
     const pm_platform *p = &g->platform;
     for (uint32_t v = 0; v < g->nnodes; v++) {
@@ -100,7 +100,7 @@ int sched_check_graph(const pm_graph *g, uint32_t *order, pm_diag *diag)
                     "the scheduler handles single-rate graphs only; expand multirate first");
         return PM_EUNSUPPORTED;
     }
-    int rc = check_runnable(g, diag);
+    int rc = sched_check_runnable(g, diag);
     if (rc != PM_OK)
         return rc;
     uint32_t *own = order ? NULL : malloc(((size_t)g->nnodes + 1) * sizeof *own);
@@ -114,7 +114,7 @@ int sched_check_graph(const pm_graph *g, uint32_t *order, pm_diag *diag)
 /* One direction of the compact adjacency, by a counting sort over the
  * edges in index order (the graph's own adjacency order): one sequential
  * pass over the edge array instead of a gather through it. */
-static int adj_side(const pm_graph *g, bool in, uint32_t **off, uint32_t **other,
+static int sched_adj_side(const pm_graph *g, bool in, uint32_t **off, uint32_t **other,
                     uint32_t **edge, int64_t **cost, bool *overflow)
 {
     size_t m = 0;
@@ -150,9 +150,9 @@ static int adj_side(const pm_graph *g, bool in, uint32_t **off, uint32_t **other
 int sched_adj_build(const pm_graph *g, sched_adj *a, bool *overflow)
 {
     memset(a, 0, sizeof *a);
-    int rc = adj_side(g, true, &a->in_off, &a->in_src, &a->in_edge, &a->in_cost, overflow);
+    int rc = sched_adj_side(g, true, &a->in_off, &a->in_src, &a->in_edge, &a->in_cost, overflow);
     if (rc == PM_OK)
-        rc = adj_side(g, false, &a->out_off, &a->out_dst, &a->out_edge, &a->out_cost, overflow);
+        rc = sched_adj_side(g, false, &a->out_off, &a->out_dst, &a->out_edge, &a->out_cost, overflow);
     for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++)
         if (a->in_off[v + 1] - a->in_off[v] > a->maxin)
             a->maxin = a->in_off[v + 1] - a->in_off[v];

@@ -172,7 +172,7 @@ static int ls_direct(ls_ctx *x, pm_schedule **out)
     if (s)
         s->transfers = calloc(nt + 1, sizeof *s->transfers);
     if (!s || !s->transfers) {
-        pm_schedule_destroy(s);
+        pm_sched_destroy(s);
         return PM_ENOMEM;
     }
     for (uint32_t v = 0; v < g->nnodes; v++) {

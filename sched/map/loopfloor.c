@@ -8,15 +8,14 @@
  * It neither schedules nor simulates.
  */
 #include "sched_internal.h"
+#include "pacemap/rational.h"
 
 #include <stdlib.h>
-
-typedef __int128 lf_wide; /* den * w - num * d cannot overflow 128 bits */
 
 typedef struct lf_ctx {
     const pm_graph *g;
     int64_t *w;       /* per graph edge: source time + transfer cost */
-    lf_wide *dist;
+    pm_i128 *dist;
     uint32_t *pred;   /* edge that last improved each node */
     uint64_t budget;  /* node relaxations left before giving up */
     uint32_t *walk;   /* pred-graph walk stamps */
@@ -58,7 +57,7 @@ static void lf_relax(lf_ctx *x, pm_rat r, uint32_t u, uint32_t *q, uint32_t *tai
         if (!x->inloop[ei])
             continue;
         const pm_edge *e = &g->edges[ei];
-        lf_wide c = (lf_wide)r.den * x->w[ei] - (lf_wide)r.num * e->delay;
+        pm_i128 c = (pm_i128)r.den * x->w[ei] - (pm_i128)r.num * e->delay;
         if (x->dist[u] + c <= x->dist[e->dst])
             continue;
         x->dist[e->dst] = x->dist[u] + c;

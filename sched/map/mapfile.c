@@ -283,7 +283,7 @@ int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag 
         rc = pm_map_read_string(buf, len, path, g, out, diag);
     else
         pm_diag_set(diag, path, 0, 0, "cannot read file: %s",
-                    read_errno ? strerror(read_errno) : pm_strerror(rc));
+                    read_errno ? strerror(read_errno) : pm_error_name(rc));
     free(buf);
     return rc;
 }

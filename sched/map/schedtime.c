@@ -33,7 +33,7 @@ typedef struct tm_ctx {
     bool overflow;
 } tm_ctx;
 
-void pm_schedule_destroy(pm_schedule *s)
+void pm_sched_destroy(pm_schedule *s)
 {
     if (!s)
         return;
@@ -250,7 +250,7 @@ pm_schedule *sched_schedule_alloc(const pm_graph *g)
     s->slots = calloc((size_t)g->nnodes + 1, sizeof *s->slots);
     s->busy = calloc((size_t)s->ncores + 1, sizeof *s->busy);
     if (!s->slots || !s->busy) {
-        pm_schedule_destroy(s);
+        pm_sched_destroy(s);
         return NULL;
     }
     return s;
@@ -291,7 +291,7 @@ int sched_time_map(const pm_graph *g, const pm_map *m, const sched_adj *adj,
     if (rc == PM_OK)
         *out = t.s;
     else
-        pm_schedule_destroy(t.s);
+        pm_sched_destroy(t.s);
     free(t.lanes);
     free(t.heap);
     sched_adj_free(&t.own);

@@ -193,7 +193,7 @@ int reader_read_string_limited(const char *text, size_t len, const char *name,
     return reader_done(&st, out);
 }
 
-int pm_scenario_read_string(const char *text, size_t len, const char *name, pm_graph **out,
+int pm_reader_read_string(const char *text, size_t len, const char *name, pm_graph **out,
                             pm_diag *diag)
 {
     return reader_read_string_limited(text, len, name, &reader_default_limits, out, diag);
@@ -230,7 +230,7 @@ static int reader_read_fd(reader_state *st, int fd)
     return st->rc;
 }
 
-int pm_scenario_read_file(const char *path, pm_graph **out, pm_diag *diag)
+int pm_reader_read_file(const char *path, pm_graph **out, pm_diag *diag)
 {
     reader_state st;
     struct stat sb;

@@ -580,7 +580,7 @@ static int rd_edge(reader_state *st)
     uint32_t delay_col = 0;
     reader_edge_line *el = &st->elines[st->nelines++];
     *el = (reader_edge_line){ st->lineno, (uint32_t)st->nrefs, 0, false,
-                              pm_edge_default(0, 0) };
+                              pm_graph_edge_default(0, 0) };
     if (rd_next(st) || rd_edge_chain(st, el) || rd_edge_attrs(st, &el->attrs, &delay_col))
         return st->rc;
     uint64_t links = el->count - 1, delay = (uint64_t)el->attrs.delay;

@@ -194,7 +194,7 @@ int cli_load_scenario(const char *file, bool procs_set, uint32_t procs, pm_plan 
     pm_graph *g = NULL;
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_scenario_read_file(file, &g, &d);
+    int rc = pm_reader_read_file(file, &g, &d);
     if (rc != PM_OK) {
         cli_error(&d);
         return cli_exit_for(rc);
@@ -258,7 +258,7 @@ int cli_write_file(const char *path, cli_writer write, const void *ctx)
     }
     if (rc != PM_OK) {
         if (!d.msg[0])
-            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_strerror(rc));
+            pm_diag_set(&d, path, 0, 0, "cannot write (%s)", pm_error_name(rc));
         cli_error(&d);
     }
     return rc;

@@ -3,7 +3,7 @@
  * iteration bound, the loops that set it, the parts with loops worst first
  * (the next bottlenecks), the floors for P cores and the real-time budget.
  *
- * Prints only; the numbers come from pm_bound_compute and pm_floors_compute
+ * Prints only; the numbers come from pm_bound_compute and pm_bound_floors
  * (sched/bound/bound.c, sched/bound/floors.c).  What it does not do: schedule.
  */
 #include "cli.h"
@@ -17,13 +17,13 @@
 #define BOUND_MAX_PARTS 20  /* parts listed, worst first */
 #define BOUND_LOOP_WIDTH 60 /* characters of a loop's node list in text */
 
-typedef struct bound_args {
+typedef struct cb_args {
     uint32_t procs, loops;
     bool procs_set, json;
-} bound_args;
+} cb_args;
 
 /* "37/2 = 18.5" or "40". */
-static const char *fmt_rat(char *buf, size_t len, pm_rat r)
+static const char *cb_fmt_rat(char *buf, size_t len, pm_rat r)
 {
     if (r.den == 1)
         snprintf(buf, len, "%lld", (long long)r.num);
@@ -34,7 +34,7 @@ static const char *fmt_rat(char *buf, size_t len, pm_rat r)
 }
 
 /* "a -> b -> c -> a", the middle left out past `width` characters. */
-static const char *fmt_loop(char *buf, size_t len, const pm_graph *g, const pm_loop *l,
+static const char *cb_fmt_loop(char *buf, size_t len, const pm_graph *g, const pm_loop *l,
                             size_t width)
 {
     size_t at = 0, cap = width < len ? width : len - 1, full = 0;
@@ -61,7 +61,7 @@ static const char *fmt_loop(char *buf, size_t len, const pm_graph *g, const pm_l
     return buf;
 }
 
-static void text_critical(const pm_graph *g, const pm_bound *b)
+static void cb_text_critical(const pm_graph *g, const pm_bound *b)
 {
     char lb[256];
     printf("\ncritical loops (%u%s):\n", b->ncritical,
@@ -69,59 +69,59 @@ static void text_critical(const pm_graph *g, const pm_bound *b)
     for (uint32_t i = 0; i < b->ncritical; i++) {
         const pm_loop *l = &b->critical[i];
         printf("  %-*s %lld cycles / %lld %s\n", BOUND_LOOP_WIDTH,
-               fmt_loop(lb, sizeof lb, g, l, BOUND_LOOP_WIDTH), (long long)l->cycles,
+               cb_fmt_loop(lb, sizeof lb, g, l, BOUND_LOOP_WIDTH), (long long)l->cycles,
                (long long)l->delays, l->delays == 1 ? "delay" : "delays");
     }
 }
 
-static void text_parts(const pm_graph *g, const pm_bound *b)
+static void cb_text_parts(const pm_graph *g, const pm_bound *b)
 {
     char rb[64], lb[256];
     printf("\nparts with loops, worst first (%u of %u):\n", b->nparts, b->nparts_total);
     printf("  %-24s %8s  %s\n", "bound", "nodes", "a loop that sets it");
     for (uint32_t i = 0; i < b->nparts; i++) {
         const pm_part *p = &b->parts[i];
-        printf("  %-24s %8u  %s\n", fmt_rat(rb, sizeof rb, p->bound), p->nnodes,
-               fmt_loop(lb, sizeof lb, g, &p->worst, 64));
+        printf("  %-24s %8u  %s\n", cb_fmt_rat(rb, sizeof rb, p->bound), p->nnodes,
+               cb_fmt_loop(lb, sizeof lb, g, &p->worst, 64));
     }
 }
 
-static void text_floors(const pm_graph *g, const pm_bound *b, const pm_floors *f)
+static void cb_text_floors(const pm_graph *g, const pm_bound *b, const pm_floors *f)
 {
     char rb[64], what[160];
     printf("\nfloors for %u core%s (cycles per iteration):\n", f->procs,
            f->procs == 1 ? "" : "s");
     if (f->has_loop)
-        printf("  %-40s %s\n", "loop (iteration bound)", fmt_rat(rb, sizeof rb, f->loop));
+        printf("  %-40s %s\n", "loop (iteration bound)", cb_fmt_rat(rb, sizeof rb, f->loop));
     else
         printf("  %-40s %s\n", "loop (iteration bound)", "none");
     snprintf(what, sizeof what, "largest node (%.*s)", 24,
              b->largest_node == PM_NONE ? "-" : pm_graph_node_name(g, b->largest_node));
-    printf("  %-40s %s\n", what, fmt_rat(rb, sizeof rb, f->node));
+    printf("  %-40s %s\n", what, cb_fmt_rat(rb, sizeof rb, f->node));
     snprintf(what, sizeof what, "cores (%lld total / %u)", (long long)b->total_cycles,
              f->procs);
-    printf("  %-40s %s\n", what, fmt_rat(rb, sizeof rb, f->cores));
-    printf("  %-40s %s   set by: %s\n", "lower bound", fmt_rat(rb, sizeof rb, f->lower_bound),
+    printf("  %-40s %s\n", what, cb_fmt_rat(rb, sizeof rb, f->cores));
+    printf("  %-40s %s   set by: %s\n", "lower bound", cb_fmt_rat(rb, sizeof rb, f->lower_bound),
            f->binding == PM_FLOOR_LOOP ? "the critical loop"
            : f->binding == PM_FLOOR_NODE ? "the largest node" : "the total work on the cores");
 }
 
-static void text_budget(const pm_graph *g, const pm_floors *f)
+static void cb_text_budget(const pm_graph *g, const pm_floors *f)
 {
     char rb[64];
     double clock = (double)g->platform.clock_hz;
     printf("\nbudget at %.6g MHz and %.6g kHz: %s cycles per iteration (%.3f us)\n",
-           clock / 1e6, (double)g->platform.rate_hz / 1e3, fmt_rat(rb, sizeof rb, f->budget),
+           clock / 1e6, (double)g->platform.rate_hz / 1e3, cb_fmt_rat(rb, sizeof rb, f->budget),
            pm_rat_to_double(f->budget) / clock * 1e6);
     if (f->has_loop)
         printf("  iteration bound: %s\n", f->loop_fits ? "fits" : "DOES NOT FIT");
     printf("  lower bound:     %s, margin %s cycles (%.3f us)\n",
-           f->lower_fits ? "fits" : "DOES NOT FIT", fmt_rat(rb, sizeof rb, f->margin),
+           f->lower_fits ? "fits" : "DOES NOT FIT", cb_fmt_rat(rb, sizeof rb, f->margin),
            f->margin_us);
 }
 
 /* The caution, wrapped to 80 columns. */
-static void text_caution(void)
+static void cb_text_caution(void)
 {
     const char *s = cli_caution;
     while (*s) {
@@ -140,7 +140,7 @@ static void text_caution(void)
     }
 }
 
-static void bound_text(const char *file, const pm_graph *g, const pm_bound *b,
+static void cb_text(const char *file, const pm_graph *g, const pm_bound *b,
                        const pm_floors *f)
 {
     char rb[64];
@@ -150,24 +150,24 @@ static void bound_text(const char *file, const pm_graph *g, const pm_bound *b,
         printf("iteration bound: none - the graph has no loop, so no loop bounds it;\n"
                "the floor comes from the cores alone (work / P, the largest node)\n");
     } else {
-        printf("iteration bound: %s cycles per iteration", fmt_rat(rb, sizeof rb,
+        printf("iteration bound: %s cycles per iteration", cb_fmt_rat(rb, sizeof rb,
                                                                    b->iteration_bound));
         if (g->platform.clock_hz)
             printf(" (%.4g us at %.6g MHz)", pm_rat_to_double(b->iteration_bound) /
                                                  (double)g->platform.clock_hz * 1e6,
                    (double)g->platform.clock_hz / 1e6);
         printf("\n");
-        text_critical(g, b);
-        text_parts(g, b);
+        cb_text_critical(g, b);
+        cb_text_parts(g, b);
     }
-    text_floors(g, b, f);
+    cb_text_floors(g, b, f);
     if (f->has_budget)
-        text_budget(g, f);
+        cb_text_budget(g, f);
     printf("\n");
-    text_caution();
+    cb_text_caution();
 }
 
-static void json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
+static void cb_json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
 {
     pm_json_key(j, "parts");
     pm_json_array_begin(j);
@@ -188,7 +188,7 @@ static void json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
     pm_json_uint(j, b->nparts_total);
 }
 
-static void json_floors(pm_json *j, const pm_graph *g, const pm_bound *b, const pm_floors *f)
+static void cb_json_floors(pm_json *j, const pm_graph *g, const pm_bound *b, const pm_floors *f)
 {
     pm_json_key(j, "floors");
     pm_json_object_begin(j);
@@ -208,10 +208,10 @@ static void json_floors(pm_json *j, const pm_graph *g, const pm_bound *b, const 
     pm_json_rat(j, f->cores);
     pm_json_object_end(j);
     pm_json_key(j, "binding");
-    pm_json_string(j, pm_floor_name(f->binding));
+    pm_json_string(j, pm_bound_floor_name(f->binding));
 }
 
-static void json_budget(pm_json *j, const pm_graph *g, const pm_floors *f)
+static void cb_json_budget(pm_json *j, const pm_graph *g, const pm_floors *f)
 {
     pm_json_key(j, "budget");
     if (!f->has_budget) {
@@ -236,7 +236,7 @@ static void json_budget(pm_json *j, const pm_graph *g, const pm_floors *f)
     pm_json_object_end(j);
 }
 
-static void bound_json(const char *file, const pm_graph *g, const pm_bound *b,
+static void cb_json(const char *file, const pm_graph *g, const pm_bound *b,
                        const pm_floors *f)
 {
     pm_json j;
@@ -262,24 +262,24 @@ static void bound_json(const char *file, const pm_graph *g, const pm_bound *b,
     pm_json_uint(&j, f->procs);
     pm_json_key(&j, "lower_bound");
     pm_json_rat(&j, f->lower_bound);
-    json_floors(&j, g, b, f);
-    json_parts(&j, g, b);
-    json_budget(&j, g, f);
+    cb_json_floors(&j, g, b, f);
+    cb_json_parts(&j, g, b);
+    cb_json_budget(&j, g, f);
     pm_json_object_end(&j);
     pm_json_finish(&j);
 }
 
-static int bound_fail(const pm_graph *g, int rc, pm_diag *d)
+static int cb_fail(const pm_graph *g, int rc, pm_diag *d)
 {
     if (!d->msg[0])
-        pm_diag_set(d, g->file, 0, 0, "bound: %s", pm_strerror(rc));
+        pm_diag_set(d, g->file, 0, 0, "bound: %s", pm_error_name(rc));
     cli_error(d);
     return cli_exit_for(rc);
 }
 
 int pm_cmd_bound(int argc, char **argv)
 {
-    bound_args a = { .loops = PM_BOUND_DEFAULT_MAX_CRITICAL };
+    cb_args a = { .loops = PM_BOUND_DEFAULT_MAX_CRITICAL };
     const cli_opt opts[] = {
         { "-p", "--procs", CLI_U32, &a.procs, &a.procs_set,
           "cores for the floors (default: the scenario's procs)", "N" },
@@ -310,13 +310,13 @@ int pm_cmd_bound(int argc, char **argv)
     pm_bound_opts bo = { .max_critical = a.loops, .max_parts = BOUND_MAX_PARTS };
     int rc = pm_bound_compute(g, &bo, &b, &d);
     if (rc == PM_OK)
-        rc = pm_floors_compute(g, &b, g->platform.ncores, &f);
+        rc = pm_bound_floors(g, &b, g->platform.ncores, &f);
     if (rc == PM_OK && a.json)
-        bound_json(file, g, &b, &f);
+        cb_json(file, g, &b, &f);
     else if (rc == PM_OK)
-        bound_text(file, g, &b, &f);
+        cb_text(file, g, &b, &f);
     else
-        st = bound_fail(g, rc, &d);
+        st = cb_fail(g, rc, &d);
     pm_bound_free(&b);
     pm_graph_destroy(g);
     return st;

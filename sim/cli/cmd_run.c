@@ -23,33 +23,33 @@
 #include "pacemap/sched.h"
 #include "pacemap/topo.h"
 
-typedef struct run_opts {
+typedef struct cr_opts {
     uint32_t procs, iters, warmup, ring, block, watchdog;
     bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
     bool oversubscribe, json, no_refine;
     const char *map, *cores, *nspc;
     const char *file;
-} run_opts;
+} cr_opts;
 
-typedef struct run_state {
-    run_opts o;
+typedef struct cr_state {
+    cr_opts o;
     pm_plan scn;       /* the scenario; g is its (expanded) graph */
     pm_graph *g;
     pm_map *m;
     bool scheduled_map;     /* made by the list scheduler (else --map) */
     pm_topo *topo;
     pm_topo_choice pus;
-    pm_run_config cfg;
+    pm_runner_config cfg;
     bool main_pinned, handoff_pinned;
     double *node_ns;
     uint32_t *depth, *cap;    /* per edge: model buffer depth, ring slots */
     double handoff, handoff_p99, predicted;
     double predicted_in_run;  /* the model again, with the in-run firing times */
-    pm_run_result *res;
+    pm_runner_result res;
     bool outputs_match;
-} run_state;
+} cr_state;
 
-static int run_parse(run_opts *o, int argc, char **argv)
+static int cr_parse(cr_opts *o, int argc, char **argv)
 {
     const cli_opt opts[] = {
         {"-p", "--procs", CLI_U32, &o->procs, &o->procs_set, "cores of the map", "N"},
@@ -83,17 +83,17 @@ static int run_parse(run_opts *o, int argc, char **argv)
     return cli_parse(&cmd, argc, argv, &o->file);
 }
 
-static int run_config(run_state *s)
+static int cr_config(cr_state *s)
 {
-    run_opts *o = &s->o;
-    pm_run_config *c = &s->cfg;
-    pm_run_config_default(c);
+    cr_opts *o = &s->o;
+    pm_runner_config *c = &s->cfg;
+    pm_runner_config_default(c);
     c->iterations = o->iters_set ? o->iters : 1000u;
     c->warmup = o->warmup_set ? o->warmup
                               : (c->iterations / 10 < 10 ? 10 : c->iterations / 10 > 1000
                                                                     ? 1000 : c->iterations / 10);
     c->ring_capacity = o->ring_set ? o->ring : 0;
-    c->block = o->block_set ? o->block : PM_RUN_BLOCK;
+    c->block = o->block_set ? o->block : PM_RUNNER_BLOCK;
     c->watchdog_ms = o->watchdog_set ? o->watchdog : 0;
     if (c->iterations < 1 || c->block < 1 || c->block > PM_KERNEL_MAX_BLOCK) {
         cli_usage_error("run: -n must be at least 1 and --block from 1 to %u",
@@ -115,7 +115,7 @@ static int run_config(run_state *s)
 }
 
 /* The map to run: --map, else the plan's (pm_plan_map, refined unless --no-refine). */
-static int run_make_map(run_state *s)
+static int cr_make_map(cr_state *s)
 {
     pm_diag d;
     pm_diag_clear(&d);
@@ -130,19 +130,19 @@ static int run_make_map(run_state *s)
     if (rc != PM_OK) {
         if (!d.msg[0])
             pm_diag_set(&d, s->g->file, 0, 0, "cannot map the graph onto %u cores: %s",
-                        s->g->platform.ncores, pm_strerror(rc));
+                        s->g->platform.ncores, pm_error_name(rc));
         cli_error(&d);
         return cli_exit_for(rc);
     }
     return CLI_EXIT_OK;
 }
 
-static int run_choose_pus(run_state *s)
+static int cr_choose_pus(cr_state *s)
 {
     pm_diag d;
     pm_diag_clear(&d);
     uint32_t *list = NULL, n = 0;
-    int rc = pm_topo_open(NULL, &s->topo);
+    int rc = pm_topo_create(NULL, &s->topo);
     if (rc != PM_OK) {
         pm_diag_set(&d, "pacemap", 0, 0, "hwloc cannot read this machine's topology");
         cli_error(&d);
@@ -168,7 +168,7 @@ static int run_choose_pus(run_state *s)
 
 /* A node slower than the watchdog would look like a stall: give the
  * watchdog ten times the slowest node unless the user set it. */
-static void run_watchdog_fit(run_state *s)
+static void cr_watchdog_fit(cr_state *s)
 {
     double slow = 0;
     if (!s->node_ns)
@@ -176,70 +176,70 @@ static void run_watchdog_fit(run_state *s)
     for (uint32_t v = 0; v < s->g->nnodes; v++)
         slow = s->node_ns[v] > slow ? s->node_ns[v] : slow;
     double ms = 10.0 * slow / 1e6;
-    if (!s->o.watchdog_set && ms > PM_RUN_WATCHDOG_MS)
+    if (!s->o.watchdog_set && ms > PM_RUNNER_WATCHDOG_MS)
         s->cfg.watchdog_ms = ms < 4e9 ? (uint32_t)ms : UINT32_MAX;
 }
 
 /* Without --ring, each ring holds the model's buffer depth plus one,
- * at least delay + PM_RUN_RING_SLACK and at most delay + 1024 (a depth
+ * at least delay + PM_RUNNER_RING_SLACK and at most delay + 1024 (a depth
  * that keeps growing in the model means the parts run at different
  * rates; back-pressure then paces the producer). */
-static void run_ring_sizes(run_state *s)
+static void cr_ring_sizes(cr_state *s)
 {
     if (s->o.ring_set || !s->cap)
         return;
     for (uint32_t e = 0; e < s->g->nedges; e++) {
         uint64_t d = (uint64_t)s->g->edges[e].delay, want = (uint64_t)s->depth[e] + 1u;
-        uint64_t lo = d + PM_RUN_RING_SLACK, hi = d + 1024u;
+        uint64_t lo = d + PM_RUNNER_RING_SLACK, hi = d + 1024u;
         want = want < lo ? lo : want > hi ? hi : want;
         s->cap[e] = want > UINT32_MAX ? UINT32_MAX : (uint32_t)want;
     }
     s->cfg.edge_capacity = s->cap;
 }
 
-static int run_measure(run_state *s)
+static int cr_measure(cr_state *s)
 {
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_run_calibrate(&s->cfg.turns_per_ns);
+    int rc = pm_runner_calibrate(&s->cfg.turns_per_ns);
     s->main_pinned = pm_topo_bind_thread(s->topo, s->pus.pu[0]) == PM_OK;
     s->node_ns = calloc(s->g->nnodes ? s->g->nnodes : 1, sizeof *s->node_ns);
     if (rc == PM_OK)
-        rc = s->node_ns ? pm_run_node_times(s->g, s->m, &s->cfg, 15, s->node_ns) : PM_ENOMEM;
+        rc = s->node_ns ? pm_runner_node_times(s->g, s->m, &s->cfg, 15, s->node_ns) : PM_ENOMEM;
     if (rc == PM_OK && s->m->ncores > 1)
-        rc = pm_run_handoff(&s->cfg, s->pus.pu[0], s->pus.pu[1], 2000, &s->handoff,
+        rc = pm_runner_handoff(&s->cfg, s->pus.pu[0], s->pus.pu[1], 2000, &s->handoff,
                             &s->handoff_p99, &s->handoff_pinned);
     s->depth = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->depth);
     s->cap = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->cap);
     if (rc == PM_OK && (!s->depth || !s->cap))
         rc = PM_ENOMEM;
     if (rc == PM_OK)
-        rc = pm_run_predict(s->g, s->m, s->node_ns, s->handoff, s->o.ring_set ? s->o.ring : 0,
+        rc = pm_runner_predict(s->g, s->m, s->node_ns, s->handoff, s->o.ring_set ? s->o.ring : 0,
                             &s->predicted, s->depth, &d);
-    run_watchdog_fit(s);
-    run_ring_sizes(s);
+    cr_watchdog_fit(s);
+    cr_ring_sizes(s);
     if (rc != PM_OK) {
         if (!d.msg[0])
             pm_diag_set(&d, s->g->file, 0, 0, "run: cannot measure or predict: %s",
-                        pm_strerror(rc));
+                        pm_error_name(rc));
         cli_error(&d);
         return cli_exit_for(rc);
     }
     return CLI_EXIT_OK;
 }
 
-static const char *run_edge_text(const pm_graph *g, uint32_t e, char *buf, size_t n)
+static const char *cr_edge_text(const pm_graph *g, uint32_t e, char *buf, size_t n)
 {
     snprintf(buf, n, "%s -> %s", pm_graph_node_name(g, g->edges[e].src),
              pm_graph_node_name(g, g->edges[e].dst));
     return buf;
 }
 
-static void run_report_stall(const run_state *s)
+static void cr_report_stall(const cr_state *s)
 {
-    const pm_run_result *r = s->res;
+    const pm_runner_result *r = &s->res;
     for (uint32_t c = 0; c < r->ncores; c++) {
-        const pm_run_wait *w = &r->waits[c];
+        const pm_runner_wait *w = &r->waits[c];
         if (w->edge == PM_NONE)
             continue;
         char eb[600];
@@ -249,35 +249,35 @@ static void run_report_stall(const run_state *s)
                     "run stopped, no progress: core %u (node %s, iteration %llu) waits for "
                     "%s on edge %s", c, pm_graph_node_name(s->g, w->node),
                     (unsigned long long)w->iteration, w->for_space ? "ring space" : "a token",
-                    run_edge_text(s->g, w->edge, eb, sizeof eb));
+                    cr_edge_text(s->g, w->edge, eb, sizeof eb));
         cli_error(&d);
     }
 }
 
-static int run_execute(run_state *s)
+static int cr_execute(cr_state *s)
 {
-    int rc = pm_run_execute(s->g, s->m, &s->cfg, &s->res);
+    int rc = pm_runner_execute(s->g, s->m, &s->cfg, &s->res);
     if (rc == PM_EDEADLOCK) {
-        run_report_stall(s);
+        cr_report_stall(s);
         return CLI_EXIT_INPUT;
     }
     pm_map *serial = NULL;
-    pm_run_result *one = NULL;
+    pm_runner_result one = {0};
     if (rc == PM_OK)
-        rc = pm_run_serial_map(s->g, &serial);
+        rc = pm_runner_serial_map(s->g, &serial);
     if (rc == PM_OK) {
-        pm_run_config c = s->cfg;
+        pm_runner_config c = s->cfg;
         c.pu = s->pus.pu; /* the single thread goes on the first PU */
-        rc = pm_run_execute(s->g, serial, &c, &one);
+        rc = pm_runner_execute(s->g, serial, &c, &one);
     }
-    if (rc == PM_OK && pm_run_predict(s->g, s->m, s->res->node_ns, s->handoff,
-                                      s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
-                                      NULL, NULL) != PM_OK)
+    if (rc == PM_OK && pm_runner_predict(s->g, s->m, s->res.node_ns, s->handoff,
+                                         s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
+                                         NULL, NULL) != PM_OK)
         s->predicted_in_run = 0;
     if (rc == PM_OK)
-        s->outputs_match = one->output_hash == s->res->output_hash &&
-                           s->res->order_errors == 0;
-    pm_run_result_destroy(one);
+        s->outputs_match = one.output_hash == s->res.output_hash &&
+                           s->res.order_errors == 0;
+    pm_runner_result_free(&one);
     pm_map_destroy(serial);
     if (rc != PM_OK) {
         pm_diag d;
@@ -285,16 +285,16 @@ static int run_execute(run_state *s)
             pm_diag_set(&d, s->g->file, 0, 0, "run: %u nodes x %u iterations (warm-up "
                         "included) exceed the %u timestamps kept, or a ring is too large; "
                         "use a smaller -n or --ring", s->g->nnodes,
-                        s->cfg.iterations + s->cfg.warmup, PM_RUN_MAX_RECORDS);
+                        s->cfg.iterations + s->cfg.warmup, PM_RUNNER_MAX_RECORDS);
         else
-            pm_diag_set(&d, s->g->file, 0, 0, "run failed: %s", pm_strerror(rc));
+            pm_diag_set(&d, s->g->file, 0, 0, "run failed: %s", pm_error_name(rc));
         cli_error(&d);
         return cli_exit_for(rc);
     }
     return CLI_EXIT_OK;
 }
 
-static const char *run_work_text(const pm_node *n, char *buf, size_t len)
+static const char *cr_work_text(const pm_node *n, char *buf, size_t len)
 {
     static const char *const names[] = {"spin", "fir", "biquad", "fft"};
     if (n->work == PM_WORK_SPIN)
@@ -304,15 +304,15 @@ static const char *run_work_text(const pm_node *n, char *buf, size_t len)
     return buf;
 }
 
-static bool run_all_pinned(const run_state *s)
+static bool cr_all_pinned(const cr_state *s)
 {
-    for (uint32_t c = 0; c < s->res->ncores; c++)
-        if (!s->res->pinned[c])
+    for (uint32_t c = 0; c < s->res.ncores; c++)
+        if (!s->res.pinned[c])
             return false;
     return s->main_pinned && (s->m->ncores < 2 || s->handoff_pinned);
 }
 
-static void run_text_setup(const run_state *s)
+static void cr_text_setup(const cr_state *s)
 {
     const pm_platform *p = &s->g->platform;
     printf("run %s%s%s%s\n", s->o.file, p->title ? " \"" : "", p->title ? p->title : "",
@@ -332,7 +332,7 @@ static void run_text_setup(const run_state *s)
                "the round trip)\n", s->pus.pu[0], s->pus.pu[1], s->handoff, s->handoff_p99);
 }
 
-static void run_text_nodes(const run_state *s)
+static void cr_text_nodes(const cr_state *s)
 {
     printf("\n%-20s %5s  %-12s %12s %14s %14s\n", "node", "core", "work", "cycles",
            "host ns alone", "ns in the run");
@@ -342,16 +342,16 @@ static void run_text_nodes(const run_state *s)
             char wb[32];
             uint32_t cls = s->g->platform.core_class[c];
             printf("%-20.20s %5u  %-12s %12lld %14.0f %14.0f\n", pm_graph_node_name(s->g, v),
-                   c, run_work_text(&s->g->nodes[v], wb, sizeof wb),
+                   c, cr_work_text(&s->g->nodes[v], wb, sizeof wb),
                    (long long)pm_graph_cycles_on(s->g, v, cls), s->node_ns[v],
-                   s->res->node_ns[v]);
+                   s->res.node_ns[v]);
         }
     printf("(alone: median of 15 timed samples on one PU; in the run: median firing time, "
            "outputs included)\n\n");
 }
 
 /* Print text in lines of at most `width` columns, breaking at spaces. */
-static void run_print_wrapped(const char *text, size_t width)
+static void cr_print_wrapped(const char *text, size_t width)
 {
     while (*text) {
         size_t len = strlen(text), cut = len;
@@ -369,9 +369,9 @@ static void run_print_wrapped(const char *text, size_t width)
     }
 }
 
-static void run_text_results(const run_state *s)
+static void cr_text_results(const cr_state *s)
 {
-    const pm_run_result *r = s->res;
+    const pm_runner_result *r = &s->res;
     printf("predicted period   %12.0f ns  (simulator: host times above, handoff between "
            "cores)\n", s->predicted);
     printf("measured period    %12.0f ns  median; p99 %.0f ns, mean %.0f ns\n",
@@ -391,14 +391,14 @@ static void run_text_results(const run_state *s)
                : "DIFFER from a single-threaded run or arrived out of order");
     if (s->pus.shared)
         printf("oversubscribed     threads share PUs; the prediction assumes one PU per core\n");
-    printf("pinning            %s\n", run_all_pinned(s)
+    printf("pinning            %s\n", cr_all_pinned(s)
                ? "every thread pinned to its PU"
                : "NOT pinned (the system refused; times may include migrations)");
     printf("\n");
-    run_print_wrapped(cli_caution, 100);
+    cr_print_wrapped(cli_caution, 100);
 }
 
-static void run_json_cores(pm_json *j, const run_state *s)
+static void cr_json_cores(pm_json *j, const cr_state *s)
 {
     pm_json_key(j, "cores");
     pm_json_array_begin(j);
@@ -407,8 +407,8 @@ static void run_json_cores(pm_json *j, const run_state *s)
         pm_json_key(j, "core"); pm_json_uint(j, c);
         pm_json_key(j, "pu"); pm_json_uint(j, s->pus.pu[c]);
         pm_json_key(j, "why"); pm_json_string(j, s->pus.why[c]);
-        pm_json_key(j, "busy"); pm_json_double(j, s->res->busy[c]);
-        pm_json_key(j, "pinned"); pm_json_bool(j, s->res->pinned[c]);
+        pm_json_key(j, "busy"); pm_json_double(j, s->res.busy[c]);
+        pm_json_key(j, "pinned"); pm_json_bool(j, s->res.pinned[c]);
         pm_json_object_end(j);
     }
     pm_json_array_end(j);
@@ -419,17 +419,17 @@ static void run_json_cores(pm_json *j, const run_state *s)
         pm_json_object_begin(j);
         pm_json_key(j, "name"); pm_json_string(j, pm_graph_node_name(s->g, v));
         pm_json_key(j, "core"); pm_json_uint(j, s->m->core_of[v]);
-        pm_json_key(j, "work"); pm_json_string(j, run_work_text(&s->g->nodes[v], wb, sizeof wb));
+        pm_json_key(j, "work"); pm_json_string(j, cr_work_text(&s->g->nodes[v], wb, sizeof wb));
         pm_json_key(j, "host_ns"); pm_json_double(j, s->node_ns[v]);
-        pm_json_key(j, "run_ns"); pm_json_double(j, s->res->node_ns[v]);
+        pm_json_key(j, "run_ns"); pm_json_double(j, s->res.node_ns[v]);
         pm_json_object_end(j);
     }
     pm_json_array_end(j);
 }
 
-static void run_json(const run_state *s)
+static void cr_json(const cr_state *s)
 {
-    const pm_run_result *r = s->res;
+    const pm_runner_result *r = &s->res;
     pm_json j;
     pm_json_init(&j, stdout, 2);
     pm_json_object_begin(&j);
@@ -449,58 +449,58 @@ static void run_json(const run_state *s)
     pm_json_key(&j, "iterations"); pm_json_uint(&j, r->iterations);
     pm_json_key(&j, "warmup"); pm_json_uint(&j, r->warmup);
     pm_json_key(&j, "block"); pm_json_uint(&j, s->cfg.block);
-    pm_json_key(&j, "pinned"); pm_json_bool(&j, run_all_pinned(s));
+    pm_json_key(&j, "pinned"); pm_json_bool(&j, cr_all_pinned(s));
     pm_json_key(&j, "oversubscribed"); pm_json_bool(&j, s->pus.shared);
     pm_json_key(&j, "outputs_match"); pm_json_bool(&j, s->outputs_match);
     pm_json_key(&j, "order_errors"); pm_json_uint(&j, r->order_errors);
-    run_json_cores(&j, s);
+    cr_json_cores(&j, s);
     pm_json_object_end(&j);
     pm_json_finish(&j);
 }
 
-static void run_free(run_state *s)
+static void cr_free(cr_state *s)
 {
-    pm_run_result_destroy(s->res);
+    pm_runner_result_free(&s->res);
     free(s->node_ns);
     free(s->depth);
     free(s->cap);
     pm_topo_choice_free(&s->pus);
-    pm_topo_close(s->topo);
+    pm_topo_destroy(s->topo);
     pm_map_destroy(s->m);
     pm_plan_free(&s->scn);
 }
 
-static int run_steps(run_state *s)
+static int cr_steps(cr_state *s)
 {
     int st = cli_load_scenario(s->o.file, s->o.procs_set, s->o.procs, &s->scn);
     if (st != CLI_EXIT_OK)
         return st;
     s->g = s->scn.graph;
-    if ((st = run_config(s)) != CLI_EXIT_OK || (st = run_make_map(s)) != CLI_EXIT_OK ||
-        (st = run_choose_pus(s)) != CLI_EXIT_OK || (st = run_measure(s)) != CLI_EXIT_OK ||
-        (st = run_execute(s)) != CLI_EXIT_OK)
+    if ((st = cr_config(s)) != CLI_EXIT_OK || (st = cr_make_map(s)) != CLI_EXIT_OK ||
+        (st = cr_choose_pus(s)) != CLI_EXIT_OK || (st = cr_measure(s)) != CLI_EXIT_OK ||
+        (st = cr_execute(s)) != CLI_EXIT_OK)
         return st;
-    if (!run_all_pinned(s))
+    if (!cr_all_pinned(s))
         cli_warning("run: the system refused to pin threads (restricted cpuset or "
                     "container?); ran unpinned");
     if (s->o.json) {
-        run_json(s);
+        cr_json(s);
     } else {
-        run_text_setup(s);
-        run_text_nodes(s);
-        run_text_results(s);
+        cr_text_setup(s);
+        cr_text_nodes(s);
+        cr_text_results(s);
     }
     return s->outputs_match ? CLI_EXIT_OK : CLI_EXIT_INPUT;
 }
 
 int pm_cmd_run(int argc, char **argv)
 {
-    run_state s;
+    cr_state s;
     memset(&s, 0, sizeof s);
-    int st = run_parse(&s.o, argc, argv);
+    int st = cr_parse(&s.o, argc, argv);
     if (st >= 0)
         return st;
-    st = run_steps(&s);
-    run_free(&s);
+    st = cr_steps(&s);
+    cr_free(&s);
     return st;
 }

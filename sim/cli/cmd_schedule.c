@@ -319,7 +319,7 @@ static int sc_compute(const sc_args *a, sc_result *r)
     }
     if (rc != PM_OK) {
         if (!d.msg[0])
-            pm_diag_set(&d, r->file, 0, 0, "%s", pm_strerror(rc));
+            pm_diag_set(&d, r->file, 0, 0, "%s", pm_error_name(rc));
         cli_error(&d);
     }
     return rc;
@@ -377,7 +377,7 @@ int pm_cmd_schedule(int argc, char **argv)
     st = sc_run(&a, &r);
     if (st == CLI_EXIT_OK && !a.json)
         sc_print_wrapped(cli_caution);
-    pm_schedule_destroy(r.s);
+    pm_sched_destroy(r.s);
     pm_map_destroy(r.m);
     free(r.loop);
     pm_plan_free(&scn);

@@ -175,7 +175,7 @@ static void sm_text_period(const sm_run *s)
                (long long)s->b.iteration_bound.den, sm_ratio(r->period, s->b.iteration_bound));
     if (s->has_bound)
         printf("lower bound    %.6g for %u cores (%s): period is %.3f x the lower bound\n",
-               pm_rat_to_double(s->f.lower_bound), s->f.procs, pm_floor_name(s->f.binding),
+               pm_rat_to_double(s->f.lower_bound), s->f.procs, pm_bound_floor_name(s->f.binding),
                sm_ratio(r->period, s->f.lower_bound));
     if (s->has_bound && s->f.has_budget)
         printf("budget         %.6g cycles per iteration: %s\n", pm_rat_to_double(s->f.budget),
@@ -438,13 +438,13 @@ static int sm_compute(const sm_args *a, sm_run *s)
         rc = pm_sim_run(s->g, s->m, &o, &s->r, &d);
     }
     if (rc == PM_OK && pm_bound_compute(s->g, NULL, &s->b, NULL) == PM_OK) {
-        s->has_bound = pm_floors_compute(s->g, &s->b, s->m->ncores, &s->f) == PM_OK;
+        s->has_bound = pm_bound_floors(s->g, &s->b, s->m->ncores, &s->f) == PM_OK;
         if (!s->has_bound)
             pm_bound_free(&s->b);
     }
     if (rc != PM_OK) {
         if (!d.msg[0])
-            pm_diag_set(&d, s->file, 0, 0, "%s", pm_strerror(rc));
+            pm_diag_set(&d, s->file, 0, 0, "%s", pm_error_name(rc));
         cli_error(&d);
     }
     return rc;

@@ -154,7 +154,7 @@ static void sw_text_table(const sw_report *r)
                sw_rat_text(a, sizeof a, p->period), p->steady ? ' ' : '~',
                sw_rat_text(b, sizeof b, p->floors.lower_bound),
                p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-", sp, ef,
-               pm_limit_name(p->limit.kind));
+               pm_sweep_limit_name(p->limit.kind));
     }
     for (uint32_t i = 0; i < s->npoints; i++)
         if (!s->points[i].steady) {
@@ -241,7 +241,7 @@ static void sw_text_limits(const sw_report *r)
     for (uint32_t i = 0; i < r->s->npoints; i++) {
         const pm_sweep_point *p = &r->s->points[i];
         char head[48];
-        snprintf(head, sizeof head, "%5u  %-8s ", p->procs, pm_limit_name(p->limit.kind));
+        snprintf(head, sizeof head, "%5u  %-8s ", p->procs, pm_sweep_limit_name(p->limit.kind));
         sw_line l = {{0}, 0};
         if (i > 0 && sw_same_limit(&p->limit, &r->s->points[i - 1].limit))
             sw_add(&l, "as above");
@@ -268,7 +268,7 @@ static void sw_text_saturation(const sw_report *r)
         sw_add(&l, "from P = %u on the period stays at %s%s. Limit (%s): ", p->procs,
                sw_rat_text(a, sizeof a, p->period),
                s->saturation_proven ? ", a floor no core count can move" : "",
-               pm_limit_name(p->limit.kind));
+               pm_sweep_limit_name(p->limit.kind));
         sw_evidence(&l, r, p);
         sw_add(&l, ".");
     }
@@ -357,7 +357,7 @@ static void sw_text_whatif(const sw_report *r)
     if (!w->present)
         return;
     const pm_sweep_point *p = &r->s->points[w->point];
-    printf("\nWhat would move it at P = %u (limit: %s", p->procs, pm_limit_name(w->kind));
+    printf("\nWhat would move it at P = %u (limit: %s", p->procs, pm_sweep_limit_name(w->kind));
     if (w->nrows)
         printf("; each node %lld cycles faster in turn", (long long)w->faster);
     printf("):\n");
@@ -495,7 +495,7 @@ static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map
     int rc = pm_sweep_run(scn, &o, &s, &d);
     if (rc != PM_OK) {
         if (!d.msg[0])
-            pm_diag_set(&d, file, 0, 0, "sweep failed: %s", pm_strerror(rc));
+            pm_diag_set(&d, file, 0, 0, "sweep failed: %s", pm_error_name(rc));
         cli_error(&d);
         pm_sweep_free(&s);
         return rc == PM_EINVAL ? CLI_EXIT_INPUT : cli_exit_for(rc);

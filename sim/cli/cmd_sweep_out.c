@@ -72,7 +72,7 @@ static void sw_json_limit(pm_json *j, const pm_graph *g, const pm_sweep_limit *l
     pm_json_key(j, "limit");
     pm_json_object_begin(j);
     pm_json_key(j, "kind");
-    pm_json_string(j, pm_limit_name(l->kind));
+    pm_json_string(j, pm_sweep_limit_name(l->kind));
     pm_json_key(j, "nodes");
     sw_json_nodes(j, g, l->nodes, l->nnodes);
     if (l->kind == PM_LIMIT_LOOP || l->kind == PM_LIMIT_MAPPING) {
@@ -193,7 +193,7 @@ static void sw_json_whatif(pm_json *j, const sw_report *r)
     pm_json_key(j, "procs");
     pm_json_uint(j, r->s->points[w->point].procs);
     pm_json_key(j, "kind");
-    pm_json_string(j, pm_limit_name(w->kind));
+    pm_json_string(j, pm_sweep_limit_name(w->kind));
     pm_json_key(j, "faster_by");
     pm_json_int(j, w->faster);
     sw_json_rows(j, r->g, w);
@@ -202,7 +202,7 @@ static void sw_json_whatif(pm_json *j, const sw_report *r)
     if (w->has_next) {
         pm_json_object_begin(j);
         pm_json_key(j, "kind");
-        pm_json_string(j, pm_limit_name(w->next_kind));
+        pm_json_string(j, pm_sweep_limit_name(w->next_kind));
         pm_json_key(j, "value");
         pm_json_rat(j, w->next_value);
         pm_json_key(j, "nodes");
@@ -285,7 +285,7 @@ int sw_write_csv(const void *ctx, FILE *out)
             fprintf(out, ",%.6f,%.6f", p->speedup, p->efficiency);
         else
             fputs(",,", out); /* a zero period has no speedup */
-        fprintf(out, ",%s,%s,", p->steady ? "yes" : "no", pm_limit_name(p->limit.kind));
+        fprintf(out, ",%s,%s,", p->steady ? "yes" : "no", pm_sweep_limit_name(p->limit.kind));
         for (uint32_t k = 0; k < p->limit.nnodes; k++)
             fprintf(out, "%s%s", k ? " " : "", pm_graph_node_name(r->g, p->limit.nodes[k]));
         fputc('\n', out);
@@ -379,7 +379,7 @@ static void sw_plot_titles(const sw_report *r, sw_plot_data *d)
     if (s->saturation_reached)
         snprintf(d->subtitle, sizeof d->subtitle,
                  "Period against the core count. Saturation at P = %u, limited by %s.",
-                 p->procs, pm_limit_name(p->limit.kind));
+                 p->procs, pm_sweep_limit_name(p->limit.kind));
     else
         snprintf(d->subtitle, sizeof d->subtitle,
                  "Period against the core count. Still falling at P = %u.", p->procs);

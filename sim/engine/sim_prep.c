@@ -106,7 +106,7 @@ static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
             continue;
         sim_x *x = &s->x[s->nx];
         x->edge = e, x->src = ed->src, x->dst = ed->dst, x->delay = ed->delay;
-        __int128 cost = (__int128)cm->latency + (__int128)cm->per_word * ed->words;
+        pm_i128 cost = (pm_i128)cm->latency + (pm_i128)cm->per_word * ed->words;
         if (cost > PM_MAX_VALUE) {
             pm_diag_set(diag, g->file, ed->line, ed->col,
                         "a transfer on this edge takes more than %lld cycles",
@@ -187,12 +187,12 @@ static void sim_build_cores(sim *s)
  * doubled for bus waits; refuse runs where that could pass 2^62. */
 static int sim_check_range(const sim *s, pm_diag *diag)
 {
-    unsigned __int128 per = 1;
+    pm_u128 per = 1;
     for (uint32_t v = 0; v < s->n; v++)
-        per += (unsigned __int128)(s->t[v] + s->recv[v] + s->send[v]);
+        per += (pm_u128)(s->t[v] + s->recv[v] + s->send[v]);
     for (uint32_t i = 0; i < s->nx; i++)
-        per += (unsigned __int128)s->x[i].cost;
-    if (per * 2 * ((unsigned __int128)s->N + 1) > (unsigned __int128)PM_MAX_VALUE) {
+        per += (pm_u128)s->x[i].cost;
+    if (per * 2 * ((pm_u128)s->N + 1) > (pm_u128)PM_MAX_VALUE) {
         pm_diag_set(diag, s->g->file, 0, 0, "times of %llu iterations would overflow",
                     (unsigned long long)s->N);
         return PM_ERANGE;
@@ -208,7 +208,7 @@ static uint64_t sim_ring_bytes(const sim *s, uint64_t W)
     /* the same sizes sim_ring_alloc asks for, per slot of the window */
     uint64_t n = s->n ? s->n : 1, nx = s->bus && s->nx ? s->nx : 1;
     uint64_t per = n * 12 + nx * sizeof(sim_grant) + 24 + SIM_LBR * sizeof(uint64_t);
-    unsigned __int128 b = (unsigned __int128)W * per;
+    pm_u128 b = (pm_u128)W * per;
     return b > UINT64_MAX ? UINT64_MAX : (uint64_t)b;
 }
 

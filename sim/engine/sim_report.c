@@ -177,7 +177,7 @@ static void sim_set_end(sim *s)
     int64_t adv = sim_max_advance(s, N - 1, H, s->half, &uniform);
     if (adv <= 0)
         return;
-    unsigned __int128 t = ((unsigned __int128)s->lat_max * (N - 1 - H) + (uint64_t)adv - 1) /
+    pm_u128 t = ((pm_u128)s->lat_max * (N - 1 - H) + (uint64_t)adv - 1) /
                           (uint64_t)adv + 2;
     s->end = t >= N / 2 ? N - N / 2 : N - (uint64_t)t;
 }
@@ -392,8 +392,8 @@ int sim_report_chain(sim *s, pm_sim_result *r)
         int len = sim_chain_walk(s, r, mark, xs_of, steps, walk);
         r->critical = steps, steps = NULL;
         r->ncritical = (uint32_t)len;
-        __int128 lhs = (__int128)r->critical_cycles * r->period.den;
-        __int128 rhs = (__int128)r->critical_delays * r->period.num;
+        pm_i128 lhs = (pm_i128)r->critical_cycles * r->period.den;
+        pm_i128 rhs = (pm_i128)r->critical_delays * r->period.num;
         r->critical_matches = r->critical_delays > 0 && lhs == rhs;
         rc = PM_OK;
     }

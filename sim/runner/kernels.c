@@ -24,7 +24,7 @@ static uint64_t kern_mix(uint64_t x)
     return x ^ (x >> 31);
 }
 
-float pm_signal_sample(uint32_t stream, uint64_t i)
+float pm_kernel_signal_sample(uint32_t stream, uint64_t i)
 {
     /* 23 random bits and a 6-bit ramp are exact in a float's 24-bit
      * mantissa, so the sum below rounds the same way everywhere */
@@ -35,13 +35,13 @@ float pm_signal_sample(uint32_t stream, uint64_t i)
     return noise + tri;
 }
 
-void pm_signal_fill(float *out, size_t n, uint32_t stream, uint64_t first)
+void pm_kernel_signal_fill(float *out, size_t n, uint32_t stream, uint64_t first)
 {
     for (size_t j = 0; j < n; j++)
-        out[j] = pm_signal_sample(stream, first + j);
+        out[j] = pm_kernel_signal_sample(stream, first + j);
 }
 
-uint32_t pm_spin(uint64_t turns)
+uint32_t pm_kernel_spin(uint64_t turns)
 {
     /* a dependent multiply-add chain: the CPU cannot overlap the steps and
      * the compiler cannot fold the loop, so time grows linearly in turns */
@@ -53,7 +53,7 @@ uint32_t pm_spin(uint64_t turns)
 
 /* ---- coefficients ---------------------------------------------------------- */
 
-float pm_fir_tap(uint32_t taps, uint32_t k)
+float pm_kernel_fir_tap(uint32_t taps, uint32_t k)
 {
     /* triangle (k+1)(T-k), summed in closed form: sum_{k<T} (k+1)(T-k) =
      * T(T+1)(T+2)/6 */
@@ -62,7 +62,7 @@ float pm_fir_tap(uint32_t taps, uint32_t k)
     return (float)(w / (t * (t + 1.0) * (t + 2.0) / 6.0));
 }
 
-void pm_biquad_coefs(uint32_t s, float c[5])
+void pm_kernel_biquad_coefs(uint32_t s, float c[5])
 {
     float p1 = 0.5f + 0.05f * (float)(s % 5u);
     float p2 = 0.3f + 0.04f * (float)(s % 3u);
@@ -76,7 +76,7 @@ void pm_biquad_coefs(uint32_t s, float c[5])
 
 /* ---- FFT -------------------------------------------------------------------- */
 
-struct pm_fft {
+struct pm_kernel_fft {
     uint32_t n;
     float *wr, *wi;     /* twiddles e^{-2 pi i k / n}, k < n/2 */
     uint32_t *rev;      /* bit-reversal permutation */
@@ -90,12 +90,12 @@ static int kern_log2(uint32_t n)
     return l;
 }
 
-int pm_fft_create(uint32_t n, pm_fft **out)
+int pm_kernel_fft_create(uint32_t n, pm_kernel_fft **out)
 {
     *out = NULL;
     if (n < 2 || n > PM_KERNEL_MAX_FFT || (n & (n - 1u)))
         return PM_ERANGE;
-    pm_fft *f = calloc(1, sizeof *f);
+    pm_kernel_fft *f = calloc(1, sizeof *f);
     if (!f)
         return PM_ENOMEM;
     f->n = n;
@@ -103,7 +103,7 @@ int pm_fft_create(uint32_t n, pm_fft **out)
     f->wi = malloc(n / 2 * sizeof *f->wi);
     f->rev = malloc(n * sizeof *f->rev);
     if (!f->wr || !f->wi || !f->rev) {
-        pm_fft_destroy(f);
+        pm_kernel_fft_destroy(f);
         return PM_ENOMEM;
     }
     const double two_pi = 6.283185307179586476925286766559;
@@ -122,7 +122,7 @@ int pm_fft_create(uint32_t n, pm_fft **out)
     return PM_OK;
 }
 
-void pm_fft_destroy(pm_fft *f)
+void pm_kernel_fft_destroy(pm_kernel_fft *f)
 {
     if (!f)
         return;
@@ -132,7 +132,7 @@ void pm_fft_destroy(pm_fft *f)
     free(f);
 }
 
-void pm_fft_forward(const pm_fft *f, float *re, float *im)
+void pm_kernel_fft_forward(const pm_kernel_fft *f, float *re, float *im)
 {
     uint32_t n = f->n;
     for (uint32_t i = 0; i < n; i++) {
@@ -168,7 +168,7 @@ struct pm_kernel {
     float *coef;      /* fir: taps; biquad: 5 per section */
     float *state;     /* fir: taps-1 + block history; biquad: 2 per section */
     float *re, *im;   /* fft work arrays */
-    pm_fft *fft;
+    pm_kernel_fft *fft;
     volatile uint32_t sink; /* keeps the busy loop's result alive */
 };
 
@@ -199,7 +199,7 @@ static int kern_alloc(pm_kernel *k)
         if (!k->coef || !k->state)
             return PM_ENOMEM;
         for (uint32_t i = 0; i < p; i++)
-            k->coef[i] = pm_fir_tap(p, i);
+            k->coef[i] = pm_kernel_fir_tap(p, i);
         return PM_OK;
     case PM_WORK_BIQUAD:
         k->coef = malloc((size_t)p * 5u * sizeof *k->coef);
@@ -207,14 +207,14 @@ static int kern_alloc(pm_kernel *k)
         if (!k->coef || !k->state)
             return PM_ENOMEM;
         for (uint32_t s = 0; s < p; s++)
-            pm_biquad_coefs(s, k->coef + 5u * s);
+            pm_kernel_biquad_coefs(s, k->coef + 5u * s);
         return PM_OK;
     case PM_WORK_FFT:
         k->re = malloc(p * sizeof *k->re);
         k->im = malloc(p * sizeof *k->im);
         if (!k->re || !k->im)
             return PM_ENOMEM;
-        return pm_fft_create(p, &k->fft);
+        return pm_kernel_fft_create(p, &k->fft);
     }
     return PM_ERANGE;
 }
@@ -250,7 +250,7 @@ void pm_kernel_destroy(pm_kernel *k)
     free(k->state);
     free(k->re);
     free(k->im);
-    pm_fft_destroy(k->fft);
+    pm_kernel_fft_destroy(k->fft);
     free(k);
 }
 
@@ -304,7 +304,7 @@ static void kern_fft(pm_kernel *k, const float *in, float *out)
         k->re[j] = in[j % b];
         k->im[j] = 0.0f;
     }
-    pm_fft_forward(k->fft, k->re, k->im);
+    pm_kernel_fft_forward(k->fft, k->re, k->im);
     float scale = 1.0f / (float)n; /* exact: n is a power of two */
     for (uint32_t i = 0; i < b; i++)
         out[i] = k->re[i % n] * scale;
@@ -315,7 +315,7 @@ void pm_kernel_process(pm_kernel *k, const float *in, float *out)
     switch (k->kind) {
     case PM_WORK_SPIN:
         memcpy(out, in, k->block * sizeof *in);
-        k->sink = pm_spin(k->spin_turns);
+        k->sink = pm_kernel_spin(k->spin_turns);
         break;
     case PM_WORK_FIR: kern_fir(k, in, out); break;
     case PM_WORK_BIQUAD: kern_biquad(k, in, out); break;

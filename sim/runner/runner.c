@@ -4,7 +4,7 @@
  *
  * Here: the helpers every part uses (quantiles, the output hash, a node's
  * kernel), the trivial maps (serial, round robin), the prediction (the
- * simulator run with measured host times), and pm_run_execute with the
+ * simulator run with measured host times), and pm_runner_execute with the
  * statistics of its result (period, latency, busy share, node times).
  * Not here: the threads, channels and set-up of a run (runner_exec.c), the
  * measurements before a run: busy-loop calibration, node times, handoff
@@ -22,23 +22,23 @@
 
 /* ---- small helpers --------------------------------------------------------- */
 
-static int run_cmp_double(const void *a, const void *b)
+static int runner_cmp_double(const void *a, const void *b)
 {
     double x = *(const double *)a, y = *(const double *)b;
     return x < y ? -1 : x > y;
 }
 
 /* Nearest-rank quantile q in [0,1] of v[0..n) (sorts v). */
-double run_quantile(double *v, size_t n, double q)
+double runner_quantile(double *v, size_t n, double q)
 {
     if (n == 0)
         return 0.0;
-    qsort(v, n, sizeof *v, run_cmp_double);
+    qsort(v, n, sizeof *v, runner_cmp_double);
     size_t r = (size_t)ceil(q * (double)n);
     return v[r > 0 ? r - 1 : 0];
 }
 
-uint64_t run_fnv(uint64_t h, const void *p, size_t n)
+uint64_t runner_fnv(uint64_t h, const void *p, size_t n)
 {
     const unsigned char *b = p;
     for (size_t i = 0; i < n; i++)
@@ -46,18 +46,18 @@ uint64_t run_fnv(uint64_t h, const void *p, size_t n)
     return h;
 }
 
-void pm_run_config_default(pm_run_config *c)
+void pm_runner_config_default(pm_runner_config *c)
 {
     memset(c, 0, sizeof *c);
     c->iterations = 1000;
     c->warmup = 100;
-    c->block = PM_RUN_BLOCK;
+    c->block = PM_RUNNER_BLOCK;
     c->ns_per_cycle = 1.0;
     c->turns_per_ns = 1.0;
 }
 
 /* Spin turns for node v on map core `core`. */
-static uint64_t run_turns(const pm_graph *g, const pm_run_config *cfg, uint32_t v,
+static uint64_t runner_turns(const pm_graph *g, const pm_runner_config *cfg, uint32_t v,
                           uint32_t core)
 {
     uint32_t cls = core < g->platform.ncores ? g->platform.core_class[core] : 0;
@@ -68,32 +68,32 @@ static uint64_t run_turns(const pm_graph *g, const pm_run_config *cfg, uint32_t 
     return t >= 1.8e19 ? UINT64_C(18000000000000000000) : (uint64_t)llround(t);
 }
 
-int run_kernel_for(const pm_graph *g, const pm_run_config *cfg, uint32_t v,
+int runner_kernel_for(const pm_graph *g, const pm_runner_config *cfg, uint32_t v,
                    uint32_t core, pm_kernel **k)
 {
     const pm_node *n = &g->nodes[v];
     return pm_kernel_create(n->work, n->work_param, cfg->block,
-                            n->work == PM_WORK_SPIN ? run_turns(g, cfg, v, core) : 0, k);
+                            n->work == PM_WORK_SPIN ? runner_turns(g, cfg, v, core) : 0, k);
 }
 
 /* ---- orders and trivial maps ----------------------------------------------- */
 
 /* Kahn's algorithm over the zero-delay edges, smallest index first among
  * the ready nodes: the serial map and the dealt maps list nodes in it. */
-static int run_topo_order(const pm_graph *g, uint32_t *order)
+static int runner_topo_order(const pm_graph *g, uint32_t *order)
 {
     uint32_t done = 0;
     int rc = pm_order_zero_delay(g, PM_ORDER_SMALLEST, order, &done);
     return rc != PM_OK ? rc : done == g->nnodes ? PM_OK : PM_EZERODELAY;
 }
 
-int pm_run_serial_map(const pm_graph *g, pm_map **out)
+int pm_runner_serial_map(const pm_graph *g, pm_map **out)
 {
     *out = NULL;
     uint32_t *order = malloc((g->nnodes ? g->nnodes : 1) * sizeof *order);
     if (!order)
         return PM_ENOMEM;
-    int rc = run_topo_order(g, order);
+    int rc = runner_topo_order(g, order);
     if (rc == PM_OK) {
         const uint32_t *lists[1] = {order};
         rc = pm_map_create(1, g->nnodes, lists, &g->nnodes, out);
@@ -102,7 +102,7 @@ int pm_run_serial_map(const pm_graph *g, pm_map **out)
     return rc;
 }
 
-static int run_deal(const pm_graph *g, uint32_t ncores, const uint32_t *order,
+static int runner_deal(const pm_graph *g, uint32_t ncores, const uint32_t *order,
                     uint32_t **lists, uint32_t *counts)
 {
     uint32_t next = 0;
@@ -120,7 +120,7 @@ static int run_deal(const pm_graph *g, uint32_t ncores, const uint32_t *order,
     return PM_OK;
 }
 
-int pm_run_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out)
+int pm_runner_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out)
 {
     *out = NULL;
     if (ncores < 1 || ncores > g->platform.ncores)
@@ -134,9 +134,9 @@ int pm_run_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out)
         if (!(lists[c] = malloc(n * sizeof **lists)))
             rc = PM_ENOMEM;
     if (rc == PM_OK)
-        rc = run_topo_order(g, order);
+        rc = runner_topo_order(g, order);
     if (rc == PM_OK)
-        rc = run_deal(g, ncores, order, lists, counts);
+        rc = runner_deal(g, ncores, order, lists, counts);
     if (rc == PM_OK)
         rc = pm_map_create(ncores, g->nnodes, (const uint32_t *const *)lists, counts, out);
     for (uint32_t c = 0; lists && c < ncores; c++)
@@ -155,13 +155,13 @@ enum { RUN_PREDICT_ITERS = 1000 };
  * so sixteenths of a nanosecond keep rounding far below timer noise. */
 #define RUN_UNITS_PER_NS 16.0
 
-static int64_t run_units(double ns)
+static int64_t runner_units(double ns)
 {
     double u = ns * RUN_UNITS_PER_NS;
     return u <= 0 ? 0 : u >= (double)PM_MAX_VALUE ? PM_MAX_VALUE : (int64_t)llround(u);
 }
 
-int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
+int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
                    double handoff_ns, uint32_t fifo_cap, double *period_ns,
                    uint32_t *depth, pm_diag *diag)
 {
@@ -169,11 +169,11 @@ int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
     if (!t)
         return PM_ENOMEM;
     for (uint32_t v = 0; v < g->nnodes; v++)
-        t[v] = run_units(node_ns[v]);
+        t[v] = runner_units(node_ns[v]);
     /* the host's platform: every cross-core token arrives one handoff after
      * its producer ends, links overlap freely (a borrowed, read-only view) */
     pm_graph host = *g;
-    host.platform.comm = (pm_comm){run_units(handoff_ns), 0, 0, 0};
+    host.platform.comm = (pm_comm){runner_units(handoff_ns), 0, 0, 0};
     host.platform.interconnect = PM_P2P;
     pm_sim_opts o = {.iterations = RUN_PREDICT_ITERS, .fifo_cap = fifo_cap, .node_cycles = t};
     pm_sim_result r;
@@ -194,7 +194,7 @@ int pm_run_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
 /* ---- what a run gives -------------------------------------------------------- */
 
 /* Completion time of iteration k over `set` nodes (all when set NULL). */
-static int64_t run_span(const run_ctx *x, uint64_t k, const uint32_t *set, uint32_t nset,
+static int64_t runner_span(const runner_ctx *x, uint64_t k, const uint32_t *set, uint32_t nset,
                         bool first_start)
 {
     uint32_t n = x->g->nnodes, cnt = set ? nset : n;
@@ -207,44 +207,44 @@ static int64_t run_span(const run_ctx *x, uint64_t k, const uint32_t *set, uint3
     return cnt ? best : 0;
 }
 
-static void run_periods(run_ctx *x, double *tmp)
+static void runner_periods(runner_ctx *x, double *tmp)
 {
-    pm_run_result *r = x->r;
+    pm_runner_result *r = x->r;
     uint32_t first = r->warmup > 0 ? r->warmup : 1u, cnt = 0;
     for (uint32_t k = first; k < x->total; k++)
-        tmp[cnt++] = (double)(run_span(x, k, NULL, 0, false) - run_span(x, k - 1u, NULL, 0, false));
+        tmp[cnt++] = (double)(runner_span(x, k, NULL, 0, false) - runner_span(x, k - 1u, NULL, 0, false));
     if (cnt == 0)
         return;
-    r->period_ns_mean = (double)(run_span(x, x->total - 1u, NULL, 0, false) -
-                                 run_span(x, first - 1u, NULL, 0, false)) / cnt;
-    r->period_ns_median = run_quantile(tmp, cnt, 0.5);
-    r->period_ns_p99 = run_quantile(tmp, cnt, 0.99);
+    r->period_ns_mean = (double)(runner_span(x, x->total - 1u, NULL, 0, false) -
+                                 runner_span(x, first - 1u, NULL, 0, false)) / cnt;
+    r->period_ns_median = runner_quantile(tmp, cnt, 0.5);
+    r->period_ns_p99 = runner_quantile(tmp, cnt, 0.99);
 }
 
-static void run_latency(run_ctx *x, double *tmp)
+static void runner_latency(runner_ctx *x, double *tmp)
 {
     const pm_graph *g = x->g;
     uint32_t *src = malloc((g->nnodes ? g->nnodes : 1) * sizeof *src), ns = 0;
     if (!src)
         return;
     for (uint32_t v = 0; v < g->nnodes; v++)
-        if (run_is_end(g, v, false))
+        if (runner_is_end(g, v, false))
             src[ns++] = v;
     uint32_t cnt = 0;
     for (uint32_t k = x->r->warmup; k < x->total; k++)
-        tmp[cnt++] = (double)(run_span(x, k, x->r->sinks, x->r->nsinks, false) -
-                              run_span(x, k, ns ? src : NULL, ns, true));
+        tmp[cnt++] = (double)(runner_span(x, k, x->r->sinks, x->r->nsinks, false) -
+                              runner_span(x, k, ns ? src : NULL, ns, true));
     free(src);
-    x->r->latency_ns_median = run_quantile(tmp, cnt, 0.5);
-    x->r->latency_ns_p99 = run_quantile(tmp, cnt, 0.99);
+    x->r->latency_ns_median = runner_quantile(tmp, cnt, 0.5);
+    x->r->latency_ns_p99 = runner_quantile(tmp, cnt, 0.99);
 }
 
-static void run_busy(run_ctx *x)
+static void runner_busy(runner_ctx *x)
 {
-    pm_run_result *r = x->r;
+    pm_runner_result *r = x->r;
     uint32_t n = x->g->nnodes, w = r->warmup;
-    int64_t from = w > 0 ? run_span(x, w - 1u, NULL, 0, false) : run_span(x, 0, NULL, 0, true);
-    double window = (double)(run_span(x, x->total - 1u, NULL, 0, false) - from);
+    int64_t from = w > 0 ? runner_span(x, w - 1u, NULL, 0, false) : runner_span(x, 0, NULL, 0, true);
+    double window = (double)(runner_span(x, x->total - 1u, NULL, 0, false) - from);
     for (uint32_t c = 0; c < r->ncores; c++) {
         int64_t sum = 0;
         for (uint64_t k = w; k < x->total; k++)
@@ -254,20 +254,20 @@ static void run_busy(run_ctx *x)
     }
 }
 
-static void run_node_times(run_ctx *x, double *tmp)
+static void runner_node_times(runner_ctx *x, double *tmp)
 {
     uint32_t n = x->g->nnodes;
     for (uint32_t v = 0; v < n; v++) {
         uint32_t cnt = 0;
         for (uint64_t k = x->r->warmup; k < x->total; k++)
             tmp[cnt++] = (double)(x->end[k * n + v] - x->start[k * n + v]);
-        x->r->node_ns[v] = run_quantile(tmp, cnt, 0.5);
+        x->r->node_ns[v] = runner_quantile(tmp, cnt, 0.5);
     }
 }
 
-static void run_collect(run_ctx *x)
+static void runner_collect(runner_ctx *x)
 {
-    pm_run_result *r = x->r;
+    pm_runner_result *r = x->r;
     for (uint32_t c = 0; c < r->ncores; c++) {
         r->pinned[c] = x->th[c].pinned;
         r->order_errors += x->th[c].order_errors;
@@ -277,23 +277,23 @@ static void run_collect(run_ctx *x)
         r->remaining[e] = x->chan[e].ring ? pm_ring_count(x->chan[e].ring) : x->chan[e].count;
     r->output_hash = UINT64_C(0xcbf29ce484222325);
     for (uint32_t s = 0; s < r->nsinks; s++)
-        r->output_hash = run_fnv(r->output_hash, &x->sink_hash[s], sizeof x->sink_hash[s]);
+        r->output_hash = runner_fnv(r->output_hash, &x->sink_hash[s], sizeof x->sink_hash[s]);
     if (r->stalled)
         return;
     double *tmp = malloc(x->total * sizeof *tmp);
     if (!tmp)
         return;
-    run_periods(x, tmp);
-    run_latency(x, tmp);
-    run_node_times(x, tmp);
-    run_busy(x);
+    runner_periods(x, tmp);
+    runner_latency(x, tmp);
+    runner_node_times(x, tmp);
+    runner_busy(x);
     free(tmp);
 }
 
 /* ---- entry point -------------------------------------------------------------- */
 
 /* Every node exactly once, each listed on the core core_of names. */
-static bool run_map_fits(const pm_graph *g, const pm_map *m)
+static bool runner_map_fits(const pm_graph *g, const pm_map *m)
 {
     if (m->nnodes != g->nnodes || m->ncores < 1 || m->off[m->ncores] != g->nnodes)
         return false;
@@ -310,27 +310,27 @@ static bool run_map_fits(const pm_graph *g, const pm_map *m)
     return ok;
 }
 
-int pm_run_execute(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
-                   pm_run_result **out)
+int pm_runner_execute(const pm_graph *g, const pm_map *m, const pm_runner_config *cfg,
+                   pm_runner_result *out)
 {
-    *out = NULL;
+    memset(out, 0, sizeof *out);
     if (!pm_graph_is_single_rate(g))
         return PM_EUNSUPPORTED;
     if (!g->finalized || cfg->iterations < 1 || cfg->warmup > UINT32_MAX - cfg->iterations ||
-        !run_map_fits(g, m))
+        !runner_map_fits(g, m))
         return PM_EINVAL;
-    run_ctx x = {.g = g, .m = m, .cfg = cfg, .total = cfg->warmup + cfg->iterations};
-    int rc = run_setup(&x);
+    runner_ctx x = {.g = g, .m = m, .cfg = cfg, .total = cfg->warmup + cfg->iterations,
+                    .r = out};
+    int rc = runner_setup(&x);
     if (rc == PM_OK)
-        rc = run_threads(&x);
+        rc = runner_threads(&x);
     if (rc == PM_OK) {
-        run_collect(&x);
-        if (x.r->stalled)
+        runner_collect(&x);
+        if (out->stalled)
             rc = PM_EDEADLOCK;
-        *out = x.r;
     } else {
-        pm_run_result_destroy(x.r);
+        pm_runner_result_free(out);
     }
-    run_teardown(&x);
+    runner_teardown(&x);
     return rc;
 }

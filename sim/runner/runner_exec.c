@@ -17,7 +17,7 @@
 
 /* ---- execution ------------------------------------------------------------------ */
 
-static void *run_chan_claim(run_chan *c, size_t bytes)
+static void *runner_chan_claim(runner_chan *c, size_t bytes)
 {
     if (c->ring)
         return pm_ring_claim(c->ring);
@@ -26,7 +26,7 @@ static void *run_chan_claim(run_chan *c, size_t bytes)
     return c->fifo + (size_t)((c->head + c->count) % c->cap) * bytes;
 }
 
-static void run_chan_push(run_chan *c)
+static void runner_chan_push(runner_chan *c)
 {
     if (c->ring)
         pm_ring_push(c->ring);
@@ -34,14 +34,14 @@ static void run_chan_push(run_chan *c)
         c->count++;
 }
 
-static const void *run_chan_peek(run_chan *c, size_t bytes)
+static const void *runner_chan_peek(runner_chan *c, size_t bytes)
 {
     if (c->ring)
         return pm_ring_peek(c->ring);
     return c->count ? c->fifo + (size_t)c->head * bytes : NULL;
 }
 
-static void run_chan_pop(run_chan *c)
+static void runner_chan_pop(runner_chan *c)
 {
     if (c->ring) {
         pm_ring_pop(c->ring);
@@ -54,44 +54,44 @@ static void run_chan_pop(run_chan *c)
 /* Wait until edge e has a token (or room, for_space).  NULL when the run
  * is stopped, or at once on a same-core channel: no other thread can
  * change it, so waiting would never end. */
-static void *run_wait(run_thread *th, uint32_t v, uint32_t e, uint64_t k, bool for_space)
+static void *runner_wait(runner_thread *th, uint32_t v, uint32_t e, uint64_t k, bool for_space)
 {
-    run_ctx *x = th->x;
-    run_chan *c = &x->chan[e];
+    runner_ctx *x = th->x;
+    runner_chan *c = &x->chan[e];
     for (uint64_t s = 0;; s++) {
-        void *p = for_space ? run_chan_claim(c, x->bytes)
-                            : (void *)(uintptr_t)run_chan_peek(c, x->bytes);
+        void *p = for_space ? runner_chan_claim(c, x->bytes)
+                            : (void *)(uintptr_t)runner_chan_peek(c, x->bytes);
         if (p)
             return p;
         if (!c->ring)
             atomic_store(&x->stop, true);
         if (atomic_load_explicit(&x->stop, memory_order_relaxed)) {
-            th->wait = (pm_run_wait){th->core, v, e, for_space, k};
+            th->wait = (pm_runner_wait){th->core, v, e, for_space, k};
             return NULL;
         }
-        run_wait_turn(x->cfg, s);
+        runner_wait_turn(x->cfg, s);
     }
 }
 
 /* Mean of v's input tokens into th->in; a source (only self-loops in)
  * takes the test signal as one more input. */
-static bool run_gather(run_thread *th, uint32_t v, uint64_t k)
+static bool runner_gather(runner_thread *th, uint32_t v, uint64_t k)
 {
-    run_ctx *x = th->x;
+    runner_ctx *x = th->x;
     const pm_graph *g = x->g;
     uint32_t nin = g->in_off[v + 1] - g->in_off[v], b = x->cfg->block;
     bool src = x->is_source[v];
     if (src)
-        pm_signal_fill(th->in, b, v, k * b);
+        pm_kernel_signal_fill(th->in, b, v, k * b);
     for (uint32_t i = 0; i < nin; i++) {
         uint32_t e = g->in_edge[g->in_off[v] + i];
-        const run_token *t = run_wait(th, v, e, k, false);
+        const runner_token *t = runner_wait(th, v, e, k, false);
         if (!t)
             return false;
         th->order_errors += t->seq != (int64_t)k - g->edges[e].delay;
         for (uint32_t j = 0; j < b; j++)
             th->in[j] = i == 0 && !src ? t->data[j] : th->in[j] + t->data[j];
-        run_chan_pop(&x->chan[e]);
+        runner_chan_pop(&x->chan[e]);
         x->r->tokens[e]++;
     }
     if (nin + src > 1) {
@@ -102,55 +102,55 @@ static bool run_gather(run_thread *th, uint32_t v, uint64_t k)
     return true;
 }
 
-static bool run_scatter(run_thread *th, uint32_t v, uint64_t k)
+static bool runner_scatter(runner_thread *th, uint32_t v, uint64_t k)
 {
-    run_ctx *x = th->x;
+    runner_ctx *x = th->x;
     const pm_graph *g = x->g;
     for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
         uint32_t e = g->out_edge[i];
-        run_token *t = run_wait(th, v, e, k, true);
+        runner_token *t = runner_wait(th, v, e, k, true);
         if (!t)
             return false;
         t->seq = (int64_t)k;
         memcpy(t->data, th->out, x->cfg->block * sizeof *t->data);
-        run_chan_push(&x->chan[e]);
+        runner_chan_push(&x->chan[e]);
     }
     return true;
 }
 
-static void run_keep_output(run_thread *th, uint32_t v, uint64_t k)
+static void runner_keep_output(runner_thread *th, uint32_t v, uint64_t k)
 {
-    run_ctx *x = th->x;
+    runner_ctx *x = th->x;
     uint32_t s = x->sink_slot[v], b = x->cfg->block;
     if (s == PM_NONE)
         return;
-    x->sink_hash[s] = run_fnv(x->sink_hash[s], th->out, b * sizeof *th->out);
+    x->sink_hash[s] = runner_fnv(x->sink_hash[s], th->out, b * sizeof *th->out);
     if (x->r->outputs)
         memcpy(x->r->outputs + ((size_t)s * x->total + k) * b, th->out, b * sizeof *th->out);
 }
 
-static bool run_fire(run_thread *th, uint32_t v, uint64_t k)
+static bool runner_fire(runner_thread *th, uint32_t v, uint64_t k)
 {
-    run_ctx *x = th->x;
-    if (!run_gather(th, v, k))
+    runner_ctx *x = th->x;
+    if (!runner_gather(th, v, k))
         return false;
-    int64_t t1 = run_now();
+    int64_t t1 = runner_now();
     pm_kernel_process(x->kern[v], th->in, th->out);
-    if (!run_scatter(th, v, k))
+    if (!runner_scatter(th, v, k))
         return false;
     size_t at = (size_t)k * x->g->nnodes + v;
     x->start[at] = t1 - x->t0;
-    x->end[at] = run_now() - x->t0;
-    run_keep_output(th, v, k);
+    x->end[at] = runner_now() - x->t0;
+    runner_keep_output(th, v, k);
     atomic_store_explicit(&th->fired, atomic_load_explicit(&th->fired, memory_order_relaxed) + 1u,
                           memory_order_relaxed);
     return true;
 }
 
-static void *run_worker(void *arg)
+static void *runner_worker(void *arg)
 {
-    run_thread *th = arg;
-    run_ctx *x = th->x;
+    runner_thread *th = arg;
+    runner_ctx *x = th->x;
     if (x->cfg->topo && x->cfg->pu)
         th->pinned = pm_topo_bind_thread(x->cfg->topo, x->cfg->pu[th->core]) == PM_OK;
     int go;
@@ -159,10 +159,10 @@ static void *run_worker(void *arg)
     if (go < 0)
         return NULL;
     const pm_map *m = x->m;
-    th->wait = (pm_run_wait){th->core, PM_NONE, PM_NONE, false, x->total};
+    th->wait = (pm_runner_wait){th->core, PM_NONE, PM_NONE, false, x->total};
     for (uint64_t k = 0; k < x->total; k++)
         for (uint32_t i = m->off[th->core]; i < m->off[th->core + 1]; i++)
-            if (!run_fire(th, m->order[i], k))
+            if (!runner_fire(th, m->order[i], k))
                 goto out;
 out:
     atomic_store(&th->finished, true);
@@ -171,14 +171,14 @@ out:
 
 /* ---- setting up and tearing down a run ------------------------------------------ */
 
-static int run_make_chan(run_ctx *x, uint32_t e)
+static int runner_make_chan(runner_ctx *x, uint32_t e)
 {
     const pm_edge *ed = &x->g->edges[e];
-    run_chan *c = &x->chan[e];
+    runner_chan *c = &x->chan[e];
     bool cross = x->m->core_of[ed->src] != x->m->core_of[ed->dst];
     uint64_t want = x->cfg->ring_capacity ? x->cfg->ring_capacity
                   : x->cfg->edge_capacity ? x->cfg->edge_capacity[e]
-                                          : (uint64_t)ed->delay + PM_RUN_RING_SLACK;
+                                          : (uint64_t)ed->delay + PM_RUNNER_RING_SLACK;
     uint64_t cap = cross ? want : (uint64_t)ed->delay + 1u;
     if (cap < (uint64_t)ed->delay + 1u)
         cap = (uint64_t)ed->delay + 1u;
@@ -192,18 +192,18 @@ static int run_make_chan(run_ctx *x, uint32_t e)
 }
 
 /* Initial tokens: zero samples, sequence numbers -delay .. -1. */
-static void run_prefill(run_ctx *x, uint32_t e)
+static void runner_prefill(runner_ctx *x, uint32_t e)
 {
     int64_t d = x->g->edges[e].delay;
     for (int64_t i = 0; i < d; i++) {
-        run_token *t = run_chan_claim(&x->chan[e], x->bytes);
+        runner_token *t = runner_chan_claim(&x->chan[e], x->bytes);
         memset(t, 0, x->bytes);
         t->seq = i - d;
-        run_chan_push(&x->chan[e]);
+        runner_chan_push(&x->chan[e]);
     }
 }
 
-bool run_is_end(const pm_graph *g, uint32_t v, bool out)
+bool runner_is_end(const pm_graph *g, uint32_t v, bool out)
 {
     const uint32_t *off = out ? g->out_off : g->in_off, *lst = out ? g->out_edge : g->in_edge;
     for (uint32_t i = off[v]; i < off[v + 1]; i++) {
@@ -214,13 +214,13 @@ bool run_is_end(const pm_graph *g, uint32_t v, bool out)
     return true;
 }
 
-static int run_pick_sinks(run_ctx *x)
+static int runner_pick_sinks(runner_ctx *x)
 {
     const pm_graph *g = x->g;
-    pm_run_result *r = x->r;
+    pm_runner_result *r = x->r;
     uint32_t n = 0;
     for (uint32_t v = 0; v < g->nnodes; v++)
-        n += run_is_end(g, v, true);
+        n += runner_is_end(g, v, true);
     bool all = n == 0;
     r->nsinks = all ? g->nnodes : n;
     r->sinks = malloc((r->nsinks ? r->nsinks : 1) * sizeof *r->sinks);
@@ -231,8 +231,8 @@ static int run_pick_sinks(run_ctx *x)
         return PM_ENOMEM;
     n = 0;
     for (uint32_t v = 0; v < g->nnodes; v++) {
-        x->is_source[v] = run_is_end(g, v, false);
-        bool s = all || run_is_end(g, v, true);
+        x->is_source[v] = runner_is_end(g, v, false);
+        bool s = all || runner_is_end(g, v, true);
         x->sink_slot[v] = s ? n : PM_NONE;
         if (s) {
             x->sink_hash[n] = UINT64_C(0xcbf29ce484222325);
@@ -248,13 +248,10 @@ static int run_pick_sinks(run_ctx *x)
     return PM_OK;
 }
 
-static int run_alloc_result(run_ctx *x)
+static int runner_alloc_result(runner_ctx *x)
 {
     const pm_graph *g = x->g;
-    pm_run_result *r = calloc(1, sizeof *r);
-    if (!r)
-        return PM_ENOMEM;
-    x->r = r;
+    pm_runner_result *r = x->r; /* the caller's, zeroed by pm_runner_execute */
     r->ncores = x->m->ncores;
     r->nnodes = g->nnodes;
     r->nedges = g->nedges;
@@ -268,17 +265,17 @@ static int run_alloc_result(run_ctx *x)
     r->remaining = calloc(g->nedges ? g->nedges : 1, sizeof *r->remaining);
     if (!r->busy || !r->node_ns || !r->pinned || !r->waits || !r->tokens || !r->remaining)
         return PM_ENOMEM;
-    return run_pick_sinks(x);
+    return runner_pick_sinks(x);
 }
 
-static int run_alloc_threads(run_ctx *x)
+static int runner_alloc_threads(runner_ctx *x)
 {
     uint32_t nc = x->m->ncores, b = x->cfg->block;
     x->th = calloc(nc, sizeof *x->th);
     if (!x->th)
         return PM_ENOMEM;
     for (uint32_t c = 0; c < nc; c++) {
-        run_thread *th = &x->th[c];
+        runner_thread *th = &x->th[c];
         th->x = x;
         th->core = c;
         atomic_init(&th->fired, 0);
@@ -291,29 +288,29 @@ static int run_alloc_threads(run_ctx *x)
     return PM_OK;
 }
 
-int run_setup(run_ctx *x)
+int runner_setup(runner_ctx *x)
 {
     const pm_graph *g = x->g;
     size_t n = g->nnodes ? g->nnodes : 1, recs = (size_t)x->total * n;
-    if (recs > PM_RUN_MAX_RECORDS)
+    if (recs > PM_RUNNER_MAX_RECORDS)
         return PM_ELIMIT;
-    x->bytes = sizeof(run_token) + x->cfg->block * sizeof(float);
+    x->bytes = sizeof(runner_token) + x->cfg->block * sizeof(float);
     x->chan = calloc(g->nedges ? g->nedges : 1, sizeof *x->chan);
     x->kern = calloc(n, sizeof *x->kern);
     x->start = calloc(recs, sizeof *x->start);
     x->end = calloc(recs, sizeof *x->end);
     if (!x->chan || !x->kern || !x->start || !x->end)
         return PM_ENOMEM;
-    int rc = run_alloc_result(x);
+    int rc = runner_alloc_result(x);
     for (uint32_t e = 0; rc == PM_OK && e < g->nedges; e++)
-        if ((rc = run_make_chan(x, e)) == PM_OK)
-            run_prefill(x, e);
+        if ((rc = runner_make_chan(x, e)) == PM_OK)
+            runner_prefill(x, e);
     for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++)
-        rc = run_kernel_for(g, x->cfg, v, x->m->core_of[v], &x->kern[v]);
-    return rc == PM_OK ? run_alloc_threads(x) : rc;
+        rc = runner_kernel_for(g, x->cfg, v, x->m->core_of[v], &x->kern[v]);
+    return rc == PM_OK ? runner_alloc_threads(x) : rc;
 }
 
-void run_teardown(run_ctx *x)
+void runner_teardown(runner_ctx *x)
 {
     for (uint32_t e = 0; x->chan && e < x->g->nedges; e++) {
         pm_ring_destroy(x->chan[e].ring);
@@ -335,7 +332,7 @@ void run_teardown(run_ctx *x)
     free(x->sink_hash);
 }
 
-void pm_run_result_destroy(pm_run_result *r)
+void pm_runner_result_free(pm_runner_result *r)
 {
     if (!r)
         return;
@@ -347,26 +344,26 @@ void pm_run_result_destroy(pm_run_result *r)
     free(r->sinks);
     free(r->outputs);
     free(r->waits);
-    free(r);
+    memset(r, 0, sizeof *r);
 }
 
 /* ---- running the threads ---------------------------------------------------------- */
 
-static void run_sleep_ms(long ms)
+static void runner_sleep_ms(long ms)
 {
     struct timespec ts = {0, ms * 1000000L};
     nanosleep(&ts, NULL);
 }
 
 /* Watch the threads until all finish; true when they had to be stopped. */
-static bool run_watch(run_ctx *x)
+static bool runner_watch(runner_ctx *x)
 {
-    int64_t limit = (int64_t)(x->cfg->watchdog_ms ? x->cfg->watchdog_ms : PM_RUN_WATCHDOG_MS)
+    int64_t limit = (int64_t)(x->cfg->watchdog_ms ? x->cfg->watchdog_ms : PM_RUNNER_WATCHDOG_MS)
                     * 1000000;
     uint64_t last = UINT64_MAX;
-    int64_t since = run_now();
+    int64_t since = runner_now();
     for (;;) {
-        run_sleep_ms(2);
+        runner_sleep_ms(2);
         uint64_t sum = 0;
         bool all = true;
         for (uint32_t c = 0; c < x->m->ncores; c++) {
@@ -379,29 +376,29 @@ static bool run_watch(run_ctx *x)
             return false;
         if (sum != last) {
             last = sum;
-            since = run_now();
-        } else if (run_now() - since > limit) {
+            since = runner_now();
+        } else if (runner_now() - since > limit) {
             atomic_store(&x->stop, true);
             return true;
         }
     }
 }
 
-int run_threads(run_ctx *x)
+int runner_threads(runner_ctx *x)
 {
     uint32_t nc = x->m->ncores;
     atomic_init(&x->go, 0);
     atomic_init(&x->stop, false);
     int rc = PM_OK;
     for (uint32_t c = 0; c < nc && rc == PM_OK; c++) {
-        if (pthread_create(&x->th[c].tid, NULL, run_worker, &x->th[c]) != 0)
+        if (pthread_create(&x->th[c].tid, NULL, runner_worker, &x->th[c]) != 0)
             rc = PM_EPLATFORM;
         else
             x->th[c].started = true;
     }
-    x->t0 = run_now();
+    x->t0 = runner_now();
     atomic_store(&x->go, rc == PM_OK ? 1 : -1);
-    bool stalled = rc == PM_OK && run_watch(x);
+    bool stalled = rc == PM_OK && runner_watch(x);
     for (uint32_t c = 0; c < nc; c++)
         if (x->th[c].started)
             pthread_join(x->th[c].tid, NULL);

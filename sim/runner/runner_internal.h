@@ -23,7 +23,7 @@
 
 /* The monotonic clock in nanoseconds; inline: threads read it around
  * every firing. */
-static inline int64_t run_now(void)
+static inline int64_t runner_now(void)
 {
     struct timespec ts;
     clock_gettime(CLOCK_MONOTONIC, &ts);
@@ -31,18 +31,18 @@ static inline int64_t run_now(void)
 }
 
 /* Nearest-rank quantile q in [0,1] of v[0..n) (sorts v). */
-double run_quantile(double *v, size_t n, double q);
+double runner_quantile(double *v, size_t n, double q);
 
 /* FNV-1a over n bytes at p, continuing from h. */
-uint64_t run_fnv(uint64_t h, const void *p, size_t n);
+uint64_t runner_fnv(uint64_t h, const void *p, size_t n);
 
 /* The kernel of node v on map core `core` (spin turns from its cycles). */
-int run_kernel_for(const pm_graph *g, const pm_run_config *cfg, uint32_t v, uint32_t core,
+int runner_kernel_for(const pm_graph *g, const pm_runner_config *cfg, uint32_t v, uint32_t core,
                    pm_kernel **k);
 
 /* One turn of a wait for a ring: spin, or yield when asked to or after
  * long spinning (inline: it sits in every spin loop). */
-static inline void run_wait_turn(const pm_run_config *cfg, uint64_t spins)
+static inline void runner_wait_turn(const pm_runner_config *cfg, uint64_t spins)
 {
     if (cfg->yield || spins > 4096)
         sched_yield();
@@ -52,22 +52,22 @@ static inline void run_wait_turn(const pm_run_config *cfg, uint64_t spins)
 
 /* A token: the producing iteration (negative for initial tokens), then
  * block samples. */
-typedef struct run_token {
+typedef struct runner_token {
     int64_t seq;
     float data[];
-} run_token;
+} runner_token;
 
 /* An edge's channel: an SPSC ring across cores, a plain FIFO on one core. */
-typedef struct run_chan {
+typedef struct runner_chan {
     pm_ring *ring;
     unsigned char *fifo; /* same-core: cap slots of `bytes` */
     uint32_t cap, head, count;
-} run_chan;
+} runner_chan;
 
-typedef struct run_ctx run_ctx;
+typedef struct runner_ctx runner_ctx;
 
-typedef struct run_thread {
-    run_ctx *x;
+typedef struct runner_thread {
+    runner_ctx *x;
     uint32_t core;
     pthread_t tid;
     bool started, pinned;
@@ -75,39 +75,39 @@ typedef struct run_thread {
     _Atomic bool finished;
     float *in, *out;         /* block buffers */
     uint64_t order_errors;
-    pm_run_wait wait;
-} run_thread;
+    pm_runner_wait wait;
+} runner_thread;
 
-struct run_ctx {
+struct runner_ctx {
     const pm_graph *g;
     const pm_map *m;
-    const pm_run_config *cfg;
+    const pm_runner_config *cfg;
     size_t bytes;            /* token size */
     uint32_t total;          /* warm-up + measured iterations */
-    run_chan *chan;          /* nedges */
+    runner_chan *chan;          /* nedges */
     pm_kernel **kern;        /* nnodes */
     int64_t *start, *end;    /* [iteration][node], ns since t0 */
     int64_t t0;
     uint32_t *sink_slot;     /* node -> index in result sinks, PM_NONE */
     bool *is_source;         /* node has no in-edge from another node */
     uint64_t *sink_hash;     /* per sink */
-    run_thread *th;          /* ncores */
+    runner_thread *th;          /* ncores */
     _Atomic int go;          /* 0 wait, 1 start, -1 give up (a thread failed to start) */
     _Atomic bool stop;
-    pm_run_result *r;
+    pm_runner_result *r;
 };
 
 /* Whether v has no edges out (out) or in (!out) but self-loops. */
-bool run_is_end(const pm_graph *g, uint32_t v, bool out);
+bool runner_is_end(const pm_graph *g, uint32_t v, bool out);
 
 /* Everything a run needs, result record included (x->r); PM_ELIMIT past
- * PM_RUN_MAX_RECORDS timestamps.  run_teardown frees all but x->r, also
- * after a failed run_setup. */
-int run_setup(run_ctx *x);
-void run_teardown(run_ctx *x);
+ * PM_RUNNER_MAX_RECORDS timestamps.  runner_teardown frees all but x->r, also
+ * after a failed runner_setup. */
+int runner_setup(runner_ctx *x);
+void runner_teardown(runner_ctx *x);
 
 /* Start the threads, watch them, join them; x->r->stalled says whether
  * they had to be stopped.  PM_EPLATFORM when a thread cannot start. */
-int run_threads(run_ctx *x);
+int runner_threads(runner_ctx *x);
 
 #endif

@@ -16,16 +16,16 @@
 
 /* ---- measurements -------------------------------------------------------------- */
 
-int pm_run_calibrate(double *turns_per_ns)
+int pm_runner_calibrate(double *turns_per_ns)
 {
     enum { SAMPLES = 9 };
     double v[SAMPLES];
     volatile uint32_t sink = 0;
     uint64_t turns = 1u << 16;
     for (int s = 0; s < SAMPLES; s++) {
-        int64_t t0 = run_now();
-        sink = pm_spin(turns);
-        int64_t dt = run_now() - t0;
+        int64_t t0 = runner_now();
+        sink = pm_kernel_spin(turns);
+        int64_t dt = runner_now() - t0;
         if (dt < 100000 && turns < (UINT64_C(1) << 40)) {
             turns *= 4; /* aim for samples of >= 0.1 ms so clock error is small */
             s--;
@@ -34,36 +34,36 @@ int pm_run_calibrate(double *turns_per_ns)
         v[s] = (double)turns / (double)dt;
     }
     (void)sink;
-    *turns_per_ns = run_quantile(v, SAMPLES, 0.5);
+    *turns_per_ns = runner_quantile(v, SAMPLES, 0.5);
     return *turns_per_ns > 0 ? PM_OK : PM_EPLATFORM;
 }
 
 /* Calls of k per timed sample so that a sample lasts >= 5 µs. */
-static uint32_t run_inner(pm_kernel *k, const float *in, float *out)
+static uint32_t runner_inner(pm_kernel *k, const float *in, float *out)
 {
     pm_kernel_process(k, in, out); /* warm caches and branch predictors */
-    int64_t t0 = run_now();
+    int64_t t0 = runner_now();
     pm_kernel_process(k, in, out);
-    int64_t one = run_now() - t0;
+    int64_t one = runner_now() - t0;
     return one >= 5000 ? 1u : (uint32_t)(5000 / (one > 0 ? one : 1)) + 1u;
 }
 
-static double run_sample(pm_kernel *k, uint32_t inner, const float *in, float *out)
+static double runner_sample(pm_kernel *k, uint32_t inner, const float *in, float *out)
 {
-    int64_t t0 = run_now();
+    int64_t t0 = runner_now();
     for (uint32_t i = 0; i < inner; i++)
         pm_kernel_process(k, in, out);
-    return (double)(run_now() - t0) / inner;
+    return (double)(runner_now() - t0) / inner;
 }
 
-typedef struct run_timing {
+typedef struct runner_timing {
     pm_kernel **k;
     uint32_t *inner;
     double *samples; /* [node][repeat] */
     float *in, *out;
-} run_timing;
+} runner_timing;
 
-static void run_timing_free(run_timing *t, uint32_t n)
+static void runner_timing_free(runner_timing *t, uint32_t n)
 {
     for (uint32_t v = 0; t->k && v < n; v++)
         pm_kernel_destroy(t->k[v]);
@@ -74,98 +74,98 @@ static void run_timing_free(run_timing *t, uint32_t n)
     free(t->out);
 }
 
-int pm_run_node_times(const pm_graph *g, const pm_map *m, const pm_run_config *cfg,
+int pm_runner_node_times(const pm_graph *g, const pm_map *m, const pm_runner_config *cfg,
                       uint32_t repeats, double *node_ns)
 {
     uint32_t n = g->nnodes;
     size_t nn = n ? n : 1;
     repeats = repeats ? repeats : 1;
-    run_timing t = {calloc(nn, sizeof *t.k), calloc(nn, sizeof *t.inner),
+    runner_timing t = {calloc(nn, sizeof *t.k), calloc(nn, sizeof *t.inner),
                     calloc(nn * repeats, sizeof *t.samples),
                     malloc(cfg->block * sizeof *t.in), malloc(cfg->block * sizeof *t.out)};
     int rc = t.k && t.inner && t.samples && t.in && t.out ? PM_OK : PM_ENOMEM;
     for (uint32_t v = 0; rc == PM_OK && v < n; v++)
-        rc = run_kernel_for(g, cfg, v, m->core_of[v], &t.k[v]);
+        rc = runner_kernel_for(g, cfg, v, m->core_of[v], &t.k[v]);
     if (rc == PM_OK) {
-        pm_signal_fill(t.in, cfg->block, 0, 0);
+        pm_kernel_signal_fill(t.in, cfg->block, 0, 0);
         for (uint32_t v = 0; v < n; v++)
-            t.inner[v] = run_inner(t.k[v], t.in, t.out);
+            t.inner[v] = runner_inner(t.k[v], t.in, t.out);
         /* rounds over all nodes, so a passing load on the host touches
          * every node alike instead of a few */
         for (uint32_t r = 0; r < repeats; r++)
             for (uint32_t v = 0; v < n; v++)
-                t.samples[(size_t)v * repeats + r] = run_sample(t.k[v], t.inner[v], t.in, t.out);
+                t.samples[(size_t)v * repeats + r] = runner_sample(t.k[v], t.inner[v], t.in, t.out);
         for (uint32_t v = 0; v < n; v++)
-            node_ns[v] = run_quantile(t.samples + (size_t)v * repeats, repeats, 0.5);
+            node_ns[v] = runner_quantile(t.samples + (size_t)v * repeats, repeats, 0.5);
     }
-    run_timing_free(&t, n);
+    runner_timing_free(&t, n);
     return rc;
 }
 
 /* ---- handoff ping-pong -------------------------------------------------------- */
 
-typedef struct run_pingpong {
+typedef struct runner_pingpong {
     pm_ring *there, *back;
     size_t bytes;
     uint32_t rounds, pu;
-    const pm_run_config *cfg;
+    const pm_runner_config *cfg;
     bool pinned;
     double *rt; /* round trips, filled by the initiator */
-} run_pingpong;
+} runner_pingpong;
 
-static void run_echo(run_pingpong *p)
+static void runner_echo(runner_pingpong *p)
 {
     float copy[PM_KERNEL_MAX_BLOCK / 64];
     for (uint32_t r = 0; r < p->rounds; r++) {
         const unsigned char *in;
         for (uint64_t s = 0; !(in = pm_ring_peek(p->there)); s++)
-            run_wait_turn(p->cfg, s);
+            runner_wait_turn(p->cfg, s);
         size_t n = p->bytes < sizeof copy ? p->bytes : sizeof copy;
         memcpy(copy, in, n);
         pm_ring_pop(p->there);
         unsigned char *o;
         for (uint64_t s = 0; !(o = pm_ring_claim(p->back)); s++)
-            run_wait_turn(p->cfg, s);
+            runner_wait_turn(p->cfg, s);
         memcpy(o, copy, n);
         pm_ring_push(p->back);
     }
 }
 
-static void *run_echo_thread(void *arg)
+static void *runner_echo_thread(void *arg)
 {
-    run_pingpong *p = arg;
+    runner_pingpong *p = arg;
     p->pinned = p->cfg->topo && pm_topo_bind_thread(p->cfg->topo, p->pu) == PM_OK;
-    run_echo(p);
+    runner_echo(p);
     return NULL;
 }
 
-static void run_ping(run_pingpong *p)
+static void runner_ping(runner_pingpong *p)
 {
     float data[PM_KERNEL_MAX_BLOCK / 64] = {0};
     size_t n = p->bytes < sizeof data ? p->bytes : sizeof data;
     for (uint32_t r = 0; r < p->rounds; r++) {
-        int64_t t0 = run_now();
+        int64_t t0 = runner_now();
         unsigned char *o;
         for (uint64_t s = 0; !(o = pm_ring_claim(p->there)); s++)
-            run_wait_turn(p->cfg, s);
+            runner_wait_turn(p->cfg, s);
         memcpy(o, data, n);
         pm_ring_push(p->there);
         const unsigned char *in;
         for (uint64_t s = 0; !(in = pm_ring_peek(p->back)); s++)
-            run_wait_turn(p->cfg, s);
+            runner_wait_turn(p->cfg, s);
         memcpy(data, in, n);
         pm_ring_pop(p->back);
-        p->rt[r] = (double)(run_now() - t0);
+        p->rt[r] = (double)(runner_now() - t0);
     }
 }
 
-int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
+int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
                    uint32_t rounds, double *median_ns, double *p99_ns, bool *pinned)
 {
     if (rounds < 10)
         return PM_EINVAL;
     size_t bytes = sizeof(int64_t) + cfg->block * sizeof(float);
-    run_pingpong a = {0}, b = {0};
+    runner_pingpong a = {0}, b = {0};
     a.rt = malloc(rounds * sizeof *a.rt);
     int rc = a.rt ? pm_ring_create(bytes, 1, &a.there) : PM_ENOMEM;
     if (rc == PM_OK)
@@ -177,16 +177,16 @@ int pm_run_handoff(const pm_run_config *cfg, uint32_t pu_a, uint32_t pu_b,
     b = a;
     b.pu = pu_b;
     pthread_t t;
-    if (rc == PM_OK && pthread_create(&t, NULL, run_echo_thread, &b) != 0)
+    if (rc == PM_OK && pthread_create(&t, NULL, runner_echo_thread, &b) != 0)
         rc = PM_EPLATFORM;
     if (rc == PM_OK) {
         a.pinned = cfg->topo && pm_topo_bind_thread(cfg->topo, pu_a) == PM_OK;
-        run_ping(&a);
+        runner_ping(&a);
         pthread_join(t, NULL);
         /* the first tenth warms caches and the branch predictor */
         size_t skip = rounds / 10;
-        *median_ns = run_quantile(a.rt + skip, rounds - skip, 0.5) / 2.0;
-        *p99_ns = run_quantile(a.rt + skip, rounds - skip, 0.99) / 2.0;
+        *median_ns = runner_quantile(a.rt + skip, rounds - skip, 0.5) / 2.0;
+        *p99_ns = runner_quantile(a.rt + skip, rounds - skip, 0.99) / 2.0;
         *pinned = a.pinned && b.pinned;
     }
     pm_ring_destroy(a.there);

@@ -103,7 +103,7 @@ static int topo_flatten(pm_topo *t)
     return PM_OK;
 }
 
-int pm_topo_open(const char *synthetic, pm_topo **out)
+int pm_topo_create(const char *synthetic, pm_topo **out)
 {
     *out = NULL;
     pm_topo *t = calloc(1, sizeof *t);
@@ -121,14 +121,14 @@ int pm_topo_open(const char *synthetic, pm_topo **out)
     }
     int rc = topo_flatten(t);
     if (rc != PM_OK) {
-        pm_topo_close(t);
+        pm_topo_destroy(t);
         return rc;
     }
     *out = t;
     return PM_OK;
 }
 
-void pm_topo_close(pm_topo *t)
+void pm_topo_destroy(pm_topo *t)
 {
     if (!t)
         return;

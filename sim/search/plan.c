@@ -172,7 +172,7 @@ static int plan_refine(const pm_plan *p, pm_schedule **sc, pm_map **m, pm_diag *
     if (rc == PM_OK && improved) {
         pm_map_destroy(*m);
         *m = better;
-        pm_schedule_destroy(*sc);
+        pm_sched_destroy(*sc);
         *sc = NULL;
         return pm_sched_from_map(p->graph, *m, sc, diag);
     }
@@ -189,7 +189,7 @@ static int plan_list(const pm_plan *p, const pm_plan_opts *o, bool timed, pm_sch
     int rc = pm_sched_list(p->graph, o->sched, need ? sc : NULL, m, diag);
     if (rc == PM_OK && p->multirate) {
         rc = plan_firings_together(p, *sc, m, diag);
-        pm_schedule_destroy(*sc);
+        pm_sched_destroy(*sc);
         *sc = NULL;
         if (rc == PM_OK)
             rc = pm_sched_from_map(p->graph, *m, sc, diag);
@@ -215,14 +215,14 @@ int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
     if (rc == PM_OK && po->refine)
         rc = plan_refine(p, &sc, &m, diag);
     if (rc != PM_OK) {
-        pm_schedule_destroy(sc);
+        pm_sched_destroy(sc);
         pm_map_destroy(m);
         return rc;
     }
     if (sched)
         *sched = sc;
     else
-        pm_schedule_destroy(sc);
+        pm_sched_destroy(sc);
     *map = m;
     return PM_OK;
 }

@@ -190,7 +190,7 @@ static void refine_floor(refine *r, const pm_graph *g, uint32_t ncores)
     pm_floors f;
     if (pm_bound_compute(g, NULL, &b, NULL) != PM_OK)
         return;
-    if (pm_floors_compute(g, &b, ncores, &f) == PM_OK &&
+    if (pm_bound_floors(g, &b, ncores, &f) == PM_OK &&
         pm_rat_add(f.lower_bound, pm_rat_int(1), &r->good_enough) != PM_OK)
         r->good_enough = pm_rat_int(0);
     pm_bound_free(&b);

@@ -15,7 +15,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-const char *pm_limit_name(pm_limit_kind k)
+const char *pm_sweep_limit_name(pm_limit_kind k)
 {
     switch (k) {
     case PM_LIMIT_LOOP: return "loop";
@@ -108,7 +108,7 @@ static int sweep_point(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, uint32_t
     memset(&r, 0, sizeof r);
     int rc = sweep_sched_sim(p, o, pt->procs, NULL, &own, &m, &r, diag);
     if (rc == PM_OK)
-        rc = pm_floors_compute(g, &s->bound, pt->procs, &pt->floors);
+        rc = pm_bound_floors(g, &s->bound, pt->procs, &pt->floors);
     if (rc == PM_OK) {
         pt->period = r.period;
         pt->steady = r.steady;

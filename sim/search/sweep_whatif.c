@@ -52,7 +52,7 @@ int sweep_floors_of(const pm_graph *c, uint32_t procs, pm_bound *b, pm_floors *f
                     pm_diag *diag)
 {
     int rc = pm_bound_compute(c, NULL, b, diag);
-    return rc == PM_OK ? pm_floors_compute(c, b, procs, f) : rc;
+    return rc == PM_OK ? pm_bound_floors(c, b, procs, f) : rc;
 }
 
 static pm_rat whatif_ratio(int64_t cycles, int64_t delays)

@@ -7,6 +7,7 @@
  */
 #include "pacemap/gantt.h"
 #include "pacemap/error.h"
+#include "pacemap/rational.h"
 
 #include <stdbool.h>
 #include <stdlib.h>
@@ -95,7 +96,7 @@ typedef struct tx_layout {
 
 static int tx_col(const tx_layout *l, int64_t t)
 {
-    return (int)((__int128)t * l->cols / l->span);
+    return (int)((pm_i128)t * l->cols / l->span);
 }
 
 /* One lane row: '|' opens each box, then its label, then '-' padding; '#'

@@ -108,7 +108,7 @@ static void fuzz_time_map(const pm_graph *g, const pm_map *m)
     fuzz_analysis_error(rc, &d);
     if (rc == PM_OK && (!s || s->nnodes != g->nnodes || s->makespan < 0))
         fuzz_fail("pm_sched_from_map gave a broken schedule", NULL);
-    pm_schedule_destroy(s);
+    pm_sched_destroy(s);
     if (g->nedges > FUZZ_MAX_FLOOR_EDGES)
         return;
     pm_rat floor;
@@ -133,7 +133,7 @@ static void fuzz_single_rate(const pm_graph *g)
     if (rc == PM_OK) {
         pm_floors f;
         for (uint32_t p = 1; p <= 3; p++)
-            (void)pm_floors_compute(g, &b, p, &f);
+            (void)pm_bound_floors(g, &b, p, &f);
         pm_bound_free(&b);
     }
     if (g->nnodes > FUZZ_MAX_SCHED_NODES)

@@ -24,7 +24,7 @@ static pm_graph *fuzz_graph(const char *text, size_t len)
     pm_graph *g = NULL;
     pm_diag d;
     pm_diag_clear(&d);
-    if (pm_scenario_read_string(text, len, "fuzz.pace", &g, &d) != PM_OK)
+    if (pm_reader_read_string(text, len, "fuzz.pace", &g, &d) != PM_OK)
         fuzz_fail("the built-in scenario does not read", &d);
     return g;
 }

@@ -1,6 +1,6 @@
 /*
  * fuzz_scenario.c - libFuzzer target for the scenario reader
- * (pm_scenario_read_string, include/pacemap/reader.h).
+ * (pm_reader_read_string, include/pacemap/reader.h).
  *
  * Every input must give either a finalized graph or a clean error
  * (fuzz_common.h); a graph that reads goes through the analyses of
@@ -23,7 +23,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     pm_graph *g = NULL;
     pm_diag d;
     pm_diag_clear(&d);
-    int rc = pm_scenario_read_string((const char *)data, size, "fuzz.pace", &g, &d);
+    int rc = pm_reader_read_string((const char *)data, size, "fuzz.pace", &g, &d);
     if (rc != PM_OK) {
         fuzz_check_diag(rc, g, &d);
         return 0;

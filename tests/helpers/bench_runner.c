@@ -39,7 +39,7 @@ static uint32_t add(pm_graph *g, const char *name, int64_t cycles, pm_work_kind 
 
 static void connect(pm_graph *g, uint32_t a, uint32_t b, int64_t delay)
 {
-    pm_edge e = pm_edge_default(a, b);
+    pm_edge e = pm_graph_edge_default(a, b);
     e.delay = delay;
     if (pm_graph_add_edge(g, &e, NULL) != PM_OK)
         exit(1);
@@ -112,21 +112,21 @@ static bench kernels(void)
                    "kernels fir/fft/biquad"};
 }
 
-static int bench_one(bench b, pm_run_config *cfg, double handoff)
+static int bench_one(bench b, pm_runner_config *cfg, double handoff)
 {
     double *ns = calloc(b.g->nnodes, sizeof *ns), pred = 0, lo = 1e300;
-    pm_run_result *r = NULL, *one = NULL;
+    pm_runner_result rs = {0}, os = {0}, *r = &rs, *one = &os;
     pm_map *serial = NULL;
-    int rc = pm_run_node_times(b.g, b.m, cfg, 15, ns);
+    int rc = pm_runner_node_times(b.g, b.m, cfg, 15, ns);
     if (rc == PM_OK)
-        rc = pm_run_predict(b.g, b.m, ns, handoff, 0, &pred, NULL, NULL);
+        rc = pm_runner_predict(b.g, b.m, ns, handoff, 0, &pred, NULL, NULL);
     if (rc == PM_OK)
-        rc = pm_run_execute(b.g, b.m, cfg, &r);
-    if (rc == PM_OK && (rc = pm_run_serial_map(b.g, &serial)) == PM_OK)
-        rc = pm_run_execute(b.g, serial, cfg, &one);
+        rc = pm_runner_execute(b.g, b.m, cfg, r);
+    if (rc == PM_OK && (rc = pm_runner_serial_map(b.g, &serial)) == PM_OK)
+        rc = pm_runner_execute(b.g, serial, cfg, one);
     double slow = 0, post = 0;
     if (rc == PM_OK &&
-        pm_run_predict(b.g, b.m, r->node_ns, handoff, 0, &post, NULL, NULL) != PM_OK)
+        pm_runner_predict(b.g, b.m, r->node_ns, handoff, 0, &post, NULL, NULL) != PM_OK)
         post = 0;
     for (uint32_t v = 0; v < b.g->nnodes; v++) {
         lo = ns[v] < lo ? ns[v] : lo;
@@ -138,13 +138,13 @@ static int bench_one(bench b, pm_run_config *cfg, double handoff)
                r->period_ns_median / pred, slow, r->period_ns_median / post,
                one->output_hash == r->output_hash && !r->order_errors ? "same" : "DIFFER");
     else
-        printf("%-24s failed: %s\n", b.name, pm_strerror(rc));
+        printf("%-24s failed: %s\n", b.name, pm_error_name(rc));
     if (rc == PM_OK && getenv("PM_BENCH_BUSY"))
         printf("  busy %.4f %.4f, mean period %.1f us\n", r->busy[0], r->busy[1],
                r->period_ns_mean / 1000);
     int bad = rc != PM_OK || one->output_hash != r->output_hash;
-    pm_run_result_destroy(r);
-    pm_run_result_destroy(one);
+    pm_runner_result_free(r);
+    pm_runner_result_free(one);
     pm_map_destroy(serial);
     pm_map_destroy(b.m);
     pm_graph_destroy(b.g);
@@ -154,21 +154,21 @@ static int bench_one(bench b, pm_run_config *cfg, double handoff)
 
 int main(int argc, char **argv)
 {
-    pm_run_config cfg;
-    pm_run_config_default(&cfg);
+    pm_runner_config cfg;
+    pm_runner_config_default(&cfg);
     cfg.iterations = argc > 1 ? (uint32_t)atoi(argv[1]) : 2000u;
     cfg.warmup = cfg.iterations / 10;
     pm_topo *t = NULL;
     pm_topo_choice ch;
-    if (pm_topo_open(NULL, &t) != PM_OK || pm_topo_choose(t, 2, NULL, 0, true, &ch, NULL))
+    if (pm_topo_create(NULL, &t) != PM_OK || pm_topo_choose(t, 2, NULL, 0, true, &ch, NULL))
         return 1;
     cfg.topo = t;
     cfg.pu = ch.pu;
     cfg.yield = ch.shared;
     double med, p99;
     bool pinned;
-    if (pm_run_calibrate(&cfg.turns_per_ns) != PM_OK ||
-        pm_run_handoff(&cfg, ch.pu[0], ch.pu[1], 20000, &med, &p99, &pinned) != PM_OK)
+    if (pm_runner_calibrate(&cfg.turns_per_ns) != PM_OK ||
+        pm_runner_handoff(&cfg, ch.pu[0], ch.pu[1], 20000, &med, &p99, &pinned) != PM_OK)
         return 1;
     printf("PUs: %s\nspin: %.3f turns/ns; handoff PU %u -> PU %u (block %u floats): "
            "median %.0f ns, p99 %.0f ns, %s\n", ch.summary, cfg.turns_per_ns, ch.pu[0],
@@ -179,6 +179,6 @@ int main(int argc, char **argv)
     int bad = bench_one(pipeline(), &cfg, med) | bench_one(loop(), &cfg, med) |
               bench_one(kernels(), &cfg, med);
     pm_topo_choice_free(&ch);
-    pm_topo_close(t);
+    pm_topo_destroy(t);
     return bad;
 }

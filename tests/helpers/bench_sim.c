@@ -40,13 +40,13 @@ static pm_graph *bench_graph(uint32_t n, uint32_t procs, int bus)
             return NULL;
     }
     for (uint32_t v = 1; v < n; v++) {
-        pm_edge e = pm_edge_default(v - 1, v);
+        pm_edge e = pm_graph_edge_default(v - 1, v);
         uint32_t back = 1 + bench_rnd(v < 64 ? v : 64);
-        pm_edge f = pm_edge_default(v - back, v);
+        pm_edge f = pm_graph_edge_default(v - back, v);
         if (pm_graph_add_edge(g, &e, NULL) || pm_graph_add_edge(g, &f, NULL))
             return NULL;
         if (bench_rnd(50) == 0 && v > 100) {
-            pm_edge b = pm_edge_default(v, v - 1 - bench_rnd(100));
+            pm_edge b = pm_graph_edge_default(v, v - 1 - bench_rnd(100));
             b.delay = 1 + bench_rnd(3);
             if (pm_graph_add_edge(g, &b, NULL))
                 return NULL;
@@ -97,7 +97,7 @@ int main(int argc, char **argv)
     int rc = pm_sim_run(g, m, &o, &r, &d);
     clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &t1);
     if (rc) {
-        fprintf(stderr, "bench_sim: %s: %s\n", pm_strerror(rc), d.msg);
+        fprintf(stderr, "bench_sim: %s: %s\n", pm_error_name(rc), d.msg);
         return 1;
     }
     double sec = (double)(t1.tv_sec - t0.tv_sec) + 1e-9 * (double)(t1.tv_nsec - t0.tv_nsec);

@@ -39,7 +39,7 @@ static inline pm_graph *gen_graph_random(uint64_t seed, uint32_t n, uint32_t m,
             return pm_graph_destroy(g), NULL;
     }
     for (uint32_t i = 0; g && i < m; i++) {
-        pm_edge e = pm_edge_default(0, 0);
+        pm_edge e = pm_graph_edge_default(0, 0);
         gen_edge(&r, n, maxd, &e.src, &e.dst, &e.delay);
         if (pm_graph_add_edge(g, &e, NULL) != 0)
             return pm_graph_destroy(g), NULL;

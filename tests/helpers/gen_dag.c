@@ -58,7 +58,7 @@ static void mem_node(void *ctx, uint32_t v, int64_t cycles)
 
 static void mem_edge(void *ctx, uint32_t a, uint32_t b, int64_t words)
 {
-    pm_edge e = pm_edge_default(a, b);
+    pm_edge e = pm_graph_edge_default(a, b);
     e.words = words;
     pm_graph_add_edge(ctx, &e, NULL);
 }
@@ -101,7 +101,7 @@ static int gd_time(uint32_t n, uint32_t P, int reps, uint64_t seed)
             return 1;
         }
         makespan = s->makespan;
-        pm_schedule_destroy(s);
+        pm_sched_destroy(s);
         pm_map_destroy(m);
     }
     qsort(t, (size_t)reps, sizeof t[0], gd_cmp);

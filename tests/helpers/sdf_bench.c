@@ -35,11 +35,11 @@ static pm_graph *bench_chain(void)
     for (uint32_t v = 0; v < 13; v++) {
         snprintf(name, sizeof name, "s%u", v);
         pm_graph_add_node(g, name, strlen(name), 10 + v, NULL);
-        pm_edge self = pm_edge_default(v, v);
+        pm_edge self = pm_graph_edge_default(v, v);
         self.delay = 1;
         pm_graph_add_edge(g, &self, NULL);
         if (v) {
-            pm_edge e = pm_edge_default(v - 1, v);
+            pm_edge e = pm_graph_edge_default(v - 1, v);
             e.consume = v <= 6 ? 2 : 5;
             pm_graph_add_edge(g, &e, NULL);
         }
@@ -54,7 +54,7 @@ static pm_graph *bench_pingpong(void)
     pm_graph_add_node(g, "src", 3, 1, NULL);
     pm_graph_add_node(g, "a", 1, 1, NULL);
     pm_graph_add_node(g, "b", 1, 1, NULL);
-    pm_edge in = pm_edge_default(0, 1), ab = pm_edge_default(1, 2), ba = pm_edge_default(2, 1);
+    pm_edge in = pm_graph_edge_default(0, 1), ab = pm_graph_edge_default(1, 2), ba = pm_graph_edge_default(2, 1);
     in.produce = 1000000;
     ba.delay = 1;
     pm_graph_add_edge(g, &in, NULL);

@@ -38,7 +38,7 @@ int main(int argc, char **argv)
     pm_graph *g = NULL, *x = NULL;
     uint64_t *rep = NULL;
     pm_diag d;
-    int rc = pm_scenario_read_file(argv[1], &g, &d);
+    int rc = pm_reader_read_file(argv[1], &g, &d);
     if (rc == PM_OK)
         rc = pm_sdf_single_rate(g, &x, &rep, NULL, &d);
     if (rc != PM_OK) {
