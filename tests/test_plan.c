@@ -17,6 +17,7 @@
 
 #include "pacemap/plan.h"
 #include "pacemap/reader.h"
+#include "pacemap/map.h"
 #include "pacemap/sdf.h"
 #include "pacemap/sim.h"
 #include "pacemap/sweep.h"

@@ -718,7 +718,7 @@ static void test_liveness_matches_expansion(void **state)
         assert_int_equal(rc == PM_OK, zero_delay_acyclic(x, NULL));
         rc == PM_OK ? live++ : dead++;
         pm_map *m = random_map(r.g, 1 + rnd(3)), *xm;
-        int mrc = pm_sdf_expand_map(r.g, rep, m, &xm, &d);
+        int mrc = pm_map_expand(r.g, rep, m, &xm, &d);
         if (rc != PM_OK)
             assert_int_equal(mrc, PM_EDEADLOCK);
         if (mrc == PM_OK) {
@@ -726,7 +726,7 @@ static void test_liveness_matches_expansion(void **state)
             check_expanded_map(m, xm, origin, x->nnodes);
             assert_true(zero_delay_acyclic(x, xm));
             pm_map *back;
-            assert_int_equal(pm_sdf_collapse_map(r.g, rep, xm, &back, &d), PM_OK);
+            assert_int_equal(pm_map_collapse(r.g, rep, xm, &back, &d), PM_OK);
             assert_same_map(m, back);
             pm_map_destroy(back);
             pm_map_destroy(xm);
@@ -751,7 +751,7 @@ static void test_map_of_single_rate_graph_is_unchanged(void **state)
         pm_diag d;
         assert_int_equal(pm_sdf_repetition(g, &rep, &d), PM_OK);
         pm_map *m = random_map(g, 1 + rnd(3)), *xm;
-        assert_int_equal(pm_sdf_expand_map(g, rep, m, &xm, &d), PM_OK);
+        assert_int_equal(pm_map_expand(g, rep, m, &xm, &d), PM_OK);
         assert_int_equal(xm->ncores, m->ncores);
         for (uint32_t c = 0; c <= m->ncores; c++)
             assert_int_equal(xm->off[c], m->off[c]);
@@ -779,7 +779,7 @@ static void test_map_interleaves_a_loop(void **state)
     pm_map *m, *xm;
     assert_int_equal(pm_map_create(1, 3, (const uint32_t *const[]){ (const uint32_t[]){ 0, 1, 2 } },
                                    (const uint32_t[]){ 3 }, &m), PM_OK);
-    assert_int_equal(pm_sdf_expand_map(g, rep, m, &xm, &d), PM_OK);
+    assert_int_equal(pm_map_expand(g, rep, m, &xm, &d), PM_OK);
     static const uint32_t want[] = { 0, 1, 3, 2, 4 }; /* src a#0 b#0 a#1 b#1 */
     assert_int_equal(xm->off[1], 5);
     for (uint32_t k = 0; k < 5; k++)
@@ -789,14 +789,14 @@ static void test_map_interleaves_a_loop(void **state)
     /* the order b a src cannot start: b waits for a, which may not start */
     assert_int_equal(pm_map_create(1, 3, (const uint32_t *const[]){ (const uint32_t[]){ 2, 1, 0 } },
                                    (const uint32_t[]){ 3 }, &m), PM_OK);
-    assert_int_equal(pm_sdf_expand_map(g, rep, m, &xm, &d), PM_EDEADLOCK);
+    assert_int_equal(pm_map_expand(g, rep, m, &xm, &d), PM_EDEADLOCK);
     assert_null(xm);
     assert_non_null(strstr(d.msg, "core 0 waits at 'b' (0 of 2 firings done)"));
     pm_map_destroy(m);
     /* a map missing a node */
     assert_int_equal(pm_map_create(1, 3, (const uint32_t *const[]){ (const uint32_t[]){ 0, 1 } },
                                    (const uint32_t[]){ 2 }, &m), PM_OK);
-    assert_int_equal(pm_sdf_expand_map(g, rep, m, &xm, &d), PM_EMAP);
+    assert_int_equal(pm_map_expand(g, rep, m, &xm, &d), PM_EMAP);
     pm_map_destroy(m);
     free(rep);
     pm_graph_destroy(g);
@@ -816,7 +816,7 @@ static void test_collapse_scattered_map(void **state)
     assert_int_equal(pm_map_create(2, 4, (const uint32_t *const[]){ (const uint32_t[]){ 0, 2, 3 },
                                                                     (const uint32_t[]){ 1 } },
                                    (const uint32_t[]){ 3, 1 }, &xm), PM_OK);
-    assert_int_equal(pm_sdf_collapse_map(g, rep, xm, &m, &d), PM_OK);
+    assert_int_equal(pm_map_collapse(g, rep, xm, &m, &d), PM_OK);
     assert_int_equal(m->core_of[0], 0);
     assert_int_equal(m->core_of[1], 1); /* where b#0 ran */
     assert_int_equal(m->core_of[2], 0);
@@ -827,7 +827,7 @@ static void test_collapse_scattered_map(void **state)
     /* a firing listed twice */
     assert_int_equal(pm_map_create(1, 4, (const uint32_t *const[]){ (const uint32_t[]){ 0, 1, 1, 3 } },
                                    (const uint32_t[]){ 4 }, &xm), PM_OK);
-    assert_int_equal(pm_sdf_collapse_map(g, rep, xm, &m, &d), PM_EMAP);
+    assert_int_equal(pm_map_collapse(g, rep, xm, &m, &d), PM_EMAP);
     assert_null(m);
     pm_map_destroy(xm);
     free(rep);

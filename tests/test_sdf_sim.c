@@ -9,7 +9,7 @@
  * A multirate graph (Lee & Messerschmitt, "Static scheduling of synchronous
  * data flow programs for digital signal processing", IEEE Trans. Computers
  * 1987) is expanded with pm_sdf_expand, its map of original nodes becomes a
- * map of firings with pm_sdf_expand_map, and pm_sim_run simulates that.
+ * map of firings with pm_map_expand, and pm_sim_run simulates that.
  * This file builds the IPC graph of the expansion under the expanded map
  * itself (DESIGN §5 semantics, no simulator code; send = recv = 0):
  *   data edge u -> v, d delays:  weight t(u) (+ latency + per_word * words
@@ -139,7 +139,7 @@ static bool ipc_exceeds(const tcase *tc, pm_rat lambda)
 /* ---- running one multirate graph under one map -------------------------- */
 
 /* Expand g for rep, expand map m, simulate.  False (nothing kept) when
- * pm_sdf_expand_map finds the map's order cannot complete an iteration. */
+ * pm_map_expand finds the map's order cannot complete an iteration. */
 static bool add_case(const pm_graph *g, const uint64_t *rep, const pm_map *m, const char *label)
 {
     assert_true(ncases < MAXCASES);
@@ -148,11 +148,11 @@ static bool add_case(const pm_graph *g, const uint64_t *rep, const pm_map *m, co
     snprintf(tc->label, sizeof tc->label, "%s", label);
     pm_diag d;
     pm_map *xm = NULL;
-    int rc = pm_sdf_expand_map(g, rep, m, &xm, &d);
+    int rc = pm_map_expand(g, rep, m, &xm, &d);
     if (rc == PM_EDEADLOCK)
         return false;
     if (rc != PM_OK)
-        fail_msg("%s: pm_sdf_expand_map: %s", label, d.msg);
+        fail_msg("%s: pm_map_expand: %s", label, d.msg);
     if (pm_sdf_expand(g, rep, &tc->xg, NULL, &d) != PM_OK)
         fail_msg("%s: pm_sdf_expand: %s", label, d.msg);
     tc->xm = xm;
@@ -160,7 +160,7 @@ static bool add_case(const pm_graph *g, const uint64_t *rep, const pm_map *m, co
     assert_true(pm_graph_is_single_rate(tc->xg));
     pm_sim_opts o = { .iterations = ITERATIONS };
     rc = pm_sim_run(tc->xg, xm, &o, &tc->r, &d);
-    /* pm_sdf_expand_map promises orders that cannot deadlock self-timed */
+    /* pm_map_expand promises orders that cannot deadlock self-timed */
     if (rc != PM_OK)
         fail_msg("%s: pm_sim_run returned %d: %s", label, rc, d.msg);
     if (!tc->r.steady)
@@ -240,7 +240,7 @@ static void check_rep(const pm_graph *g, const uint32_t *q, const uint64_t *rep)
 }
 
 /* One attempt; returns 0 simulated, 1 rejected by the one-iteration check,
- * 2 map order rejected by pm_sdf_expand_map. */
+ * 2 map order rejected by pm_map_expand. */
 static int random_attempt(int i, bool *multirate)
 {
     uint32_t n = 2 + rnd(MAXN - 1), procs = 1 + rnd(3), q[MAXN];
@@ -424,7 +424,7 @@ static void test_rx_decimating(void **state)
         if (add_case(g, rep, m, label))
             ran++;
         else if (i < nmaps)
-            fail_msg("%s: hand map rejected by pm_sdf_expand_map", label);
+            fail_msg("%s: hand map rejected by pm_map_expand", label);
         else
             rejected++;
         pm_map_destroy(m);

@@ -41,6 +41,42 @@ int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag 
 int pm_map_read_string(const char *text, size_t len, const char *name,
                        const pm_graph *g, pm_map **out, pm_diag *diag);
 
+/* ---- maps of a multirate graph's expansion (sdf.h), in mapexpand.c ---- */
+
+/*
+ * Turn map m of g's nodes into a map of the expanded graph (ids as in
+ * pm_sdf_expand): every firing of a node runs on the node's core, firings of
+ * one node in firing order.  On each core the firings follow the map's node
+ * order, each node's firings together where the tokens allow; a node's
+ * firings are interleaved with those of the nodes after it on the same core
+ * only when a loop needs it.  Rule: an entry of a core's list may start
+ * only after the entry before it has started; among the entries that may
+ * run, the earliest in the list fires first.  The per-core orders are the
+ * projection of one admissible sequential schedule of an iteration, so
+ * self-timed execution of the result cannot deadlock.  For a single-rate
+ * graph the result equals m.
+ * Errors: PM_EMAP when m does not list every node of g exactly once;
+ * PM_EDEADLOCK when the map's order cannot complete an iteration (diag says
+ * where each core waits); PM_EINVAL when rep does not balance g; PM_ELIMIT
+ * past PM_SDF_MAX_FIRINGS; PM_ENOMEM.
+ * Complexity: O((sum of q + E) log V) for graphs whose firings batch well.
+ */
+int pm_map_expand(const pm_graph *g, const uint64_t *rep, const pm_map *m,
+                  pm_map **out, pm_diag *diag);
+
+/*
+ * The map of g's nodes that a map xm of the expanded graph implies: node v
+ * goes to the core of its firing 0, and the nodes on a core are ordered by
+ * where their firing 0 runs.  Meant for maps that keep a node's firings
+ * together: pm_map_collapse of the result of pm_map_expand(m) is
+ * m.  To map a multirate graph, pm_plan_map (pacemap/plan.h) places each
+ * node by the cycles its firings ran on each core instead.
+ * Errors: PM_EMAP when xm does not list every firing exactly once (sum of
+ * rep entries); PM_ENOMEM.  O(sum of q * log V).
+ */
+int pm_map_collapse(const pm_graph *g, const uint64_t *rep, const pm_map *xm,
+                    pm_map **out, pm_diag *diag);
+
 /* Write `m` in `.map` form to a stdio stream. */
 #include <stdio.h>
 int pm_map_write(const pm_map *m, const pm_graph *g, FILE *out);

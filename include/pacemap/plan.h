@@ -16,7 +16,7 @@
  * that zero-cycle firings count too); on a tie, the lower core.  The nodes
  * of a core run in the order of their earliest firing's start in that
  * schedule (ties: the lower node id), and every firing of a node runs on
- * its node's core in firing order (pm_sdf_expand_map).
+ * its node's core in firing order (pm_map_expand).
  *
  * Maps of a plan are maps of p->graph (the expansion for a multirate
  * scenario); map files name the scenario's own nodes (p->source).
@@ -89,7 +89,7 @@ int pm_plan_set_procs(pm_plan *p, uint32_t procs, pm_diag *diag);
  * *sched is the timing of that map (pm_sched_from_map semantics).  Both are
  * the caller's to destroy, and are NULL on error.
  * Errors: PM_EINVAL (p, p->graph or map NULL); those of pm_sched_list,
- * pm_sdf_expand_map, pm_refine_map and pm_sched_from_map (PM_EZERODELAY,
+ * pm_map_expand, pm_refine_map and pm_sched_from_map (PM_EZERODELAY,
  * PM_EPLATFORM, PM_ENOMEM, ...), diag filled.  The plan is not changed.
  */
 int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
@@ -98,9 +98,9 @@ int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
 /*
  * Read a map file naming the nodes of p->source (pm_map_read_file) and
  * turn it into a map of p->graph: for a multirate scenario every firing of
- * a node on its node's core in firing order (pm_sdf_expand_map).  *out is
+ * a node on its node's core in firing order (pm_map_expand).  *out is
  * the caller's on PM_OK, NULL on error.  Errors: PM_EINVAL (an argument
- * NULL); those of pm_map_read_file and pm_sdf_expand_map (PM_EIO,
+ * NULL); those of pm_map_read_file and pm_map_expand (PM_EIO,
  * PM_ESYNTAX, PM_ENAME, PM_EMAP, PM_EDEADLOCK, ...), diag filled.
  */
 int pm_plan_map_read(const pm_plan *p, const char *path, pm_map **out, pm_diag *diag);
@@ -108,9 +108,9 @@ int pm_plan_map_read(const pm_plan *p, const char *path, pm_map **out, pm_diag *
 /*
  * Write map m of p->graph as a `.map` file naming the scenario's own nodes
  * (for a multirate scenario the map is first collapsed to its nodes with
- * pm_sdf_collapse_map: each node on the core of its firing 0).  Errors:
+ * pm_map_collapse: each node on the core of its firing 0).  Errors:
  * PM_EINVAL (an argument NULL); those of pm_map_write and
- * pm_sdf_collapse_map (PM_EIO, PM_EMAP, PM_ENOMEM).  Nothing is owned or
+ * pm_map_collapse (PM_EIO, PM_EMAP, PM_ENOMEM).  Nothing is owned or
  * kept.
  */
 int pm_plan_map_write(const pm_plan *p, const pm_map *m, FILE *out);

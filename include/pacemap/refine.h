@@ -15,7 +15,7 @@
  * Each core runs its nodes in the order of their start in the original
  * schedule, so zero-delay precedence keeps the per-core orders consistent.
  * For a multirate scenario the moves are made on the scenario's nodes and
- * every firing of a node goes with it (pm_sdf_expand_map).
+ * every firing of a node goes with it (pm_map_expand).
  *
  * Ownership: the result map belongs to the caller.  Thread-safe.
  */

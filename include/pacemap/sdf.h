@@ -23,9 +23,9 @@
  * taking `rep` accept any positive vector that balances every edge (a
  * multiple of the smallest one means that many periods).
  *
- * Ownership: arrays, graphs and maps returned through out-parameters belong
- * to the caller (free() / pm_graph_destroy() / pm_map_destroy()); on failure
- * they are set to NULL.  The input graph is only read; it need not be
+ * Ownership: arrays and graphs returned through out-parameters belong to
+ * the caller (free() / pm_graph_destroy()); on failure they are set to
+ * NULL.  Maps of the expansion are made in map.h (pm_map_expand).  The input graph is only read; it need not be
  * finalized.  Thread-safe: no global state.
  */
 #ifndef PACEMAP_SDF_H
@@ -35,7 +35,6 @@
 
 #include "pacemap/error.h"
 #include "pacemap/graph.h"
-#include "pacemap/map.h"
 
 /* Size guard of the expansion: firings per iteration (sum of q) and edges of
  * the expanded graph.  About 0.5 GB of memory at both limits. */
@@ -101,40 +100,6 @@ int pm_sdf_check_iteration(const pm_graph *g, const uint64_t *rep, pm_diag *diag
  */
 int pm_sdf_expand(const pm_graph *g, const uint64_t *rep, pm_graph **out,
                   uint32_t **origin, pm_diag *diag);
-
-/*
- * Turn map m of g's nodes into a map of the expanded graph (ids as in
- * pm_sdf_expand): every firing of a node runs on the node's core, firings of
- * one node in firing order.  On each core the firings follow the map's node
- * order, each node's firings together where the tokens allow; a node's
- * firings are interleaved with those of the nodes after it on the same core
- * only when a loop needs it.  Rule: an entry of a core's list may start
- * only after the entry before it has started; among the entries that may
- * run, the earliest in the list fires first.  The per-core orders are the
- * projection of one admissible sequential schedule of an iteration, so
- * self-timed execution of the result cannot deadlock.  For a single-rate
- * graph the result equals m.
- * Errors: PM_EMAP when m does not list every node of g exactly once;
- * PM_EDEADLOCK when the map's order cannot complete an iteration (diag says
- * where each core waits); PM_EINVAL when rep does not balance g; PM_ELIMIT
- * past PM_SDF_MAX_FIRINGS; PM_ENOMEM.
- * Complexity: O((sum of q + E) log V) for graphs whose firings batch well.
- */
-int pm_sdf_expand_map(const pm_graph *g, const uint64_t *rep, const pm_map *m,
-                      pm_map **out, pm_diag *diag);
-
-/*
- * The map of g's nodes that a map xm of the expanded graph implies: node v
- * goes to the core of its firing 0, and the nodes on a core are ordered by
- * where their firing 0 runs.  Meant for maps that keep a node's firings
- * together: pm_sdf_collapse_map of the result of pm_sdf_expand_map(m) is
- * m.  To map a multirate graph, pm_plan_map (pacemap/plan.h) places each
- * node by the cycles its firings ran on each core instead.
- * Errors: PM_EMAP when xm does not list every firing exactly once (sum of
- * rep entries); PM_ENOMEM.  O(sum of q * log V).
- */
-int pm_sdf_collapse_map(const pm_graph *g, const uint64_t *rep, const pm_map *xm,
-                        pm_map **out, pm_diag *diag);
 
 /*
  * The whole path in one call: repetition vector, one-iteration check and

@@ -46,6 +46,11 @@ void sdf_tokens_fire(sdf_tokens *s, uint32_t v, uint64_t k);
  * else PM_EINVAL (diag says which edge). */
 int sdf_check_balance(const pm_graph *g, const uint64_t *rep, pm_diag *diag);
 
+/* What maps of the expansion check first (sched/map/mapexpand.c): rep
+ * balances g and the firings fit PM_SDF_MAX_FIRINGS; then *first (owned)
+ * holds the expanded id of each node's firing 0, first[n] the total. */
+int sdf_firing_ids(const pm_graph *g, const uint64_t *rep, uint32_t **first, pm_diag *diag);
+
 /* a * b into *out; false when the product does not fit 128 bits. */
 bool sdf_mul128(pm_u128 a, pm_u128 b, pm_u128 *out);
 /* Floor division and the matching non-negative remainder, b > 0. */

@@ -145,7 +145,7 @@ static int plan_firings_together(const pm_plan *p, const pm_schedule *sc, pm_map
     pm_map *nodes = NULL, *firings = NULL;
     int rc = plan_nodes_from_firings(p, sc, &nodes);
     if (rc == PM_OK)
-        rc = pm_sdf_expand_map(p->source, p->rep, nodes, &firings, diag);
+        rc = pm_map_expand(p->source, p->rep, nodes, &firings, diag);
     pm_map_destroy(nodes);
     if (rc == PM_OK) {
         pm_map_destroy(*m);
@@ -240,7 +240,7 @@ int pm_plan_map_read(const pm_plan *p, const char *path, pm_map **out, pm_diag *
     int rc = pm_map_read_file(path, p->source, &m, diag);
     if (rc == PM_OK && p->multirate) {
         pm_map *xm = NULL;
-        rc = pm_sdf_expand_map(p->source, p->rep, m, &xm, diag);
+        rc = pm_map_expand(p->source, p->rep, m, &xm, diag);
         pm_map_destroy(m);
         m = xm;
     }
@@ -256,7 +256,7 @@ int pm_plan_map_write(const pm_plan *p, const pm_map *m, FILE *out)
     if (!p->multirate)
         return pm_map_write(m, p->graph, out);
     pm_map *nodes = NULL;
-    int rc = pm_sdf_collapse_map(p->source, p->rep, m, &nodes, NULL);
+    int rc = pm_map_collapse(p->source, p->rep, m, &nodes, NULL);
     if (rc == PM_OK)
         rc = pm_map_write(nodes, p->source, out);
     pm_map_destroy(nodes);

@@ -98,7 +98,7 @@ static int refine_realize(refine *r, pm_map **out)
         *out = um;
         return rc;
     }
-    rc = pm_sdf_expand_map(r->o->source, r->o->rep, um, out, NULL);
+    rc = pm_map_expand(r->o->source, r->o->rep, um, out, NULL);
     pm_map_destroy(um);
     return rc;
 }

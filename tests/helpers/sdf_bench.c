@@ -13,6 +13,7 @@
 #include <sys/resource.h>
 #include <time.h>
 
+#include "pacemap/map.h"
 #include "pacemap/sdf.h"
 
 static double bench_now(void)
@@ -85,7 +86,7 @@ static double bench_stage(const pm_graph *g, int stage, int runs, uint32_t *size
         int rc = stage == 0 ? pm_sdf_repetition(g, &r2, &d)
                : stage == 1 ? pm_sdf_check_iteration(g, rep, &d)
                : stage == 2 ? pm_sdf_expand(g, rep, &x, NULL, &d)
-                            : pm_sdf_expand_map(g, rep, m, &xm, &d);
+                            : pm_map_expand(g, rep, m, &xm, &d);
         t[r] = bench_now() - t0;
         if (rc != PM_OK) {
             fprintf(stderr, "stage %d: %s\n", stage, d.msg);
