@@ -14,6 +14,7 @@
 #include "pacemap/refine.h"
 #include "pacemap/sched.h"
 #include "pacemap/sim.h"
+#include "support/testkit.h"
 
 /* a <-> b, one delay on b -> a; transfers cost 5 cycles. */
 static pm_graph *refine_loop_graph(uint32_t pin_a, uint32_t pin_b)
@@ -97,24 +98,24 @@ static void test_pins_are_kept(void **state)
 
 /* A random graph with feed-forward edges (low to high id) and a few
  * back edges with delays. */
-static pm_graph *refine_random_graph(unsigned *seed, uint32_t n)
+static pm_graph *refine_random_graph(uint64_t *seed, uint32_t n)
 {
     pm_graph *g = pm_graph_create("random.pace");
     assert_int_equal(pm_graph_set_cores(g, 1, NULL, (const uint32_t[]){ 3 }), PM_OK);
-    g->platform.comm.latency = rand_r(seed) % 20;
-    g->platform.comm.per_word = rand_r(seed) % 3;
+    g->platform.comm.latency = tk_rand(seed, 20);
+    g->platform.comm.per_word = tk_rand(seed, 3);
     char name[16];
     for (uint32_t v = 0; v < n; v++) {
         int len = snprintf(name, sizeof name, "n%u", v);
-        assert_int_equal(pm_graph_add_node(g, name, (size_t)len, 1 + rand_r(seed) % 50, NULL),
+        assert_int_equal(pm_graph_add_node(g, name, (size_t)len, 1 + tk_rand(seed, 50), NULL),
                          PM_OK);
     }
     for (uint32_t k = 0; k < 2 * n; k++) {
-        uint32_t u = (uint32_t)rand_r(seed) % n, v = (uint32_t)rand_r(seed) % n;
+        uint32_t u = tk_rand(seed, n), v = tk_rand(seed, n);
         pm_edge e = pm_graph_edge_default(u < v ? u : v, u < v ? v : u);
-        if (u == v || rand_r(seed) % 4 == 0) {
+        if (u == v || tk_rand(seed, 4) == 0) {
             e = pm_graph_edge_default(u < v ? v : u, u < v ? u : v); /* backwards: needs delay */
-            e.delay = 1 + rand_r(seed) % 2;
+            e.delay = 1 + tk_rand(seed, 2);
         }
         assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
     }
@@ -127,7 +128,7 @@ static pm_graph *refine_random_graph(unsigned *seed, uint32_t n)
 static void test_never_worse_on_random_graphs(void **state)
 {
     (void)state;
-    unsigned seed = 12345;
+    uint64_t seed = 12345;
     int better = 0;
     for (int t = 0; t < 60; t++) {
         pm_graph *g = refine_random_graph(&seed, 4 + (uint32_t)t % 9);

@@ -11,7 +11,7 @@
  * 1987) is expanded with pm_sdf_expand, its map of original nodes becomes a
  * map of firings with pm_map_expand, and pm_sim_run simulates that.
  * This file builds the IPC graph of the expansion under the expanded map
- * itself (DESIGN §5 semantics, no simulator code; send = recv = 0):
+ * itself (the timing rules of docs/simulation.md, no simulator code; send = recv = 0):
  *   data edge u -> v, d delays:  weight t(u) (+ latency + per_word * words
  *                                when u, v are on different cores), d
  *   core order p then q:         weight t(p), 0 delays
