@@ -10,6 +10,7 @@
 #ifndef PACEMAP_MAP_H
 #define PACEMAP_MAP_H
 
+#include <stdbool.h>
 #include <stdint.h>
 
 #include "pacemap/error.h"
@@ -21,17 +22,28 @@ typedef struct pm_map {
     uint32_t *core_of; /* nnodes entries: the core of each node */
     uint32_t *off;     /* ncores + 1 entries: core c runs order[off[c] .. off[c+1]) */
     uint32_t *order;   /* nnodes entries: node ids grouped by core, in run order */
+    uint32_t *lag;     /* nnodes entries: how many iterations the node runs behind
+                          its core's round (software pipelining): round r of the
+                          core runs the node's iteration r - lag, none while that
+                          is negative.  0 for every node unless set. */
 } pm_map;
 
+/* Largest lag a map may give a node (keeps round arithmetic far from
+ * overflow; a pipeline this deep is never useful). */
+#define PM_MAP_MAX_LAG (1u << 20)
+
 /* A map with `ncores` cores built from per-core node lists: lists[c] holds
- * counts[c] node ids in run order.  Does not validate against a graph (see
- * pm_map_check).  PM_ENOMEM. */
+ * counts[c] node ids in run order; every lag 0.  Does not validate against
+ * a graph (see pm_map_check).  PM_ENOMEM. */
 int pm_map_create(uint32_t ncores, uint32_t nnodes, const uint32_t *const *lists,
                   const uint32_t *counts, pm_map **out);
 void pm_map_destroy(pm_map *m);
 
+/* True when some node of m has a lag other than 0.  O(nnodes). */
+bool pm_map_has_lags(const pm_map *m);
+
 /* Check that `m` fits `g`: every node exactly once, cores within the
- * platform, pins and classes respected.  On failure returns PM_EMAP and
+ * platform, pins and classes respected, lags at most PM_MAP_MAX_LAG.  On failure returns PM_EMAP and
  * describes the first problem in `diag` (no position). */
 int pm_map_check(const pm_map *m, const pm_graph *g, pm_diag *diag);
 

@@ -16,7 +16,16 @@ void pm_map_destroy(pm_map *m)
     free(m->core_of);
     free(m->off);
     free(m->order);
+    free(m->lag);
     free(m);
+}
+
+bool pm_map_has_lags(const pm_map *m)
+{
+    for (uint32_t v = 0; v < m->nnodes; v++)
+        if (m->lag[v] != 0)
+            return true;
+    return false;
 }
 
 int pm_map_create(uint32_t ncores, uint32_t nnodes, const uint32_t *const *lists,
@@ -34,7 +43,8 @@ int pm_map_create(uint32_t ncores, uint32_t nnodes, const uint32_t *const *lists
     for (uint32_t c = 0; c < ncores; c++)
         total += counts[c];
     m->order = malloc((size_t)(total + 1) * sizeof *m->order);
-    if (!m->core_of || !m->off || !m->order) {
+    m->lag = calloc((size_t)nnodes + 1, sizeof *m->lag);
+    if (!m->core_of || !m->off || !m->order || !m->lag) {
         pm_map_destroy(m);
         return PM_ENOMEM;
     }
@@ -81,7 +91,12 @@ static int map_check_node(const pm_map *m, const pm_graph *g, uint32_t v, uint32
                     g->platform.class_names[cls], c);
         return PM_EMAP;
     }
-    (void)m;
+    if (m->lag[v] > PM_MAP_MAX_LAG) {
+        pm_diag_set(diag, g->file, n->line, n->col,
+                    "node '%s' has lag %u; the most a map may give is %u", name, m->lag[v],
+                    PM_MAP_MAX_LAG);
+        return PM_EMAP;
+    }
     return PM_OK;
 }
 
