@@ -100,12 +100,32 @@ static void test_procs_override_checks_pins(void **state)
     pm_graph_destroy(g);
 }
 
+/* Suggestions, distances worked by hand (optimal string alignment):
+ * "acg" -> "agc" is one swap of adjacent letters (1 step, allowed for 3
+ * letters); "mixr" -> "mixer" one insertion; "c" has 1 step to "a" but a
+ * 1-letter name allows 0 steps; "zzz" is 3 steps from everything. */
+static void test_suggest_nearest_name(void **state)
+{
+    (void)state;
+    pm_graph *g = pm_graph_create(NULL);
+    const char *names[] = { "a", "agc", "amp", "mixer" };
+    for (uint32_t i = 0; i < 4; i++)
+        assert_int_equal(pm_graph_add_node(g, names[i], strlen(names[i]), 1, NULL), PM_OK);
+    assert_int_equal(pm_graph_suggest_node(g, "acg", 3), 1);
+    assert_int_equal(pm_graph_suggest_node(g, "mixr", 4), 3);
+    assert_int_equal(pm_graph_suggest_node(g, "c", 1), PM_NONE);
+    assert_int_equal(pm_graph_suggest_node(g, "zzz", 3), PM_NONE);
+    assert_int_equal(pm_graph_suggest_class(g, "dsp", 3), PM_NONE); /* no named classes */
+    pm_graph_destroy(g);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_names_are_found_after_many_inserts),
         cmocka_unit_test(test_adjacency_lists_every_edge_once),
         cmocka_unit_test(test_class_cycles_and_min),
+        cmocka_unit_test(test_suggest_nearest_name),
         cmocka_unit_test(test_procs_override_checks_pins),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

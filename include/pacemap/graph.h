@@ -123,6 +123,13 @@ int pm_graph_set_class_cycles(pm_graph *g, uint32_t v, const int64_t *row);
 /* Node index by name, or PM_NONE. O(1) expected. */
 uint32_t pm_graph_find(const pm_graph *g, const char *name, size_t len);
 
+/* "Did you mean": the node (or class) whose name is nearest to the unknown
+ * name[0..len) by optimal string alignment distance (edits and adjacent
+ * swaps), when it is within one step per three characters; else PM_NONE.
+ * Ties: the lowest index.  For error messages only: O(names x len^2). */
+uint32_t pm_graph_suggest_node(const pm_graph *g, const char *name, size_t len);
+uint32_t pm_graph_suggest_class(const pm_graph *g, const char *name, size_t len);
+
 /* Look up n names at once: ids[k] = pm_graph_find(g, names[k], lens[k]).
  * Same result as n single calls, several times faster on graphs too big for
  * the cache, because the lookups' memory loads overlap.  O(n) expected. */

@@ -104,6 +104,20 @@ static int rd_edge_add(reader_state *st, const reader_edge_line *el)
     return PM_OK;
 }
 
+/* Edge reference i names no node: say so, with the nearest declared name. */
+static int rd_unknown_node(reader_state *st, uint32_t i)
+{
+    uint32_t near = pm_graph_suggest_node(st->g, st->ref_text[i], st->ref_len[i]);
+    if (near != PM_NONE)
+        return reader_fail(st, PM_ENAME, st->ref_col[i], "unknown node '%.*s' (did you mean "
+                           "'%s'? nodes are declared with 'node' before an edge names them)",
+                           (int)st->ref_len[i], st->ref_text[i],
+                           pm_graph_node_name(st->g, near));
+    return reader_fail(st, PM_ENAME, st->ref_col[i], "unknown node '%.*s' "
+                       "(declare it with 'node' before this edge)",
+                       (int)st->ref_len[i], st->ref_text[i]);
+}
+
 int reader_flush_edges(reader_state *st)
 {
     pm_graph_find_many(st->g, st->ref_text, st->ref_len, st->nrefs, st->ref_id);
@@ -113,9 +127,7 @@ int reader_flush_edges(reader_state *st)
         st->lineno = el->lineno;
         for (uint32_t i = el->first; i < el->first + el->count; i++)
             if (st->ref_id[i] == PM_NONE)
-                return reader_fail(st, PM_ENAME, st->ref_col[i], "unknown node '%.*s' "
-                                   "(declare it with 'node' before this edge)",
-                                   (int)st->ref_len[i], st->ref_text[i]);
+                return rd_unknown_node(st, i);
         if (el->complete)
             rd_edge_add(st, el);
     }

@@ -360,6 +360,12 @@ static int rd_class_ref(reader_state *st, uint32_t *c)
         return reader_fail(st, PM_ENAME, st->tok.col, "unknown class %s (declare core classes "
                            "with a 'procs CLASS:COUNT' line before this node)",
                            reader_found(st));
+    uint32_t near = pm_graph_suggest_class(st->g, st->tok.text, st->tok.len);
+    if (near != PM_NONE)
+        return reader_fail(st, PM_ENAME, st->tok.col,
+                           "unknown class %s (did you mean '%s'? classes come from the "
+                           "'procs' line on line %u)", reader_found(st),
+                           p->class_names[near], st->seen_procs);
     return reader_fail(st, PM_ENAME, st->tok.col,
                        "unknown class %s (not in the 'procs' line on line %u)",
                        reader_found(st), st->seen_procs);
