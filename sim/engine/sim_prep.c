@@ -367,6 +367,13 @@ static void sim_window_message(const sim *s, pm_diag *diag)
         return;
     }
     e = sim_largest_delay(g);
+    if (s->lag_max && (e == PM_NONE || (uint64_t)s->lag_max >= (uint64_t)g->edges[e].delay)) {
+        pm_diag_set(diag, g->file, 0, 0,
+                    "lags too deep for the simulator: with a lag of %u, iterations %llu apart "
+                    "must be kept, more than fit in its memory limit", s->lag_max,
+                    (unsigned long long)s->span + s->lag_max);
+        return;
+    }
     pm_diag_set(diag, g->file, e == PM_NONE ? 0 : g->edges[e].line,
                 e == PM_NONE ? 0 : g->edges[e].col,
                 "too many delays for the simulator: iterations %llu apart must be kept, "
