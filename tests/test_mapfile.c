@@ -91,6 +91,14 @@ static void test_read_errors(void **state)
         {"core 1: src lo hi\ncore 0: mix\n", PM_EMAP, 1, 13, "pinned to class dsp"},
         {"core 0: src lo\ncore 1: hi mix\n", PM_EMAP, 2, 12, "no cycles for class host"},
         {"core 0: src lo mix : \ncore 1: hi\n", PM_ESYNTAX, 1, 20, "expected a node name"},
+        /* lags: the column is the lag's first character, just after '@' */
+        {"core 0: src lo@ mix\ncore 1: hi\n", PM_ESYNTAX, 1, 16, "expected a lag"},
+        {"core 0: src lo@-1 mix\ncore 1: hi\n", PM_ESYNTAX, 1, 16, "found '-1'"},
+        {"core 0: src lo@abc mix\ncore 1: hi\n", PM_ESYNTAX, 1, 16, "found 'abc'"},
+        {"core 0: src lo@1048577 mix\ncore 1: hi\n", PM_EMAP, 1, 16, "larger than the most"},
+        {"core 0: src lo@99999999999999999999 mix\ncore 1: hi\n", PM_EMAP, 1, 16,
+         "larger than the most"},
+        {"core 0: src @1 lo mix\ncore 1: hi\n", PM_ESYNTAX, 1, 13, "expected a node name"},
     };
     pm_graph *g = small_graph();
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
@@ -105,6 +113,48 @@ static void test_read_errors(void **state)
         assert_int_equal(d.col, cases[i].col);
         assert_non_null(strstr(d.msg, cases[i].needle));
     }
+    pm_graph_destroy(g);
+}
+
+/* NAME@L gives the node lag L; written back, the map reads the same. */
+static void test_lag_round_trip(void **state)
+{
+    (void)state;
+    pm_graph *g = small_graph();
+    pm_map *m = NULL;
+    pm_diag d;
+    /* src -> lo, src -> hi, lo -> mix, hi -> mix, no delays: lags 0, 1, 1, 2
+     * keep every retimed count d + lag[v] - lag[u] at 1 */
+    const char *text = "core 0: src lo@1 mix@2\ncore 1: hi@1\n";
+    assert_int_equal(read_map(g, text, &m, &d), PM_OK);
+    assert_int_equal(m->lag[0], 0);
+    assert_int_equal(m->lag[1], 1);
+    assert_int_equal(m->lag[2], 1);
+    assert_int_equal(m->lag[3], 2);
+    assert_true(pm_map_has_lags(m));
+    char *buf = NULL;
+    size_t len = 0;
+    FILE *f = open_memstream(&buf, &len);
+    assert_int_equal(pm_map_write(m, g, f), PM_OK);
+    fclose(f);
+    assert_string_equal(buf, "# core: nodes in execution order\n"
+                             "core 0: src lo@1 mix@2\ncore 1: hi@1\n");
+    pm_map *again = NULL;
+    assert_int_equal(read_map(g, buf, &again, &d), PM_OK);
+    for (uint32_t v = 0; v < 4; v++) {
+        assert_int_equal(again->lag[v], m->lag[v]);
+        assert_int_equal(again->core_of[v], m->core_of[v]);
+    }
+    free(buf);
+    pm_map_destroy(again);
+    pm_map_destroy(m);
+    /* mix@0 after lo@1: edge lo -> mix would have 0 + 0 - 1 delays; the
+     * message names the edge at its place in the graph file */
+    assert_int_equal(read_map(g, "core 0: src lo@1 mix\ncore 1: hi\n", &m, &d), PM_EMAP);
+    assert_null(m);
+    assert_string_equal(d.file, "g.pace");
+    assert_non_null(strstr(d.msg, "edge 'lo' -> 'mix' has 0 delays"));
+    assert_non_null(strstr(d.msg, "need at least 1"));
     pm_graph_destroy(g);
 }
 
@@ -172,6 +222,7 @@ int main(void)
         cmocka_unit_test(test_read_ok),
         cmocka_unit_test(test_read_errors),
         cmocka_unit_test(test_read_file),
+        cmocka_unit_test(test_lag_round_trip),
         cmocka_unit_test(test_map_deadlock),
         cmocka_unit_test(test_zero_delay_loop),
     };

@@ -43,8 +43,10 @@ void pm_map_destroy(pm_map *m);
 bool pm_map_has_lags(const pm_map *m);
 
 /* Check that `m` fits `g`: every node exactly once, cores within the
- * platform, pins and classes respected, lags at most PM_MAP_MAX_LAG.  On failure returns PM_EMAP and
- * describes the first problem in `diag` (no position). */
+ * platform, pins and classes respected, lags at most PM_MAP_MAX_LAG, and
+ * every edge u -> v with d delays keeps d + lag[v] - lag[u] >= 0.  On
+ * failure returns PM_EMAP and describes the first problem in `diag` (the
+ * edge's position for a lag problem, else none). */
 int pm_map_check(const pm_map *m, const pm_graph *g, pm_diag *diag);
 
 /* Read a `.map` file for graph g (docs/format.md); errors carry FILE:LINE:COL.

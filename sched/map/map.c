@@ -100,6 +100,27 @@ static int map_check_node(const pm_map *m, const pm_graph *g, uint32_t v, uint32
     return PM_OK;
 }
 
+/* Lags retime every edge u -> v to d + lag[v] - lag[u] delays in round
+ * terms; a negative count would have v use a token made in a later round. */
+static int map_check_lags(const pm_map *m, const pm_graph *g, pm_diag *diag)
+{
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        int64_t r = ed->delay + (int64_t)m->lag[ed->dst] - (int64_t)m->lag[ed->src];
+        if (r >= 0)
+            continue;
+        pm_diag_set(diag, g->file, ed->line, ed->col,
+                    "edge '%s' -> '%s' has %lld delays, but the lags (%u on '%s', %u on "
+                    "'%s') need at least %lld: it would read a token of a later round",
+                    pm_graph_node_name(g, ed->src), pm_graph_node_name(g, ed->dst),
+                    (long long)ed->delay, m->lag[ed->src], pm_graph_node_name(g, ed->src),
+                    m->lag[ed->dst], pm_graph_node_name(g, ed->dst),
+                    (long long)ed->delay - r);
+        return PM_EMAP;
+    }
+    return PM_OK;
+}
+
 int pm_map_check(const pm_map *m, const pm_graph *g, pm_diag *diag)
 {
     if (m->nnodes != g->nnodes || m->ncores > g->platform.ncores) {
@@ -134,5 +155,7 @@ int pm_map_check(const pm_map *m, const pm_graph *g, pm_diag *diag)
         }
     }
     free(seen);
+    if (rc == PM_OK && pm_map_has_lags(m))
+        rc = map_check_lags(m, g, diag);
     return rc;
 }

@@ -2,8 +2,10 @@
  * mapfile.c - `.map` files (docs/format.md): read them for a graph, write them.
  *
  *   file  := { line }
- *   line  := [ "core" INT ":" { NAME } ] [ "#" comment ] NEWLINE
+ *   line  := [ "core" INT ":" { NAME [ "@" LAG ] } ] [ "#" comment ] NEWLINE
  *
+ * LAG (decimal, 0 .. PM_MAP_MAX_LAG) is how many iterations the node runs
+ * behind its core's round; a name without it has lag 0.
  * Tokens are separated by spaces or tabs; the colon may touch the number
  * or the first name.  Cores not listed are empty; a core may be listed once.
  * Errors point at the offending token (FILE:LINE:COL).  The structure and
@@ -22,6 +24,7 @@ typedef struct mf_state {
     pm_diag *diag;
     uint32_t line;
     uint32_t *core_of;   /* per node, PM_NONE until listed */
+    uint32_t *lag;       /* per node: its lag, 0 unless written NAME@L */
     uint32_t *line_of;   /* per core: line that listed it, 0 if none */
     uint32_t **lists;
     uint32_t *counts, *caps;
@@ -146,13 +149,39 @@ static int mf_append(mf_state *st, uint32_t core, uint32_t v)
     return PM_OK;
 }
 
-/* The names after "core N:". */
+/* The lag after "NAME@", `n` characters at `at`, into st->lag[v]. */
+static int mf_lag(mf_state *st, const mf_cur *c, const char *at, int n, uint32_t v)
+{
+    uint64_t lag = 0;
+    bool ok = n > 0;
+    for (int i = 0; ok && i < n; i++) {
+        ok = at[i] >= '0' && at[i] <= '9';
+        if (lag <= PM_MAP_MAX_LAG) /* stop growing: the check below refuses it */
+            lag = lag * 10 + (uint64_t)(at[i] - '0');
+    }
+    if (n == 0)
+        return mf_error(st, c, at, PM_ESYNTAX,
+                        "expected a lag (a whole number of iterations) after '@'");
+    if (!ok)
+        return mf_error(st, c, at, PM_ESYNTAX,
+                        "expected a lag (a whole number of iterations) after '@', found '%.*s'",
+                        n > 40 ? 40 : n, at);
+    if (lag > PM_MAP_MAX_LAG)
+        return mf_error(st, c, at, PM_EMAP, "lag %.*s is larger than the most a map may give (%u)",
+                        n > 40 ? 40 : n, at, PM_MAP_MAX_LAG);
+    st->lag[v] = (uint32_t)lag;
+    return PM_OK;
+}
+
+/* The names after "core N:", each maybe with "@LAG". */
 static int mf_names(mf_state *st, mf_cur *c, uint32_t core)
 {
     while (!mf_at_end(c)) {
         const char *at = c->s;
-        int n = mf_token(c);
-        if (n == 0)
+        int tok = mf_token(c);
+        const char *sign = memchr(at, '@', (size_t)tok);
+        int n = sign ? (int)(sign - at) : tok;
+        if (tok == 0 || n == 0)
             return mf_error(st, c, at, PM_ESYNTAX, "expected a node name, found '%c'", *at);
         uint32_t v = pm_graph_find(st->g, at, (size_t)n);
         if (v == PM_NONE)
@@ -161,11 +190,13 @@ static int mf_names(mf_state *st, mf_cur *c, uint32_t core)
             return mf_error(st, c, at, PM_EMAP, "node '%.*s' appears twice (already on core %u)",
                             n, at, st->core_of[v]);
         int rc = mf_node_fits(st, c, at, v, core);
+        if (rc == PM_OK && sign)
+            rc = mf_lag(st, c, sign + 1, tok - n - 1, v);
         if (rc == PM_OK)
             rc = mf_append(st, core, v);
         if (rc != PM_OK)
             return rc;
-        c->s += n;
+        c->s += tok;
     }
     return PM_OK;
 }
@@ -215,6 +246,7 @@ static void mf_free(mf_state *st, uint32_t ncores)
     free(st->counts);
     free(st->caps);
     free(st->core_of);
+    free(st->lag);
     free(st->line_of);
 }
 
@@ -225,18 +257,21 @@ int pm_map_read_string(const char *text, size_t len, const char *name,
     uint32_t P = g->platform.ncores;
     mf_state st = {.g = g, .file = name ? name : "", .diag = diag};
     st.core_of = malloc(((size_t)g->nnodes + 1) * sizeof *st.core_of);
+    st.lag = calloc((size_t)g->nnodes + 1, sizeof *st.lag);
     st.line_of = calloc((size_t)P + 1, sizeof *st.line_of);
     st.lists = calloc((size_t)P + 1, sizeof *st.lists);
     st.counts = calloc((size_t)P + 1, sizeof *st.counts);
     st.caps = calloc((size_t)P + 1, sizeof *st.caps);
     int rc = PM_ENOMEM;
-    if (st.core_of && st.line_of && st.lists && st.counts && st.caps) {
+    if (st.core_of && st.lag && st.line_of && st.lists && st.counts && st.caps) {
         for (uint32_t v = 0; v < g->nnodes; v++)
             st.core_of[v] = PM_NONE;
         rc = mf_parse(&st, text, len);
     }
     if (rc == PM_OK)
         rc = pm_map_create(P, g->nnodes, (const uint32_t *const *)st.lists, st.counts, out);
+    if (rc == PM_OK)
+        memcpy((*out)->lag, st.lag, (size_t)g->nnodes * sizeof *st.lag);
     if (rc == PM_OK && (rc = pm_map_check(*out, g, diag)) != PM_OK) {
         pm_map_destroy(*out);
         *out = NULL;
@@ -294,7 +329,12 @@ int pm_map_write(const pm_map *m, const pm_graph *g, FILE *out)
     for (uint32_t c = 0; c < m->ncores; c++) {
         fprintf(out, "core %u:", c);
         for (uint32_t i = m->off[c]; i < m->off[c + 1]; i++)
-            fprintf(out, " %s", pm_graph_node_name(g, m->order[i]));
+        {
+            uint32_t v = m->order[i];
+            fprintf(out, " %s", pm_graph_node_name(g, v));
+            if (m->lag[v]) /* lag 0 is the plain name: maps without lags read as before */
+                fprintf(out, "@%u", m->lag[v]);
+        }
         fputc('\n', out);
     }
     return ferror(out) ? PM_EIO : PM_OK;

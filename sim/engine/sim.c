@@ -163,7 +163,7 @@ static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
     r->makespan = s->makespan;
     r->latency_max = s->lat_max;
     for (uint32_t c = 0; c < s->P; c++)
-        if (s->iter[c] < s->N)
+        if (s->iter[c] < s->R)
             return sim_report_deadlock(s, r, diag);
     r->iterations = s->N;
     int rc = sim_tokens_tail(s);

@@ -122,17 +122,21 @@ static void sim_runnable(sim *s, uint32_t c)
 static int sim_core_advanced(sim *s, uint32_t c, pm_diag *diag)
 {
     uint64_t it = s->iter[c];
-    if (it < s->N && it > s->max_iter) {
-        s->max_iter = it;
+    if (it < s->R && it > s->max_iter) {
+        s->max_iter = it; /* a round: no iteration it begins before round it */
         int rc = sim_ring_fit(s, diag);
         if (rc)
             return rc;
         sim_slot_reset(s, it);
     }
+    /* iteration i has fully begun once every core d is past round
+     * i + (the largest lag on d) */
     uint64_t lo = s->N;
-    for (uint32_t d = 0; d < s->P; d++)
-        if (s->iter[d] < lo)
-            lo = s->iter[d];
+    for (uint32_t d = 0; d < s->P; d++) {
+        uint64_t l = s->iter[d] > s->core_lag[d] ? s->iter[d] - s->core_lag[d] : 0;
+        if (l < lo)
+            lo = l;
+    }
     if (s->completed == lo)
         return PM_OK;
     while (s->completed < lo)
@@ -266,11 +270,39 @@ static inline void sim_note_begin(sim *s, uint32_t v, uint64_t k, int64_t x)
         s->half[v] = x;
 }
 
+/* The core moves to its next position; 1 when it starts a new round. */
+static inline int sim_next_pos(sim *s, uint32_t c)
+{
+    if (++s->pos[c] == s->cnt[c]) {
+        s->pos[c] = 0;
+        s->iter[c]++;
+        return 1;
+    }
+    return PM_OK;
+}
+
+/* With lags, (v,k) with k >= N runs in the last rounds: it takes its
+ * core's time and sends its tokens (later firings of the run may need
+ * them), but counts for nothing reported. */
+static int sim_commit_extra(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x)
+{
+    s->done[v]++;
+    s->firings++;
+    s->free[c] = x + s->nd[v].free_off;
+    int rc = s->nx ? sim_outputs(s, c, v, k, x + s->nd[v].end_off) : PM_OK;
+    if (rc)
+        return rc;
+    sim_wake(s, v);
+    return sim_next_pos(s, c);
+}
+
 static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uint32_t cause)
 {
     size_t slot = (size_t)(k & s->mask) * s->n + v;
     s->xr[slot] = x;
     s->cr[slot] = cause;
+    if (__builtin_expect(k >= s->N, 0))
+        return sim_commit_extra(s, c, v, k, x);
     sim_note_begin(s, v, k, x);
     s->done[v]++;
     s->firings++;
@@ -286,12 +318,7 @@ static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uin
     if (rc)
         return rc;
     sim_wake(s, v);
-    if (++s->pos[c] == s->cnt[c]) {
-        s->pos[c] = 0;
-        s->iter[c]++;
-        return 1; /* the core moved to a new iteration */
-    }
-    return PM_OK;
+    return sim_next_pos(s, c); /* 1: the core moved to a new round */
 }
 
 /* The causal engine, for a bus and for maps the compiled pass cannot run.  A
@@ -328,13 +355,27 @@ static void sim_prefetch(const sim *s, uint32_t c, uint32_t ahead)
     __builtin_prefetch(sim_x_at(s, v, s->iter[c]), 1);
 }
 
+/* Round *k of core c reaches v: turn *k into v's iteration and return 0,
+ * or, in a round before v's lag, pass v by in no time (returns 2, or 1
+ * when that ends the core's round). */
+static int sim_lagged_round(sim *s, uint32_t c, uint32_t v, uint64_t *k)
+{
+    uint32_t lag = s->m->lag[v];
+    if (*k >= lag) {
+        *k -= lag;
+        return 0;
+    }
+    return sim_next_pos(s, c) ? 1 : 2;
+}
+
 static int sim_run_core(sim *s, uint32_t c, pm_diag *diag)
 {
     s->wait_node[c] = PM_NONE;
     for (uint32_t a = 1; a <= SIM_PREFETCH; a++)
         sim_prefetch(s, c, a);
-    while (s->iter[c] < s->N) {
-        if (s->iter[c] >= s->completed + SIM_LAG && !s->relax[c]) {
+    while (s->iter[c] < s->R) {
+        /* completed trails rounds by up to lag_max: allow for it */
+        if (s->iter[c] >= s->completed + SIM_LAG + s->lag_max && !s->relax[c]) {
             s->lagged[c] = true;
             s->nlagged++;
             return PM_OK;
@@ -345,9 +386,15 @@ static int sim_run_core(sim *s, uint32_t c, pm_diag *diag)
         uint64_t k = s->iter[c];
         int64_t x = s->free[c];
         uint32_t cause = (k || s->pos[c]) ? PM_CAUSE_ORDER : PM_CAUSE_START;
+        int rc;
+        if (__builtin_expect(s->lags, 0) && (rc = sim_lagged_round(s, c, v, &k)) != 0) {
+            if (rc == 1 && (rc = sim_core_advanced(s, c, diag)) != 0)
+                return rc;
+            continue; /* v had no iteration in this round */
+        }
         if (!sim_ready(s, c, v, k, &x, &cause))
             return PM_OK;
-        int rc = sim_commit(s, c, v, k, x, cause);
+        rc = sim_commit(s, c, v, k, x, cause);
         if (rc == 1)
             rc = sim_core_advanced(s, c, diag);
         if (rc)

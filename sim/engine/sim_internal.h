@@ -8,6 +8,15 @@
  * Times are kept in sliding rings of W iterations (W a power of two):
  * x_ring[(k & mask) * n + v] is the begin time of firing (v,k).  W grows
  * only when cores drift more than W iterations apart (tokens piling up).
+ *
+ * Lags (map.h): cores run rounds; round r of v's core runs v's iteration
+ * r - lag[v], none while that is negative.  Everything kept per iteration
+ * (rings, fingerprints, latency, tokens, records) is kept by v's own
+ * iteration, so both engines count iterations as without lags and only
+ * their loops over rounds know of lags.  A run of N iterations takes
+ * R = N + (largest lag) rounds; firings of iterations N and later in those
+ * rounds happen (they may hold back earlier iterations on their core) but
+ * count for nothing reported.
  */
 #ifndef PACEMAP_SIM_INTERNAL_H
 #define PACEMAP_SIM_INTERNAL_H
@@ -123,6 +132,10 @@ typedef struct sim {
     uint64_t N;
     uint32_t n, P, nx;
     bool bus, fifo;
+    bool lags;                /* some node has a lag (map.h) */
+    uint32_t lag_max;         /* the largest lag */
+    uint64_t R;               /* rounds the cores run: N + lag_max */
+    uint32_t *core_lag;       /* per core: the largest lag of its nodes */
     int64_t span;             /* deepest look-back in iterations (delays, FIFO) */
     uint32_t cmax;
     /* per node */

@@ -494,6 +494,8 @@ static int p2p_run(sim *s, p2p *w)
 int sim_loop_p2p(sim *s, pm_diag *diag)
 {
     (void)diag;
+    if (s->lags) /* rounds and iterations differ: the causal engine runs these */
+        return 1;
     p2p w = { 0 };
     int rc = p2p_build(s, &w);
     if (!rc)
@@ -506,6 +508,6 @@ int sim_loop_p2p(sim *s, pm_diag *diag)
     for (uint32_t v = 0; v < s->n; v++)
         s->done[v] = s->N;
     for (uint32_t c = 0; c < s->P; c++)
-        s->iter[c] = s->N, s->pos[c] = 0;
+        s->iter[c] = s->R, s->pos[c] = 0;
     return PM_OK;
 }

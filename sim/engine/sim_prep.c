@@ -74,17 +74,46 @@ static int sim_alloc_nodes(sim *s)
     s->lagged = calloc(P + 1, sizeof *s->lagged);
     s->relax = calloc(P + 1, sizeof *s->relax);
     s->runq = calloc(P + 1, sizeof *s->runq);
+    s->core_lag = calloc(P + 1, sizeof *s->core_lag);
     if (!s->t || !s->recv || !s->send || !s->nd || !s->in_off || !s->ins || !s->xout_off ||
         !s->xout || !s->xs_of || !s->x || !s->occ || !s->pos_of || !s->done ||
         !s->wait_head || !s->half || !s->pos || !s->cnt || !s->first || !s->iter ||
         !s->free || !s->wait_next || !s->wait_node || !s->wait_edge || !s->wait_fifo ||
-        !s->queued || !s->lagged || !s->relax || !s->runq)
+        !s->queued || !s->lagged || !s->relax || !s->runq || !s->core_lag)
         return PM_ENOMEM;
     memset(s->nd, 0, (n + 1) * sizeof *s->nd);
     memset(s->ins, 0, (e + 1) * sizeof *s->ins);
     for (uint32_t v = 0; v < s->n; v++)
         s->wait_head[v] = PM_NONE;
     return PM_OK;
+}
+
+/* With lags the consumer of u -> v begins lag[v] - lag[u] rounds later, so
+ * the edge holds d + lag[v] - lag[u] tokens by then: a FIFO gets at least
+ * that much room (else the producer would wait for a round not yet run). */
+static int64_t sim_lag_cap(const sim *s, const pm_edge *ed, int64_t cap)
+{
+    int64_t r = ed->delay + (int64_t)s->m->lag[ed->dst] - (int64_t)s->m->lag[ed->src];
+    return r > cap ? r : cap;
+}
+
+/* How many iterations back from a round the lags make the engines read
+ * (at most): an input of v reads iteration r - lag[v] - d, a room
+ * condition r - lag[v] - (cap - d), the core's previous firing
+ * r - 1 - lag[prev], and a skipped firing keeps its time in the slot of
+ * its negative iteration r - lag[v] (sim_p2p.c). */
+static void sim_lag_span(sim *s)
+{
+    const pm_graph *g = s->g;
+    int64_t most = 2 * (int64_t)s->lag_max + 1;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        uint32_t xs = s->xs_of[e];
+        int64_t d = g->edges[e].delay, cap = xs != PM_NONE ? s->x[xs].cap : 0;
+        int64_t back = (int64_t)s->lag_max + (cap > d ? cap : d);
+        most = back > most ? back : most;
+    }
+    if (most > s->span)
+        s->span = most;
 }
 
 /* Cross-core edges get an xslot; every node gets its input list. */
@@ -115,6 +144,8 @@ static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
         }
         x->cost = (int64_t)cost;
         x->cap = fifo_cap ? (ed->delay > fifo_cap ? ed->delay : fifo_cap) : 0;
+        if (x->cap && s->lags) /* room for the tokens the lags keep in flight too */
+            x->cap = sim_lag_cap(s, ed, x->cap);
         if (x->cap > s->span)
             s->span = x->cap;
         s->occ[s->nx].occ = s->occ[s->nx].max = ed->delay;
@@ -178,8 +209,12 @@ static void sim_build_cores(sim *s)
         s->cnt[c] = m->off[c + 1] - m->off[c];
         for (uint32_t i = 0; i < s->cnt[c]; i++)
             s->pos_of[m->order[m->off[c] + i]] = i;
-        s->iter[c] = s->cnt[c] ? 0 : s->N;
+        s->iter[c] = s->cnt[c] ? 0 : s->R;
         s->wait_node[c] = PM_NONE;
+        for (uint32_t i = 0; s->lags && i < s->cnt[c]; i++) {
+            uint32_t l = m->lag[m->order[m->off[c] + i]];
+            s->core_lag[c] = l > s->core_lag[c] ? l : s->core_lag[c];
+        }
     }
 }
 
@@ -192,7 +227,7 @@ static int sim_check_range(const sim *s, pm_diag *diag)
         per += (pm_u128)(s->t[v] + s->recv[v] + s->send[v]);
     for (uint32_t i = 0; i < s->nx; i++)
         per += (pm_u128)s->x[i].cost;
-    if (per * 2 * ((pm_u128)s->N + 1) > (pm_u128)PM_MAX_VALUE) {
+    if (per * 2 * ((pm_u128)s->R + 1) > (pm_u128)PM_MAX_VALUE) {
         pm_diag_set(diag, s->g->file, 0, 0, "times of %llu iterations would overflow",
                     (unsigned long long)s->N);
         return PM_ERANGE;
@@ -332,6 +367,13 @@ static void sim_window_message(const sim *s, pm_diag *diag)
         return;
     }
     e = sim_largest_delay(g);
+    if (s->lag_max && (e == PM_NONE || (uint64_t)s->lag_max >= (uint64_t)g->edges[e].delay)) {
+        pm_diag_set(diag, g->file, 0, 0,
+                    "lags too deep for the simulator: with a lag of %u, iterations %llu apart "
+                    "must be kept, more than fit in its memory limit", s->lag_max,
+                    (unsigned long long)s->span + s->lag_max);
+        return;
+    }
     pm_diag_set(diag, g->file, e == PM_NONE ? 0 : g->edges[e].line,
                 e == PM_NONE ? 0 : g->edges[e].col,
                 "too many delays for the simulator: iterations %llu apart must be kept, "
@@ -342,6 +384,7 @@ static void sim_window_message(const sim *s, pm_diag *diag)
 int sim_ring_fit(sim *s, pm_diag *diag)
 {
     uint64_t back = (uint64_t)s->span + 2 > s->cmax + 1 ? (uint64_t)s->span + 2 : s->cmax + 1;
+    back += s->lag_max; /* iterations wait lag_max rounds before they count as done */
     uint64_t need = s->max_iter - s->completed + back + 1;
     if (s->xr && need <= s->W)
         return PM_OK;
@@ -371,6 +414,10 @@ int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
     s->bus = g->platform.interconnect == PM_BUS;
     s->fifo = o->fifo_cap > 0;
     s->record = o->record;
+    for (uint32_t v = 0; v < s->n; v++)
+        s->lag_max = m->lag[v] > s->lag_max ? m->lag[v] : s->lag_max;
+    s->lags = s->lag_max > 0;
+    s->R = s->N + s->lag_max;
     uint32_t cm = o->max_cyclicity ? o->max_cyclicity : (uint32_t)((UINT32_C(1) << 21) / (s->n + 1));
     s->cmax = cm > PM_SIM_MAX_CYCLICITY ? PM_SIM_MAX_CYCLICITY : cm < 4 ? 4 : cm;
     if (o->max_cyclicity && o->max_cyclicity < s->cmax)
@@ -381,6 +428,8 @@ int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
     if (rc)
         return rc;
     rc = sim_build_edges(s, o->fifo_cap, diag);
+    if (!rc && s->lags)
+        sim_lag_span(s);
     if (!rc)
         rc = sim_build_xlists(s);
     if (rc)
@@ -404,7 +453,7 @@ void sim_free(sim *s)
     void *ps[] = { s->t, s->recv, s->send, s->nd, s->in_off, s->ins, s->xout_off, s->xout,
                    s->xs_of, s->pos_of, s->done, s->wait_head, s->x, s->pos,
                    s->cnt, s->first, s->iter, s->free, s->wait_next, s->wait_node,
-                   s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->xr, s->cr, s->bg, s->f1, s->lbr, s->lmin, s->lmax, s->half,
+                   s->wait_edge, s->wait_fifo, s->queued, s->lagged, s->relax, s->runq, s->core_lag, s->xr, s->cr, s->bg, s->f1, s->lbr, s->lmin, s->lmax, s->half,
                    s->trace, s->tr, s->cur, s->fo, s->take };
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);

@@ -51,7 +51,7 @@ int sim_report_deadlock(sim *s, pm_sim_result *r, pm_diag *diag)
 {
     uint32_t c = PM_NONE;
     for (uint32_t d = 0; d < s->P; d++)
-        if (s->iter[d] < s->N && (c == PM_NONE || s->iter[d] < s->iter[c]))
+        if (s->iter[d] < s->R && (c == PM_NONE || s->iter[d] < s->iter[c]))
             c = d;
     uint32_t *seen = malloc((s->P + 1) * sizeof *seen);
     r->waits = calloc(s->P + 1, sizeof *r->waits);
@@ -64,10 +64,10 @@ int sim_report_deadlock(sim *s, pm_sim_result *r, pm_diag *diag)
     uint32_t len = 0;
     while (c != PM_NONE && seen[c] == PM_NONE && s->wait_node[c] != PM_NONE) {
         seen[c] = len;
-        uint32_t u = s->wait_node[c];
-        r->waits[len++] = (pm_sim_wait){ c, s->m->order[s->first[c] + s->pos[c]], s->iter[c],
-                                          s->wait_edge[c], s->wait_fifo[c], u,
-                                          s->m->core_of[u] };
+        uint32_t u = s->wait_node[c], v = s->m->order[s->first[c] + s->pos[c]];
+        /* a waiting firing is a real one: its round is at least its lag */
+        r->waits[len++] = (pm_sim_wait){ c, v, s->iter[c] - s->m->lag[v], s->wait_edge[c],
+                                          s->wait_fifo[c], u, s->m->core_of[u] };
         c = s->m->core_of[u];
     }
     uint32_t from = (c != PM_NONE && seen[c] != PM_NONE) ? seen[c] : 0;
@@ -87,7 +87,8 @@ int sim_report_deadlock(sim *s, pm_sim_result *r, pm_diag *diag)
 
 uint64_t sim_window_lo(const sim *s)
 {
-    uint64_t lo = s->N > s->W ? s->N - s->W : 0;
+    /* with lags the last rounds run iterations up to R - 1 */
+    uint64_t lo = s->R > s->W ? s->R - s->W : 0;
     return lo > s->valid_lo ? lo : s->valid_lo;
 }
 
@@ -303,9 +304,12 @@ static bool sim_walk_back(const sim *s, const uint32_t *xs_of, sim_walk w, sim_w
     case PM_CAUSE_ORDER: {
         uint32_t back, c = s->m->core_of[w.node];
         uint32_t u = sim_prev_on_core(s, c, s->pos_of[w.node], &back);
-        if (w.k < back)
+        /* in rounds: w runs in round k + lag, u in the round before or
+         * the same; none when u had no iteration in that round */
+        uint64_t round = w.k + s->m->lag[w.node];
+        if (round < (uint64_t)back + s->m->lag[u])
             return false;
-        *prev = (sim_walk){ u, PM_NONE, w.k - back };
+        *prev = (sim_walk){ u, PM_NONE, round - back - s->m->lag[u] };
         return true;
     }
     case PM_CAUSE_EDGE:
@@ -365,7 +369,9 @@ static int sim_chain_walk(sim *s, pm_sim_result *r, uint32_t *mark, const uint32
         *m = len;
         sim_walk p;
         pm_sim_step st;
-        if (!sim_walk_back(s, xs_of, w, &p, &st) || p.k < winlo || p.k >= s->N)
+        /* with lags a firing may follow one of iteration N or later on its
+         * core (the last rounds): those ran too, up to round R - 1 */
+        if (!sim_walk_back(s, xs_of, w, &p, &st) || p.k < winlo || p.k >= s->R)
             return (int)(len + 1);
         pm_sim_step ps = sim_step_of(s, p);
         ps.via = st.via, ps.via_edge = st.via_edge;
