@@ -67,9 +67,13 @@ int pm_map_read_string(const char *text, size_t len, const char *name,
  * only after the entry before it has started; among the entries that may
  * run, the earliest in the list fires first.  The per-core orders are the
  * projection of one admissible sequential schedule of an iteration, so
- * self-timed execution of the result cannot deadlock.  For a single-rate
+ * self-timed execution of the result cannot deadlock.  Lags: every firing
+ * of a node gets the node's lag (whole iterations), and the order is that
+ * of one round of the retimed graph, where an edge u -> v holds delay +
+ * (lag[v] - lag[u]) * produce * rep[u] tokens.  For a single-rate
  * graph the result equals m.
- * Errors: PM_EMAP when m does not list every node of g exactly once;
+ * Errors: PM_EMAP when m does not list every node of g exactly once, or
+ * when an edge's retimed token count is negative;
  * PM_EDEADLOCK when the map's order cannot complete an iteration (diag says
  * where each core waits); PM_EINVAL when rep does not balance g; PM_ELIMIT
  * past PM_SDF_MAX_FIRINGS; PM_ENOMEM.
@@ -80,8 +84,8 @@ int pm_map_expand(const pm_graph *g, const uint64_t *rep, const pm_map *m,
 
 /*
  * The map of g's nodes that a map xm of the expanded graph implies: node v
- * goes to the core of its firing 0, and the nodes on a core are ordered by
- * where their firing 0 runs.  Meant for maps that keep a node's firings
+ * goes to the core of its firing 0 and takes that firing's lag, and the
+ * nodes on a core are ordered by where their firing 0 runs.  Meant for maps that keep a node's firings
  * together: pm_map_collapse of the result of pm_map_expand(m) is
  * m.  To map a multirate graph, pm_plan_map (pacemap/plan.h) places each
  * node by the cycles its firings ran on each core instead.

@@ -3,8 +3,10 @@
  * against the model (docs/runner.md).
  *
  * One thread per core of the map, optionally pinned to a processing unit
- * chosen by topo.h.  Each thread runs its nodes in map order, iteration
- * after iteration (self-timed, docs/simulation.md).  A token is a block
+ * chosen by topo.h.  Each thread runs its nodes in map order, round after
+ * round (self-timed, docs/simulation.md): round r fires node v for
+ * iteration r - lag[v] (map.h) when that is one of the run's iterations,
+ * so a lagged node starts late and its core runs on until it is done.  A token is a block
  * of float samples; a node's input is the mean of its input tokens, where
  * a source (a node whose only in-edges are self-loops) counts the
  * deterministic test signal (stream = node index) as one more input; its
@@ -47,7 +49,8 @@ typedef struct pm_runner_config {
     uint32_t warmup;        /* iterations run before measuring */
     uint32_t block;         /* samples per token, 1..PM_KERNEL_MAX_BLOCK */
     uint32_t ring_capacity; /* slots per cross-core ring; 0 = edge_capacity, else
-                               delay + PM_RUNNER_RING_SLACK; always raised to delay + 1 */
+                               delay + pile + PM_RUNNER_RING_SLACK; always raised to
+                               delay + pile + 1, where pile = max(0, lag[dst] - lag[src]) */
     const uint32_t *edge_capacity; /* NULL, or slots per edge (cross-core edges) */
     double ns_per_cycle;    /* spin nodes: host nanoseconds per node cycle */
     double turns_per_ns;    /* spin calibration from pm_runner_calibrate */
@@ -121,23 +124,31 @@ int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
  * reached, else the average of the last half) on a view of g whose
  * platform is point-to-point links with that latency and no send/recv
  * cost, in units of 1/16 ns.  fifo_cap: tokens per cross-core edge, 0 =
- * unbounded.  depth (nedges entries, may be NULL) receives the most tokens
+ * unbounded.  m's lags go to the simulator with the map.  depth (nedges
+ * entries, may be NULL) receives the most tokens
  * each cross-core edge held in the model (0 for same-core edges): the
  * buffer depth the rings need.  Errors of pm_sim_run, with its message in
  * diag (may be NULL): PM_EDEADLOCK when the map admits no firing order
- * (diag names the waiting cycle), PM_EMAP, PM_ELIMIT, PM_ENOMEM.
+ * (diag names the waiting cycle), PM_EMAP, PM_ELIMIT, PM_ENOMEM,
+ * PM_EUNSUPPORTED when the simulator does not take m's lags.
  * Complexity: that of pm_sim_run for 1000 iterations. */
 int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
                    double handoff_ns, uint32_t fifo_cap, double *period_ns,
                    uint32_t *depth, pm_diag *diag);
 
 /* Run m with one thread per core: cfg->warmup + cfg->iterations
- * iterations.  *out is zeroed first.  PM_OK with *out filled; PM_EDEADLOCK
+ * iterations, each node for every one of them whatever its lag; timings
+ * are per iteration (the completion of iteration k is the latest end of
+ * any node's iteration k, so lags lengthen latency, not the period).
+ * *out is zeroed first.  PM_OK with *out filled; PM_EDEADLOCK
  * with *out filled and
  * stalled set when no thread progressed for cfg->watchdog_ms (or a thread
  * waited on its own core); PM_EUNSUPPORTED for a multirate graph;
  * PM_ELIMIT past PM_RUNNER_MAX_RECORDS; PM_ERANGE for a bad work parameter
- * or block; PM_EINVAL when m does not fit g; PM_ENOMEM; PM_EPLATFORM when
+ * or block, or a ring past ring.h's memory limit (a very large lag); PM_EINVAL when m does not fit g (also: a lag past
+ * PM_MAP_MAX_LAG, or an edge whose delay + lag[dst] - lag[src] is
+ * negative); PM_ELIMIT when a channel would pass PM_RING_MAX_CAPACITY
+ * slots; PM_ENOMEM; PM_EPLATFORM when
  * a thread cannot be started.  Pinning failures do not fail the run. */
 int pm_runner_execute(const pm_graph *g, const pm_map *m, const pm_runner_config *cfg,
                       pm_runner_result *out);

@@ -2,9 +2,10 @@
  * mapexpand.c - maps of a multirate graph's single-rate expansion (sdf.h)
  * made from maps of the graph as written, and back (map.h).
  *
- * Every firing of a node runs on the node's core; the per-core firing
- * orders are built by playing one iteration's tokens (sdf_tokens), so
- * that self-timed execution of the result cannot deadlock.  The expansion
+ * Every firing of a node runs on the node's core with the node's lag; the
+ * per-core firing orders are built by playing one round's tokens
+ * (sdf_tokens) on the graph retimed by the lags, so that self-timed
+ * execution of the result cannot deadlock.  The expansion
  * itself is sched/graph/expand.c; where a multirate node is placed is the
  * plan's rule (plan.h).
  */
@@ -191,6 +192,42 @@ static int mapx_order_init(mapx_order *o, const pm_graph *g, const pm_map *m,
     return sdf_tokens_init(&o->tok, g, a, rep);
 }
 
+/* A lag of L iterations on node v moves L iterations of tokens: an edge
+ * u -> v whose producer makes p tokens a firing holds, in round terms,
+ * delay + (lag[v] - lag[u]) * p * rep[u] tokens at the start of a round
+ * (one iteration of u puts p * rep[u] tokens on it).  Playing one round
+ * from these counts orders the firings as the lagged cores run them.
+ * PM_EMAP when a count is negative: the consumer would wait on a later
+ * round of its producer. */
+static int mapx_retime(mapx_order *o, const uint64_t *rep, pm_diag *diag)
+{
+    const pm_graph *g = o->g;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        pm_i128 shift = (pm_i128)o->m->lag[ed->dst] - (pm_i128)o->m->lag[ed->src];
+        pm_i128 tok = (pm_i128)ed->delay + shift * (pm_i128)ed->produce * (pm_i128)rep[ed->src];
+        if (tok < 0) {
+            pm_diag_set(diag, g->file, ed->line, 0, "edge '%s' -> '%s' has %lld delays, fewer "
+                        "than the lag of '%s' minus that of '%s' asks for",
+                        pm_graph_node_name(g, ed->src), pm_graph_node_name(g, ed->dst),
+                        (long long)ed->delay, pm_graph_node_name(g, ed->dst),
+                        pm_graph_node_name(g, ed->src));
+            return PM_EMAP;
+        }
+        o->tok.tokens[e] = (pm_u128)tok;
+    }
+    return PM_OK;
+}
+
+/* Every firing of a node carries the node's lag. */
+static void mapx_copy_lags(const pm_graph *g, const pm_map *m, const uint32_t *first,
+                           pm_map *xm)
+{
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        for (uint32_t f = first[v]; f < first[v + 1]; f++)
+            xm->lag[f] = m->lag[v];
+}
+
 static int mapx_map_with(const pm_graph *g, const pm_map *m, const sdf_adj *a,
                            const uint64_t *rep, const uint32_t *first, pm_map **out,
                            pm_diag *diag)
@@ -199,6 +236,8 @@ static int mapx_map_with(const pm_graph *g, const pm_map *m, const sdf_adj *a,
     int rc = mapx_order_init(&o, g, m, a, rep, first);
     if (rc == PM_OK)
         rc = mapx_map_fits(g, m, o.pos, diag);
+    if (rc == PM_OK)
+        rc = mapx_retime(&o, rep, diag);
     if (rc == PM_OK) {
         mapx_run(&o);
         for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++)
@@ -213,6 +252,8 @@ static int mapx_map_with(const pm_graph *g, const pm_map *m, const sdf_adj *a,
     if (rc == PM_OK)
         rc = pm_map_create(m->ncores, first[g->nnodes], (const uint32_t *const *)lists,
                            o.out_len, out);
+    if (rc == PM_OK)
+        mapx_copy_lags(g, m, first, *out);
     free(lists);
     mapx_order_free(&o);
     return rc;
@@ -275,6 +316,8 @@ static int mapx_collapse_with(const pm_graph *g, const pm_map *xm, const uint32_
     }
     if (rc == PM_OK)
         rc = pm_map_create(xm->ncores, g->nnodes, (const uint32_t *const *)lists, counts, out);
+    for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++)
+        (*out)->lag[v] = xm->lag[first[v]]; /* the lag of its firing 0 */
     free(lists);
     free(seen);
     return rc;

@@ -292,6 +292,22 @@ static void runner_collect(runner_ctx *x)
 
 /* ---- entry point -------------------------------------------------------------- */
 
+/* Lags within PM_MAP_MAX_LAG, and no edge whose retimed delay (delay +
+ * lag[dst] - lag[src], map.h) is negative: its consumer would need a token
+ * its producer makes in a later round. */
+static bool runner_lags_fit(const pm_graph *g, const pm_map *m)
+{
+    for (uint32_t v = 0; v < g->nnodes; v++)
+        if (runner_lag(m, v) > PM_MAP_MAX_LAG)
+            return false;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        if (ed->delay + (int64_t)runner_lag(m, ed->dst) - (int64_t)runner_lag(m, ed->src) < 0)
+            return false;
+    }
+    return true;
+}
+
 /* Every node exactly once, each listed on the core core_of names. */
 static bool runner_map_fits(const pm_graph *g, const pm_map *m)
 {
@@ -307,7 +323,7 @@ static bool runner_map_fits(const pm_graph *g, const pm_map *m)
                 seen[v] = true;
         }
     free(seen);
-    return ok;
+    return ok && runner_lags_fit(g, m);
 }
 
 int pm_runner_execute(const pm_graph *g, const pm_map *m, const pm_runner_config *cfg,

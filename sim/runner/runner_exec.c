@@ -147,6 +147,35 @@ static bool runner_fire(runner_thread *th, uint32_t v, uint64_t k)
     return true;
 }
 
+/* The most rounds a core needs: every iteration of its most lagged node. */
+static uint64_t runner_rounds(const runner_ctx *x, uint32_t core)
+{
+    uint32_t most = 0;
+    for (uint32_t i = x->m->off[core]; i < x->m->off[core + 1]; i++)
+        if (runner_lag(x->m, x->m->order[i]) > most)
+            most = runner_lag(x->m, x->m->order[i]);
+    return (uint64_t)x->total + most;
+}
+
+/* Round r fires each node of the core, in map order, for its iteration
+ * r - lag; a node outside 0 .. total-1 in that round is passed over, so a
+ * lagged node starts late and its core goes on to finish it. */
+static void runner_core_loop(runner_thread *th)
+{
+    runner_ctx *x = th->x;
+    const pm_map *m = x->m;
+    uint64_t rounds = runner_rounds(x, th->core);
+    for (uint64_t r = 0; r < rounds; r++)
+        for (uint32_t i = m->off[th->core]; i < m->off[th->core + 1]; i++) {
+            uint32_t v = m->order[i];
+            uint64_t lag = runner_lag(m, v);
+            if (r < lag || r - lag >= x->total)
+                continue;
+            if (!runner_fire(th, v, r - lag))
+                return;
+        }
+}
+
 static void *runner_worker(void *arg)
 {
     runner_thread *th = arg;
@@ -158,30 +187,27 @@ static void *runner_worker(void *arg)
         sched_yield();
     if (go < 0)
         return NULL;
-    const pm_map *m = x->m;
     th->wait = (pm_runner_wait){th->core, PM_NONE, PM_NONE, false, x->total};
-    for (uint64_t k = 0; k < x->total; k++)
-        for (uint32_t i = m->off[th->core]; i < m->off[th->core + 1]; i++)
-            if (!runner_fire(th, m->order[i], k))
-                goto out;
-out:
+    runner_core_loop(th);
     atomic_store(&th->finished, true);
     return NULL;
 }
 
 /* ---- setting up and tearing down a run ------------------------------------------ */
 
+/* A same-core FIFO holds exactly the slots the edge needs (its producer
+ * never waits for the consumer); a ring gets what the caller asks, raised
+ * to that least count (runner_min_slots). */
 static int runner_make_chan(runner_ctx *x, uint32_t e)
 {
     const pm_edge *ed = &x->g->edges[e];
     runner_chan *c = &x->chan[e];
     bool cross = x->m->core_of[ed->src] != x->m->core_of[ed->dst];
+    uint64_t least = runner_min_slots(x->g, x->m, e);
     uint64_t want = x->cfg->ring_capacity ? x->cfg->ring_capacity
                   : x->cfg->edge_capacity ? x->cfg->edge_capacity[e]
-                                          : (uint64_t)ed->delay + PM_RUNNER_RING_SLACK;
-    uint64_t cap = cross ? want : (uint64_t)ed->delay + 1u;
-    if (cap < (uint64_t)ed->delay + 1u)
-        cap = (uint64_t)ed->delay + 1u;
+                                          : least - 1u + PM_RUNNER_RING_SLACK;
+    uint64_t cap = cross && want > least ? want : least;
     if (cap > PM_RING_MAX_CAPACITY)
         return PM_ELIMIT;
     c->cap = (uint32_t)cap;

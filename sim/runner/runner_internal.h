@@ -48,6 +48,23 @@ static inline void runner_wait_turn(const pm_runner_config *cfg, uint64_t spins)
         sched_yield();
 }
 
+/* Node v's lag in m (0 when the map carries none): round r of its core
+ * runs v's iteration r - lag (map.h). */
+static inline uint32_t runner_lag(const pm_map *m, uint32_t v)
+{
+    return m->lag ? m->lag[v] : 0u;
+}
+
+/* Slots edge e needs so that no lagged map waits on room forever: its
+ * delays, the tokens that pile up while the producer runs lag[dst] -
+ * lag[src] rounds ahead of the consumer, and one in flight (docs/runner.md). */
+static inline uint64_t runner_min_slots(const pm_graph *g, const pm_map *m, uint32_t e)
+{
+    const pm_edge *ed = &g->edges[e];
+    uint32_t ls = runner_lag(m, ed->src), ld = runner_lag(m, ed->dst);
+    return (uint64_t)ed->delay + (ld > ls ? ld - ls : 0u) + 1u;
+}
+
 /* ---- a run (runner_exec.c) --------------------------------------------------- */
 
 /* A token: the producing iteration (negative for initial tokens), then
