@@ -50,10 +50,21 @@ typedef struct pm_plan {
     bool multirate;
 } pm_plan;
 
+/* Which mapper pm_plan_map runs. */
+typedef enum pm_plan_mapper {
+    PM_PLAN_MAPPER_LIST = 0, /* the list scheduler (the default) */
+    PM_PLAN_MAPPER_PERIOD    /* the period-first mapper (mapper.h); its maps
+                                carry lags, which only pm_ipc_compute times
+                                until the simulator runs them */
+} pm_plan_mapper;
+
 /* How pm_plan_map makes a map. */
 typedef struct pm_plan_opts {
     const pm_sched_opts *sched; /* list scheduler options; NULL = defaults */
-    bool refine;                /* then search for a map with a lower period */
+    bool refine;                /* then search for a map with a lower period
+                                   (list scheduler only) */
+    pm_plan_mapper mapper;      /* PM_PLAN_MAPPER_LIST unless chosen */
+    uint32_t mapper_ms;         /* period-first time budget; 0 = its default */
 } pm_plan_opts;
 
 /*
@@ -84,7 +95,11 @@ int pm_plan_set_procs(pm_plan *p, uint32_t procs, pm_diag *diag);
 /*
  * The map of p->graph on its cores (see the top of this file): list
  * schedule with o->sched, the multirate rule, then pm_refine_map when
- * o->refine (never a higher simulated period than without).  o may be NULL
+ * o->refine (never a higher simulated period than without).  With
+ * o->mapper = PM_PLAN_MAPPER_PERIOD on a single-rate scenario the map is
+ * pm_mapper_map's instead (o->sched and o->refine unused); a multirate
+ * scenario keeps the list scheduler, since the period-first mapper would
+ * split a node's firings over cores.  o may be NULL
  * (defaults, no refinement).  *map is set on PM_OK; when sched is not NULL
  * *sched is the timing of that map (pm_sched_from_map semantics).  Both are
  * the caller's to destroy, and are NULL on error.

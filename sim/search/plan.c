@@ -9,6 +9,7 @@
  */
 #include "pacemap/plan.h"
 
+#include "pacemap/mapper.h"
 #include "pacemap/refine.h"
 #include "pacemap/sdf.h"
 
@@ -197,6 +198,17 @@ static int plan_list(const pm_plan *p, const pm_plan_opts *o, bool timed, pm_sch
     return rc;
 }
 
+/* The period-first mapper's map, timed when the caller wants it. */
+static int plan_period(const pm_plan *p, const pm_plan_opts *o, bool timed, pm_schedule **sc,
+                       pm_map **m, pm_diag *diag)
+{
+    pm_mapper_opts mo = { .time_ms = o->mapper_ms };
+    int rc = pm_mapper_map(p->graph, &mo, m, NULL, diag);
+    if (rc == PM_OK && timed)
+        rc = pm_sched_from_map(p->graph, *m, sc, diag);
+    return rc;
+}
+
 int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
                 pm_map **map, pm_diag *diag)
 {
@@ -211,8 +223,10 @@ int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
     const pm_plan_opts *po = o ? o : &defaults;
     pm_schedule *sc = NULL;
     pm_map *m = NULL;
-    int rc = plan_list(p, po, sched != NULL, &sc, &m, diag);
-    if (rc == PM_OK && po->refine)
+    bool period = po->mapper == PM_PLAN_MAPPER_PERIOD && !p->multirate;
+    int rc = period ? plan_period(p, po, sched != NULL, &sc, &m, diag)
+                    : plan_list(p, po, sched != NULL, &sc, &m, diag);
+    if (rc == PM_OK && po->refine && !period)
         rc = plan_refine(p, &sc, &m, diag);
     if (rc != PM_OK) {
         pm_sched_destroy(sc);

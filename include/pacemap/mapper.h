@@ -1,0 +1,134 @@
+/*
+ * mapper.h - the period-first mapper: a map of a graph onto its cores
+ * chosen for the smallest self-timed period, then the shortest latency,
+ * then the fewest buffered tokens, over the core of each node, the order on
+ * each core and the nodes' lags (map.h).
+ *
+ * Why lags: with a lag a consumer runs a later round than its producer, so
+ * a transfer no longer has to fit inside one round.  For a graph without
+ * loops the best period is then the smallest possible busiest-core
+ * occupancy (cycles + send and receive of its cross-core edges): a map
+ * whose lags come from a static periodic schedule of that period reaches
+ * it (see pm_mapper_map), and no map beats the occupancy of its busiest
+ * core.  With loops the transfers and orders inside a loop count as well;
+ * every candidate is then judged by its exact period (pm_ipc_compute,
+ * Sriram & Bhattacharyya 2000).
+ *
+ * Ownership: the map returned is the caller's (pm_map_destroy).  The graph
+ * is only read.  Thread-safe: no global state.
+ */
+#ifndef PACEMAP_MAPPER_H
+#define PACEMAP_MAPPER_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "pacemap/error.h"
+#include "pacemap/graph.h"
+#include "pacemap/map.h"
+#include "pacemap/rational.h"
+
+#define PM_MAPPER_DEFAULT_MS 1000u         /* time budget of one search */
+#define PM_MAPPER_DEFAULT_EVALS 4000u      /* exact period evaluations */
+#define PM_MAPPER_DEFAULT_EXACT 2000000u   /* branch-and-bound nodes */
+#define PM_MAPPER_EXACT_MAX_NODES 25u      /* larger graphs: no exact search */
+#define PM_MAPPER_MAX_MOVES 200000000u     /* occupancy moves looked at, all
+                                              constructions together */
+
+typedef struct pm_mapper_opts {
+    uint32_t time_ms;     /* wall-clock budget; 0 = PM_MAPPER_DEFAULT_MS */
+    uint32_t max_evals;   /* exact period evaluations; 0 = PM_MAPPER_DEFAULT_EVALS */
+    uint64_t exact_nodes; /* branch-and-bound nodes; 0 = PM_MAPPER_DEFAULT_EXACT */
+    bool no_exact;        /* skip the branch and bound (heuristic only) */
+} pm_mapper_opts;
+
+typedef struct pm_mapper_info {
+    pm_rat period;     /* exact period of the map (pm_ipc_compute); with a bus
+                          the larger of that ratio and the bus's work per
+                          iteration: a floor, not the bus's period */
+    int64_t busiest;   /* occupancy of the busiest core, cycles per iteration */
+    bool proven;       /* the period is proven the smallest any map can have
+                          (branch and bound completed, graph without loops,
+                          identical cores, point-to-point links) */
+    bool exact_run;    /* the branch and bound ran (completed or not) */
+    uint32_t evals;    /* exact period evaluations made */
+    bool timed_out;    /* the time budget ended the search: the result then
+                          depends on the machine's speed */
+} pm_mapper_info;
+
+/*
+ * Map finalized single-rate graph g onto its platform's cores
+ * (g->platform.ncores), honouring pins and core classes
+ * (pm_graph_can_run, pm_graph_cycles_on).
+ *
+ * Search: several starting assignments - the list schedule's
+ * (pm_sched_list, loop rule on), loop clusters (every strongly connected
+ * part with a loop kept on one core when it fits) placed
+ * longest-processing-time first, and single nodes placed the same way;
+ * placement picks the core whose occupancy, counting the send and receive
+ * cycles of the edges to nodes already placed, stays lowest (ties: lower
+ * core).  Each is improved by moving nodes (and whole loops) off the
+ * busiest core and exchanging pairs of nodes, judged by the busiest
+ * occupancy (ties: cores at that occupancy, then total occupancy).  The
+ * best are then judged by the exact period; with loops a first-improvement
+ * search continues on that period, with the occupancy as a cheap floor
+ * that skips moves which cannot help.
+ *
+ * Orders and lags of an assignment: every core runs its nodes in one
+ * topological order of the zero-delay edges (pm_order_zero_delay, smallest
+ * id first), so the map is also a valid map without lags.  With T the
+ * busiest occupancy and o(v) the time v begins within its core's round,
+ * the lags are the smallest ones (longest paths over the strongly
+ * connected parts, a part's nodes sharing one lag) with, for each edge
+ * u -> v between parts, d + lag[v] - lag[u] >= ceil((o(u) + R(u) + t(u)
+ * + transfer - o(v)) / T) (at least 1 when u does not begin before v);
+ * edges inside a part keep their delays.  Then a periodic schedule of
+ * period T exists, so a graph without loops reaches period T.  When that
+ * leaves a cycle without delay the cross-core edges between parts all
+ * get at least one delay instead.
+ *
+ * The exact optimum (identical cores, no pins, no loops, at most
+ * PM_MAPPER_EXACT_MAX_NODES nodes, point-to-point links): a branch and
+ * bound over assignments, cores relabelled to break symmetry, bounded by
+ * the busiest partial occupancy and by the total work left over the
+ * cores; within opts->exact_nodes nodes it proves the optimum, and the
+ * mapper returns a map of that period.
+ *
+ * With a bus the ratio of the IPC graph is only a floor, and the
+ * simulator cannot yet run lags: candidates are then compared by that
+ * ratio or the bus's work per iteration, whichever is larger; the map's
+ * true period on the bus can be higher.
+ *
+ * Determinism: every choice follows a fixed rule; the same input gives the
+ * same map unless the time budget ends the search (info->timed_out), which
+ * for a 200-node graph on 16 cores the default budgets avoid.
+ *
+ * Results: *out the map (lags set); *info (may be NULL) what was found.
+ * Errors: PM_EINVAL (g or out NULL, g not finalized); PM_EUNSUPPORTED
+ * (multirate); PM_EZERODELAY, PM_EPLATFORM (a node no core may run) and
+ * the other errors of pm_sched_list and pm_ipc_compute; PM_ENOMEM.
+ * Complexity: bounded by the budgets above; each exact evaluation is one
+ * pm_ipc_compute, O(V + E) plus policy iteration.
+ */
+int pm_mapper_map(const pm_graph *g, const pm_mapper_opts *opts, pm_map **out,
+                  pm_mapper_info *info, pm_diag *diag);
+
+/*
+ * The smallest busiest-core occupancy over all assignments of g's nodes to
+ * its identical cores (cycles + send per cross-core out-edge + recv per
+ * cross-core in-edge, delays ignored): by the argument above, the best
+ * period of a graph without loops on point-to-point links.  A branch and
+ * bound that looks at most max_nodes search nodes (0 =
+ * PM_MAPPER_DEFAULT_EXACT).  *best gets the best occupancy found, assign
+ * (nnodes entries) its assignment, *proven whether the search completed.
+ * upper (> 0) is an occupancy already known to be reachable; only
+ * strictly better ones are looked for, and when none exists *best = upper
+ * and assign is left as it was.
+ * Errors: PM_EINVAL (NULL argument, not finalized); PM_EUNSUPPORTED (core
+ * classes or pins, or more than PM_MAPPER_EXACT_MAX_NODES nodes); PM_ENOMEM.
+ * Complexity: O(max_nodes * (P + degree)).
+ */
+int pm_mapper_exact(const pm_graph *g, uint64_t max_nodes, int64_t upper, uint32_t *assign,
+                    int64_t *best, bool *proven);
+
+#endif
