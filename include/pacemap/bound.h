@@ -168,4 +168,10 @@ const char *pm_bound_floor_name(pm_floor_kind k);
  * cores; PM_ERANGE, PM_ENOMEM. */
 int pm_bound_work_floor(const pm_graph *g, const uint32_t *counts, pm_rat *out);
 
+/* How far an achieved period is above a floor: *optimal when they are
+ * equal (the floor is then reached, so the period is proven optimal for
+ * the floor's cores), *pct = 100 * (period - floor) / floor exactly (0 when
+ * floor is 0).  PM_ERANGE when the fraction outgrows 64 bits. */
+int pm_bound_gap(pm_rat period, pm_rat floor, bool *optimal, pm_rat *pct);
+
 #endif

@@ -127,3 +127,18 @@ int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs, pm_flo
     rc = floors_map(g, procs, out);
     return rc ? rc : floors_budget(g, out);
 }
+
+int pm_bound_gap(pm_rat period, pm_rat floor, bool *optimal, pm_rat *pct)
+{
+    if (!optimal || !pct)
+        return PM_EINVAL;
+    *optimal = pm_rat_cmp(period, floor) == 0;
+    *pct = pm_rat_int(0);
+    if (floor.num == 0)
+        return PM_OK;
+    pm_rat d;
+    int rc = pm_rat_sub(period, floor, &d);
+    if (rc == PM_OK)
+        rc = pm_rat_div(d, floor, &d);
+    return rc ? rc : pm_rat_mul(d, pm_rat_int(100), pct);
+}

@@ -95,12 +95,12 @@ static bool fm_may_share(const pm_graph *g, uint32_t u, uint32_t v)
     return false;
 }
 
-/* Load of core c from the nodes pinned to it: their time there, plus send
+/* Load of core c from node v pinned to it: its time there, plus send
  * (recv) for each out- (in-) edge whose other end can never share c. */
-static int64_t fm_core_load(const pm_graph *g, uint32_t c, uint32_t v)
+static pm_i128 fm_core_load(const pm_graph *g, uint32_t c, uint32_t v)
 {
     const pm_comm *cm = &g->platform.comm;
-    int64_t load = pm_graph_cycles_on(g, v, g->platform.core_class[c]);
+    pm_i128 load = pm_graph_cycles_on(g, v, g->platform.core_class[c]);
     for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++)
         if (!pm_graph_can_run(g, g->edges[g->out_edge[i]].dst, c))
             load += cm->send;
@@ -110,32 +110,31 @@ static int64_t fm_core_load(const pm_graph *g, uint32_t c, uint32_t v)
     return load;
 }
 
-/* The busiest core by the nodes pinned to it. */
+/* The busiest core by the nodes pinned to it.  A load beyond 62 bits is
+ * reported as 2^62 - 1: smaller than the true load, so still a floor
+ * (a scenario may give send/recv costs whose sums no map could run). */
 int bound_pinned(const pm_graph *g, int64_t *out, uint32_t *core)
 {
     *out = 0;
     *core = PM_NONE;
     uint32_t nc = g->platform.ncores;
-    int64_t *load = calloc((size_t)nc + 1, sizeof *load);
+    pm_i128 *load = calloc((size_t)nc + 1, sizeof *load);
     if (!load)
         return PM_ENOMEM;
-    bool ovf = false;
     for (uint32_t v = 0; v < g->nnodes; v++) {
         uint32_t c = g->nodes[v].pin_core;
-        if (c == PM_NONE || c >= nc)
-            continue;
-        int64_t l = fm_core_load(g, c, v);
-        ovf |= l < 0 || l > PM_MAX_VALUE || load[c] > PM_MAX_VALUE - l;
-        if (!ovf)
-            load[c] += l;
+        if (c != PM_NONE && c < nc && load[c] <= PM_MAX_VALUE)
+            load[c] += fm_core_load(g, c, v);
     }
-    for (uint32_t c = 0; c < nc && !ovf; c++)
-        if (load[c] > *out) {
-            *out = load[c];
+    for (uint32_t c = 0; c < nc; c++) {
+        int64_t l = load[c] > PM_MAX_VALUE ? PM_MAX_VALUE : (int64_t)load[c];
+        if (l > *out) {
+            *out = l;
             *core = c;
         }
+    }
     free(load);
-    return ovf ? PM_ERANGE : PM_OK;
+    return PM_OK;
 }
 
 /* Bus cycles per iteration of the edges no map can keep on one core. */
@@ -152,8 +151,8 @@ int bound_bus(const pm_graph *g, int64_t *out)
             continue;
         sum += (pm_i128)cm->latency + (pm_i128)cm->per_word * ed->words;
         if (sum > PM_MAX_VALUE)
-            return PM_ERANGE;
+            break; /* reported as 2^62 - 1: below the true time, still a floor */
     }
-    *out = (int64_t)sum;
+    *out = sum > PM_MAX_VALUE ? PM_MAX_VALUE : (int64_t)sum;
     return PM_OK;
 }

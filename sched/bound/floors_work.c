@@ -222,6 +222,12 @@ int pm_bound_work_floor(const pm_graph *g, const uint32_t *counts, pm_rat *out)
         rc = fw_try(&x, a, out);
         a[k] = 0;
     }
+    /* y_k = 1 / P: total work at each node's fastest class / P, the floor
+     * for identical cores, so the result is never below it */
+    for (uint32_t k = 0; rc == PM_OK && k < x.k; k++)
+        a[k] = 1;
+    if (rc == PM_OK && x.k > 1)
+        rc = fw_try(&x, a, out);
     if (rc == PM_OK && x.k > 1)
         rc = fw_search(&x, y, out);
     free(a);
