@@ -195,6 +195,27 @@ static void test_pinned_core_and_bus_floors(void **state)
     pm_graph_destroy(g);
 }
 
+static void test_huge_comm_costs_saturate(void **state)
+{
+    (void)state;
+    /* tests/bad/lim_recv_overflow.pace: recv = 2^62 - 1, a pinned to core 0,
+     * b to core 1, b -> a: core 0 carries 1 + (2^62 - 1), more than 62
+     * bits; the floor is reported as 2^62 - 1 (below the true load, still a
+     * floor) instead of failing the command. */
+    const uint32_t two[] = { 2 };
+    pm_graph *g = fl_graph(1, NULL, two);
+    uint32_t a = fl_node(g, "a", NULL, 1), b = fl_node(g, "b", NULL, 1);
+    g->nodes[a].pin_core = 0;
+    g->nodes[b].pin_core = 1;
+    fl_edge(g, a, b, 0, 1);
+    fl_edge(g, b, a, 1, 1);
+    g->platform.comm.recv = PM_MAX_VALUE;
+    pm_floors f = floors_of(g, 2);
+    assert_true(rat_is(f.pinned, PM_MAX_VALUE, 1));
+    assert_int_equal(f.map_binding, PM_FLOOR_PINNED);
+    pm_graph_destroy(g);
+}
+
 /* ---- against GLPK ------------------------------------------------------- */
 
 static uint32_t fl_rand(uint64_t *s, uint32_t n)
@@ -318,6 +339,7 @@ int main(void)
         cmocka_unit_test(test_fractional_work_floor_two_classes),
         cmocka_unit_test(test_packing_floor),
         cmocka_unit_test(test_pinned_core_and_bus_floors),
+        cmocka_unit_test(test_huge_comm_costs_saturate),
         cmocka_unit_test(test_fractional_floor_against_glpk),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
