@@ -107,17 +107,21 @@ int pm_bound_karp(const pm_graph *g, bool *has_loop, pm_rat *bound, pm_diag *dia
  * exceed 2^40.  O(V * E); for tests. */
 int pm_bound_certify(const pm_graph *g, pm_rat lambda, bool *ok);
 
-/* What sets the lower bound for P cores. */
+/* What sets the lower bound (or the map floor) for P cores. */
 typedef enum pm_floor_kind {
     PM_FLOOR_LOOP = 0, /* the iteration bound */
-    PM_FLOOR_CORES,    /* total work / P */
-    PM_FLOOR_NODE      /* the largest node */
+    PM_FLOOR_CORES,    /* the work on the cores (fractional for classes) */
+    PM_FLOOR_NODE,     /* the largest node */
+    PM_FLOOR_PACKING,  /* whole nodes on P cores (pigeonhole), map floor only */
+    PM_FLOOR_PINNED,   /* the nodes pinned to one core, map floor only */
+    PM_FLOOR_BUS       /* transfers pins force onto the bus, map floor only */
 } pm_floor_kind;
 
 typedef struct pm_floors {
     uint32_t procs;
-    pm_rat cores;          /* total cycles / P */
-    pm_rat node;           /* largest node */
+    pm_rat cores;          /* work floor: total / P for one class; for classes
+                            * the fractional-assignment bound (docs/methods.md) */
+    pm_rat node;           /* largest node at its fastest allowed class */
     bool has_loop;
     pm_rat loop;           /* iteration bound (valid when has_loop) */
     pm_rat lower_bound;    /* max of the above */
@@ -128,13 +132,46 @@ typedef struct pm_floors {
     bool lower_fits;       /* lower bound <= budget */
     pm_rat margin;         /* budget - lower bound, cycles (may be negative) */
     double margin_us;      /* the margin in microseconds at the clock */
+    /* Floors that hold because a map puts whole nodes on cores (0 when
+     * they do not apply); map_floor is the largest floor proven for P. */
+    pm_rat packing;        /* pigeonhole over the largest nodes of a class */
+    pm_rat pinned;         /* busiest core by its pinned nodes (+ send/recv
+                            * of the transfers the pins force) */
+    uint32_t pinned_core;  /* that core, or PM_NONE */
+    pm_rat bus;            /* bus occupancy of transfers pins force across */
+    pm_rat map_floor;      /* max(lower_bound, packing, pinned, bus) */
+    pm_floor_kind map_binding; /* which sets it (lower_bound's kind on ties) */
 } pm_floors;
 
-/* Floors for `procs` cores from a computed bound. */
+/* Floors for `procs` cores from a computed bound (b from the same graph).
+ * With core classes and procs == the platform's core count, the class
+ * counts are used (fractional work floor, packing per class); with
+ * another procs, the cores are taken as identical.  Every floor is an
+ * exact fraction that no map and schedule on those cores can beat
+ * (proofs: docs/methods.md); when an exact value outgrows 64 bits it is
+ * rounded down, so it stays a floor.
+ * Errors: PM_EINVAL (NULL, procs == 0), PM_ERANGE, PM_ENOMEM.
+ * O(V log V + E + V * classes) time, O(V) memory. */
 int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs,
                       pm_floors *out);
 
-/* Name of a floor kind: "loop", "cores", "node". */
+/* Name of a floor kind: "loop", "cores", "node", "packing", "pinned", "bus". */
 const char *pm_bound_floor_name(pm_floor_kind k);
+
+/* The fractional-assignment work floor alone (what pm_floors.cores holds
+ * for a class platform): by LP duality, for any y >= 0 with
+ * sum_k n_k y_k = 1, sum_v min_k y_k t_vk (k over the classes v may use,
+ * pins respected) is a floor; this maximises it exactly for one or two
+ * classes and, for more, evaluates exactly a y found by a numeric search
+ * (a proven floor, possibly below the LP optimum).  `counts` gives n_k
+ * (nclasses entries).  PM_EPLATFORM when a node may use no class with
+ * cores; PM_ERANGE, PM_ENOMEM. */
+int pm_bound_work_floor(const pm_graph *g, const uint32_t *counts, pm_rat *out);
+
+/* How far an achieved period is above a floor: *optimal when they are
+ * equal (the floor is then reached, so the period is proven optimal for
+ * the floor's cores), *pct = 100 * (period - floor) / floor exactly (0 when
+ * floor is 0).  PM_ERANGE when the fraction outgrows 64 bits. */
+int pm_bound_gap(pm_rat period, pm_rat floor, bool *optimal, pm_rat *pct);
 
 #endif

@@ -172,7 +172,8 @@ int64_t pm_graph_cycles_on(const pm_graph *g, uint32_t v, uint32_t c);
 bool pm_graph_can_run(const pm_graph *g, uint32_t v, uint32_t c);
 
 /* Smallest execution time of v over the classes that can run it (the
- * optimistic time every floor uses), or PM_CANNOT_RUN if none can. */
+ * optimistic time every floor uses), or PM_CANNOT_RUN if none can.  A pin
+ * (to a core or a class) leaves only the pinned class. */
 int64_t pm_graph_min_cycles(const pm_graph *g, uint32_t v);
 
 /* True when every edge has produce == consume == 1. */

@@ -146,4 +146,15 @@ int bound_critical_loops(const howard *h, int64_t p, int64_t q, uint32_t max,
 /* Sums of node times and delays of a loop given by its edges. */
 void bound_loop_sums(const pm_graph *g, pm_loop *loop);
 
+/* Floors helpers (floors_work.c, floors_map.c).  The class a pin fixes for
+ * v, or PM_NONE; v's time on class k when it may run there (pin, cycles,
+ * counts[k] > 0), else -1. */
+uint32_t bound_pinned_class(const pm_graph *g, uint32_t v);
+int64_t bound_class_time(const pm_graph *g, const uint32_t *counts, uint32_t v, uint32_t k);
+/* Packing floor (per class when counts, else all nodes on procs cores),
+ * pinned-core floor, bus floor; 0 when they do not apply. */
+int bound_packing(const pm_graph *g, const uint32_t *counts, uint32_t procs, int64_t *out);
+int bound_pinned(const pm_graph *g, int64_t *out, uint32_t *core);
+int bound_bus(const pm_graph *g, int64_t *out);
+
 #endif

@@ -2,14 +2,17 @@
  * floors.c - the lower bounds on the period for P cores and the real-time
  * budget check.
  *
- * Three floors hold on every mapping of a single-rate graph: the total work
- * spread evenly (total / P), the largest node (a node runs whole on one core
- * per iteration unless the graph is unfolded: Parhi & Messerschmitt, IEEE
- * Trans. Computers 1991) and the iteration bound (Ito & Parhi 1995).  Their
- * maximum is the lower bound.  What it does not do: compute the bound
- * (bound.c) or say whether a schedule reaches the floor.
+ * Three floors hold on every mapping of a single-rate graph: the work on
+ * the cores (total / P; for core classes the fractional-assignment bound
+ * of floors_work.c), the largest node at its fastest allowed class (a node
+ * runs whole on one core per iteration unless the graph is unfolded:
+ * Parhi & Messerschmitt, IEEE Trans. Computers 1991) and the iteration
+ * bound (Ito & Parhi 1995).  Their maximum is the lower bound.  The map
+ * floor adds the floors of floors_map.c (packing, pins, bus), which hold
+ * for every map of whole nodes on these P cores.  What it does not do:
+ * compute the bound (bound.c) or say whether a schedule reaches a floor.
  */
-#include "pacemap/bound.h"
+#include "bound_internal.h"
 
 #include <string.h>
 
@@ -19,6 +22,9 @@ const char *pm_bound_floor_name(pm_floor_kind k)
     case PM_FLOOR_LOOP: return "loop";
     case PM_FLOOR_CORES: return "cores";
     case PM_FLOOR_NODE: return "node";
+    case PM_FLOOR_PACKING: return "packing";
+    case PM_FLOOR_PINNED: return "pinned";
+    case PM_FLOOR_BUS: return "bus";
     }
     return "?";
 }
@@ -58,15 +64,57 @@ static int floors_budget(const pm_graph *g, pm_floors *f)
     return PM_OK;
 }
 
+/* The work floor: total / procs, or the fractional bound on the classes
+ * when procs is the platform's core count. */
+static int floors_work(const pm_graph *g, const pm_bound *b, uint32_t procs, pm_floors *f)
+{
+    if (g->platform.nclasses > 1 && procs == g->platform.ncores)
+        return pm_bound_work_floor(g, g->platform.class_count, &f->cores);
+    return pm_rat_make(b->total_cycles, procs, &f->cores);
+}
+
+/* Raise the map floor to v when v is larger (ties keep the earlier kind). */
+static void floors_raise(pm_floors *f, int64_t v, pm_floor_kind k)
+{
+    if (pm_rat_cmp(pm_rat_int(v), f->map_floor) > 0) {
+        f->map_floor = pm_rat_int(v);
+        f->map_binding = k;
+    }
+}
+
+/* map_floor = max(lower bound, packing, pinned core, forced bus time). */
+static int floors_map(const pm_graph *g, uint32_t procs, pm_floors *f)
+{
+    bool classes = g->platform.nclasses > 1 && procs == g->platform.ncores;
+    int64_t pack, pin, bus;
+    int rc = bound_packing(g, classes ? g->platform.class_count : NULL, procs, &pack);
+    if (rc == PM_OK)
+        rc = bound_pinned(g, &pin, &f->pinned_core);
+    if (rc == PM_OK)
+        rc = bound_bus(g, &bus);
+    if (rc)
+        return rc;
+    f->packing = pm_rat_int(pack);
+    f->pinned = pm_rat_int(pin);
+    f->bus = pm_rat_int(bus);
+    f->map_floor = f->lower_bound;
+    f->map_binding = f->binding;
+    floors_raise(f, pack, PM_FLOOR_PACKING);
+    floors_raise(f, pin, PM_FLOOR_PINNED);
+    floors_raise(f, bus, PM_FLOOR_BUS);
+    return PM_OK;
+}
+
 int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs, pm_floors *out)
 {
     if (!out)
         return PM_EINVAL;
     memset(out, 0, sizeof *out);
+    out->pinned_core = PM_NONE;
     if (!g || !b || procs == 0)
         return PM_EINVAL;
     out->procs = procs;
-    int rc = pm_rat_make(b->total_cycles, procs, &out->cores);
+    int rc = floors_work(g, b, procs, out);
     if (rc)
         return rc;
     out->node = pm_rat_int(b->largest_node == PM_NONE ? 0 : b->largest_cycles);
@@ -76,5 +124,21 @@ int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs, pm_flo
     floors_pick(out);
     out->loop_fits = true;
     out->lower_fits = true;
-    return floors_budget(g, out);
+    rc = floors_map(g, procs, out);
+    return rc ? rc : floors_budget(g, out);
+}
+
+int pm_bound_gap(pm_rat period, pm_rat floor, bool *optimal, pm_rat *pct)
+{
+    if (!optimal || !pct)
+        return PM_EINVAL;
+    *optimal = pm_rat_cmp(period, floor) == 0;
+    *pct = pm_rat_int(0);
+    if (floor.num == 0)
+        return PM_OK;
+    pm_rat d;
+    int rc = pm_rat_sub(period, floor, &d);
+    if (rc == PM_OK)
+        rc = pm_rat_div(d, floor, &d);
+    return rc ? rc : pm_rat_mul(d, pm_rat_int(100), pct);
 }

@@ -461,13 +461,26 @@ int64_t pm_graph_cycles_on(const pm_graph *g, uint32_t v, uint32_t c)
     return g->class_cycles[n->class_cycles + c];
 }
 
+/* The class a pin fixes for v, or PM_NONE when v may use any class. */
+static uint32_t graph_pinned_class(const pm_graph *g, const pm_node *n)
+{
+    if (n->pin_core != PM_NONE && n->pin_core < g->platform.ncores)
+        return g->platform.core_class[n->pin_core];
+    return n->pin_class;
+}
+
 int64_t pm_graph_min_cycles(const pm_graph *g, uint32_t v)
 {
     const pm_node *n = &g->nodes[v];
     if (n->class_cycles == PM_NONE)
         return n->cycles;
+    /* A pinned node runs on its pin's class on every map, so only that
+     * class's time is a floor; the fastest other class would be optimistic. */
+    uint32_t pin = graph_pinned_class(g, n);
     int64_t best = PM_CANNOT_RUN;
     for (uint32_t c = 0; c < g->platform.nclasses; c++) {
+        if (pin != PM_NONE && c != pin)
+            continue;
         int64_t t = g->class_cycles[n->class_cycles + c];
         if (t >= 0 && (best < 0 || t < best))
             best = t;

@@ -86,6 +86,39 @@ static void cb_text_parts(const pm_graph *g, const pm_bound *b)
     }
 }
 
+/* What sets a floor, in words. */
+static const char *cb_floor_words(pm_floor_kind k)
+{
+    switch (k) {
+    case PM_FLOOR_LOOP: return "the critical loop";
+    case PM_FLOOR_NODE: return "the largest node";
+    case PM_FLOOR_CORES: return "the total work on the cores";
+    case PM_FLOOR_PACKING: return "whole nodes on the cores (packing)";
+    case PM_FLOOR_PINNED: return "the nodes pinned to one core";
+    case PM_FLOOR_BUS: return "transfers the pins force onto the bus";
+    }
+    return "?";
+}
+
+/* The floors only whole-node maps obey, when they add something, and the
+ * map floor (docs/methods.md gives each proof). */
+static void cb_text_map_floor(const pm_graph *g, const pm_floors *f)
+{
+    char rb[64], what[160];
+    if (f->packing.num > 0)
+        printf("  %-40s %s\n", "packing (whole nodes on the cores)",
+               cb_fmt_rat(rb, sizeof rb, f->packing));
+    if (f->pinned.num > 0) {
+        snprintf(what, sizeof what, "pinned (core %u)", f->pinned_core);
+        printf("  %-40s %s\n", what, cb_fmt_rat(rb, sizeof rb, f->pinned));
+    }
+    if (g->platform.interconnect == PM_BUS && f->bus.num > 0)
+        printf("  %-40s %s\n", "bus (transfers the pins force across)",
+               cb_fmt_rat(rb, sizeof rb, f->bus));
+    printf("  %-40s %s   set by: %s\n", "map floor", cb_fmt_rat(rb, sizeof rb, f->map_floor),
+           cb_floor_words(f->map_binding));
+}
+
 static void cb_text_floors(const pm_graph *g, const pm_bound *b, const pm_floors *f)
 {
     char rb[64], what[160];
@@ -98,12 +131,15 @@ static void cb_text_floors(const pm_graph *g, const pm_bound *b, const pm_floors
     snprintf(what, sizeof what, "largest node (%.*s)", 24,
              b->largest_node == PM_NONE ? "-" : pm_graph_node_name(g, b->largest_node));
     printf("  %-40s %s\n", what, cb_fmt_rat(rb, sizeof rb, f->node));
-    snprintf(what, sizeof what, "cores (%lld total / %u)", (long long)b->total_cycles,
-             f->procs);
+    if (g->platform.nclasses > 1 && f->procs == g->platform.ncores)
+        snprintf(what, sizeof what, "cores (work split over the classes)");
+    else
+        snprintf(what, sizeof what, "cores (%lld total / %u)", (long long)b->total_cycles,
+                 f->procs);
     printf("  %-40s %s\n", what, cb_fmt_rat(rb, sizeof rb, f->cores));
     printf("  %-40s %s   set by: %s\n", "lower bound", cb_fmt_rat(rb, sizeof rb, f->lower_bound),
-           f->binding == PM_FLOOR_LOOP ? "the critical loop"
-           : f->binding == PM_FLOOR_NODE ? "the largest node" : "the total work on the cores");
+           cb_floor_words(f->binding));
+    cb_text_map_floor(g, f);
 }
 
 static void cb_text_budget(const pm_graph *g, const pm_floors *f)
@@ -206,9 +242,19 @@ static void cb_json_floors(pm_json *j, const pm_graph *g, const pm_bound *b, con
         pm_json_string(j, pm_graph_node_name(g, b->largest_node));
     pm_json_key(j, "cores");
     pm_json_rat(j, f->cores);
+    pm_json_key(j, "packing");
+    pm_json_rat(j, f->packing);
+    pm_json_key(j, "pinned");
+    pm_json_rat(j, f->pinned);
+    pm_json_key(j, "bus");
+    pm_json_rat(j, f->bus);
     pm_json_object_end(j);
     pm_json_key(j, "binding");
     pm_json_string(j, pm_bound_floor_name(f->binding));
+    pm_json_key(j, "map_floor");
+    pm_json_rat(j, f->map_floor);
+    pm_json_key(j, "map_binding");
+    pm_json_string(j, pm_bound_floor_name(f->map_binding));
 }
 
 static void cb_json_budget(pm_json *j, const pm_graph *g, const pm_floors *f)

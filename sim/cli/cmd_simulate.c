@@ -152,6 +152,23 @@ static double sm_ratio(pm_rat a, pm_rat b)
     return b.num ? pm_rat_to_double(a) / pm_rat_to_double(b) : 0.0;
 }
 
+/* The map floor and how close the period comes: optimal only when the
+ * steady period equals it exactly (pm_bound_gap). */
+static void sm_text_map_floor(const sm_run *s, const pm_sim_result *r)
+{
+    bool opt = false;
+    pm_rat pct = pm_rat_int(0);
+    int rc = pm_bound_gap(r->period, s->f.map_floor, &opt, &pct);
+    printf("map floor      %.6g for %u cores (%s): ", pm_rat_to_double(s->f.map_floor),
+           s->f.procs, pm_bound_floor_name(s->f.map_binding));
+    if (rc != PM_OK)
+        printf("period is %.3f x the map floor\n", sm_ratio(r->period, s->f.map_floor));
+    else if (opt && r->steady)
+        printf("optimal (equals the proven floor)\n");
+    else
+        printf("within %.3g %% of the proven floor\n", pm_rat_to_double(pct));
+}
+
 static void sm_text_period(const sm_run *s)
 {
     const pm_sim_result *r = &s->r;
@@ -177,6 +194,8 @@ static void sm_text_period(const sm_run *s)
         printf("lower bound    %.6g for %u cores (%s): period is %.3f x the lower bound\n",
                pm_rat_to_double(s->f.lower_bound), s->f.procs, pm_bound_floor_name(s->f.binding),
                sm_ratio(r->period, s->f.lower_bound));
+    if (s->has_bound)
+        sm_text_map_floor(s, r);
     if (s->has_bound && s->f.has_budget)
         printf("budget         %.6g cycles per iteration: %s\n", pm_rat_to_double(s->f.budget),
                pm_rat_cmp(r->period, s->f.budget) <= 0 ? "met" : "NOT met");
@@ -357,6 +376,12 @@ static void sm_json_rat_or_null(pm_json *j, const char *key, bool ok, pm_rat v)
 
 static void sm_json_floors(pm_json *j, const sm_run *s)
 {
+    bool opt = false;
+    pm_rat pct;
+    sm_json_rat_or_null(j, "map_floor", s->has_bound, s->f.map_floor);
+    pm_json_key(j, "map_optimal");
+    pm_json_bool(j, s->has_bound && s->r.steady &&
+                    pm_bound_gap(s->r.period, s->f.map_floor, &opt, &pct) == PM_OK && opt);
     bool loop = s->has_bound && s->b.has_loop;
     sm_json_rat_or_null(j, "iteration_bound", loop, s->b.iteration_bound);
     sm_json_rat_or_null(j, "lower_bound", s->has_bound, s->f.lower_bound);

@@ -137,12 +137,27 @@ static void sw_text_head(const sw_report *r, uint64_t iterations)
     sw_print_wrapped("", l.buf, 2);
 }
 
+/* "optimal" when the steady period equals the map floor (proven optimal
+ * for this P), else "+X%" computed exactly by pm_bound_gap. */
+static const char *sw_gap_text(const pm_sweep_point *p)
+{
+    static char buf[24];
+    bool opt = false;
+    pm_rat pct;
+    if (pm_bound_gap(p->period, p->floors.map_floor, &opt, &pct) != PM_OK)
+        return "-";
+    if (opt && p->steady)
+        return "optimal";
+    snprintf(buf, sizeof buf, "+%.3g%%", pm_rat_to_double(pct));
+    return buf;
+}
+
 static void sw_text_table(const sw_report *r)
 {
     const pm_sweep *s = r->s;
-    char a[48], b[48], c[48];
-    printf("\n%5s %12s %12s %12s %8s %11s  %s\n", "P", "period", "lower bound", "iter. bound",
-           "speedup", "efficiency", "limit");
+    char a[48], b[48], c[48], d[48];
+    printf("\n%5s %12s %12s %12s %12s %9s %8s %11s  %s\n", "P", "period", "lower bound",
+           "map floor", "iter. bound", "vs floor", "speedup", "efficiency", "limit");
     for (uint32_t i = 0; i < s->npoints; i++) {
         const pm_sweep_point *p = &s->points[i];
         char sp[24] = "-", ef[24] = "-"; /* a zero period has no speedup */
@@ -150,12 +165,15 @@ static void sw_text_table(const sw_report *r)
             snprintf(sp, sizeof sp, "%.2f", p->speedup);
             snprintf(ef, sizeof ef, "%.1f%%", 100.0 * p->efficiency);
         }
-        printf("%5u %11s%c %12s %12s %8s %11s  %s\n", p->procs,
+        printf("%5u %11s%c %12s %12s %12s %9s %8s %11s  %s\n", p->procs,
                sw_rat_text(a, sizeof a, p->period), p->steady ? ' ' : '~',
                sw_rat_text(b, sizeof b, p->floors.lower_bound),
-               p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-", sp, ef,
-               pm_sweep_limit_name(p->limit.kind));
+               sw_rat_text(d, sizeof d, p->floors.map_floor),
+               p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-",
+               sw_gap_text(p), sp, ef, pm_sweep_limit_name(p->limit.kind));
     }
+    printf("vs floor: \"optimal\" when the steady period equals the proven map floor,"
+           " else how far above it\n");
     for (uint32_t i = 0; i < s->npoints; i++)
         if (!s->points[i].steady) {
             printf("~ no periodic regime within the iterations run: an average (use -n)\n");

@@ -106,6 +106,13 @@ static void sw_json_point(pm_json *j, const pm_graph *g, const pm_sweep_point *p
     pm_json_rat(j, p->period);
     pm_json_key(j, "lower_bound");
     pm_json_rat(j, p->floors.lower_bound);
+    bool opt = false;
+    pm_rat pct;
+    pm_json_key(j, "map_floor");
+    pm_json_rat(j, p->floors.map_floor);
+    pm_json_key(j, "map_optimal");
+    pm_json_bool(j, p->steady && pm_bound_gap(p->period, p->floors.map_floor, &opt, &pct) == PM_OK
+                        && opt);
     sw_json_limit(j, g, &p->limit);
     pm_json_key(j, "steady");
     pm_json_bool(j, p->steady);
