@@ -19,6 +19,7 @@
 #include <unistd.h>
 
 #include "pacemap/bound.h"
+#include "support/testkit.h"
 
 static bool rat_is(pm_rat r, int64_t num, int64_t den)
 {
@@ -249,29 +250,23 @@ static void write_lp(FILE *f, const pm_graph *g, const uint32_t *counts)
     fprintf(f, "End\n");
 }
 
+typedef struct lp_ctx {
+    const pm_graph *g;
+    const uint32_t *counts;
+} lp_ctx;
+
+static void write_lp_ctx(FILE *f, const void *ctx)
+{
+    const lp_ctx *l = ctx;
+    write_lp(f, l->g, l->counts);
+}
+
 /* glpsol's optimum of the LP, or -1 on failure. */
 static double glpk_lp(const pm_graph *g, const uint32_t *counts)
 {
-    char lp[] = "/tmp/pm_fl_XXXXXX", cmd[256], line[256];
-    int fd = mkstemp(lp);
-    if (fd < 0)
-        return -1;
-    FILE *f = fdopen(fd, "w");
-    write_lp(f, g, counts);
-    fclose(f);
-    snprintf(cmd, sizeof cmd, "glpsol --lp %s -o /dev/stdout 2>/dev/null", lp);
-    FILE *p = popen(cmd, "r");
-    double opt = -1;
-    bool optimal = false;
-    while (p && fgets(line, sizeof line, p)) {
-        if (strstr(line, "OPTIMAL"))
-            optimal = true;
-        sscanf(line, "Objective: obj = %lf", &opt);
-    }
-    if (p)
-        pclose(p);
-    remove(lp);
-    return optimal ? opt : -1;
+    lp_ctx l = {g, counts};
+    double opt;
+    return tk_glpsol(write_lp_ctx, &l, 0, &opt) ? opt : -1;
 }
 
 /* A random platform of 2 or 3 classes and 3..10 nodes (some class-bound,

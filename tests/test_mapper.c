@@ -41,6 +41,7 @@
 #include "pacemap/mapper.h"
 #include "pacemap/plan.h"
 #include "sched_testlib.h"
+#include "support/testkit.h"
 
 static void write_program(FILE *f, const pm_graph *g)
 {
@@ -87,29 +88,16 @@ static void write_program(FILE *f, const pm_graph *g)
     fprintf(f, "End\n");
 }
 
+static void write_program_ctx(FILE *f, const void *g)
+{
+    write_program(f, g);
+}
+
 /* glpsol's optimum, or -1 when it does not prove one in its time limit. */
 static long long glpk_optimum(const pm_graph *g)
 {
-    char lp[] = "/tmp/pm_mapper_XXXXXX", cmd[256], line[256];
-    int fd = mkstemp(lp);
-    if (fd < 0)
-        return -1;
-    FILE *f = fdopen(fd, "w");
-    write_program(f, g);
-    fclose(f);
-    snprintf(cmd, sizeof cmd, "glpsol --tmlim 3 --lp %s -o /dev/stdout 2>/dev/null", lp);
-    FILE *p = popen(cmd, "r");
-    long long opt = -1;
-    bool optimal = false;
-    while (p && fgets(line, sizeof line, p)) {
-        if (strstr(line, "INTEGER OPTIMAL"))
-            optimal = true;
-        sscanf(line, "Objective: obj = %lld", &opt);
-    }
-    if (p)
-        pclose(p);
-    remove(lp);
-    return optimal ? opt : -1;
+    double opt;
+    return tk_glpsol(write_program_ctx, g, 3, &opt) ? (long long)opt : -1;
 }
 
 /* A random graph without loops: edges from lower to higher ids, some with

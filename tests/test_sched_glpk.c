@@ -23,6 +23,7 @@
 #include "pacemap/sched.h"
 #include "sched_testlib.h"
 #include "support/sched_checker.h"
+#include "support/testkit.h"
 
 /* reach[i][j]: a path i -> j (edges go from lower to higher ids). */
 static void closure(const pm_graph *g, bool reach[16][16])
@@ -83,29 +84,23 @@ static void write_milp(FILE *f, const pm_graph *g, uint32_t P)
     fprintf(f, "End\n");
 }
 
+typedef struct milp_ctx {
+    const pm_graph *g;
+    uint32_t P;
+} milp_ctx;
+
+static void write_milp_ctx(FILE *f, const void *ctx)
+{
+    const milp_ctx *m = ctx;
+    write_milp(f, m->g, m->P);
+}
+
 /* Solve with glpsol; the optimum, or -1 on any failure. */
 static long long glpk_optimum(const pm_graph *g, uint32_t P)
 {
-    char lp[] = "/tmp/pm_milp_XXXXXX", cmd[256], line[256];
-    int fd = mkstemp(lp);
-    if (fd < 0)
-        return -1;
-    FILE *f = fdopen(fd, "w");
-    write_milp(f, g, P);
-    fclose(f);
-    snprintf(cmd, sizeof cmd, "glpsol --lp %s -o /dev/stdout 2>/dev/null", lp);
-    FILE *p = popen(cmd, "r");
-    long long opt = -1;
-    bool optimal = false;
-    while (p && fgets(line, sizeof line, p)) {
-        if (strstr(line, "INTEGER OPTIMAL"))
-            optimal = true;
-        sscanf(line, "Objective: obj = %lld", &opt);
-    }
-    if (p)
-        pclose(p);
-    remove(lp);
-    return optimal ? opt : -1;
+    milp_ctx m = {g, P};
+    double opt;
+    return tk_glpsol(write_milp_ctx, &m, 0, &opt) ? (long long)opt : -1;
 }
 
 static pm_graph *small_dag(uint64_t *seed, uint32_t P)

@@ -6,6 +6,7 @@
 #include <stddef.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 #include <cmocka.h>
 
 #include "testkit.h"
@@ -73,4 +74,47 @@ char *tk_slurp(const char *dir, const char *name)
         buf[len] = '\0';
     fclose(f);
     return buf;
+}
+
+/* The status word glpsol prints in its report, e.g. "Status:     OPTIMAL". */
+static bool tk_glpsol_optimal(const char *line)
+{
+    if (strncmp(line, "Status:", 7) != 0)
+        return false;
+    line += 7;
+    while (*line == ' ')
+        line++;
+    size_t n = strcspn(line, "\r\n");
+    return (n == 7 && strncmp(line, "OPTIMAL", 7) == 0) ||
+           (n == 15 && strncmp(line, "INTEGER OPTIMAL", 15) == 0);
+}
+
+bool tk_glpsol(void (*write)(FILE *f, const void *ctx), const void *ctx, unsigned tmlim,
+               double *opt)
+{
+    char lp[] = "/tmp/pm_glpk_XXXXXX", cmd[256], limit[32] = "", line[256];
+    int fd = mkstemp(lp);
+    if (fd < 0)
+        return false;
+    FILE *f = fdopen(fd, "w");
+    if (!f) {
+        close(fd);
+        remove(lp);
+        return false;
+    }
+    write(f, ctx);
+    fclose(f);
+    if (tmlim)
+        snprintf(limit, sizeof limit, "--tmlim %u ", tmlim);
+    snprintf(cmd, sizeof cmd, "glpsol %s--lp %s -o /dev/stdout 2>/dev/null", limit, lp);
+    FILE *p = popen(cmd, "r");
+    bool optimal = false, have = false;
+    while (p && fgets(line, sizeof line, p)) {
+        optimal = optimal || tk_glpsol_optimal(line);
+        have = have || sscanf(line, "Objective: obj = %lf", opt) == 1;
+    }
+    if (p)
+        pclose(p);
+    remove(lp);
+    return optimal && have;
 }

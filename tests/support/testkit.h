@@ -29,6 +29,13 @@ static inline uint32_t tk_rand(uint64_t *state, uint32_t n)
  * random shuffle, which may deadlock.  Asserts on failure. */
 pm_map *tk_random_map(uint64_t *state, uint32_t n, uint32_t procs, uint32_t shuffle_one_in);
 
+/* GLPK's glpsol as an outside reference: write(f, ctx) writes a model in
+ * CPLEX LP form to a temporary file, glpsol solves it (tmlim seconds, 0 =
+ * no limit) and *opt gets the objective.  True only when glpsol's status
+ * is OPTIMAL or INTEGER OPTIMAL (not NON-OPTIMAL, not a time-out). */
+bool tk_glpsol(void (*write)(FILE *f, const void *ctx), const void *ctx, unsigned tmlim,
+               double *opt);
+
 /* $PM_HELPERS, or build/tests/helpers. */
 const char *tk_helper_dir(void);
 
