@@ -244,27 +244,38 @@ static void test_exact_refuses_classes(void **state)
     pm_graph_destroy(g);
 }
 
-/* The plan runs the period-first mapper only when asked: its map then
- * equals pm_mapper_map's and is timed; by default the list scheduler's
- * map has no lags. */
-static void test_plan_opt_in(void **state)
+/* The plan runs the period-first mapper by default: its map then equals
+ * pm_mapper_map's; a lagged map gets no one-iteration schedule, and its
+ * period from pm_plan_period is the IPC ratio; asked for the list
+ * scheduler, the plan gives a map without lags. */
+static void test_plan_default(void **state)
 {
     (void)state;
     pm_plan p;
     pm_diag d;
     assert_int_equal(pm_plan_init(&p, mixed_graph(), &d), PM_OK);
-    pm_plan_opts po = { .mapper = PM_PLAN_MAPPER_PERIOD };
     pm_schedule *sc = NULL;
     pm_map *m = NULL, *direct = NULL;
-    assert_int_equal(pm_plan_map(&p, &po, &sc, &m, &d), PM_OK);
-    assert_non_null(sc);
+    assert_int_equal(pm_plan_map(&p, NULL, &sc, &m, &d), PM_OK);
     assert_int_equal(pm_mapper_map(p.graph, NULL, &direct, NULL, &d), PM_OK);
     assert_memory_equal(m->core_of, direct->core_of, 12 * sizeof *m->core_of);
     assert_memory_equal(m->lag, direct->lag, 12 * sizeof *m->lag);
+    if (pm_map_has_lags(m))
+        assert_null(sc);
+    else
+        assert_non_null(sc);
+    pm_plan_timing pt;
+    pm_ipc ipc;
+    assert_int_equal(pm_plan_period(&p, m, &pt, &d), PM_OK);
+    assert_int_equal(pm_ipc_compute(p.graph, m, &ipc, &d), PM_OK);
+    assert_true(pt.exact);
+    assert_int_equal(pm_rat_cmp(pt.period, ipc.period), 0);
+    pm_ipc_free(&ipc);
     pm_sched_destroy(sc);
     pm_map_destroy(m);
     pm_map_destroy(direct);
-    assert_int_equal(pm_plan_map(&p, NULL, NULL, &m, &d), PM_OK);
+    pm_plan_opts po = { .mapper = PM_PLAN_MAPPER_LIST };
+    assert_int_equal(pm_plan_map(&p, &po, NULL, &m, &d), PM_OK);
     assert_false(pm_map_has_lags(m));
     pm_map_destroy(m);
     pm_plan_free(&p);
@@ -276,7 +287,7 @@ int main(void)
         cmocka_unit_test(test_against_glpk),
         cmocka_unit_test(test_deterministic_pins_classes_lags),
         cmocka_unit_test(test_exact_refuses_classes),
-        cmocka_unit_test(test_plan_opt_in),
+        cmocka_unit_test(test_plan_default),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -123,7 +123,8 @@ static void test_multirate_rule(void **state)
     pm_schedule *xs = NULL, *sc = NULL;
     pm_map *xm = NULL, *m = NULL;
     assert_int_equal(pm_sched_list(p.graph, NULL, &xs, &xm, &d), PM_OK);
-    assert_int_equal(pm_plan_map(&p, NULL, &sc, &m, &d), PM_OK);
+    pm_plan_opts list = {.mapper = PM_PLAN_MAPPER_LIST};
+    assert_int_equal(pm_plan_map(&p, &list, &sc, &m, &d), PM_OK);
     uint32_t a = node_id(p.source, "a"), per_core[2] = {0, 0};
     for (uint32_t x = 0; x < p.graph->nnodes; x++)
         if (p.origin[x] == a)
@@ -172,7 +173,8 @@ static void expect_refine_no_worse(const char *text)
     plan_of(text, &p);
     pm_diag d;
     pm_diag_clear(&d);
-    pm_plan_opts plain = {0}, refined = {.refine = true};
+    pm_plan_opts plain = {.mapper = PM_PLAN_MAPPER_LIST},
+                 refined = {.refine = true, .mapper = PM_PLAN_MAPPER_LIST};
     pm_map *m0 = NULL, *m1 = NULL;
     pm_schedule *s1 = NULL;
     assert_int_equal(pm_plan_map(&p, &plain, NULL, &m0, &d), PM_OK);

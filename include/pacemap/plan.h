@@ -4,11 +4,11 @@
  *
  * The pipeline: a multirate scenario is expanded to single rate
  * (pm_sdf_repetition, pm_sdf_check_iteration, pm_sdf_expand); the graph
- * analysed is list-scheduled (pm_sched_list); for a multirate scenario the
- * map is then made to keep every firing of a node on one core (the rule
- * below); optionally a local search moves nodes between cores while that
- * lowers the simulated period (pm_refine_map); the map is timed again
- * (pm_sched_from_map).
+ * analysed is mapped by the period-first mapper (mapper.h, the default),
+ * or list-scheduled (pm_sched_list), with a multirate scenario's map then
+ * made to keep every firing of a node on one core (the rule below), and
+ * optionally a local search that moves nodes between cores while that
+ * lowers the simulated period (pm_refine_map).
  *
  * Where a multirate node's firings go (the one rule, docs/multirate.md):
  * node v goes to the core that ran the most cycles of v's firings in the
@@ -36,6 +36,7 @@
 #include "pacemap/error.h"
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
+#include "pacemap/rational.h"
 #include "pacemap/sched.h"
 
 /* A scenario ready to be mapped. */
@@ -52,10 +53,12 @@ typedef struct pm_plan {
 
 /* Which mapper pm_plan_map runs. */
 typedef enum pm_plan_mapper {
-    PM_PLAN_MAPPER_LIST = 0, /* the list scheduler (the default) */
-    PM_PLAN_MAPPER_PERIOD    /* the period-first mapper (mapper.h); its maps
-                                carry lags, which only pm_ipc_compute times
-                                until the simulator runs them */
+    PM_PLAN_MAPPER_PERIOD = 0, /* the period-first mapper (mapper.h), the
+                                  default: its maps carry lags, so one
+                                  iteration's schedule does not time them
+                                  (pm_plan_period does) */
+    PM_PLAN_MAPPER_LIST        /* the list scheduler, then the refinement
+                                  when asked: one iteration made short */
 } pm_plan_mapper;
 
 /* How pm_plan_map makes a map. */
@@ -63,7 +66,7 @@ typedef struct pm_plan_opts {
     const pm_sched_opts *sched; /* list scheduler options; NULL = defaults */
     bool refine;                /* then search for a map with a lower period
                                    (list scheduler only) */
-    pm_plan_mapper mapper;      /* PM_PLAN_MAPPER_LIST unless chosen */
+    pm_plan_mapper mapper;      /* PM_PLAN_MAPPER_PERIOD unless chosen */
     uint32_t mapper_ms;         /* period-first time budget; 0 = its default */
 } pm_plan_opts;
 
@@ -93,22 +96,45 @@ void pm_plan_free(pm_plan *p);
 int pm_plan_set_procs(pm_plan *p, uint32_t procs, pm_diag *diag);
 
 /*
- * The map of p->graph on its cores (see the top of this file): list
- * schedule with o->sched, the multirate rule, then pm_refine_map when
- * o->refine (never a higher simulated period than without).  With
- * o->mapper = PM_PLAN_MAPPER_PERIOD on a single-rate scenario the map is
- * pm_mapper_map's instead (o->sched and o->refine unused); a multirate
- * scenario keeps the list scheduler, since the period-first mapper would
- * split a node's firings over cores.  o may be NULL
- * (defaults, no refinement).  *map is set on PM_OK; when sched is not NULL
- * *sched is the timing of that map (pm_sched_from_map semantics).  Both are
- * the caller's to destroy, and are NULL on error.
+ * The map of p->graph on its cores.  With o->mapper = PM_PLAN_MAPPER_PERIOD
+ * (the default; o may be NULL) the period-first mapper's (mapper.h; for a
+ * multirate scenario the list scheduler's map as below until the mapper
+ * serves multirate graphs); o->sched and o->refine are unused.  With PM_PLAN_MAPPER_LIST: the list schedule with o->sched, the
+ * multirate rule, then pm_refine_map when o->refine (never a higher
+ * simulated period than without).  *map is set on PM_OK.
+ * When sched is not NULL, *sched is the timing of one iteration of that
+ * map (pm_sched_from_map semantics) when the map has no lags, and NULL
+ * when it has: one iteration's schedule ignores lags, so a lagged map is
+ * timed by its period only (pm_plan_period).  Both are the caller's to
+ * destroy, and are NULL on error.
  * Errors: PM_EINVAL (p, p->graph or map NULL); those of pm_sched_list,
- * pm_map_expand, pm_refine_map and pm_sched_from_map (PM_EZERODELAY,
- * PM_EPLATFORM, PM_ENOMEM, ...), diag filled.  The plan is not changed.
+ * pm_mapper_map, pm_map_expand, pm_refine_map and pm_sched_from_map
+ * (PM_EZERODELAY, PM_EPLATFORM, PM_ENOMEM, ...), diag filled.  The plan is
+ * not changed.
  */
 int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
                 pm_map **map, pm_diag *diag);
+
+/* The period of a map, lags included. */
+typedef struct pm_plan_timing {
+    pm_rat period;   /* cycles per iteration of p->graph */
+    bool exact;      /* true: the exact self-timed period; false: only the
+                        average the simulator saw (no periodic regime in
+                        its run) */
+    bool simulated;  /* from the simulator (a bus) rather than the IPC ratio */
+} pm_plan_timing;
+
+/*
+ * The self-timed period of map m of p->graph, lags included: with
+ * point-to-point links the maximum cycle ratio of its IPC graph
+ * (pm_ipc_compute, exact); with a bus the simulator's period over
+ * PM_PLAN_TIMING_ITERATIONS iterations (pm_sim_run; exact when it reached
+ * a periodic regime).  *out zeroed on error.
+ * Errors: PM_EINVAL (an argument NULL); those of pm_ipc_compute and
+ * pm_sim_run (PM_EMAP, PM_EDEADLOCK, PM_ERANGE, PM_ENOMEM), diag filled.
+ */
+#define PM_PLAN_TIMING_ITERATIONS 200u
+int pm_plan_period(const pm_plan *p, const pm_map *m, pm_plan_timing *out, pm_diag *diag);
 
 /*
  * Read a map file naming the nodes of p->source (pm_map_read_file) and

@@ -278,3 +278,21 @@ void cli_json_loop(pm_json *j, const pm_graph *g, const pm_loop *l)
     pm_json_int(j, l->delays);
     pm_json_object_end(j);
 }
+
+int cli_mapper_choice(const char *cmd, const char *name, bool no_refine, pm_plan_opts *po)
+{
+    memset(po, 0, sizeof *po);
+    bool list = name && strcmp(name, "list") == 0;
+    if (name && !list && strcmp(name, "period") != 0) {
+        cli_usage_error("%s: --mapper takes 'period' or 'list', not '%s'", cmd, name);
+        return CLI_EXIT_USAGE;
+    }
+    if (no_refine && name && !list) {
+        cli_usage_error("%s: --no-refine keeps the list scheduler's map; it does not go "
+                        "with --mapper period", cmd);
+        return CLI_EXIT_USAGE;
+    }
+    po->mapper = list || no_refine ? PM_PLAN_MAPPER_LIST : PM_PLAN_MAPPER_PERIOD;
+    po->refine = list && !no_refine;
+    return CLI_EXIT_OK;
+}

@@ -95,6 +95,11 @@ void cli_json_loop(struct pm_json *j, const pm_graph *g, const struct pm_loop *l
  * for reports. */
 extern const char cli_caution[];
 
+/* The plan options of --mapper NAME (NULL: the period-first mapper) and
+ * --no-refine (the list scheduler's map as it is) into *po; CLI_EXIT_OK,
+ * or CLI_EXIT_USAGE after a message naming command cmd. */
+int cli_mapper_choice(const char *cmd, const char *name, bool no_refine, pm_plan_opts *po);
+
 /* The commands. */
 int pm_cmd_check(int argc, char **argv);
 int pm_cmd_bound(int argc, char **argv);

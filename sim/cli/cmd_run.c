@@ -27,7 +27,7 @@ typedef struct cr_opts {
     uint32_t procs, iters, warmup, ring, block, watchdog;
     bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
     bool oversubscribe, json, no_refine;
-    const char *map, *cores, *nspc;
+    const char *map, *cores, *nspc, *mapper;
     const char *file;
 } cr_opts;
 
@@ -36,7 +36,8 @@ typedef struct cr_state {
     pm_plan scn;       /* the scenario; g is its (expanded) graph */
     pm_graph *g;
     pm_map *m;
-    bool scheduled_map;     /* made by the list scheduler (else --map) */
+    bool scheduled_map;     /* made by pm_plan_map (else --map) */
+    pm_plan_opts po;        /* how, from --mapper and --no-refine */
     pm_topo *topo;
     pm_topo_choice pus;
     pm_runner_config cfg;
@@ -63,6 +64,9 @@ static int cr_parse(cr_opts *o, int argc, char **argv)
          "use these processing units (OS indices, e.g. 0,2-3)", "LIST"},
         {"--oversubscribe", NULL, CLI_FLAG, &o->oversubscribe, NULL,
          "allow more map cores than processing units", NULL},
+        {"--mapper", NULL, CLI_STRING, &o->mapper, NULL,
+         "period (default): search maps with lags for the lowest period; list: the list "
+         "scheduler, refined", "NAME"},
         {"--no-refine", NULL, CLI_FLAG, &o->no_refine, NULL,
          "use the list schedule's map as it is (no search for a lower period)", NULL},
         {"--ring", NULL, CLI_U32, &o->ring, &o->ring_set,
@@ -114,7 +118,8 @@ static int cr_config(cr_state *s)
     return CLI_EXIT_OK;
 }
 
-/* The map to run: --map, else the plan's (pm_plan_map, refined unless --no-refine). */
+/* The map to run: --map, else the plan's (pm_plan_map as --mapper and
+ * --no-refine say). */
 static int cr_make_map(cr_state *s)
 {
     pm_diag d;
@@ -124,8 +129,7 @@ static int cr_make_map(cr_state *s)
         s->scheduled_map = false;
         return cli_read_map(&s->scn, s->o.map, &s->m);
     }
-    pm_plan_opts po = {.refine = !s->o.no_refine};
-    rc = pm_plan_map(&s->scn, &po, NULL, &s->m, &d);
+    rc = pm_plan_map(&s->scn, &s->po, NULL, &s->m, &d);
     s->scheduled_map = true;
     if (rc != PM_OK) {
         if (!d.msg[0])
@@ -318,7 +322,9 @@ static void cr_text_setup(const cr_state *s)
     printf("run %s%s%s%s\n", s->o.file, p->title ? " \"" : "", p->title ? p->title : "",
            p->title ? "\"" : "");
     printf("map: %u core%s, %s\n", s->m->ncores, s->m->ncores == 1 ? "" : "s",
-           s->scheduled_map ? "from the list scheduler" : s->o.map);
+           !s->scheduled_map ? s->o.map
+           : s->po.mapper == PM_PLAN_MAPPER_LIST ? "from the list scheduler"
+                                                 : "from the period-first mapper");
     printf("processing units: %s\n", s->pus.summary);
     for (uint32_t c = 0; c < s->pus.n; c++)
         printf("  core %-3u -> PU %-4u %s\n", c, s->pus.pu[c], s->pus.why[c]);
@@ -500,6 +506,8 @@ int pm_cmd_run(int argc, char **argv)
     int st = cr_parse(&s.o, argc, argv);
     if (st >= 0)
         return st;
+    if (cli_mapper_choice("run", s.o.mapper, s.o.no_refine, &s.po) != CLI_EXIT_OK)
+        return CLI_EXIT_USAGE;
     st = cr_steps(&s);
     cr_free(&s);
     return st;

@@ -19,7 +19,7 @@
 
 typedef struct sc_args {
     uint32_t procs;
-    bool procs_set, json, loop_blind, refine;
+    bool procs_set, json, loop_blind, refine, pipelined;
     const char *emit_map, *svg, *map;
 } sc_args;
 
@@ -31,6 +31,10 @@ typedef struct sc_result {
     uint32_t *loop, nloop;
     const char *file;
     const pm_plan *scn;
+    pm_map *pm;          /* the pipelined map (--pipelined, or a hand map with
+                            lags: then the same as m); NULL when not shown */
+    pm_map *pm_nodes;    /* pm in the scenario's own nodes (multirate) or NULL */
+    pm_plan_timing pt;   /* pm's period */
 } sc_result;
 
 #define SC_NAME_W 24
@@ -87,7 +91,7 @@ static int sc_chart_make(const sc_result *r, sc_chart *c)
 static int sc_write_map(const void *ctx, FILE *f)
 {
     const sc_result *r = ctx;
-    return pm_plan_map_write(r->scn, r->m, f);
+    return pm_plan_map_write(r->scn, r->pm ? r->pm : r->m, f);
 }
 
 static int sc_write_svg(const void *ctx, FILE *f)
@@ -156,8 +160,58 @@ static void sc_text_transfers(const sc_result *r)
     }
 }
 
+static uint32_t sc_max_lag(const pm_map *m)
+{
+    uint32_t most = 0;
+    for (uint32_t v = 0; v < m->nnodes; v++)
+        most = m->lag[v] > most ? m->lag[v] : most;
+    return most;
+}
+
+/* The pipelined map as NODE@LAG lists per core, in the scenario's nodes. */
+static void sc_text_pipelined_map(const sc_result *r)
+{
+    const pm_map *m = r->pm_nodes ? r->pm_nodes : r->pm;
+    const pm_graph *g = r->pm_nodes ? r->scn->source : r->g;
+    printf("%-5s nodes in order (NAME@LAG: runs LAG rounds after round 0)\n", "core");
+    for (uint32_t c = 0; c < m->ncores; c++) {
+        int col = printf("%-5u", c);
+        for (uint32_t i = m->off[c]; i < m->off[c + 1]; i++) {
+            uint32_t v = m->order[i];
+            char item[SC_NAME_W + 16];
+            int len = m->lag[v] ? snprintf(item, sizeof item, "%.*s@%u", SC_NAME_W,
+                                           pm_graph_node_name(g, v), m->lag[v])
+                                : snprintf(item, sizeof item, "%.*s", SC_NAME_W,
+                                           pm_graph_node_name(g, v));
+            if (col + 1 + len > 100)
+                col = printf("\n%-5s", "") - 1;
+            col += printf(" %s", item);
+        }
+        putchar('\n');
+    }
+}
+
+static void sc_text_pipelined(const sc_result *r, bool hand)
+{
+    printf("\npipelined map%s: %u cores, lags up to %u\n",
+           hand ? "" : " (period-first mapper)", r->pm->ncores, sc_max_lag(r->pm));
+    printf("period         %.6g cycles per iteration (%lld/%lld)\n               %s\n",
+           pm_rat_to_double(r->pt.period), (long long)r->pt.period.num,
+           (long long)r->pt.period.den,
+           !r->pt.simulated ? "exact (IPC cycle ratio, lags included)"
+           : r->pt.exact    ? "simulated on the bus, periodic regime reached"
+                            : "simulated average: no periodic regime, not exact");
+    sc_text_pipelined_map(r);
+}
+
 static int sc_text(const sc_result *r)
 {
+    if (r->pm == r->m) { /* a hand map with lags: one iteration spans rounds */
+        printf("%s: %u nodes on %u cores; the map has lags, so one iteration is not "
+               "timed alone\n", r->file, r->g->nnodes, r->g->platform.ncores);
+        sc_text_pipelined(r, true);
+        return PM_OK;
+    }
     sc_text_summary(r);
     sc_text_slots(r);
     sc_text_transfers(r);
@@ -170,6 +224,8 @@ static int sc_text(const sc_result *r)
         rc = pm_gantt_write_text(&c.chart, stdout, 100);
     }
     sc_chart_free(&c, r->s->ncores);
+    if (rc == PM_OK && r->pm)
+        sc_text_pipelined(r, false);
     return rc;
 }
 
@@ -256,11 +312,67 @@ static void sc_json_extras(pm_json *j, const sc_result *r)
     pm_json_array_end(j);
 }
 
+static void sc_json_pipelined(pm_json *j, const sc_result *r)
+{
+    const pm_map *m = r->pm_nodes ? r->pm_nodes : r->pm;
+    const pm_graph *g = r->pm_nodes ? r->scn->source : r->g;
+    pm_json_key(j, "pipelined");
+    pm_json_object_begin(j);
+    pm_json_key(j, "period");
+    pm_json_rat(j, r->pt.period);
+    pm_json_key(j, "period_exact");
+    pm_json_bool(j, r->pt.exact);
+    pm_json_key(j, "period_simulated");
+    pm_json_bool(j, r->pt.simulated);
+    pm_json_key(j, "map");
+    pm_json_array_begin(j);
+    for (uint32_t c = 0; c < m->ncores; c++) {
+        pm_json_array_begin(j);
+        for (uint32_t i = m->off[c]; i < m->off[c + 1]; i++) {
+            pm_json_object_begin(j);
+            pm_json_key(j, "node");
+            pm_json_string(j, pm_graph_node_name(g, m->order[i]));
+            pm_json_key(j, "lag");
+            pm_json_uint(j, m->lag[m->order[i]]);
+            pm_json_object_end(j);
+        }
+        pm_json_array_end(j);
+    }
+    pm_json_array_end(j);
+    pm_json_object_end(j);
+}
+
+/* A hand map with lags: no one-iteration timing, the pipelined view only. */
+static void sc_json_lagged(pm_json *j, const sc_result *r)
+{
+    pm_json_key(j, "procs");
+    pm_json_uint(j, r->m->ncores);
+    pm_json_key(j, "makespan");
+    pm_json_null(j);
+    pm_json_key(j, "map");
+    pm_json_array_begin(j);
+    pm_json_array_end(j);
+    pm_json_key(j, "slots");
+    pm_json_array_begin(j);
+    pm_json_array_end(j);
+    pm_json_key(j, "source");
+    pm_json_string(j, "map");
+    sc_json_pipelined(j, r);
+}
+
 static void sc_json(const sc_result *r, bool from_map)
 {
     pm_json j;
     pm_json_init(&j, stdout, 2);
     pm_json_object_begin(&j);
+    if (r->pm == r->m) {
+        sc_json_lagged(&j, r);
+        pm_json_key(&j, "caution");
+        pm_json_string(&j, cli_caution);
+        pm_json_object_end(&j);
+        pm_json_finish(&j);
+        return;
+    }
     pm_json_key(&j, "procs");
     pm_json_uint(&j, r->s->ncores);
     pm_json_key(&j, "makespan");
@@ -269,6 +381,8 @@ static void sc_json(const sc_result *r, bool from_map)
     pm_json_key(&j, "source");
     pm_json_string(&j, from_map ? "map" : "list");
     sc_json_extras(&j, r);
+    if (r->pm)
+        sc_json_pipelined(&j, r);
     pm_json_key(&j, "caution");
     pm_json_string(&j, cli_caution);
     pm_json_object_end(&j);
@@ -295,22 +409,55 @@ static void sc_print_wrapped(const char *s)
 
 /* ---- the command -------------------------------------------------------- */
 
-/* Schedule or time the hand map; the loop-time floor. */
-static int sc_compute(const sc_args *a, sc_result *r)
+/* The pipelined map's period and its scenario-node form. */
+static int sc_pipelined(sc_result *r, pm_diag *d)
 {
-    pm_diag d;
-    pm_diag_clear(&d);
+    int rc = pm_plan_period(r->scn, r->pm, &r->pt, d);
+    if (rc == PM_OK && r->scn->multirate)
+        rc = pm_map_collapse(r->scn->source, r->scn->rep, r->pm, &r->pm_nodes, d);
+    return rc;
+}
+
+/* The map: the hand map (timed for one iteration unless it has lags) or
+ * the list scheduler's; then the pipelined map when asked. */
+static int sc_maps(const sc_args *a, sc_result *r, pm_diag *d)
+{
     pm_sched_opts so = {.loop_blind = a->loop_blind};
-    pm_plan_opts o = {.sched = &so, .refine = a->refine};
+    pm_plan_opts o = {.sched = &so, .refine = a->refine, .mapper = PM_PLAN_MAPPER_LIST};
+    pm_plan_opts period = {.mapper = PM_PLAN_MAPPER_PERIOD};
     int rc;
     if (a->map) {
         if (cli_read_map(r->scn, a->map, &r->m) != CLI_EXIT_OK)
             return PM_EMAP; /* already reported */
-        rc = pm_sched_from_map(r->g, r->m, &r->s, &d);
+        if (pm_map_has_lags(r->m)) {
+            r->pm = r->m;
+            return sc_pipelined(r, d);
+        }
+        rc = pm_sched_from_map(r->g, r->m, &r->s, d);
     } else {
-        rc = pm_plan_map(r->scn, &o, &r->s, &r->m, &d);
+        rc = pm_plan_map(r->scn, &o, &r->s, &r->m, d);
     }
-    if (rc == PM_OK) {
+    if (rc == PM_OK && a->pipelined && !a->map)
+        rc = pm_plan_map(r->scn, &period, NULL, &r->pm, d);
+    if (rc == PM_OK && r->pm)
+        rc = sc_pipelined(r, d);
+    return rc;
+}
+
+/* The maps and the loop-time floor. */
+static int sc_compute(const sc_args *a, sc_result *r)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = sc_maps(a, r, &d);
+    if (rc == PM_EMAP && a->map && !r->m)
+        return rc; /* already reported */
+    if (rc == PM_OK && a->svg && !r->s) {
+        pm_diag_set(&d, a->map, 0, 0, "the map has lags: one iteration spans several rounds "
+                    "and has no chart of its own (simulate --svg draws the rounds)");
+        rc = PM_EMAP;
+    }
+    if (rc == PM_OK && r->s) {
         rc = pm_sched_loop_floor(r->g, r->m, &r->floor, &r->loop, &r->nloop, &d);
         if (rc == PM_ELIMIT) { /* an extra, not worth failing the command */
             cli_warning("%s", d.msg);
@@ -330,7 +477,7 @@ static int sc_run(const sc_args *a, sc_result *r)
     int rc = sc_compute(a, r);
     if (rc == PM_OK && a->emit_map)
         rc = cli_write_file(a->emit_map, sc_write_map, r);
-    if (rc == PM_OK && a->svg)
+    if (rc == PM_OK && a->svg && r->s)
         rc = cli_write_file(a->svg, sc_write_svg, r);
     if (rc != PM_OK)
         return cli_exit_for(rc);
@@ -358,6 +505,9 @@ int pm_cmd_schedule(int argc, char **argv)
          "do not keep feedback loops on one core (for comparison)", NULL},
         {"--refine", NULL, CLI_FLAG, &a.refine, NULL,
          "then move nodes between cores while the simulated period drops", NULL},
+        {"--pipelined", NULL, CLI_FLAG, &a.pipelined, NULL,
+         "also show the period-first mapper's map with lags and its period (--emit-map "
+         "then writes that map)", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
     };
     const cli_cmd cmd = {"schedule", "FILE [-p N] [options]",
@@ -378,6 +528,9 @@ int pm_cmd_schedule(int argc, char **argv)
     if (st == CLI_EXIT_OK && !a.json)
         sc_print_wrapped(cli_caution);
     pm_sched_destroy(r.s);
+    if (r.pm != r.m)
+        pm_map_destroy(r.pm);
+    pm_map_destroy(r.pm_nodes);
     pm_map_destroy(r.m);
     free(r.loop);
     pm_plan_free(&scn);

@@ -30,7 +30,7 @@
 typedef struct sm_args {
     uint32_t procs, iterations, fifo;
     bool procs_set, json, no_refine;
-    const char *map, *vcd, *svg;
+    const char *map, *vcd, *svg, *mapper;
 } sm_args;
 
 typedef struct sm_run {
@@ -448,7 +448,8 @@ static int sm_map(const sm_args *a, sm_run *s, pm_diag *d)
 {
     if (a->map)
         return pm_plan_map_read(&s->scn, a->map, &s->m, d);
-    pm_plan_opts po = {.refine = !a->no_refine};
+    pm_plan_opts po;
+    cli_mapper_choice("simulate", a->mapper, a->no_refine, &po); /* checked in main */
     return pm_plan_map(&s->scn, &po, NULL, &s->m, d);
 }
 
@@ -502,6 +503,9 @@ int pm_cmd_simulate(int argc, char **argv)
         { "--map", NULL, CLI_STRING, &a.map, NULL, "run this map instead of scheduling", "F" },
         { "--fifo", NULL, CLI_U32, &a.fifo, NULL,
           "tokens each cross-core edge can buffer (default: unbounded)", "N" },
+        { "--mapper", NULL, CLI_STRING, &a.mapper, NULL,
+          "period (default): search maps with lags for the lowest period; list: the list "
+          "scheduler, refined", "NAME" },
         { "--no-refine", NULL, CLI_FLAG, &a.no_refine, NULL,
           "use the list schedule's map as it is (no search for a lower period)", NULL },
         { "--vcd", NULL, CLI_STRING, &a.vcd, NULL, "write a VCD waveform of the first iterations",
@@ -522,6 +526,9 @@ int pm_cmd_simulate(int argc, char **argv)
         cli_usage_error("-n must be at least 1");
         return CLI_EXIT_USAGE;
     }
+    pm_plan_opts po;
+    if (cli_mapper_choice("simulate", a.mapper, a.no_refine, &po) != CLI_EXIT_OK)
+        return CLI_EXIT_USAGE;
     sm_run s;
     memset(&s, 0, sizeof s);
     s.file = file;

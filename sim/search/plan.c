@@ -9,9 +9,11 @@
  */
 #include "pacemap/plan.h"
 
+#include "pacemap/ipc.h"
 #include "pacemap/mapper.h"
 #include "pacemap/refine.h"
 #include "pacemap/sdf.h"
+#include "pacemap/sim.h"
 
 #include <stdlib.h>
 #include <string.h>
@@ -198,13 +200,14 @@ static int plan_list(const pm_plan *p, const pm_plan_opts *o, bool timed, pm_sch
     return rc;
 }
 
-/* The period-first mapper's map, timed when the caller wants it. */
+/* The period-first mapper's map, timed when the caller wants it and one
+ * iteration's schedule means something (no lags). */
 static int plan_period(const pm_plan *p, const pm_plan_opts *o, bool timed, pm_schedule **sc,
                        pm_map **m, pm_diag *diag)
 {
     pm_mapper_opts mo = { .time_ms = o->mapper_ms };
     int rc = pm_mapper_map(p->graph, &mo, m, NULL, diag);
-    if (rc == PM_OK && timed)
+    if (rc == PM_OK && timed && !pm_map_has_lags(*m))
         rc = pm_sched_from_map(p->graph, *m, sc, diag);
     return rc;
 }
@@ -223,7 +226,7 @@ int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
     const pm_plan_opts *po = o ? o : &defaults;
     pm_schedule *sc = NULL;
     pm_map *m = NULL;
-    bool period = po->mapper == PM_PLAN_MAPPER_PERIOD && !p->multirate;
+    bool period = po->mapper != PM_PLAN_MAPPER_LIST && !p->multirate;
     int rc = period ? plan_period(p, po, sched != NULL, &sc, &m, diag)
                     : plan_list(p, po, sched != NULL, &sc, &m, diag);
     if (rc == PM_OK && po->refine && !period)
@@ -239,6 +242,43 @@ int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
         pm_sched_destroy(sc);
     *map = m;
     return PM_OK;
+}
+
+/* ---- the period of a map ------------------------------------------------ */
+
+/* A bus: the simulator's period (the IPC ratio is only a floor there). */
+static int plan_simulated(const pm_plan *p, const pm_map *m, pm_plan_timing *out,
+                          pm_diag *diag)
+{
+    pm_sim_opts so = { .iterations = PM_PLAN_TIMING_ITERATIONS };
+    pm_sim_result r;
+    int rc = pm_sim_run(p->graph, m, &so, &r, diag);
+    if (rc == PM_OK) {
+        out->period = r.period;
+        out->exact = r.steady;
+        out->simulated = true;
+        pm_sim_result_free(&r);
+    }
+    return rc;
+}
+
+int pm_plan_period(const pm_plan *p, const pm_map *m, pm_plan_timing *out, pm_diag *diag)
+{
+    if (!out)
+        return PM_EINVAL;
+    memset(out, 0, sizeof *out);
+    if (!p || !p->graph || !m)
+        return PM_EINVAL;
+    if (p->graph->platform.interconnect == PM_BUS)
+        return plan_simulated(p, m, out, diag);
+    pm_ipc ipc;
+    int rc = pm_ipc_compute(p->graph, m, &ipc, diag);
+    if (rc == PM_OK) {
+        out->period = ipc.period;
+        out->exact = true;
+        pm_ipc_free(&ipc);
+    }
+    return rc;
 }
 
 /* ---- map files ---------------------------------------------------------- */

@@ -62,7 +62,8 @@ int sweep_sched_sim(pm_plan *p, const pm_sweep_opts *o, uint32_t procs,
 {
     *own = NULL;
     *use = o->map;
-    pm_plan_opts po = {.sched = o->sched, .refine = o->refine};
+    pm_plan_opts po = {.sched = o->sched, .refine = o->refine,
+                       .mapper = o->refine ? PM_PLAN_MAPPER_PERIOD : PM_PLAN_MAPPER_LIST};
     int rc = sweep_set_procs(p, procs, diag);
     if (rc == PM_OK && o->map)
         rc = pm_map_check(o->map, p->graph, diag);
