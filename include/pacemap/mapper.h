@@ -47,9 +47,12 @@ typedef struct pm_mapper_info {
                           the larger of that ratio and the bus's work per
                           iteration: a floor, not the bus's period */
     int64_t busiest;   /* occupancy of the busiest core, cycles per iteration */
-    bool proven;       /* the period is proven the smallest any map can have
-                          (branch and bound completed, graph without loops,
-                          identical cores, point-to-point links) */
+    bool proven;       /* the period is proven the smallest any map can have:
+                          the branch and bound completed (graph without
+                          loops, point-to-point links), or the period
+                          reached the work floor (the larger of the
+                          heaviest node and the total work over P, each
+                          node at its smallest cycles) */
     bool exact_run;    /* the branch and bound ran (completed or not) */
     uint32_t evals;    /* exact period evaluations made */
     bool timed_out;    /* the time budget ended the search: the result then
@@ -87,12 +90,13 @@ typedef struct pm_mapper_info {
  * leaves a cycle without delay the cross-core edges between parts all
  * get at least one delay instead.
  *
- * The exact optimum (identical cores, no pins, no loops, at most
- * PM_MAPPER_EXACT_MAX_NODES nodes, point-to-point links): a branch and
- * bound over assignments, cores relabelled to break symmetry, bounded by
- * the busiest partial occupancy and by the total work left over the
- * cores; within opts->exact_nodes nodes it proves the optimum, and the
- * mapper returns a map of that period.
+ * The exact optimum (no loops, at most PM_MAPPER_EXACT_MAX_NODES nodes,
+ * point-to-point links; core classes and pins included): a branch and
+ * bound over assignments (on identical cores without pins, cores
+ * relabelled to break symmetry), bounded by the busiest partial occupancy
+ * and by the total work left over the cores; within opts->exact_nodes
+ * nodes it proves the optimum, and the mapper returns a map of that
+ * period.
  *
  * With a bus the ratio of the IPC graph is only a floor, and the
  * simulator cannot yet run lags: candidates are then compared by that
@@ -115,20 +119,54 @@ int pm_mapper_map(const pm_graph *g, const pm_mapper_opts *opts, pm_map **out,
 
 /*
  * The smallest busiest-core occupancy over all assignments of g's nodes to
- * its identical cores (cycles + send per cross-core out-edge + recv per
- * cross-core in-edge, delays ignored): by the argument above, the best
- * period of a graph without loops on point-to-point links.  A branch and
+ * its cores that pins and core classes allow (cycles on the core's class
+ * + send per cross-core out-edge + recv per cross-core in-edge, delays
+ * ignored): by the argument above, the best period of a graph without
+ * loops on point-to-point links.  A branch and
  * bound that looks at most max_nodes search nodes (0 =
  * PM_MAPPER_DEFAULT_EXACT).  *best gets the best occupancy found, assign
  * (nnodes entries) its assignment, *proven whether the search completed.
  * upper (> 0) is an occupancy already known to be reachable; only
  * strictly better ones are looked for, and when none exists *best = upper
  * and assign is left as it was.
- * Errors: PM_EINVAL (NULL argument, not finalized); PM_EUNSUPPORTED (core
- * classes or pins, or more than PM_MAPPER_EXACT_MAX_NODES nodes); PM_ENOMEM.
- * Complexity: O(max_nodes * (P + degree)).
+ * Errors: PM_EINVAL (NULL argument, not finalized); PM_EUNSUPPORTED (more
+ * than PM_MAPPER_EXACT_MAX_NODES nodes); PM_EPLATFORM (a node no core may
+ * run); PM_ENOMEM.
+ * Complexity: O(max_nodes * (P + degree)); without the symmetry of
+ * identical cores (classes or pins) the same number of search nodes
+ * covers less, so a proof is likelier to need more.
  */
 int pm_mapper_exact(const pm_graph *g, uint64_t max_nodes, int64_t upper, uint32_t *assign,
                     int64_t *best, bool *proven);
+
+/*
+ * The period-first mapper for a multirate scenario: a map of its
+ * single-rate expansion (pm_sdf_expand: expansion, origin = firing ->
+ * node) in which every firing of a node runs on the node's core with the
+ * node's lag, as a map file of the scenario's nodes holds it
+ * (pm_map_expand; the rule of plan.h).  source and rep as given to
+ * pm_sdf_expand; start a map of source's nodes (the list scheduler's,
+ * placed by the rule of plan.h) that the result never does worse than.
+ *
+ * Search: start as it is; then assignments of the scenario's nodes (pins
+ * and classes honoured), each with no lags and with one round of lag per
+ * cross-core edge between strongly connected parts, cores' nodes in the
+ * scenario's zero-delay order; first-improvement moves of one node,
+ * skipped when the busiest core's occupancy in the expansion already
+ * reaches the best period.  Every candidate is judged on the expansion:
+ * the IPC cycle ratio (pm_ipc_compute, exact) with point-to-point links,
+ * a simulated run (pm_sim_run) with a bus; ties go to the smaller sum of
+ * lags.  Candidates whose orders cannot run are skipped.  Budgets: opts
+ * as for pm_mapper_map (each candidate counts one evaluation per lag
+ * choice); deterministic unless info->timed_out.  info->proven is never
+ * set.
+ * Results: *out the map of the expansion (the caller's).  Errors:
+ * PM_EINVAL (an argument NULL or not matching); those of pm_map_expand,
+ * pm_ipc_compute and pm_sim_run on start; PM_ENOMEM.
+ */
+int pm_mapper_map_multirate(const pm_graph *source, const uint64_t *rep,
+                            const pm_graph *expansion, const uint32_t *origin,
+                            const pm_map *start, const pm_mapper_opts *opts, pm_map **out,
+                            pm_mapper_info *info, pm_diag *diag);
 
 #endif

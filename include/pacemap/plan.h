@@ -11,9 +11,12 @@
  * lowers the simulated period (pm_refine_map).
  *
  * Where a multirate node's firings go (the one rule, docs/multirate.md):
- * node v goes to the core that ran the most cycles of v's firings in the
- * list schedule of the expansion, each firing counting its cycles + 1 (so
- * that zero-cycle firings count too); on a tie, the lower core.  The nodes
+ * all on one core, in firing order, with the node's lag.  The
+ * period-first mapper chooses that core (mapper.h), starting from the list
+ * scheduler's choice, which is: node v goes to the core that ran the most
+ * cycles of v's firings in the list schedule of the expansion, each firing
+ * counting its cycles + 1 (so that zero-cycle firings count too); on a
+ * tie, the lower core.  The nodes
  * of a core run in the order of their earliest firing's start in that
  * schedule (ties: the lower node id), and every firing of a node runs on
  * its node's core in firing order (pm_map_expand).
@@ -98,8 +101,8 @@ int pm_plan_set_procs(pm_plan *p, uint32_t procs, pm_diag *diag);
 /*
  * The map of p->graph on its cores.  With o->mapper = PM_PLAN_MAPPER_PERIOD
  * (the default; o may be NULL) the period-first mapper's (mapper.h; for a
- * multirate scenario the list scheduler's map as below until the mapper
- * serves multirate graphs); o->sched and o->refine are unused.  With PM_PLAN_MAPPER_LIST: the list schedule with o->sched, the
+ * multirate scenario pm_mapper_map_multirate's, from the list scheduler's
+ * map placed by the rule below); o->sched and o->refine are unused.  With PM_PLAN_MAPPER_LIST: the list schedule with o->sched, the
  * multirate rule, then pm_refine_map when o->refine (never a higher
  * simulated period than without).  *map is set on PM_OK.
  * When sched is not NULL, *sched is the timing of one iteration of that

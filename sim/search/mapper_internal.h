@@ -49,6 +49,11 @@ void mp_occupancy(const mp_ctx *c, const uint32_t *assign, int64_t *occ);
  * evaluation.  PM_EDEADLOCK is not returned: the strict lags are used. */
 int mp_evaluate(mp_ctx *c, const uint32_t *assign, pm_map **out, mp_key *key, pm_diag *diag);
 
+/* The period a candidate map m of single-rate g is judged by: the IPC
+ * cycle ratio (exact) with point-to-point links; with a bus, where that
+ * ratio is only a floor, the simulator's period of a short run. */
+int mp_judge_period(const pm_graph *g, const pm_map *m, pm_rat *period, pm_diag *diag);
+
 /* True once the time budget has passed (and remembers it). */
 bool mp_out_of_time(mp_ctx *c);
 

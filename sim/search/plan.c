@@ -200,13 +200,36 @@ static int plan_list(const pm_plan *p, const pm_plan_opts *o, bool timed, pm_sch
     return rc;
 }
 
+/* A multirate scenario: the period-first mapper over its nodes, starting
+ * from the list scheduler's refined map of them (so never worse). */
+static int plan_period_multirate(const pm_plan *p, const pm_mapper_opts *mo, pm_map **m,
+                                 pm_diag *diag)
+{
+    static const pm_plan_opts list = { .mapper = PM_PLAN_MAPPER_LIST, .refine = true };
+    pm_schedule *sc = NULL;
+    pm_map *xm = NULL, *nodes = NULL;
+    int rc = plan_list(p, &list, false, &sc, &xm, diag);
+    if (rc == PM_OK)
+        rc = plan_refine(p, &sc, &xm, diag);
+    pm_sched_destroy(sc);
+    if (rc == PM_OK)
+        rc = pm_map_collapse(p->source, p->rep, xm, &nodes, diag);
+    pm_map_destroy(xm);
+    if (rc == PM_OK)
+        rc = pm_mapper_map_multirate(p->source, p->rep, p->graph, p->origin, nodes, mo, m,
+                                     NULL, diag);
+    pm_map_destroy(nodes);
+    return rc;
+}
+
 /* The period-first mapper's map, timed when the caller wants it and one
  * iteration's schedule means something (no lags). */
 static int plan_period(const pm_plan *p, const pm_plan_opts *o, bool timed, pm_schedule **sc,
                        pm_map **m, pm_diag *diag)
 {
     pm_mapper_opts mo = { .time_ms = o->mapper_ms };
-    int rc = pm_mapper_map(p->graph, &mo, m, NULL, diag);
+    int rc = p->multirate ? plan_period_multirate(p, &mo, m, diag)
+                          : pm_mapper_map(p->graph, &mo, m, NULL, diag);
     if (rc == PM_OK && timed && !pm_map_has_lags(*m))
         rc = pm_sched_from_map(p->graph, *m, sc, diag);
     return rc;
@@ -226,7 +249,7 @@ int pm_plan_map(const pm_plan *p, const pm_plan_opts *o, pm_schedule **sched,
     const pm_plan_opts *po = o ? o : &defaults;
     pm_schedule *sc = NULL;
     pm_map *m = NULL;
-    bool period = po->mapper != PM_PLAN_MAPPER_LIST && !p->multirate;
+    bool period = po->mapper != PM_PLAN_MAPPER_LIST;
     int rc = period ? plan_period(p, po, sched != NULL, &sc, &m, diag)
                     : plan_list(p, po, sched != NULL, &sc, &m, diag);
     if (rc == PM_OK && po->refine && !period)
