@@ -431,7 +431,7 @@ static int mp_exact_optimum(mp_ctx *c, const pm_mapper_opts *o, mp_best *best, b
 {
     *ran = *proven = false;
     if (o->no_exact || c->has_loops || c->g->platform.interconnect == PM_BUS
-        || c->g->platform.nclasses != 1 || c->n > PM_MAPPER_EXACT_MAX_NODES || c->n == 0)
+        || c->n > PM_MAPPER_EXACT_MAX_NODES || c->n == 0)
         return PM_OK;
     int64_t upper = pm_rat_ceil(best->key.period), opt = 0;
     if (upper <= 0) {

@@ -4,13 +4,16 @@
  * loops once lags are allowed (mapper.h says why).
  *
  * Nodes are placed one at a time, heaviest first then those most tied to
- * the nodes already placed, so that cut edges are charged early.  A node
- * goes to a core already used or to the first unused one (the cores are
- * identical, so the others would repeat the same assignments relabelled).
+ * the nodes already placed, so that cut edges are charged early.  On
+ * identical cores without pins a node goes to a core already used or to
+ * the first unused one (the others would repeat the same assignments
+ * relabelled); with core classes or pins every core that may run it is
+ * tried, at its class's cycles.
  * A branch is cut when the busiest partial occupancy, or the occupancy
  * summed over all cores plus the cycles of the nodes left, spread over the
- * P cores, reaches the best occupancy found.  Both are floors: charges
- * only grow as nodes are added.
+ * P cores, reaches the best occupancy found (the nodes left counted at
+ * their smallest cycles).  Both are floors: charges only grow as nodes
+ * are added.
  */
 #include "mapper_internal.h"
 
@@ -28,6 +31,8 @@ typedef struct mpx {
     uint32_t *best_assign;
     uint64_t visited, max_nodes;
     bool found;
+    int64_t *t;         /* n * P: cycles of v on core c, -1 where it cannot run */
+    bool symmetric;     /* identical cores and no pins: cores are interchangeable */
 } mpx;
 
 /* Placement order: heaviest first, then repeatedly the unplaced node with
@@ -66,7 +71,7 @@ static void mpx_order(mpx *x)
 static void mpx_charge(mpx *x, uint32_t v, uint32_t c, int64_t sign)
 {
     const pm_graph *g = x->g;
-    int64_t add = g->nodes[v].cycles;
+    int64_t add = x->t[(size_t)v * x->P + c];
     for (uint32_t k = g->out_off[v]; k < g->out_off[v + 1]; k++) {
         uint32_t w = g->edges[g->out_edge[k]].dst, cw = x->assign[w];
         if (w != v && cw != PM_NONE && cw != c) {
@@ -111,8 +116,10 @@ static void mpx_search(mpx *x, uint32_t i, uint32_t used)
         x->found = true;
         return;
     }
-    uint32_t v = x->seq[i], limit = used < x->P ? used + 1 : x->P;
+    uint32_t v = x->seq[i], limit = used < x->P && x->symmetric ? used + 1 : x->P;
     for (uint32_t c = 0; c < limit; c++) {
+        if (x->t[(size_t)v * x->P + c] < 0)
+            continue;
         x->assign[v] = c;
         mpx_charge(x, v, c, 1);
         mpx_search(x, i + 1, c == used ? used + 1 : used);
@@ -121,15 +128,39 @@ static void mpx_search(mpx *x, uint32_t i, uint32_t used)
     }
 }
 
-/* Identical cores, no pins, few nodes: what the search is exact for. */
-static bool mpx_fits(const pm_graph *g)
+/* Identical cores and no pins: any relabelling of the cores gives the
+ * same occupancies, so a node need only try the cores in use and one
+ * more. */
+static bool mpx_symmetric(const pm_graph *g)
 {
-    if (g->platform.nclasses != 1 || g->nnodes > PM_MAPPER_EXACT_MAX_NODES)
+    if (g->platform.nclasses != 1)
         return false;
     for (uint32_t v = 0; v < g->nnodes; v++)
-        if (g->nodes[v].pin_core != PM_NONE || g->nodes[v].pin_class != PM_NONE
-            || g->nodes[v].cycles < 0)
+        if (g->nodes[v].pin_core != PM_NONE || g->nodes[v].pin_class != PM_NONE)
             return false;
+    return true;
+}
+
+/* Cycles per node and core (classes), -1 where pins or classes forbid;
+ * rest[i] the smallest cycles of seq[i..n) summed (low: n entries of
+ * scratch).  false when a node can run nowhere. */
+static bool mpx_times(mpx *x, int64_t *low)
+{
+    const pm_graph *g = x->g;
+    for (uint32_t v = 0; v < x->n; v++) {
+        low[v] = -1;
+        for (uint32_t c = 0; c < x->P; c++) {
+            int64_t t = pm_graph_can_run(g, v, c)
+                        ? pm_graph_cycles_on(g, v, g->platform.core_class[c]) : -1;
+            x->t[(size_t)v * x->P + c] = t;
+            low[v] = t >= 0 && (low[v] < 0 || t < low[v]) ? t : low[v];
+        }
+        if (low[v] < 0)
+            return false;
+    }
+    x->rest[x->n] = 0;
+    for (uint32_t i = x->n; i-- > 0;)
+        x->rest[i] = x->rest[i + 1] + low[x->seq[i]];
     return true;
 }
 
@@ -138,7 +169,7 @@ int pm_mapper_exact(const pm_graph *g, uint64_t max_nodes, int64_t upper, uint32
 {
     if (!g || !g->finalized || !assign || !best || !proven || upper <= 0)
         return PM_EINVAL;
-    if (!mpx_fits(g))
+    if (g->nnodes > PM_MAPPER_EXACT_MAX_NODES)
         return PM_EUNSUPPORTED;
     uint32_t n = g->nnodes, P = g->platform.ncores;
     mpx x = { .g = g, .n = n, .P = P, .best = upper, .send = g->platform.comm.send,
@@ -149,11 +180,17 @@ int pm_mapper_exact(const pm_graph *g, uint64_t max_nodes, int64_t upper, uint32
     x.best_assign = malloc((n + 1) * sizeof *x.best_assign);
     x.occ = calloc(P + 1, sizeof *x.occ);
     x.rest = calloc(n + 1, sizeof *x.rest);
-    int rc = x.seq && x.assign && x.best_assign && x.occ && x.rest ? PM_OK : PM_ENOMEM;
+    x.t = malloc(((size_t)n * P + 1) * sizeof *x.t);
+    int64_t *low = malloc((n + 1) * sizeof *low);
+    x.symmetric = mpx_symmetric(g);
+    int rc = x.seq && x.assign && x.best_assign && x.occ && x.rest && x.t && low ? PM_OK
+                                                                                 : PM_ENOMEM;
     if (rc == PM_OK) {
         mpx_order(&x);
-        for (uint32_t i = n; i-- > 0;)
-            x.rest[i] = x.rest[i + 1] + g->nodes[x.seq[i]].cycles;
+        if (!mpx_times(&x, low))
+            rc = PM_EPLATFORM;
+    }
+    if (rc == PM_OK) {
         for (uint32_t v = 0; v < n; v++)
             x.assign[v] = PM_NONE;
         mpx_search(&x, 0, 0);
@@ -167,5 +204,7 @@ int pm_mapper_exact(const pm_graph *g, uint64_t max_nodes, int64_t upper, uint32
     free(x.best_assign);
     free(x.occ);
     free(x.rest);
+    free(x.t);
+    free(low);
     return rc;
 }
