@@ -43,9 +43,9 @@ typedef struct pm_mapper_opts {
 } pm_mapper_opts;
 
 typedef struct pm_mapper_info {
-    pm_rat period;     /* exact period of the map (pm_ipc_compute); with a bus
-                          the larger of that ratio and the bus's work per
-                          iteration: a floor, not the bus's period */
+    pm_rat period;     /* period of the map: exact (pm_ipc_compute) with
+                          point-to-point links; with a bus the simulated
+                          period of a 128-iteration run */
     int64_t busiest;   /* occupancy of the busiest core, cycles per iteration */
     bool proven;       /* the period is proven the smallest any map can have:
                           the branch and bound completed (graph without
@@ -67,16 +67,20 @@ typedef struct pm_mapper_info {
  * Search: several starting assignments - the list schedule's
  * (pm_sched_list, loop rule on), loop clusters (every strongly connected
  * part with a loop kept on one core when it fits) placed
- * longest-processing-time first, and single nodes placed the same way;
- * placement picks the core whose occupancy, counting the send and receive
- * cycles of the edges to nodes already placed, stays lowest (ties: lower
- * core).  Each is improved by moving nodes (and whole loops) off the
- * busiest core and exchanging pairs of nodes, judged by the busiest
- * occupancy (ties: cores at that occupancy, then total occupancy).  The
- * best are then judged by the exact period; with loops a first-improvement
- * search continues on that period, with the occupancy as a cheap floor
- * that skips moves which cannot help.
- *
+ * longest-processing-time first, single nodes placed the same way, and
+ * stages (cores filled in zero-delay order); placement picks the core
+ * whose occupancy, counting the send and receive cycles of the edges to
+ * nodes already placed, stays lowest (ties: lower core).  Each is improved
+ * by moving nodes (and whole loops) off the busiest core and exchanging
+ * pairs of nodes, judged by the busiest occupancy (ties: cores at that
+ * occupancy, then total occupancy), then judged by the exact period.
+ * With loops or a bus a first-improvement search continues on that
+ * period, with the occupancy as a cheap floor that skips moves which
+ * cannot help.  Then, until 64 tries in a row find nothing better, the
+ * period reaches the work floor (below) or a budget ends: the best map is
+ * kicked (a few nodes, or whole loops, moved to cores drawn from a fixed
+ * pseudo-random sequence), improved on occupancy and judged exactly again.
+
  * Orders and lags of an assignment: every core runs its nodes in one
  * topological order of the zero-delay edges (pm_order_zero_delay, smallest
  * id first), so the map is also a valid map without lags.  With T the
@@ -98,15 +102,19 @@ typedef struct pm_mapper_info {
  * nodes it proves the optimum, and the mapper returns a map of that
  * period.
  *
- * With a bus the ratio of the IPC graph is only a floor, and the
- * simulator cannot yet run lags: candidates are then compared by that
- * ratio or the bus's work per iteration, whichever is larger; the map's
- * true period on the bus can be higher.
- *
- * Determinism: every choice follows a fixed rule; the same input gives the
- * same map unless the time budget ends the search (info->timed_out), which
- * for a 200-node graph on 16 cores the default budgets avoid.
- *
+ * With a bus the ratio of the IPC graph is only a floor: every candidate
+ * is then judged by the period of a short simulated run (pm_sim_run, 128
+ * iterations, lags included), and info->period is that period.
+
+ * Determinism: every choice follows a fixed rule or the fixed
+ * pseudo-random sequence; the same input and budgets give the same map
+ * unless the time budget ends the search (info->timed_out): then the
+ * result depends on the machine's speed and load.  With opts->max_evals
+ * small enough to end the search first, the map depends on the input
+ * alone.  The time budget bounds the search; the map in hand when it ends
+ * is still judged once, which on 10,000 nodes adds about a tenth of a
+ * second (docs/performance.md).
+
  * Results: *out the map (lags set); *info (may be NULL) what was found.
  * Errors: PM_EINVAL (g or out NULL, g not finalized); PM_EUNSUPPORTED
  * (multirate); PM_EZERODELAY, PM_EPLATFORM (a node no core may run) and

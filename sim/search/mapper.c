@@ -21,6 +21,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#define MP_STALE 64u /* kicks in a row without a better map end the search */
+
 /* Occupancy key: busiest, then cores at the busiest, then total. */
 typedef struct mp_okey {
     int64_t top, at_top, sum;
@@ -114,9 +116,15 @@ typedef struct mp_work {
     uint32_t *nodes, *to, *saved; /* n entries each: a move being judged */
 } mp_work;
 
+/* The clock is read once per 1024 moves looked at. */
 static bool mp_budget_left(mp_ctx *c)
 {
-    return c->moves < PM_MAPPER_MAX_MOVES && ((c->moves & 1023) != 0 || !mp_out_of_time(c));
+    if (c->moves >= PM_MAPPER_MAX_MOVES || c->timed_out)
+        return false;
+    if (c->moves - c->moves_checked < 1024)
+        return true;
+    c->moves_checked = c->moves;
+    return !mp_out_of_time(c);
 }
 
 /* Make the move of w->nodes[0..k) when it lowers the occupancy key. */
@@ -175,7 +183,7 @@ static bool mp_swap_one(mp_ctx *c, mp_work *w, uint32_t a)
     for (uint32_t v = 0; v < c->n && mp_budget_left(c); v++) {
         if (w->assign[v] != a)
             continue;
-        for (uint32_t u = 0; u < c->n; u++) {
+        for (uint32_t u = 0; u < c->n && mp_budget_left(c); u++) {
             uint32_t b = w->assign[u];
             if (b == a || !mp_can(c, v, b) || !mp_can(c, u, a))
                 continue;
@@ -424,6 +432,76 @@ static int mp_exact_search(mp_ctx *c, mp_work *w, mp_best *best, pm_diag *diag)
     return rc;
 }
 
+/* ---- perturbations ----------------------------------------------------- */
+
+/* xorshift64*: a fixed sequence from a fixed seed, so that the search is
+ * the same on every run and machine (until the time budget ends it). */
+static uint32_t mp_rand(uint64_t *s, uint32_t n)
+{
+    *s ^= *s >> 12;
+    *s ^= *s << 25;
+    *s ^= *s >> 27;
+    return (uint32_t)(((*s * 0x2545F4914F6CDD1DULL) >> 32) % n);
+}
+
+/* The work floor: no map runs faster than its busiest core's occupancy
+ * (its round is a loop of one delay), which is a whole number of cycles
+ * at least the heaviest node and the total work spread over all cores
+ * (each node at its smallest cycles), rounded up. */
+static pm_rat mp_work_floor(const mp_ctx *c)
+{
+    int64_t sum = 0, big = 0;
+    for (uint32_t v = 0; v < c->n; v++) {
+        int64_t t = mp_min_t(c, v);
+        sum = sum > PM_MAX_VALUE - t ? PM_MAX_VALUE : sum + t;
+        big = t > big ? t : big;
+    }
+    /* the busiest occupancy, a whole number, is at least the spread work */
+    int64_t spread = sum / c->P + (sum % c->P != 0);
+    return pm_rat_int(spread > big ? spread : big);
+}
+
+/* Move k random nodes of w->assign to random cores that may run them; a
+ * node in a loop takes its whole loop along half of the time. */
+static void mp_kick(mp_ctx *c, mp_work *w, uint64_t *seed, uint32_t k)
+{
+    const pm_scc *s = &c->scc;
+    for (uint32_t i = 0; i < k; i++) {
+        uint32_t v = mp_rand(seed, c->n), b = mp_rand(seed, c->P);
+        uint32_t part = s->comp[v], whole = c->looped[part] && mp_rand(seed, 2);
+        uint32_t lo = whole ? s->start[part] : 0, hi = whole ? s->start[part + 1] : 1;
+        bool ok = true;
+        for (uint32_t j = lo; j < hi && ok; j++)
+            ok = mp_can(c, whole ? s->order[j] : v, b);
+        for (uint32_t j = lo; j < hi && ok; j++)
+            w->assign[whole ? s->order[j] : v] = b;
+    }
+}
+
+/* Iterated local search from the best map: kick it, descend on occupancy,
+ * judge exactly (and with loops or a bus, go on with the exact search
+ * from a better map); stop after MP_STALE kicks in a row that found
+ * nothing, at the work floor, or at a budget. */
+static int mp_iterate(mp_ctx *c, mp_work *w, mp_best *best, pm_rat floor, pm_diag *diag)
+{
+    uint64_t seed = 0x9E3779B97F4A7C15ULL ^ ((uint64_t)c->n << 20) ^ c->P;
+    uint32_t stale = 0, kick = c->n / 16 + 2;
+    int rc = PM_OK;
+    bool exact = c->has_loops || c->g->platform.interconnect == PM_BUS;
+    while (rc == PM_OK && stale < MP_STALE && pm_rat_cmp(best->key.period, floor) > 0
+           && c->evals < c->max_evals && !mp_out_of_time(c)) {
+        memcpy(w->assign, best->assign, c->n * sizeof *w->assign);
+        mp_kick(c, w, &seed, 1 + mp_rand(&seed, kick));
+        mp_improve(c, w);
+        bool better = false;
+        rc = mp_consider(c, w->assign, best, &better, diag);
+        if (rc == PM_OK && better && exact)
+            rc = mp_exact_search(c, w, best, diag);
+        stale = better ? 0 : stale + 1;
+    }
+    return rc;
+}
+
 /* The branch and bound where it is exact; *proven when it settles the
  * optimum and the best map reaches it. */
 static int mp_exact_optimum(mp_ctx *c, const pm_mapper_opts *o, mp_best *best, bool *ran,
@@ -542,7 +620,7 @@ static int mp_from_list(mp_ctx *c, mp_work *w, mp_best *best, pm_diag *diag)
         memcpy(w->assign, lm->core_of, c->n * sizeof *w->assign);
         rc = mp_consider(c, w->assign, best, &better, diag);
     }
-    if (rc == PM_OK)
+    if (rc == PM_OK && !mp_out_of_time(c))
         rc = mp_start(c, w, best, diag);
     pm_map_destroy(lm);
     return rc;
@@ -554,7 +632,7 @@ static int mp_search(mp_ctx *c, mp_work *w, const pm_mapper_opts *o, mp_best *be
                      pm_mapper_info *info, pm_diag *diag)
 {
     int rc = mp_from_list(c, w, best, diag);
-    for (int k = 0; k < 4 && rc == PM_OK; k++) {
+    for (int k = 0; k < 4 && rc == PM_OK && !mp_out_of_time(c); k++) {
         if (k < 3)
             rc = mp_lpt(c, w, k != 2, k != 1);
         else
@@ -566,6 +644,11 @@ static int mp_search(mp_ctx *c, mp_work *w, const pm_mapper_opts *o, mp_best *be
         rc = mp_exact_search(c, w, best, diag);
     if (rc == PM_OK)
         rc = mp_exact_optimum(c, o, best, &info->exact_run, &info->proven, diag);
+    pm_rat floor = mp_work_floor(c);
+    if (rc == PM_OK && !info->proven)
+        rc = mp_iterate(c, w, best, floor, diag);
+    if (rc == PM_OK && pm_rat_cmp(best->key.period, floor) <= 0)
+        info->proven = true;
     return rc;
 }
 

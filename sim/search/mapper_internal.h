@@ -25,6 +25,7 @@ typedef struct mp_ctx {
     uint32_t *stamp;    /* per edge, for the move deltas */
     uint32_t stamp_now;
     uint64_t moves;     /* occupancy moves looked at */
+    uint64_t moves_checked; /* moves when the clock was last read */
     uint32_t evals, max_evals;
     struct timespec deadline;
     bool timed_out;

@@ -159,12 +159,15 @@ static void mpl_secondary(const mp_ctx *c, const pm_map *m, const int64_t *o,
     }
 }
 
-/* The period key of ipc: the IPC ratio, with a bus at least its work. */
-static pm_rat mpl_period(const pm_graph *g, const pm_ipc *ipc)
+/* The period key: the IPC ratio with point-to-point links; with a bus,
+ * where the ratio is only a floor, the simulated period (mp_judge_period). */
+static int mpl_period(const pm_graph *g, const pm_map *m, const pm_ipc *ipc, pm_rat *period,
+                      pm_diag *diag)
 {
-    if (g->platform.interconnect == PM_BUS)
-        return pm_rat_max(ipc->period, pm_rat_int(ipc->bus_busy));
-    return ipc->period;
+    *period = ipc->period;
+    if (g->platform.interconnect != PM_BUS)
+        return PM_OK;
+    return mp_judge_period(g, m, period, diag);
 }
 
 /* Build the map with lags (strict or not) and time it exactly. */
@@ -184,9 +187,11 @@ static int mpl_try(mp_ctx *c, const uint32_t *assign, int64_t *buf, bool strict,
     if (rc == PM_OK)
         rc = pm_ipc_compute(c->g, m, &ipc, diag);
     if (rc == PM_OK) {
-        key->period = mpl_period(c->g, &ipc);
+        rc = mpl_period(c->g, m, &ipc, &key->period, diag);
         mpl_secondary(c, m, o, w, T, key);
         pm_ipc_free(&ipc);
+    }
+    if (rc == PM_OK) {
         *out = m;
         return PM_OK;
     }
