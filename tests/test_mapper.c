@@ -25,8 +25,11 @@
  * well under a second), send, recv, latency and per-word cost varied: the exact period of the mapper's map
  * (pm_ipc_compute) is never below the optimum, its mean ratio to it at
  * most 1.02 and its worst at most 1.08; the branch and bound's proven
- * optimum equals glpsol's; (b) same input, same map; (c) pins and classes
- * kept (pm_map_check); (d) lags valid (pm_ipc_check_lags) everywhere.
+ * optimum equals glpsol's; (b) same input, same map, also with an
+ * evaluation budget that ends the search; (c) pins and classes kept
+ * (pm_map_check), and the branch and bound with classes and a pin equal to
+ * trying every assignment; (d) lags valid (pm_ipc_check_lags) everywhere;
+ * (e) on a bus the period reported is the simulator's.
  */
 #include <setjmp.h>
 #include <stdarg.h>
@@ -41,6 +44,7 @@
 #include "pacemap/ipc.h"
 #include "pacemap/mapper.h"
 #include "pacemap/plan.h"
+#include "pacemap/sim.h"
 #include "sched_testlib.h"
 #include "support/testkit.h"
 
@@ -272,6 +276,39 @@ static void test_deterministic_pins_classes_lags(void **state)
     pm_graph_destroy(g);
 }
 
+/* Determinism without the clock: with an evaluation budget that ends the
+ * search first, two runs give the same map; on a bus the period reported
+ * is the simulated one (the IPC ratio is only a floor there). */
+static void test_evals_budget_and_bus(void **state)
+{
+    (void)state;
+    pm_graph *g = mixed_graph();
+    g->platform.interconnect = PM_BUS;
+    pm_mapper_opts o = { .max_evals = 40, .time_ms = 600000 };
+    pm_map *a = NULL, *b = NULL;
+    pm_mapper_info ia, ib;
+    pm_diag d;
+    assert_int_equal(pm_mapper_map(g, &o, &a, &ia, &d), PM_OK);
+    assert_int_equal(pm_mapper_map(g, &o, &b, &ib, &d), PM_OK);
+    assert_false(ia.timed_out);
+    assert_int_equal(ia.evals, ib.evals);
+    assert_memory_equal(a->core_of, b->core_of, 12 * sizeof *a->core_of);
+    assert_memory_equal(a->order, b->order, 12 * sizeof *a->order);
+    assert_memory_equal(a->lag, b->lag, 12 * sizeof *a->lag);
+    pm_sim_opts so = { .iterations = 128 };
+    pm_sim_result r;
+    assert_int_equal(pm_sim_run(g, a, &so, &r, &d), PM_OK);
+    assert_int_equal(pm_rat_cmp(r.period, ia.period), 0);
+    pm_ipc ipc;
+    assert_int_equal(pm_ipc_compute(g, a, &ipc, &d), PM_OK);
+    assert_true(pm_rat_cmp(ia.period, ipc.period) >= 0);
+    pm_ipc_free(&ipc);
+    pm_sim_result_free(&r);
+    pm_map_destroy(a);
+    pm_map_destroy(b);
+    pm_graph_destroy(g);
+}
+
 /* The branch and bound with core classes and a pin: the optimum of
  * trying every assignment, and an assignment that keeps them. */
 static void test_exact_classes_pins(void **state)
@@ -333,6 +370,7 @@ int main(void)
         cmocka_unit_test(test_against_glpk),
         cmocka_unit_test(test_deterministic_pins_classes_lags),
         cmocka_unit_test(test_exact_classes_pins),
+        cmocka_unit_test(test_evals_budget_and_bus),
         cmocka_unit_test(test_plan_default),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

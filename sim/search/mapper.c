@@ -10,8 +10,9 @@
  * O(P + degree); the exact period (an IPC cycle ratio) costs a graph
  * build and a policy iteration, so it confirms rather than explores.
  *
- * What it does not do: simulate (the simulator cannot run lags yet), map
- * multirate graphs (plan.c keeps the list scheduler for them), or print.
+ * What it does not do: map multirate graphs (mapper_multi.c does, on the
+ * scenario's nodes), or print.  It simulates only to judge candidates on a
+ * bus (mp_judge_period).
  */
 #include "mapper_internal.h"
 
