@@ -22,7 +22,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define MP_STALE 64u /* kicks in a row without a better map end the search */
+#define MP_STALE 64u     /* kicks in a row without a better map end the search */
+#define MP_SWAP_ALL 256u /* larger graphs exchange only with the least busy core */
+#define MP_SHARES 8      /* the list's and 4 constructions' descents get 1/8 each */
 
 /* Occupancy key: busiest, then cores at the busiest, then total. */
 typedef struct mp_okey {
@@ -117,15 +119,42 @@ typedef struct mp_work {
     uint32_t *nodes, *to, *saved; /* n entries each: a move being judged */
 } mp_work;
 
-/* The clock is read once per 1024 moves looked at. */
+/* The clock is read once per 1024 moves looked at.  A starting
+ * assignment's descent also ends at its share of the time (c->share_end),
+ * so that one slow descent leaves time for the others; that too makes the
+ * result depend on the machine (c->cut). */
 static bool mp_budget_left(mp_ctx *c)
 {
-    if (c->moves >= PM_MAPPER_MAX_MOVES || c->timed_out)
+    if (c->moves >= PM_MAPPER_MAX_MOVES || c->timed_out || c->share_over)
         return false;
     if (c->moves - c->moves_checked < 1024)
         return true;
     c->moves_checked = c->moves;
-    return !mp_out_of_time(c);
+    struct timespec now;
+    clock_gettime(CLOCK_MONOTONIC, &now);
+    if (c->share_on && (now.tv_sec > c->share_end.tv_sec
+                        || (now.tv_sec == c->share_end.tv_sec
+                            && now.tv_nsec >= c->share_end.tv_nsec)))
+        c->share_over = c->cut = true;
+    return !c->share_over && !mp_out_of_time(c);
+}
+
+/* Give the next descent up to the end of share k of MP_SHARES of the
+ * budget (k < 0: no share, only the budget). */
+static void mp_share(mp_ctx *c, int k)
+{
+    c->share_on = k >= 0;
+    c->share_over = false;
+    if (!c->share_on)
+        return;
+    int64_t ns = (int64_t)c->budget_ms * 1000000 * (k + 1) / MP_SHARES;
+    c->share_end = c->start;
+    c->share_end.tv_sec += (time_t)(ns / 1000000000);
+    c->share_end.tv_nsec += (long)(ns % 1000000000);
+    if (c->share_end.tv_nsec >= 1000000000L) {
+        c->share_end.tv_sec++;
+        c->share_end.tv_nsec -= 1000000000L;
+    }
 }
 
 /* Make the move of w->nodes[0..k) when it lowers the occupancy key. */
@@ -178,15 +207,21 @@ static bool mp_move_one(mp_ctx *c, mp_work *w, uint32_t a)
     return false;
 }
 
-/* One improving exchange of a node of core a with a node elsewhere. */
+/* One improving exchange of a node of core a with a node elsewhere; on
+ * graphs of more than MP_SWAP_ALL nodes only with the least busy core's
+ * nodes, since trying every pair costs O(V^2 / P) per step. */
 static bool mp_swap_one(mp_ctx *c, mp_work *w, uint32_t a)
 {
+    uint32_t lo = 0;
+    for (uint32_t k = 1; k < c->P; k++)
+        lo = w->occ[k] < w->occ[lo] ? k : lo;
+    bool all = c->n <= MP_SWAP_ALL;
     for (uint32_t v = 0; v < c->n && mp_budget_left(c); v++) {
         if (w->assign[v] != a)
             continue;
         for (uint32_t u = 0; u < c->n && mp_budget_left(c); u++) {
             uint32_t b = w->assign[u];
-            if (b == a || !mp_can(c, v, b) || !mp_can(c, u, a))
+            if (b == a || (!all && b != lo) || !mp_can(c, v, b) || !mp_can(c, u, a))
                 continue;
             w->nodes[0] = v;
             w->to[0] = b;
@@ -559,7 +594,9 @@ static int mp_ctx_init(mp_ctx *c, const pm_graph *g, const pm_mapper_opts *o, pm
     c->recv = g->platform.comm.recv;
     c->max_evals = o->max_evals ? o->max_evals : PM_MAPPER_DEFAULT_EVALS;
     uint32_t ms = o->time_ms ? o->time_ms : PM_MAPPER_DEFAULT_MS;
-    clock_gettime(CLOCK_MONOTONIC, &c->deadline);
+    c->budget_ms = ms;
+    clock_gettime(CLOCK_MONOTONIC, &c->start);
+    c->deadline = c->start;
     c->deadline.tv_sec += (time_t)(ms / 1000);
     c->deadline.tv_nsec += (long)(ms % 1000) * 1000000L;
     if (c->deadline.tv_nsec >= 1000000000L) {
@@ -632,8 +669,10 @@ static int mp_from_list(mp_ctx *c, mp_work *w, mp_best *best, pm_diag *diag)
 static int mp_search(mp_ctx *c, mp_work *w, const pm_mapper_opts *o, mp_best *best,
                      pm_mapper_info *info, pm_diag *diag)
 {
+    mp_share(c, 0);
     int rc = mp_from_list(c, w, best, diag);
     for (int k = 0; k < 4 && rc == PM_OK && !mp_out_of_time(c); k++) {
+        mp_share(c, k + 1);
         if (k < 3)
             rc = mp_lpt(c, w, k != 2, k != 1);
         else
@@ -641,6 +680,7 @@ static int mp_search(mp_ctx *c, mp_work *w, const pm_mapper_opts *o, mp_best *be
         if (rc == PM_OK)
             rc = mp_start(c, w, best, diag);
     }
+    mp_share(c, -1);
     if (rc == PM_OK && (c->has_loops || c->g->platform.interconnect == PM_BUS))
         rc = mp_exact_search(c, w, best, diag);
     if (rc == PM_OK)
@@ -709,7 +749,7 @@ int pm_mapper_map(const pm_graph *g, const pm_mapper_opts *opts, pm_map **out,
         best.map = NULL;
     }
     inf->evals = c.evals;
-    inf->timed_out = c.timed_out;
+    inf->timed_out = c.timed_out || c.cut;
     pm_map_destroy(best.map);
     free(best.assign);
     mp_work_free(&w);

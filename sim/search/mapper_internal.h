@@ -27,8 +27,12 @@ typedef struct mp_ctx {
     uint64_t moves;     /* occupancy moves looked at */
     uint64_t moves_checked; /* moves when the clock was last read */
     uint32_t evals, max_evals;
-    struct timespec deadline;
+    struct timespec start, deadline;
+    uint32_t budget_ms;
     bool timed_out;
+    struct timespec share_end; /* the current descent's share of the time */
+    bool share_on, share_over;
+    bool cut;                  /* a share ended a descent: machine-dependent */
 } mp_ctx;
 
 /* Ordering key of an evaluated map: smaller is better. */
