@@ -1,9 +1,12 @@
 /*
  * cmd_schedule.c - `pacemap schedule FILE [-p N] [--map F] [--emit-map F]
- * [--svg F] [--json] [--loop-blind]`: list-schedule one iteration (or time
- * a hand map), print the per-core table, makespan, utilisation, cross-core
- * transfers, the loop-time floor and a text Gantt chart; write the map and
- * an SVG chart through pm_outfile.  Scheduling itself lives in sched/.
+ * [--svg F] [--json] [--loop-blind] [--refine] [--pipelined]`:
+ * list-schedule one iteration (or time a hand map), print the per-core
+ * table, makespan, utilisation, cross-core transfers, the loop-time floor
+ * and a text Gantt chart; with --pipelined (or for a hand map with lags)
+ * the period-first mapper's map with its lags and exact period; write the
+ * map and an SVG chart through pm_outfile.  Scheduling itself lives in
+ * sched/, mapping in sim/search/.
  */
 #include "cli.h"
 

@@ -32,6 +32,12 @@
  * Graphs whose times do not fit these narrow fields, or whose rings are
  * too large to index in 31 bits, run on the causal engine: same results,
  * slower.
+ *
+ * Maps with lags (map.h) take a plainer pass of their own (p2p_run_lags):
+ * one pass per round instead of per iteration, the order of a round taken
+ * over the predecessors of the same round, every predecessor kept (one may
+ * apply in a round where another from the same source does not), and the
+ * token counts taken firing by firing.
  */
 #include <stdlib.h>
 #include <string.h>
@@ -51,6 +57,9 @@ typedef struct p2p_wide {
     uint32_t u, delay, cause;
     uint32_t xslot; /* a cross-core input, or PM_NONE */
     int64_t w;
+    int64_t rdelay; /* rounds back (with lags; else = delay); delay is then
+                       iterations back, negative for a core predecessor
+                       whose lag is smaller (two's complement) */
 } p2p_wide;
 
 /* A node's predecessors follow one another; the last has P2P_LAST in off. */
@@ -87,6 +96,10 @@ typedef struct p2p {
     uint32_t *far;      /* ring offsets read from older rows, in slot order */
     uint32_t *bfar;     /* per P2P_AHEAD slots: where their entries of far end */
     uint32_t nfar;
+    /* with lags (p2p_run_lags): per slot its lag, the rounds back of its
+     * core predecessor (its first entry), its first token counter */
+    uint32_t *slag, *oback, *tfirst;
+    uint32_t npred;
 } p2p;
 
 /* ---- building ----------------------------------------------------------- */
@@ -99,28 +112,35 @@ static uint32_t p2p_count_preds(const sim *s, uint32_t v)
     return k;
 }
 
+/* v's predecessors: the core's previous entry, inputs, FIFO room.  With
+ * lags round r runs (v, r - lag[v]): a predecessor b rounds back is
+ * b + lag[u] - lag[v] iterations back (data edges keep their delays). */
 static void p2p_list_preds(const sim *s, uint32_t v, p2p_wide *p)
 {
     uint32_t c = s->m->core_of[v], back;
     uint32_t prev = sim_prev_on_core(s, c, s->pos_of[v], &back);
-    *p++ = (p2p_wide){ prev, back, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off };
+    const uint32_t *lag = s->m->lag;
+    int64_t it = (int64_t)back + lag[prev] - (int64_t)lag[v];
+    *p++ = (p2p_wide){ prev, (uint32_t)it, PM_CAUSE_ORDER, PM_NONE, s->nd[prev].free_off, back };
     for (uint32_t i = s->nd[v].in_lo; i < s->nd[v].in_hi; i++) {
         const sim_in *in = &s->ins[i];
         int64_t cost = in->xslot != PM_NONE ? s->x[in->xslot].cost : 0;
+        int64_t rd = (int64_t)in->delay + lag[v] - (int64_t)lag[in->src];
         *p++ = (p2p_wide){ in->src, in->delay, PM_CAUSE_EDGE | in->edge << 3, in->xslot,
-                          s->nd[in->src].end_off + cost };
+                          s->nd[in->src].end_off + cost, rd };
     }
     if (!s->fifo)
         return;
     for (uint32_t i = s->nd[v].xo_lo; i < s->nd[v].xo_hi; i++) {
         const sim_x *xe = &s->x[s->xout[i]];
-        *p++ = (p2p_wide){ xe->dst, (uint32_t)(xe->cap - xe->delay), PM_CAUSE_FIFO | xe->edge << 3,
-                          PM_NONE, 0 };
+        int64_t b = xe->cap - xe->delay, rd = b + lag[v] - (int64_t)lag[xe->dst];
+        *p++ = (p2p_wide){ xe->dst, (uint32_t)b, PM_CAUSE_FIFO | xe->edge << 3, PM_NONE, 0, rd };
     }
 }
 
-/* Kahn's algorithm (pm_order_csr, first in first out) over the zero-delay
- * predecessors, turned into successor lists; false on a cycle. */
+/* Kahn's algorithm (pm_order_csr, first in first out) over the
+ * predecessors of the same round, turned into successor lists; false on a
+ * cycle. */
 static bool p2p_order(uint32_t n, const uint32_t *p_off, const p2p_wide *wide, uint32_t *step)
 {
     uint32_t *fill = calloc((size_t)n + 1, sizeof *fill);
@@ -129,13 +149,13 @@ static bool p2p_order(uint32_t n, const uint32_t *p_off, const p2p_wide *wide, u
     uint32_t done = 0;
     if (fill && succ_off && succ) {
         for (uint32_t i = 0; i < p_off[n]; i++)
-            if (wide[i].delay == 0)
+            if (wide[i].rdelay == 0)
                 succ_off[wide[i].u + 1]++;
         for (uint32_t v = 0; v < n; v++)
             succ_off[v + 1] += succ_off[v];
         for (uint32_t v = 0; v < n; v++)
             for (uint32_t i = p_off[v]; i < p_off[v + 1]; i++)
-                if (wide[i].delay == 0)
+                if (wide[i].rdelay == 0)
                     succ[succ_off[wide[i].u] + fill[wide[i].u]++] = v;
         if (pm_order_csr(n, succ_off, succ, NULL, PM_ORDER_FIFO, step, &done) != PM_OK)
             done = 0;
@@ -154,12 +174,13 @@ static bool p2p_fits(int64_t v)
 static bool p2p_compile_pred(const sim *s, p2p *w, const uint32_t *slot_of, const p2p_wide *g,
                             uint32_t slot, uint32_t p, uint32_t *t)
 {
-    if (!p2p_fits(g->w) || g->w < 0 || g->delay >= w->W)
+    int64_t back = s->lags ? (int64_t)(int32_t)g->delay : (int64_t)g->delay;
+    if (!p2p_fits(g->w) || g->w < 0 || back >= (int64_t)w->W || -back >= (int64_t)w->W)
         return false;
     w->pred[p] = (p2p_pred){ ((w->W - g->delay) & (w->W - 1)) * w->n + slot_of[g->u], (int32_t)g->w };
     w->pdelay[p] = g->delay;
     w->pcause[p] = g->cause;
-    if (g->delay > w->early)
+    if (!s->lags && g->delay > w->early)
         w->early = g->delay;
     if (g->xslot == PM_NONE)
         return true;
@@ -213,10 +234,16 @@ static bool p2p_compile(const sim *s, p2p *w, const uint32_t *p_off, const p2p_w
         slot_of[w->step[i]] = i;
     for (uint32_t i = 0; i < w->n; i++) {
         uint32_t v = w->step[i], p0 = p;
+        if (s->lags) {
+            w->slag[i] = s->m->lag[v];
+            w->oback[i] = (uint32_t)wide[p_off[v]].rdelay;
+            w->tfirst[i] = t;
+        }
         for (uint32_t j = p_off[v]; j < p_off[v + 1]; j++)
             if (!p2p_compile_pred(s, w, slot_of, &wide[j], i, p++, &t))
                 return false;
-        p = p2p_dedup(w, p0, p);
+        if (!s->lags) /* with lags entries apply in different rounds: keep all */
+            p = p2p_dedup(w, p0, p);
         for (uint32_t j = p0; j < p; j++)
             if (w->pdelay[j] > 0)
                 w->far[w->nfar++] = w->pred[j].off;
@@ -229,6 +256,9 @@ static bool p2p_compile(const sim *s, p2p *w, const uint32_t *p_off, const p2p_w
         if ((i & (P2P_BLOCK - 1)) == P2P_BLOCK - 1 || i == w->n - 1)
             w->btend[i / P2P_BLOCK] = t;
     }
+    if (s->lags)
+        w->tfirst[w->n] = t;
+    w->npred = p;
     return true;
 }
 
@@ -249,6 +279,12 @@ static int p2p_alloc(const sim *s, p2p *w, size_t np)
     w->bfar = malloc((n / P2P_AHEAD + 2) * sizeof *w->bfar);
     bool ok = w->step && w->node && w->pred && w->pdelay && w->pcause && w->tok && w->txs &&
               w->tdelay && w->tslot && w->btend && w->far && w->bfar;
+    if (ok && s->lags) {
+        w->slag = malloc((n + 1) * sizeof *w->slag);
+        w->oback = malloc((n + 1) * sizeof *w->oback);
+        w->tfirst = malloc((n + 1) * sizeof *w->tfirst);
+        ok = w->slag && w->oback && w->tfirst;
+    }
     return ok ? PM_OK : PM_ENOMEM;
 }
 
@@ -257,6 +293,7 @@ static void p2p_free(p2p *w)
     free(w->step), free(w->node), free(w->pred), free(w->pdelay), free(w->pcause);
     free(w->tok), free(w->txs), free(w->tdelay), free(w->tslot), free(w->btend);
     free(w->far), free(w->bfar);
+    free(w->slag), free(w->oback), free(w->tfirst);
 }
 
 /* PM_OK with the pass built; 1 when it cannot run this map (a zero-delay
@@ -491,22 +528,167 @@ static int p2p_run(sim *s, p2p *w)
     return rc;
 }
 
+/* ---- the pass with lags --------------------------------------------------
+ *
+ * Round r runs (v, r - lag[v]) for every v, in an order where each entry
+ * follows those of the same round it needs; times stay in the rows of each
+ * node's own iteration.  What the causal engine does, firing by firing:
+ *  - in a round before its lag v does not fire and takes no time: its
+ *    entry (in the row of its negative iteration) holds the free time of
+ *    the core's previous entry minus v's own free offset, so that the
+ *    next entry reads that free time through it;
+ *  - a core's first entry of round 0 begins at 0 (start), any other entry
+ *    at least at its predecessor's free time (order), then when a later
+ *    input or FIFO room allows;
+ *  - iterations N and later (the last rounds) fire but are neither
+ *    counted, recorded nor part of the makespan. */
+
+/* Begin of slot i in round r (its iteration k >= 0) and the entry that set
+ * it; *pp moves past its entries. */
+static int64_t p2p_lag_begin(const sim *s, const p2p *w, uint32_t i, const p2p_pred **pp,
+                             uint64_t r, uint64_t k, size_t base, uint32_t *cause)
+{
+    const p2p_pred *p = *pp;
+    int64_t x = 0;
+    *cause = P2P_START;
+    for (bool first = true;; first = false, p++) {
+        uint32_t idx = (uint32_t)(p - w->pred);
+        bool ok = first ? r >= w->oback[i] : k >= w->pdelay[idx];
+        int64_t a = ok ? p2p_at(s->xr, base, p->off & ~P2P_LAST, w->wn) + p->w : 0;
+        if (ok && (first || a > x)) {
+            x = a;
+            *cause = idx;
+        }
+        if (p->off & P2P_LAST)
+            break;
+    }
+    *pp = p + 1;
+    return x;
+}
+
+/* A slot before its lag: pass the core's free time on (see above). */
+static void p2p_lag_skip(sim *s, const p2p *w, uint32_t i, const p2p_pred **pp, uint64_t r,
+                         size_t base)
+{
+    const p2p_pred *p = *pp;
+    int64_t fr = r >= w->oback[i] ? p2p_at(s->xr, base, p->off & ~P2P_LAST, w->wn) + p->w : 0;
+    s->xr[base + i] = fr - s->nd[w->step[i]].free_off;
+    s->cr[base + i] = P2P_START;
+    while (!(p->off & P2P_LAST))
+        p++;
+    *pp = p + 1;
+}
+
+/* Fingerprint, latency, half-way times, makespan, token counts and
+ * records of firing (slot i, iteration k < N) that began at x. */
+static int p2p_lag_note(sim *s, p2p *w, uint32_t i, uint64_t k, size_t base, int64_t x)
+{
+    uint32_t v = w->step[i];
+    uint64_t slot = k & s->mask;
+    if (k > 0)
+        s->f1[slot] += sim_mix((uint64_t)(x - s->xr[(size_t)((k - 1) & s->mask) * w->n + i]), i);
+    int64_t st = x + w->node[i].recv, en = x + w->node[i].end_off;
+    s->lmin[slot] = st < s->lmin[slot] ? st : s->lmin[slot];
+    s->lmax[slot] = en > s->lmax[slot] ? en : s->lmax[slot];
+    if (k == s->N / 2)
+        s->half[v] = x;
+    int64_t fr = x + s->nd[v].free_off;
+    s->makespan = fr > s->makespan ? fr : s->makespan;
+    int rc = PM_OK;
+    for (uint32_t j = w->tfirst[i]; j < w->tfirst[i + 1] && !rc; j++) {
+        p2p_tok *t = &w->tok[j];
+        bool initial = k < w->tdelay[j];
+        int64_t push = initial ? 0 : p2p_at(s->xr, base, t->off, w->wn) + t->end;
+        rc = sim_tokens_take(s, &t->c, w->txs[j], s->xr + i, w->n, k, x, initial, push);
+    }
+    if (rc || k >= s->record)
+        return rc;
+    for (uint32_t j = s->nd[v].xo_lo; j < s->nd[v].xo_hi && !rc; j++)
+        rc = sim_record_transfer(s, s->xout[j], k, en, en);
+    return rc ? rc : sim_record_firing(s, s->m->core_of[v], v, k, x);
+}
+
+static int p2p_lag_round(sim *s, p2p *w, uint64_t r)
+{
+    const p2p_pred *p = w->pred;
+    int rc = PM_OK;
+    for (uint32_t i = 0; i < w->n && !rc; i++) {
+        uint64_t k = r - w->slag[i]; /* wraps below 0: a round before the lag */
+        size_t base = (size_t)(k & s->mask) * w->n;
+        if (r < w->slag[i]) {
+            p2p_lag_skip(s, w, i, &p, r, base);
+            continue;
+        }
+        uint32_t cause;
+        int64_t x = p2p_lag_begin(s, w, i, &p, r, k, base, &cause);
+        s->xr[base + i] = x;
+        s->cr[base + i] = cause;
+        if (k < s->N)
+            rc = p2p_lag_note(s, w, i, k, base, x);
+    }
+    return rc;
+}
+
+/* Rows back in node order with cause codes, for the report's window. */
+static void p2p_lag_unslot(sim *s, const p2p *w, int64_t *x, uint32_t *c)
+{
+    size_t n = w->n;
+    for (uint64_t k = s->R > s->W ? s->R - s->W : 0; k < s->R; k++) {
+        size_t base = (size_t)(k & s->mask) * n;
+        memcpy(x, s->xr + base, n * sizeof *x);
+        memcpy(c, s->cr + base, n * sizeof *c);
+        for (size_t i = 0; i < n; i++) {
+            s->xr[base + w->step[i]] = x[i];
+            s->cr[base + w->step[i]] = c[i] < w->npred ? w->pcause[c[i]] : PM_CAUSE_START;
+        }
+    }
+}
+
+static int p2p_run_lags(sim *s, p2p *w)
+{
+    int rc = PM_OK;
+    for (uint64_t r = 0; rc == PM_OK && r < s->R; r++) {
+        s->max_iter = r;
+        sim_slot_reset(s, r);
+        rc = p2p_lag_round(s, w, r);
+        if (!rc && r >= s->lag_max && r - s->lag_max < s->N)
+            sim_iteration_done(s, s->completed++);
+    }
+    for (uint32_t j = 0; j < s->nx; j++)
+        s->cur[w->txs[j]] = w->tok[j].c;
+    int64_t *x = malloc(((size_t)w->n + 1) * sizeof *x);
+    uint32_t *c = malloc(((size_t)w->n + 1) * sizeof *c);
+    if (!rc && (!x || !c))
+        rc = PM_ENOMEM;
+    if (!rc)
+        p2p_lag_unslot(s, w, x, c);
+    free(x), free(c);
+    if (rc)
+        return rc;
+    s->firings = 0;
+    for (uint32_t v = 0; v < s->n; v++) {
+        s->done[v] = s->R - s->m->lag[v];
+        s->firings += s->done[v];
+    }
+    return PM_OK;
+}
+
 int sim_loop_p2p(sim *s, pm_diag *diag)
 {
     (void)diag;
-    if (s->lags) /* rounds and iterations differ: the causal engine runs these */
-        return 1;
     p2p w = { 0 };
     int rc = p2p_build(s, &w);
     if (!rc)
-        rc = p2p_run(s, &w);
+        rc = s->lags ? p2p_run_lags(s, &w) : p2p_run(s, &w);
     p2p_free(&w);
     if (rc)
         return rc;
-    p2p_makespan(s);
-    s->firings = s->N * s->n;
-    for (uint32_t v = 0; v < s->n; v++)
-        s->done[v] = s->N;
+    if (!s->lags) {
+        p2p_makespan(s);
+        s->firings = s->N * s->n;
+        for (uint32_t v = 0; v < s->n; v++)
+            s->done[v] = s->N;
+    }
     for (uint32_t c = 0; c < s->P; c++)
         s->iter[c] = s->R, s->pos[c] = 0;
     return PM_OK;
