@@ -100,8 +100,10 @@ static void mpm_cross_lags(mpm *c, const uint32_t *assign, uint32_t *lag)
         }
         c->plag[k] = best;
     }
-    for (uint32_t v = 0; v < c->n; v++)
-        lag[v] = (uint32_t)c->plag[c->scc.comp[v]];
+    for (uint32_t v = 0; v < c->n; v++) { /* past the cap the map is refused: no candidate */
+        int64_t l = c->plag[c->scc.comp[v]];
+        lag[v] = l > (int64_t)PM_MAP_MAX_LAG ? PM_MAP_MAX_LAG + 1u : (uint32_t)l;
+    }
 }
 
 /* The node map of assign (cores' nodes in rank order) with lags or none. */
