@@ -65,8 +65,7 @@ static int cr_parse(cr_opts *o, int argc, char **argv)
         {"--oversubscribe", NULL, CLI_FLAG, &o->oversubscribe, NULL,
          "allow more map cores than processing units", NULL},
         {"--mapper", NULL, CLI_STRING, &o->mapper, NULL,
-         "period (default): search maps with lags for the lowest period; list: the list "
-         "scheduler, refined", "NAME"},
+         "period (default: lowest period, lags) or list (the list scheduler)", "NAME"},
         {"--no-refine", NULL, CLI_FLAG, &o->no_refine, NULL,
          "use the list schedule's map as it is (no search for a lower period)", NULL},
         {"--ring", NULL, CLI_U32, &o->ring, &o->ring_set,

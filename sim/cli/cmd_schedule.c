@@ -509,8 +509,7 @@ int pm_cmd_schedule(int argc, char **argv)
         {"--refine", NULL, CLI_FLAG, &a.refine, NULL,
          "then move nodes between cores while the simulated period drops", NULL},
         {"--pipelined", NULL, CLI_FLAG, &a.pipelined, NULL,
-         "also show the period-first mapper's map with lags and its period (--emit-map "
-         "then writes that map)", NULL},
+         "also show the period-first map with lags and its period", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
     };
     const cli_cmd cmd = {"schedule", "FILE [-p N] [options]",

@@ -504,8 +504,7 @@ int pm_cmd_simulate(int argc, char **argv)
         { "--fifo", NULL, CLI_U32, &a.fifo, NULL,
           "tokens each cross-core edge can buffer (default: unbounded)", "N" },
         { "--mapper", NULL, CLI_STRING, &a.mapper, NULL,
-          "period (default): search maps with lags for the lowest period; list: the list "
-          "scheduler, refined", "NAME" },
+          "period (default: lowest period, lags) or list (the list scheduler)", "NAME" },
         { "--no-refine", NULL, CLI_FLAG, &a.no_refine, NULL,
           "use the list schedule's map as it is (no search for a lower period)", NULL },
         { "--vcd", NULL, CLI_STRING, &a.vcd, NULL, "write a VCD waveform of the first iterations",
