@@ -54,7 +54,7 @@ for p in pts:
         assert k in p, k
     for r in (p["period"], p["lower_bound"]):
         assert set(r) >= {"num", "den", "value"}, r
-    assert p["limit"]["kind"] in ("loop", "mapping", "cores", "node")
+    assert p["limit"]["kind"] in ("loop", "mapping", "cores", "node", "bus")
     assert isinstance(p["limit"]["nodes"], list)
 per = [(p["period"]["num"], p["period"]["den"]) for p in pts]
 assert per == [(90, 1), (50, 1), (40, 1), (30, 1), (30, 1)], per
@@ -73,7 +73,7 @@ import json, sys
 d = json.load(open(sys.argv[1]))
 for p in d["points"]:
     lim = p["limit"]
-    assert lim["kind"] == "mapping", lim
+    assert lim["kind"] == "loop", lim  # the loop through the two transfers
     hops = {(t["from"], t["to"]) for t in lim["transfers"]}
     assert hops == {("a", "b"), ("b", "a")}, hops
 PY
@@ -88,7 +88,7 @@ import json, sys
 d = json.load(open(sys.argv[1]))
 assert [p["procs"] for p in d["points"]] == [2]
 lim = d["points"][0]["limit"]
-assert lim["kind"] == "mapping" and len(lim["transfers"]) == 2, lim
+assert lim["kind"] == "loop" and len(lim["transfers"]) == 2, lim
 assert d["points"][0]["period"]["num"] == 50
 PY
 

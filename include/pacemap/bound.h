@@ -114,7 +114,10 @@ typedef enum pm_floor_kind {
     PM_FLOOR_NODE,     /* the largest node */
     PM_FLOOR_PACKING,  /* whole nodes on P cores (pigeonhole), map floor only */
     PM_FLOOR_PINNED,   /* the nodes pinned to one core, map floor only */
-    PM_FLOOR_BUS       /* transfers pins force onto the bus, map floor only */
+    PM_FLOOR_BUS,      /* transfers pins force onto the bus, map floor only */
+    PM_FLOOR_SEARCH    /* the smallest busiest-core occupancy of any map, proven
+                          by an exhaustive search (map floor only; set by the
+                          callers that run the search, e.g. the sweep) */
 } pm_floor_kind;
 
 typedef struct pm_floors {
@@ -155,7 +158,8 @@ typedef struct pm_floors {
 int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs,
                       pm_floors *out);
 
-/* Name of a floor kind: "loop", "cores", "node", "packing", "pinned", "bus". */
+/* Name of a floor kind: "loop", "cores", "node", "packing", "pinned", "bus",
+ * "search". */
 const char *pm_bound_floor_name(pm_floor_kind k);
 
 /* The fractional-assignment work floor alone (what pm_floors.cores holds

@@ -60,10 +60,12 @@
 #define PM_SWEEP_DEFAULT_FASTER 10
 
 typedef enum pm_limit_kind {
-    PM_LIMIT_LOOP = 0, /* a loop of the graph */
-    PM_LIMIT_MAPPING,  /* a loop the map made (transfers, core order) */
-    PM_LIMIT_CORES,    /* total work / P */
-    PM_LIMIT_NODE      /* the largest node */
+    PM_LIMIT_LOOP = 0, /* a loop of the graph, with the transfers the map put on it */
+    PM_LIMIT_MAPPING,  /* the map itself: a cycle of core orders and transfers,
+                          above every other kind (gap to map_floor) */
+    PM_LIMIT_CORES,    /* the busiest core's occupancy: work + send/recv */
+    PM_LIMIT_NODE,     /* the largest node, at its time on its core's class */
+    PM_LIMIT_BUS       /* the bus's occupancy: every transfer of one iteration */
 } pm_limit_kind;
 
 /* A cross-core transfer on a limiting loop. */
@@ -105,14 +107,30 @@ typedef struct pm_sweep_limit {
 } pm_sweep_limit;
 
 typedef struct pm_sweep_point {
-    uint32_t procs;
+    uint32_t procs;         /* all cores of the point */
+    uint32_t count;         /* the count swept: procs, or the varied class's cores */
     pm_rat period;          /* achieved (exact when steady) */
     bool steady;            /* the simulation reached its periodic regime */
-    pm_floors floors;       /* loop, node, cores and lower_bound for this P */
+    pm_floors floors;       /* loop, node, cores, lower_bound and map_floor here */
+    bool floor_searched;    /* map_floor raised to the proven smallest busiest-core
+                               occupancy of any map (exhaustive search) */
     double speedup;         /* period of the first point / this period (NAN if 0) */
     double efficiency;      /* speedup * first procs / procs */
     int64_t latency;        /* steady latency of one iteration, cycles */
     uint32_t cross_edges;   /* edges of the map between cores */
+    /* The map simulated: this count's own, or an earlier (smaller) count's
+     * when that one had a lower period (the extra cores then idle). */
+    pm_map *map;            /* owned */
+    uint32_t map_count;     /* the count whose map it is (== count when its own) */
+    pm_rat own_period;      /* the period of this count's own map */
+    uint32_t idle_cores;    /* cores the map leaves without a node */
+    /* What the map puts on its cores, per iteration (the simulator's counts). */
+    int64_t busiest;        /* occupancy of the busiest core: recv + run + send */
+    uint32_t busiest_core;
+    int64_t busiest_run;    /* of which node cycles */
+    uint32_t largest;       /* the node with the largest time on its core's class */
+    int64_t largest_cycles;
+    int64_t bus_busy;       /* bus cycles per iteration (0 without a bus) */
     pm_sweep_limit limit;
 } pm_sweep_point;
 
@@ -121,8 +139,8 @@ typedef struct pm_sweep_faster {
     uint32_t node;
     int64_t cycles, new_cycles; /* smallest cycles before and after (>= 0) */
     pm_rat loop_alone;          /* the binding loop's own ratio after (loop/mapping) */
-    pm_rat after;               /* loop: new iteration bound; mapping: new period of
-                                   the same map; node: new lower bound */
+    pm_rat after;               /* same_map: new period of the same map; loop: new
+                                   iteration bound; node: new lower bound */
     pm_rat floor_after;         /* the lower bound at that P after the change */
 } pm_sweep_faster;
 
@@ -131,6 +149,9 @@ typedef struct pm_sweep_whatif {
     uint32_t point;             /* index of the point explained (the saturation) */
     pm_limit_kind kind;         /* that point's limit */
     int64_t faster;             /* cycles taken off one node at a time */
+    bool same_map;              /* rows' `after` is the period of the point's map
+                                   re-simulated (a mapping, or a loop through
+                                   transfers); else a floor recomputed */
     pm_sweep_faster *rows;
     uint32_t nrows;
     /* loop: one more delay on the loop edge where it helps most */
@@ -151,6 +172,7 @@ typedef struct pm_sweep_whatif {
 } pm_sweep_whatif;
 
 typedef struct pm_sweep {
+    uint32_t vary_class;        /* the class whose count is swept, or PM_NONE */
     uint32_t npoints;
     pm_sweep_point *points;     /* procs from .. to, ascending */
     pm_bound bound;             /* iteration bound, critical loops, parts */
@@ -166,6 +188,12 @@ typedef void (*pm_sweep_progress)(void *ctx, uint32_t procs, uint32_t done, uint
 
 typedef struct pm_sweep_opts {
     uint32_t procs_from, procs_to; /* 1 <= from <= to; to - from < PM_SWEEP_MAX_POINTS */
+    bool by_class;                 /* false: from..to count identical cores (a platform
+                                      with core classes: only its own cores) */
+    uint32_t vary_class;           /* by_class: from..to count the cores of this class
+                                      (a class index), the others keep theirs */
+    const pm_plan_opts *plan;      /* NULL: {sched, refine} below; else the mapper
+                                      options as given (sched and refine unused) */
     uint64_t iterations;           /* simulated per point; 0 = simulator default */
     int64_t faster;                /* what-if cycles; 0 = PM_SWEEP_DEFAULT_FASTER */
     const pm_sched_opts *sched;    /* NULL = scheduler defaults */

@@ -137,86 +137,114 @@ static void sw_text_head(const sw_report *r, uint64_t iterations)
     sw_print_wrapped("", l.buf, 2);
 }
 
-/* "optimal" when the steady period equals the map floor (proven optimal
- * for this P), else "+X%" computed exactly by pm_bound_gap. */
-static const char *sw_gap_text(const pm_sweep_point *p)
+/* The count of a point as the user wrote it: "P = 4" or "dsp = 3". */
+static const char *sw_count_text(const sw_report *r, uint32_t count, char *buf, size_t n)
 {
-    static char buf[24];
-    bool opt = false;
-    pm_rat pct;
-    if (pm_bound_gap(p->period, p->floors.map_floor, &opt, &pct) != PM_OK)
-        return "-";
-    if (opt && p->steady)
-        return "optimal";
-    snprintf(buf, sizeof buf, "+%.3g%%", pm_rat_to_double(pct));
+    if (r->s->vary_class == PM_NONE)
+        snprintf(buf, n, "P = %u", count);
+    else
+        snprintf(buf, n, "%s = %u", r->g->platform.class_names[r->s->vary_class], count);
     return buf;
+}
+
+/* Points that run a smaller count's map, their extra cores idle. */
+static void sw_text_reused(const sw_report *r)
+{
+    for (uint32_t i = 0; i < r->s->npoints; i++) {
+        const pm_sweep_point *p = &r->s->points[i];
+        if (p->map_count == p->count)
+            continue;
+        char a[48], b[48], c[48], d[48];
+        sw_line l = {{0}, 0};
+        sw_add(&l, "%s runs the map made for %s (%u core%s idle): its own map's period was "
+                   "%s, above %s", sw_count_text(r, p->count, c, sizeof c),
+               sw_count_text(r, p->map_count, d, sizeof d), p->idle_cores,
+               p->idle_cores == 1 ? "" : "s", sw_rat_text(a, sizeof a, p->own_period),
+               sw_rat_text(b, sizeof b, p->period));
+        sw_print_wrapped("note: ", l.buf, 6);
+    }
 }
 
 static void sw_text_table(const sw_report *r)
 {
     const pm_sweep *s = r->s;
-    char a[48], b[48], c[48], d[48];
-    printf("\n%5s %12s %12s %12s %12s %9s %8s %11s  %s\n", "P", "period", "lower bound",
-           "map floor", "iter. bound", "vs floor", "speedup", "efficiency", "limit");
-    for (uint32_t i = 0; i < s->npoints; i++) {
-        const pm_sweep_point *p = &s->points[i];
-        char sp[24] = "-", ef[24] = "-"; /* a zero period has no speedup */
-        if (isfinite(p->speedup)) {
-            snprintf(sp, sizeof sp, "%.2f", p->speedup);
-            snprintf(ef, sizeof ef, "%.1f%%", 100.0 * p->efficiency);
-        }
-        printf("%5u %11s%c %12s %12s %12s %9s %8s %11s  %s\n", p->procs,
-               sw_rat_text(a, sizeof a, p->period), p->steady ? ' ' : '~',
-               sw_rat_text(b, sizeof b, p->floors.lower_bound),
-               sw_rat_text(d, sizeof d, p->floors.map_floor),
-               p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-",
-               sw_gap_text(p), sp, ef, pm_sweep_limit_name(p->limit.kind));
-    }
+    const pm_sweep_point *p0 = &s->points[0];
+    char a[48];
+    putchar('\n');
+    sw_write_table(r, stdout, false);
     printf("vs floor: \"optimal\" when the steady period equals the proven map floor,"
            " else how far above it\n");
+    printf("speedup: period at P = %u (%s) / period; efficiency: speedup x %u / P\n",
+           p0->procs, sw_rat_text(a, sizeof a, p0->period), p0->procs);
+    printf("idle: cores the map leaves without a node\n");
     for (uint32_t i = 0; i < s->npoints; i++)
         if (!s->points[i].steady) {
             printf("~ no periodic regime within the iterations run: an average (use -n)\n");
             break;
         }
+    sw_text_reused(r);
 }
 
 /* ---- evidence ----------------------------------------------------------- */
+
+static void sw_hops(sw_line *l, const pm_graph *g, const pm_sweep_limit *m, const char *lead)
+{
+    for (uint32_t i = 0; i < m->nhops; i++) {
+        const pm_sweep_hop *h = &m->hops[i];
+        sw_add(l, "%s%s -> %s core %u>%u (%lld cycles%s)", i ? ", " : lead,
+               pm_graph_node_name(g, g->edges[h->edge].src),
+               pm_graph_node_name(g, g->edges[h->edge].dst), h->from_core, h->to_core,
+               (long long)h->cost, h->bus ? ", bus" : "");
+    }
+}
 
 static void sw_evidence_mapping(sw_line *l, const pm_graph *g, const pm_sweep_point *p)
 {
     const pm_sweep_limit *m = &p->limit;
     char a[48];
-    if (m->single_core != PM_NONE && m->nnodes == g->nnodes) {
-        sw_add(l, "the map puts all %u nodes on core %u: %lld cycles per iteration, "
-                  "above work / P = %s", g->nnodes, m->single_core, (long long)m->cycles,
-               sw_rat_text(a, sizeof a, p->floors.cores));
-        return;
-    }
-    if (m->single_core != PM_NONE) {
-        sw_add(l, "core %u carries ", m->single_core);
-        sw_node_list(l, g, m->nodes, m->nnodes, " ", false);
-        sw_add(l, ": %lld cycles per iteration, above work / P = %s (uneven split)",
-               (long long)m->cycles, sw_rat_text(a, sizeof a, p->floors.cores));
-        return;
-    }
-    sw_add(l, "a loop the map made: ");
+    sw_add(l, "a cycle the map made: ");
     sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
     sw_add(l, ", %lld cycles over %lld iteration%s%s", (long long)m->cycles, (long long)m->delays,
            m->delays == 1 ? "" : "s", m->exact ? "" : " (chain incomplete)");
-    for (uint32_t i = 0; i < m->nhops; i++) {
-        const pm_sweep_hop *h = &m->hops[i];
-        sw_add(l, "%s%s -> %s core %u>%u (%lld cycles%s)", i ? ", " : "; transfers ",
-               pm_graph_node_name(g, g->edges[h->edge].src),
-               pm_graph_node_name(g, g->edges[h->edge].dst), h->from_core, h->to_core,
-               (long long)h->cost, h->bus ? ", bus" : "");
-    }
+    sw_hops(l, g, m, "; transfers ");
     for (uint32_t i = 0; i < m->norders; i++)
         sw_add(l, "%score %u: %s then %s%s", i ? ", " : "; core order ", m->orders[i].core,
                pm_graph_node_name(g, m->orders[i].from), pm_graph_node_name(g, m->orders[i].to),
                m->orders[i].wraps ? " (next iteration)" : "");
     if (m->nbus_waits)
         sw_add(l, "; %u wait%s for the bus", m->nbus_waits, m->nbus_waits == 1 ? "" : "s");
+    sw_add(l, "; a better map could reach down to the map floor %s",
+           sw_rat_text(a, sizeof a, p->floors.map_floor));
+}
+
+static void sw_evidence_loop(sw_line *l, const pm_graph *g, const pm_sweep_limit *m)
+{
+    sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
+    sw_add(l, ": %lld cycles / %lld delay%s", (long long)m->cycles, (long long)m->delays,
+           m->delays == 1 ? "" : "s");
+    if (m->nhops == 0) {
+        sw_add(l, ", the iteration bound");
+        return;
+    }
+    int64_t moved = 0;
+    for (uint32_t i = 0; i < m->nhops; i++)
+        moved += m->hops[i].cost;
+    sw_add(l, ", of which %lld in the transfer%s the map put on it: ", (long long)moved,
+           m->nhops == 1 ? "" : "s");
+    sw_hops(l, g, m, "");
+}
+
+static void sw_evidence_cores(sw_line *l, const sw_report *r, const pm_sweep_point *p)
+{
+    char a[48];
+    const pm_sweep_limit *m = &p->limit;
+    sw_add(l, "core %u is busy %lld cycles per iteration: ", p->busiest_core,
+           (long long)p->busiest);
+    sw_node_list(l, r->g, m->nodes, m->nnodes, " ", false);
+    if (p->busiest > p->busiest_run)
+        sw_add(l, " (%lld) + send/recv %lld", (long long)p->busiest_run,
+               (long long)(p->busiest - p->busiest_run));
+    sw_add(l, "; work / P = %s", sw_rat_text(a, sizeof a, p->floors.cores));
 }
 
 static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
@@ -225,19 +253,18 @@ static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
     const pm_sweep_limit *m = &p->limit;
     switch (m->kind) {
     case PM_LIMIT_LOOP:
-        sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
-        sw_add(l, ": %lld cycles / %lld delay%s, the iteration bound", (long long)m->cycles,
-               (long long)m->delays, m->delays == 1 ? "" : "s");
+        sw_evidence_loop(l, g, m);
         break;
     case PM_LIMIT_NODE:
-        sw_add(l, "node %s takes %lld cycles; it runs whole on one core",
+        sw_add(l, "node %s takes %lld cycles on its core; it runs whole on one core",
                m->nnodes ? pm_graph_node_name(g, m->nodes[0]) : "?", (long long)m->cycles);
         break;
     case PM_LIMIT_CORES:
-        sw_add(l, "%lld cycles of work / %u core%s: every core is busy%s",
-               (long long)r->s->bound.total_cycles, p->procs, p->procs == 1 ? "" : "s",
-               p->floors.cores.den == 1 ? " all the time"
-                                        : ", as evenly as whole nodes allow");
+        sw_evidence_cores(l, r, p);
+        break;
+    case PM_LIMIT_BUS:
+        sw_add(l, "the bus carries %lld cycles of transfers per iteration (%u edges cross cores)",
+               (long long)p->bus_busy, p->cross_edges);
         break;
     case PM_LIMIT_MAPPING:
         sw_evidence_mapping(l, g, p);
@@ -248,7 +275,7 @@ static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
 static bool sw_same_limit(const pm_sweep_limit *a, const pm_sweep_limit *b)
 {
     if (a->kind != b->kind || a->nnodes != b->nnodes || a->cycles != b->cycles ||
-        a->kind == PM_LIMIT_CORES || a->nhops != b->nhops)
+        a->kind == PM_LIMIT_CORES || a->kind == PM_LIMIT_BUS || a->nhops != b->nhops)
         return false;
     return memcmp(a->nodes, b->nodes, a->nnodes * sizeof *a->nodes) == 0;
 }
@@ -318,7 +345,7 @@ static void sw_whatif_rows(const sw_report *r)
     bool ratio = w->kind != PM_LIMIT_NODE;
     snprintf(lb, sizeof lb, "lower bound at P = %u", p->procs);
     printf("  %-20s %8s %8s %16s %16s %22s\n", "node made faster", "cycles", "now",
-           w->kind == PM_LIMIT_LOOP ? "iteration bound" : ratio ? "period (map)" : "",
+           w->same_map ? "period (map)" : w->kind == PM_LIMIT_LOOP ? "iteration bound" : "",
            ratio ? "this loop alone" : "", lb);
     for (uint32_t i = 0; i < w->nrows; i++) {
         const pm_sweep_faster *row = &w->rows[i];
@@ -365,8 +392,9 @@ static void sw_whatif_next(const sw_report *r)
         break;
     }
     sw_add(&l, " at %s cycles per iteration", sw_rat_text(a, sizeof a, w->next_value));
-    sw_print_wrapped(w->kind == PM_LIMIT_MAPPING ? "  the floors (what a better map could reach): "
-                                                   : "  next bottleneck: ", l.buf, 6);
+    bool map = w->kind == PM_LIMIT_MAPPING || w->same_map;
+    sw_print_wrapped(map ? "  the floors (what a better map could reach): "
+                         : "  next bottleneck: ", l.buf, 6);
 }
 
 static void sw_text_whatif(const sw_report *r)
@@ -380,7 +408,7 @@ static void sw_text_whatif(const sw_report *r)
         printf("; each node %lld cycles faster in turn", (long long)w->faster);
     printf("):\n");
     sw_whatif_rows(r);
-    if (w->kind == PM_LIMIT_MAPPING)
+    if (w->same_map)
         printf("  (the same map, re-simulated; a different map may avoid the loop altogether)\n");
     if (w->kind == PM_LIMIT_CORES)
         printf("  %s\n", w->point + 1 < r->s->npoints
