@@ -1,5 +1,5 @@
 /*
- * cmd_sweep.c - `pacemap sweep FILE [-p A..B] [-n ITER] [--faster N]
+ * cmd_sweep.c - `pacemap sweep FILE [-p [CLASS=]A..B] [-n ITER] [--faster N]
  * [--map F] [--svg F] [--csv F] [--json] [--quiet]`: for each core count, schedule,
  * simulate and name the limit (pm_sweep_run); print the table, the
  * saturation point, the evidence per core count and the what-ifs; write
@@ -8,7 +8,8 @@
  *
  * Range: default 1..16, but never more cores than nodes (extra cores would
  * idle) and never fewer than the pins need.  A platform with named core
- * classes is analysed at its own core count only; -p is refused for it.
+ * classes is analysed at its own cores, or with -p CLASS=A..B at each
+ * count of one class, the other classes as declared.
  * With --map F the one core count of the map is analysed (a hand map).
  */
 #include "cli.h"
@@ -29,8 +30,13 @@
 #define SW_INDENT 16
 
 typedef struct sw_args {
+    const char *procs;       /* -p as written */
     uint32_t range[2];
     bool range_set, json, quiet, iterations_set, no_refine;
+    const char *class_name;  /* -p CLASS=A..B: the class, class_len bytes */
+    size_t class_len;
+    bool by_class;
+    uint32_t vary_class;
     uint32_t iterations, faster;
     const char *svg, *csv, *map;
 } sw_args;
@@ -114,11 +120,14 @@ static void sw_text_head(const sw_report *r, uint64_t iterations)
     const pm_sweep *s = r->s;
     char a[48];
     sw_line l = {{0}, 0};
-    sw_add(&l, "sweep of %s: %u nodes, %u edges, %s, P = %u..%u, %llu iterations per point",
+    sw_add(&l, "sweep of %s: %u nodes, %u edges, %s, %s = %u..%u, %llu iterations per point",
            r->file, g->nnodes, g->nedges,
            g->platform.interconnect == PM_BUS ? "shared bus" : "point-to-point links",
-           s->points[0].procs, s->points[s->npoints - 1].procs, (unsigned long long)iterations);
-    if (g->platform.classes_named)
+           s->vary_class == PM_NONE ? "P" : g->platform.class_names[s->vary_class],
+           s->points[0].count, s->points[s->npoints - 1].count, (unsigned long long)iterations);
+    if (s->vary_class != PM_NONE)
+        sw_add(&l, " (the other classes as declared)");
+    else if (g->platform.classes_named)
         sw_add(&l, " (core classes: the scenario's own cores only)");
     sw_print_wrapped("", l.buf, 2);
     l.len = 0;
@@ -244,7 +253,8 @@ static void sw_evidence_cores(sw_line *l, const sw_report *r, const pm_sweep_poi
     if (p->busiest > p->busiest_run)
         sw_add(l, " (%lld) + send/recv %lld", (long long)p->busiest_run,
                (long long)(p->busiest - p->busiest_run));
-    sw_add(l, "; work / P = %s", sw_rat_text(a, sizeof a, p->floors.cores));
+    sw_add(l, "; %s = %s", r->g->platform.nclasses > 1 ? "work floor" : "work / P",
+           sw_rat_text(a, sizeof a, p->floors.cores));
 }
 
 static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
@@ -302,15 +312,16 @@ static void sw_text_saturation(const sw_report *r)
 {
     const pm_sweep *s = r->s;
     const pm_sweep_point *p = &s->points[s->saturation];
-    char a[48];
+    char a[48], c[48];
     sw_line l = {{0}, 0};
+    sw_count_text(r, p->count, c, sizeof c);
     if (s->npoints == 1 && !s->saturation_reached) {
-        sw_add(&l, "one core count only (P = %u): nothing to compare", p->procs);
+        sw_add(&l, "one core count only (%s): nothing to compare", c);
     } else if (!s->saturation_reached) {
-        sw_add(&l, "the period still falls at P = %u (%s): more cores may help; "
-                   "widen the range with -p", p->procs, sw_rat_text(a, sizeof a, p->period));
+        sw_add(&l, "the period still falls at %s (%s): more cores may help; "
+                   "widen the range with -p", c, sw_rat_text(a, sizeof a, p->period));
     } else {
-        sw_add(&l, "from P = %u on the period stays at %s%s. Limit (%s): ", p->procs,
+        sw_add(&l, "from %s on the period stays at %s%s. Limit (%s): ", c,
                sw_rat_text(a, sizeof a, p->period),
                s->saturation_proven ? ", a floor no core count can move" : "",
                pm_sweep_limit_name(p->limit.kind));
@@ -457,35 +468,148 @@ static uint32_t sw_pinned_node(const pm_graph *g)
     return best;
 }
 
-/* Decide the range of core counts; a usage error prints and returns 2. */
-static int sw_range(const pm_graph *g, const char *file, sw_args *a)
+/* One count of -p: decimal digits, 1 .. SW_MAX_COUNT. */
+#define SW_MAX_COUNT 4096u
+static int sw_count(const char *opt, const char *s, size_t n, uint32_t *out)
 {
-    if (g->platform.classes_named) {
-        if (a->range_set) {
-            cli_usage_error("sweep: %s declares core classes; -p cannot change them "
-                            "(drop -p to analyse its own %u cores)", file, g->platform.ncores);
+    uint32_t v = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (s[i] < '0' || s[i] > '9' || v > SW_MAX_COUNT) {
+            cli_usage_error("sweep: -p %s: '%.*s' is not a core count", opt, (int)n, s);
             return CLI_EXIT_USAGE;
         }
-        a->range[0] = a->range[1] = g->platform.ncores;
-        return CLI_EXIT_OK;
+        v = v * 10 + (uint32_t)(s[i] - '0');
     }
-    uint32_t need = pm_sweep_min_procs(g), cap = g->nnodes > need ? g->nnodes : need;
-    if (!a->range_set) {
-        a->range[0] = need;
-        a->range[1] = SW_DEFAULT_TO < cap ? SW_DEFAULT_TO : cap;
-        if (a->range[1] < need)
-            a->range[1] = need;
-        return CLI_EXIT_OK;
+    if (v == 0 || v > SW_MAX_COUNT) {
+        cli_usage_error("sweep: -p %s: core counts go from 1 to %u", opt, SW_MAX_COUNT);
+        return CLI_EXIT_USAGE;
     }
+    *out = v;
+    return CLI_EXIT_OK;
+}
+
+/* -p [CLASS=]A..B or [CLASS=]N, before the scenario is read: the syntax
+ * and the range; the class is looked up by sw_class. */
+static int sw_parse_procs(sw_args *a)
+{
+    const char *opt = a->procs, *eq = strchr(opt, '='), *r = eq ? eq + 1 : opt;
+    if (eq && eq == opt) {
+        cli_usage_error("sweep: -p %s: no class name before '='", opt);
+        return CLI_EXIT_USAGE;
+    }
+    a->class_name = eq ? opt : NULL;
+    a->class_len = eq ? (size_t)(eq - opt) : 0;
+    const char *dots = strstr(r, "..");
+    if (*r == '\0') {
+        cli_usage_error("sweep: -p %s: the range is empty; write A..B (e.g. %s1..8) or one "
+                        "count", opt, eq ? "CLASS=" : "");
+        return CLI_EXIT_USAGE;
+    }
+    if (dots && (dots == r || dots[2] == '\0')) {
+        cli_usage_error("sweep: -p %s: the range needs both ends, A..B", opt);
+        return CLI_EXIT_USAGE;
+    }
+    size_t first = dots ? (size_t)(dots - r) : strlen(r);
+    int ex = sw_count(opt, r, first, &a->range[0]);
+    a->range[1] = a->range[0];
+    if (ex == CLI_EXIT_OK && dots)
+        ex = sw_count(opt, dots + 2, strlen(dots + 2), &a->range[1]);
+    if (ex == CLI_EXIT_OK && a->range[0] > a->range[1]) {
+        cli_usage_error("sweep: -p %s: the range is reversed (%u > %u); write %u..%u", opt,
+                        a->range[0], a->range[1], a->range[1], a->range[0]);
+        return CLI_EXIT_USAGE;
+    }
+    a->range_set = true;
+    return ex;
+}
+
+/* The class names joined, "dsp, host". */
+static void sw_class_list(const pm_graph *g, char *buf, size_t n)
+{
+    size_t k = 0;
+    buf[0] = '\0';
+    for (uint32_t c = 0; c < g->platform.nclasses && k < n; c++) {
+        int w = snprintf(buf + k, n - k, "%s%s", c ? ", " : "", g->platform.class_names[c]);
+        k += w > 0 ? (size_t)w : 0;
+    }
+}
+
+/* -p CLASS=...: the class exists on a platform with classes; plain -p on
+ * such a platform is refused, saying how to vary a class. */
+static int sw_class(const pm_graph *g, const char *file, sw_args *a)
+{
+    char list[256];
+    sw_class_list(g, list, sizeof list);
+    if (!a->class_name) {
+        if (!g->platform.classes_named)
+            return CLI_EXIT_OK;
+        cli_usage_error("sweep: -p %s: %s declares core classes (%s); vary one with "
+                        "-p CLASS=A..B, e.g. -p %s=1..4", a->procs, file, list,
+                        g->platform.class_names[0]);
+        return CLI_EXIT_USAGE;
+    }
+    if (!g->platform.classes_named) {
+        cli_usage_error("sweep: -p %s: %s has identical cores, no classes; use -p A..B",
+                        a->procs, file);
+        return CLI_EXIT_USAGE;
+    }
+    uint32_t k = pm_graph_find_class(g, a->class_name, a->class_len);
+    if (k == PM_NONE) {
+        uint32_t near = pm_graph_suggest_class(g, a->class_name, a->class_len);
+        if (near != PM_NONE)
+            cli_usage_error("sweep: -p %s: no core class '%.*s' in %s (did you mean '%s'?)",
+                            a->procs, (int)a->class_len, a->class_name, file,
+                            g->platform.class_names[near]);
+        else
+            cli_usage_error("sweep: -p %s: no core class '%.*s' in %s (classes: %s)", a->procs,
+                            (int)a->class_len, a->class_name, file, list);
+        return CLI_EXIT_USAGE;
+    }
+    a->by_class = true;
+    a->vary_class = k;
+    return CLI_EXIT_OK;
+}
+
+/* Smallest count of class k that its pinned nodes allow (1 without). */
+static uint32_t sw_class_need(const pm_graph *g, uint32_t k, uint32_t *node)
+{
+    uint32_t first = 0, need = 1;
+    *node = PM_NONE;
+    for (uint32_t c = 0; c < k; c++)
+        first += g->platform.class_count[c];
+    for (uint32_t v = 0; v < g->nnodes; v++) {
+        uint32_t pin = g->nodes[v].pin_core;
+        if (pin != PM_NONE && pin >= first && pin < first + g->platform.class_count[k] &&
+            pin - first + 1 > need) {
+            need = pin - first + 1;
+            *node = v;
+        }
+    }
+    return need;
+}
+
+/* The smallest count the pins allow, and the node that sets it. */
+static uint32_t sw_need(const pm_graph *g, const sw_args *a, uint32_t *node)
+{
+    if (a->by_class)
+        return sw_class_need(g, a->vary_class, node);
+    *node = sw_pinned_node(g);
+    return pm_sweep_min_procs(g);
+}
+
+/* Check -p against the scenario: at least what the pins need, not too
+ * many points, at most one core per node (with a warning). */
+static int sw_check_range(const pm_graph *g, const char *file, sw_args *a)
+{
+    uint32_t v, need = sw_need(g, a, &v), cap = g->nnodes > need ? g->nnodes : need;
     if (a->range[0] < need) {
-        uint32_t v = sw_pinned_node(g);
-        cli_usage_error("sweep: -p %u..%u: node '%s' is pinned to core %u; start at %u", a->range[0],
-                        a->range[1], pm_graph_node_name(g, v), g->nodes[v].pin_core, need);
+        cli_usage_error("sweep: -p %s: node '%s' is pinned to core %u; start at %u", a->procs,
+                        pm_graph_node_name(g, v), g->nodes[v].pin_core, need);
         return CLI_EXIT_USAGE;
     }
     if (a->range[1] - a->range[0] >= PM_SWEEP_MAX_POINTS) {
-        cli_usage_error("sweep: -p %u..%u: at most %d core counts per sweep", a->range[0],
-                        a->range[1], PM_SWEEP_MAX_POINTS);
+        cli_usage_error("sweep: -p %s: at most %d core counts per sweep", a->procs,
+                        PM_SWEEP_MAX_POINTS);
         return CLI_EXIT_USAGE;
     }
     if (a->range[1] > cap) {
@@ -498,10 +622,28 @@ static int sw_range(const pm_graph *g, const char *file, sw_args *a)
     return CLI_EXIT_OK;
 }
 
+/* Decide the range of core counts; a usage error prints and returns 2. */
+static int sw_range(const pm_graph *g, const char *file, sw_args *a)
+{
+    int ex = a->range_set ? sw_class(g, file, a) : CLI_EXIT_OK;
+    if (ex != CLI_EXIT_OK || a->range_set)
+        return ex == CLI_EXIT_OK ? sw_check_range(g, file, a) : ex;
+    if (g->platform.classes_named) {
+        a->range[0] = a->range[1] = g->platform.ncores;
+        return CLI_EXIT_OK;
+    }
+    uint32_t v, need = sw_need(g, a, &v), cap = g->nnodes > need ? g->nnodes : need;
+    a->range[0] = need;
+    a->range[1] = SW_DEFAULT_TO < cap ? SW_DEFAULT_TO : cap;
+    if (a->range[1] < need)
+        a->range[1] = need;
+    return CLI_EXIT_OK;
+}
+
 /* --map: the scenario at -p N (or its own cores) and the map for it. */
 static int sw_load_map(const char *file, sw_args *a, pm_plan *s, pm_map **m)
 {
-    if (a->range_set && a->range[0] != a->range[1]) {
+    if (a->range_set && (a->range[0] != a->range[1] || a->class_name)) {
         cli_usage_error("sweep: --map fixes the core count: give -p N or no -p");
         return CLI_EXIT_USAGE;
     }
@@ -532,7 +674,8 @@ static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
                        .iterations = iterations, .faster = a->faster,
-                       .refine = !a->no_refine, .map = m};
+                       .refine = !a->no_refine, .map = m, .by_class = a->by_class,
+                       .vary_class = a->vary_class};
     if (!a->quiet && isatty(STDERR_FILENO))
         o.progress = sw_progress;
     pm_sweep s;
@@ -554,10 +697,11 @@ static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map
 
 int pm_cmd_sweep(int argc, char **argv)
 {
-    sw_args a = {.range = {1, SW_DEFAULT_TO}};
+    sw_args a = {.range = {1, SW_DEFAULT_TO}, .vary_class = PM_NONE};
     const cli_opt opts[] = {
-        {"-p", "--procs", CLI_RANGE, a.range, &a.range_set,
-         "core counts to try (default 1..16, at most one core per node)", "A..B"},
+        {"-p", "--procs", CLI_STRING, &a.procs, NULL,
+         "core counts to try (default 1..16, at most one core per node); with core "
+         "classes, CLASS=A..B varies one class", "[CLASS=]A..B"},
         {"-n", "--iterations", CLI_U32, &a.iterations, &a.iterations_set,
          "iterations simulated per core count (default 1000)", "ITER"},
         {"--faster", NULL, CLI_U32, &a.faster, NULL,
@@ -573,7 +717,7 @@ int pm_cmd_sweep(int argc, char **argv)
         {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL, "no progress line on stderr", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
     const cli_cmd cmd = {"sweep",
-                         "FILE [-p A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
+                         "FILE [-p [CLASS=]A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
                          "For each core count: schedule, simulate, name what limits the period.",
                          opts};
     const char *file;
@@ -584,6 +728,8 @@ int pm_cmd_sweep(int argc, char **argv)
         cli_usage_error("sweep: -n must be at least 1");
         return CLI_EXIT_USAGE;
     }
+    if (a.procs && sw_parse_procs(&a) != CLI_EXIT_OK)
+        return CLI_EXIT_USAGE;
     pm_plan scn;
     pm_map *m = NULL;
     memset(&scn, 0, sizeof scn);
