@@ -120,6 +120,54 @@ awk 'length($0) > 100 { bad = 1 } END { exit bad }' "$dir/out.txt" || fail "line
 grep -q '^Caution' "$dir/out.txt" || fail "no caution"
 grep -q 'Saturation: from P = 4' "$dir/out.txt" || fail "no saturation line"
 
+# ---- the saturation sentence matches the table -----------------------------
+# The first P whose period no later row beats is where "from P = N on the
+# period stays at X" must point, with X that row's period.
+cat > "$dir/fork.pace" <<'EOF'
+# invented for this check: a 30-cycle branch beside six 10-cycle ones
+node split cycles=0
+node big cycles=30
+node s1 cycles=10
+node s2 cycles=10
+node s3 cycles=10
+node s4 cycles=10
+node s5 cycles=10
+node s6 cycles=10
+node join cycles=0
+edge split -> big -> join
+edge split -> s1 -> join
+edge split -> s2 -> join
+edge split -> s3 -> join
+edge split -> s4 -> join
+edge split -> s5 -> join
+edge split -> s6 -> join
+EOF
+for f in rec fork classes; do
+    extra=
+    [ "$f" = classes ] && extra="-p dsp=1..3"
+    "$bin" sweep "$dir/$f.pace" -n 100 $extra > "$dir/sat.txt" || fail "$f run"
+    awk -v f="$f" '
+        /^ +P +/ { table = 1; next }
+        table && /^ *[0-9]+ / { n++; key[n] = (f == "classes") ? $2 : $1;
+                                per[n] = (f == "classes") ? $3 : $2; next }
+        table { table = 0 }
+        /^Saturation: from / { line = $0 }
+        END {
+            sat = n
+            for (i = n - 1; i >= 1; i--) if (per[i] == per[sat]) sat = i; else break
+            if (n == 0 || line == "") { print "no table or no sentence"; exit 1 }
+            what = (f == "classes") ? "dsp = " key[sat] : "P = " key[sat]
+            want = "from " what " on the period stays at " per[sat]
+            if (index(line, want) == 0) { print "want: " want; print "got: " line; exit 1 }
+        }' "$dir/sat.txt" || fail "saturation sentence of $f does not match its table"
+    grep -q "efficiency: speedup x" "$dir/sat.txt" || fail "no efficiency base in $f"
+done
+grep -q 'eff. vs P=2' "$dir/sat.txt" || fail "efficiency column without its base"
+
+# CSV numbers in their shortest round-trip form
+"$bin" sweep "$dir/rec.pace" -p 2 -n 100 --csv "$dir/short.csv" > /dev/null || fail "csv 2"
+grep -q '^2,50,50/1,45,45/1,' "$dir/short.csv" || fail "csv shortest form: $(cat "$dir/short.csv")"
+
 # ---- progress on a terminal -------------------------------------------------
 if command -v script > /dev/null 2>&1; then
     script -qec "$bin sweep $dir/rec.pace -n 50 > /dev/null" /dev/null > "$dir/tty" 2>&1
@@ -145,7 +193,20 @@ expect 2 "$bin" sweep "$dir/pinned.pace" -p 1..3
 grep -q "node 'b' is pinned to core 1" "$dir/err" || fail "pin message: $(cat "$dir/err")"
 expect 2 "$bin" sweep "$dir/classes.pace" -p 1..2
 grep -q "core classes" "$dir/err" || fail "classes message"
+grep -q "dsp=1..4" "$dir/err" || fail "classes message without the way to vary one"
 expect 0 "$bin" sweep "$dir/classes.pace"
+expect 0 "$bin" sweep "$dir/classes.pace" -p host=1..2 -n 50
+expect 2 "$bin" sweep "$dir/classes.pace" -p dps=1..2
+grep -q "did you mean 'dsp'" "$dir/err" || fail "no suggestion: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p dsp=1..2
+grep -q "identical cores" "$dir/err" || fail "class on identical cores: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p 4..2
+grep -q "reversed (4 > 2); write 2..4" "$dir/err" || fail "reversed: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p ""
+grep -q "empty" "$dir/err" || fail "empty range: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p 2..
+grep -q "both ends" "$dir/err" || fail "half range: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/classes.pace" -p dsp=3..1
 expect 1 "$bin" sweep "$dir/missing.pace"
 expect 0 "$bin" sweep "$dir/rec.pace" -p 2..9 -n 50
 grep -q "warning: .*5 nodes" "$dir/err" || fail "no warning when capping at the node count"

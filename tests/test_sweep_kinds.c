@@ -266,15 +266,19 @@ static pm_graph *random_graph(uint64_t *seed)
     return load(text);
 }
 
+/* 100 graphs with the list scheduler's maps, then 20 with the period-first
+ * mapper's (maps with lags), on a small time budget. */
 static void test_never_grows(void **state)
 {
     (void)state;
     uint64_t seed = 2026;
     uint32_t reused = 0;
-    for (int i = 0; i < 100; i++) {
+    pm_plan_opts period_first = {.mapper = PM_PLAN_MAPPER_PERIOD, .mapper_ms = 20};
+    for (int i = 0; i < 120; i++) {
         pm_graph *g = random_graph(&seed);
         pm_sweep s;
-        pm_sweep_opts o = {.procs_from = 1, .procs_to = 4, .iterations = 60};
+        pm_sweep_opts o = {.procs_from = 1, .procs_to = 4, .iterations = 60,
+                           .plan = i < 100 ? NULL : &period_first};
         run(g, &o, &s);
         for (uint32_t j = 0; j < s.npoints; j++) {
             const pm_sweep_point *p = &s.points[j];

@@ -700,8 +700,8 @@ int pm_cmd_sweep(int argc, char **argv)
     sw_args a = {.range = {1, SW_DEFAULT_TO}, .vary_class = PM_NONE};
     const cli_opt opts[] = {
         {"-p", "--procs", CLI_STRING, &a.procs, NULL,
-         "core counts to try (default 1..16, at most one core per node); with core "
-         "classes, CLASS=A..B varies one class", "[CLASS=]A..B"},
+         "core counts (default 1..16); CLASS=A..B varies one class",
+         "[CLASS=]A..B"},
         {"-n", "--iterations", CLI_U32, &a.iterations, &a.iterations_set,
          "iterations simulated per core count (default 1000)", "ITER"},
         {"--faster", NULL, CLI_U32, &a.faster, NULL,
