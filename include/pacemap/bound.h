@@ -165,9 +165,12 @@ const char *pm_bound_floor_name(pm_floor_kind k);
 /* The fractional-assignment work floor alone (what pm_floors.cores holds
  * for a class platform): by LP duality, for any y >= 0 with
  * sum_k n_k y_k = 1, sum_v min_k y_k t_vk (k over the classes v may use,
- * pins respected) is a floor; this maximises it exactly for one or two
- * classes and, for more, evaluates exactly a y found by a numeric search
- * (a proven floor, possibly below the LP optimum).  `counts` gives n_k
+ * pins respected) is a floor; this finds the maximising y numerically
+ * (Kelley's cutting planes), fixes it exactly at the vertex of f where it
+ * lies and evaluates f there exactly: the LP optimum as an exact fraction,
+ * for any number of classes.  Should rounding mislead the search or the
+ * vertex's weights outgrow 62 bits, the value is f at the y found (still
+ * a proven floor, below the optimum).  `counts` gives n_k
  * (nclasses entries).  PM_EPLATFORM when a node may use no class with
  * cores; PM_ERANGE, PM_ENOMEM. */
 int pm_bound_work_floor(const pm_graph *g, const uint32_t *counts, pm_rat *out);
