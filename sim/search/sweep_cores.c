@@ -173,7 +173,8 @@ static bool sc_search_fits(const pm_graph *g)
     if (g->platform.nclasses != 1 || g->nnodes == 0 || g->nnodes > PM_MAPPER_EXACT_MAX_NODES)
         return false;
     for (uint32_t v = 0; v < g->nnodes; v++)
-        if (g->nodes[v].pin_core != PM_NONE || g->nodes[v].pin_class != PM_NONE)
+        if (g->nodes[v].pin_core != PM_NONE || g->nodes[v].pin_class != PM_NONE ||
+            g->nodes[v].cycles < 0)
             return false;
     return true;
 }

@@ -1,7 +1,8 @@
 /*
- * sweep_internal.h - what the pieces of the sweep share privately:
- * scheduling and simulating one core count, classifying a point's limit
- * (sweep_limit.c) and the what-ifs (sweep_whatif.c).  Not a public API.
+ * sweep_internal.h - what the pieces of the sweep share privately: the
+ * cores of a point, carrying maps onto more cores and the search floor
+ * (sweep_cores.c), classifying a point's limit (sweep_limit.c) and the
+ * what-ifs (sweep_whatif.c).  Not a public API.
  */
 #ifndef PACEMAP_SWEEP_INTERNAL_H
 #define PACEMAP_SWEEP_INTERNAL_H
