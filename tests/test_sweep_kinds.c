@@ -257,7 +257,8 @@ static pm_graph *random_graph(uint64_t *seed, bool loops)
     for (uint32_t v = 0; v < n; v++)
         k += snprintf(text + k, sizeof text - (size_t)k, "node v%u cycles=%u\n", v,
                       1 + tk_rand(seed, 30));
-    for (uint32_t i = 0; i < n + tk_rand(seed, n); i++) {
+    uint32_t edges = n + tk_rand(seed, n);
+    for (uint32_t i = 0; i < edges; i++) {
         uint32_t a = tk_rand(seed, n - 1), b = a + 1 + tk_rand(seed, n - 1 - a);
         if (tk_rand(seed, 5) == 0 && loops)
             k += snprintf(text + k, sizeof text - (size_t)k, "edge v%u -> v%u delay=1\n", b, a);

@@ -384,7 +384,9 @@ static void sw_plot_series(const sw_report *r, sw_plot_data *d)
     d->top[t++] = (pm_plot_series){"achieved period (simulated)", d->col[SW_PERIOD], true, 1};
     if (f->has_loop)
         d->top[t++] = (pm_plot_series){"iteration bound (loops)", d->col[SW_LOOP], false, 2};
-    d->top[t++] = (pm_plot_series){"total work / P", d->col[SW_CORES], false, 3};
+    d->top[t++] = (pm_plot_series){r->g->platform.nclasses > 1 ? "work floor (classes)"
+                                                               : "total work / P",
+                                   d->col[SW_CORES], false, 3};
     d->top[t++] = (pm_plot_series){"largest node", d->col[SW_NODE], false, 4};
     if (f->has_budget)
         d->top[t++] = (pm_plot_series){"budget (clock / rate)", d->col[SW_BUDGET], false, 5};
