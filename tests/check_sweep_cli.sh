@@ -164,6 +164,57 @@ for f in rec fork classes; do
 done
 grep -q 'eff. vs P=2' "$dir/sat.txt" || fail "efficiency column without its base"
 
+# ---- the period never grows; reused maps are reported ------------------------
+# An invented random graph on which a smaller core count's map may do better
+# than the one found for more cores: wherever a point runs another count's
+# map, its own was worse, the extra cores idle, and the text has a note.
+cat > "$dir/rnd.pace" <<'EOF'
+# invented for this check: a random graph with two loops
+comm latency=16 send=1 recv=1
+node v0 cycles=9
+node v1 cycles=1
+node v2 cycles=8
+node v3 cycles=15
+node v4 cycles=23
+node v5 cycles=7
+node v6 cycles=12
+node v7 cycles=12
+node v8 cycles=3
+node v9 cycles=26
+node v10 cycles=6
+edge v7 -> v10 -> v8
+edge v8 -> v7 delay=1
+edge v10 -> v8 delay=1
+edge v6 -> v9 -> v10
+edge v0 -> v7
+edge v2 -> v7
+edge v1 -> v9
+edge v2 -> v4
+edge v3 -> v4
+edge v2 -> v9
+EOF
+"$bin" sweep "$dir/rnd.pace" -p 1..5 -n 60 --no-refine --json > "$dir/rnd.json" || fail "rnd json"
+"$bin" sweep "$dir/rnd.pace" -p 1..5 -n 60 --no-refine > "$dir/rnd.txt" || fail "rnd text"
+$py - "$dir/rnd.json" "$dir/rnd.txt" <<'PY' || fail "reused maps"
+import json, sys
+from fractions import Fraction as F
+d = json.load(open(sys.argv[1]))
+text = open(sys.argv[2]).read()
+rat = lambda r: F(r["num"], r["den"])
+pts = d["points"]
+for a, b in zip(pts, pts[1:]):
+    assert rat(b["period"]) <= rat(a["period"]), (a["procs"], b["procs"])
+for p in pts:
+    if p["map_made_for"] < p["procs"]:
+        assert rat(p["own_map_period"]) > rat(p["period"]), p
+        assert p["idle_cores"] >= p["procs"] - p["map_made_for"], p
+        note = "note: P = %d runs the map made for P = %d" % (p["procs"], p["map_made_for"])
+        assert note in text, note
+    else:
+        assert p["own_map_period"] == p["period"], p
+assert d["efficiency_base_procs"] == 1
+PY
+
 # CSV numbers in their shortest round-trip form
 "$bin" sweep "$dir/rec.pace" -p 2 -n 100 --csv "$dir/short.csv" > /dev/null || fail "csv 2"
 grep -q '^2,50,50/1,45,45/1,' "$dir/short.csv" || fail "csv shortest form: $(cat "$dir/short.csv")"
