@@ -54,7 +54,7 @@ for p in pts:
         assert k in p, k
     for r in (p["period"], p["lower_bound"]):
         assert set(r) >= {"num", "den", "value"}, r
-    assert p["limit"]["kind"] in ("loop", "mapping", "cores", "node")
+    assert p["limit"]["kind"] in ("loop", "mapping", "cores", "node", "bus")
     assert isinstance(p["limit"]["nodes"], list)
 per = [(p["period"]["num"], p["period"]["den"]) for p in pts]
 assert per == [(90, 1), (50, 1), (40, 1), (30, 1), (30, 1)], per
@@ -73,7 +73,7 @@ import json, sys
 d = json.load(open(sys.argv[1]))
 for p in d["points"]:
     lim = p["limit"]
-    assert lim["kind"] == "mapping", lim
+    assert lim["kind"] == "loop", lim  # the loop through the two transfers
     hops = {(t["from"], t["to"]) for t in lim["transfers"]}
     assert hops == {("a", "b"), ("b", "a")}, hops
 PY
@@ -88,7 +88,7 @@ import json, sys
 d = json.load(open(sys.argv[1]))
 assert [p["procs"] for p in d["points"]] == [2]
 lim = d["points"][0]["limit"]
-assert lim["kind"] == "mapping" and len(lim["transfers"]) == 2, lim
+assert lim["kind"] == "loop" and len(lim["transfers"]) == 2, lim
 assert d["points"][0]["period"]["num"] == 50
 PY
 
@@ -120,6 +120,105 @@ awk 'length($0) > 100 { bad = 1 } END { exit bad }' "$dir/out.txt" || fail "line
 grep -q '^Caution' "$dir/out.txt" || fail "no caution"
 grep -q 'Saturation: from P = 4' "$dir/out.txt" || fail "no saturation line"
 
+# ---- the saturation sentence matches the table -----------------------------
+# The first P whose period no later row beats is where "from P = N on the
+# period stays at X" must point, with X that row's period.
+cat > "$dir/fork.pace" <<'EOF'
+# invented for this check: a 30-cycle branch beside six 10-cycle ones
+node split cycles=0
+node big cycles=30
+node s1 cycles=10
+node s2 cycles=10
+node s3 cycles=10
+node s4 cycles=10
+node s5 cycles=10
+node s6 cycles=10
+node join cycles=0
+edge split -> big -> join
+edge split -> s1 -> join
+edge split -> s2 -> join
+edge split -> s3 -> join
+edge split -> s4 -> join
+edge split -> s5 -> join
+edge split -> s6 -> join
+EOF
+for f in rec fork classes; do
+    extra=
+    [ "$f" = classes ] && extra="-p dsp=1..3"
+    "$bin" sweep "$dir/$f.pace" -n 100 $extra > "$dir/sat.txt" || fail "$f run"
+    awk -v f="$f" '
+        /^ +P +/ { table = 1; next }
+        table && /^ *[0-9]+ / { n++; key[n] = (f == "classes") ? $2 : $1;
+                                per[n] = (f == "classes") ? $3 : $2; next }
+        table { table = 0 }
+        /^Saturation: from / { line = $0 }
+        END {
+            sat = n
+            for (i = n - 1; i >= 1; i--) if (per[i] == per[sat]) sat = i; else break
+            if (n == 0 || line == "") { print "no table or no sentence"; exit 1 }
+            what = (f == "classes") ? "dsp = " key[sat] : "P = " key[sat]
+            want = "from " what " on the period stays at " per[sat]
+            if (index(line, want) == 0) { print "want: " want; print "got: " line; exit 1 }
+        }' "$dir/sat.txt" || fail "saturation sentence of $f does not match its table"
+    grep -q "efficiency: speedup x" "$dir/sat.txt" || fail "no efficiency base in $f"
+done
+grep -q 'eff. vs P=2' "$dir/sat.txt" || fail "efficiency column without its base"
+
+# ---- the period never grows; reused maps are reported ------------------------
+# An invented random graph on which a smaller core count's map may do better
+# than the one found for more cores: wherever a point runs another count's
+# map, its own was worse, the extra cores idle, and the text has a note.
+cat > "$dir/rnd.pace" <<'EOF'
+# invented for this check: a random graph with two loops
+comm latency=16 send=1 recv=1
+node v0 cycles=9
+node v1 cycles=1
+node v2 cycles=8
+node v3 cycles=15
+node v4 cycles=23
+node v5 cycles=7
+node v6 cycles=12
+node v7 cycles=12
+node v8 cycles=3
+node v9 cycles=26
+node v10 cycles=6
+edge v7 -> v10 -> v8
+edge v8 -> v7 delay=1
+edge v10 -> v8 delay=1
+edge v6 -> v9 -> v10
+edge v0 -> v7
+edge v2 -> v7
+edge v1 -> v9
+edge v2 -> v4
+edge v3 -> v4
+edge v2 -> v9
+EOF
+"$bin" sweep "$dir/rnd.pace" -p 1..5 -n 60 --no-refine --json > "$dir/rnd.json" || fail "rnd json"
+"$bin" sweep "$dir/rnd.pace" -p 1..5 -n 60 --no-refine > "$dir/rnd.txt" || fail "rnd text"
+$py - "$dir/rnd.json" "$dir/rnd.txt" <<'PY' || fail "reused maps"
+import json, sys
+from fractions import Fraction as F
+d = json.load(open(sys.argv[1]))
+text = open(sys.argv[2]).read()
+rat = lambda r: F(r["num"], r["den"])
+pts = d["points"]
+for a, b in zip(pts, pts[1:]):
+    assert rat(b["period"]) <= rat(a["period"]), (a["procs"], b["procs"])
+for p in pts:
+    if p["map_made_for"] < p["procs"]:
+        assert rat(p["own_map_period"]) > rat(p["period"]), p
+        assert p["idle_cores"] >= p["procs"] - p["map_made_for"], p
+        note = "note: P = %d runs the map made for P = %d" % (p["procs"], p["map_made_for"])
+        assert note in text, note
+    else:
+        assert p["own_map_period"] == p["period"], p
+assert d["efficiency_base_procs"] == 1
+PY
+
+# CSV numbers in their shortest round-trip form
+"$bin" sweep "$dir/rec.pace" -p 2 -n 100 --csv "$dir/short.csv" > /dev/null || fail "csv 2"
+grep -q '^2,50,50/1,45,45/1,' "$dir/short.csv" || fail "csv shortest form: $(cat "$dir/short.csv")"
+
 # ---- progress on a terminal -------------------------------------------------
 if command -v script > /dev/null 2>&1; then
     script -qec "$bin sweep $dir/rec.pace -n 50 > /dev/null" /dev/null > "$dir/tty" 2>&1
@@ -145,7 +244,20 @@ expect 2 "$bin" sweep "$dir/pinned.pace" -p 1..3
 grep -q "node 'b' is pinned to core 1" "$dir/err" || fail "pin message: $(cat "$dir/err")"
 expect 2 "$bin" sweep "$dir/classes.pace" -p 1..2
 grep -q "core classes" "$dir/err" || fail "classes message"
+grep -q "dsp=1..4" "$dir/err" || fail "classes message without the way to vary one"
 expect 0 "$bin" sweep "$dir/classes.pace"
+expect 0 "$bin" sweep "$dir/classes.pace" -p host=1..2 -n 50
+expect 2 "$bin" sweep "$dir/classes.pace" -p dps=1..2
+grep -q "did you mean 'dsp'" "$dir/err" || fail "no suggestion: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p dsp=1..2
+grep -q "identical cores" "$dir/err" || fail "class on identical cores: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p 4..2
+grep -q "reversed (4 > 2); write 2..4" "$dir/err" || fail "reversed: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p ""
+grep -q "empty" "$dir/err" || fail "empty range: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" -p 2..
+grep -q "both ends" "$dir/err" || fail "half range: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/classes.pace" -p dsp=3..1
 expect 1 "$bin" sweep "$dir/missing.pace"
 expect 0 "$bin" sweep "$dir/rec.pace" -p 2..9 -n 50
 grep -q "warning: .*5 nodes" "$dir/err" || fail "no warning when capping at the node count"

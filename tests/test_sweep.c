@@ -185,15 +185,20 @@ static void test_recursive_loop(void **state)
     expect_period(&s, 4, 30, 1);
     expect_period(&s, 5, 30, 1);
     assert_int_equal(point(&s, 1)->limit.kind, PM_LIMIT_CORES);
-    /* P=2, 3: above every floor - the map's core loads are uneven */
-    assert_int_equal(point(&s, 2)->limit.kind, PM_LIMIT_MAPPING);
-    assert_int_equal(point(&s, 3)->limit.kind, PM_LIMIT_MAPPING);
-    /* ... made of core-order links only: one core carries the period */
+    /* P=2, 3: above the lower bound, but no map does better (see above):
+     * the busiest core carries the period, 50 and 40 cycles of nodes (one
+     * core, no transfers) */
     for (uint32_t p = 2; p <= 3; p++) {
-        assert_int_equal(point(&s, p)->limit.nhops, 0);
-        assert_true(point(&s, p)->limit.norders > 0);
-        assert_true(point(&s, p)->limit.single_core != PM_NONE);
-        assert_int_equal(point(&s, p)->limit.cycles, p == 2 ? 50 : 40);
+        const pm_sweep_point *pt = point(&s, p);
+        assert_int_equal(pt->limit.kind, PM_LIMIT_CORES);
+        assert_int_equal(pt->limit.cycles, p == 2 ? 50 : 40);
+        assert_int_equal(pt->busiest, p == 2 ? 50 : 40);
+        assert_int_equal(pt->busiest_run, pt->busiest);
+        assert_int_equal(pt->limit.single_core, pt->busiest_core);
+        int64_t sum = 0;
+        for (uint32_t i = 0; i < pt->limit.nnodes; i++)
+            sum += g->nodes[pt->limit.nodes[i]].cycles;
+        assert_int_equal(sum, p == 2 ? 50 : 40);
     }
     for (uint32_t p = 4; p <= 5; p++) {
         const pm_sweep_limit *l = &point(&s, p)->limit;
@@ -278,7 +283,9 @@ static void test_mapping_loop(void **state)
     for (uint32_t p = 2; p <= 3; p++) {
         expect_period(&s, p, 50, 1);
         const pm_sweep_limit *l = &point(&s, p)->limit;
-        assert_int_equal(l->kind, PM_LIMIT_MAPPING);
+        /* a loop of the graph with the two transfers the pins put on it */
+        assert_int_equal(l->kind, PM_LIMIT_LOOP);
+        assert_int_equal(l->nedges, 2);
         assert_int_equal(l->nhops, 2);
         assert_true(has_hop(g, l, "a", "b", 0, 1));
         assert_true(has_hop(g, l, "b", "a", 1, 0));
@@ -294,7 +301,8 @@ static void test_mapping_loop(void **state)
     /* what-if: either node 10 cycles faster -> 10 + 5 + 20 + 5 = 40 on the
      * same map; the floor at 2 cores becomes the loop 30 */
     const pm_sweep_whatif *w = &s.whatif;
-    assert_int_equal(w->kind, PM_LIMIT_MAPPING);
+    assert_int_equal(w->kind, PM_LIMIT_LOOP);
+    assert_true(w->same_map);
     assert_int_equal(w->nrows, 2);
     for (uint32_t i = 0; i < 2; i++) {
         assert_int_equal(w->rows[i].after.num, 40);
@@ -302,7 +310,9 @@ static void test_mapping_loop(void **state)
         assert_int_equal(w->rows[i].loop_alone.num, 40);
         assert_int_equal(w->rows[i].floor_after.num, 30);
     }
-    assert_false(w->has_delay);
+    /* one more delay on the loop: its own ratio 50 / 2 = 25 */
+    assert_true(w->has_delay);
+    assert_int_equal(w->delay_loop_alone.num, 25);
     /* next: the lower bound, the graph's loop a -> b at 40 */
     assert_int_equal(w->next_kind, PM_LIMIT_LOOP);
     assert_int_equal(w->next_value.num, 40);
@@ -324,7 +334,7 @@ static void test_mapping_loop_bus(void **state)
      * 20 + 5 + 20 + 5 = 50 */
     expect_period(&s, 2, 50, 1);
     const pm_sweep_limit *l = &s.points[0].limit;
-    assert_int_equal(l->kind, PM_LIMIT_MAPPING);
+    assert_int_equal(l->kind, PM_LIMIT_LOOP);
     assert_int_equal(l->nhops, 2);
     assert_true(has_hop(g, l, "a", "b", 0, 1));
     assert_true(has_hop(g, l, "b", "a", 1, 0));
@@ -353,14 +363,15 @@ static void test_hand_map(void **state)
     assert_int_equal(sweep(g, &o, &s, &d), PM_OK);
     expect_period(&s, 3, 50, 1);
     const pm_sweep_limit *l = &s.points[0].limit;
-    assert_int_equal(l->kind, PM_LIMIT_MAPPING);
+    assert_int_equal(l->kind, PM_LIMIT_LOOP); /* the graph's loop through two transfers */
     assert_int_equal(l->cycles, 50);
     assert_int_equal(l->nhops, 2);
     for (uint32_t i = 0; i < 2; i++)
         assert_int_equal(l->hops[i].cost, 10);
     /* what-if on the same map: mul 20 -> 10 gives 40, still above the
      * core 1 load 30 and the bound */
-    assert_int_equal(s.whatif.kind, PM_LIMIT_MAPPING);
+    assert_int_equal(s.whatif.kind, PM_LIMIT_LOOP);
+    assert_true(s.whatif.same_map);
     bool seen = false;
     for (uint32_t i = 0; i < s.whatif.nrows; i++)
         if (strcmp(name(g, s.whatif.rows[i].node), "mul") == 0) {

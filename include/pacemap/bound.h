@@ -114,7 +114,10 @@ typedef enum pm_floor_kind {
     PM_FLOOR_NODE,     /* the largest node */
     PM_FLOOR_PACKING,  /* whole nodes on P cores (pigeonhole), map floor only */
     PM_FLOOR_PINNED,   /* the nodes pinned to one core, map floor only */
-    PM_FLOOR_BUS       /* transfers pins force onto the bus, map floor only */
+    PM_FLOOR_BUS,      /* transfers pins force onto the bus, map floor only */
+    PM_FLOOR_SEARCH    /* the smallest busiest-core occupancy of any map, proven
+                          by an exhaustive search (map floor only; set by the
+                          callers that run the search, e.g. the sweep) */
 } pm_floor_kind;
 
 typedef struct pm_floors {
@@ -155,15 +158,19 @@ typedef struct pm_floors {
 int pm_bound_floors(const pm_graph *g, const pm_bound *b, uint32_t procs,
                       pm_floors *out);
 
-/* Name of a floor kind: "loop", "cores", "node", "packing", "pinned", "bus". */
+/* Name of a floor kind: "loop", "cores", "node", "packing", "pinned", "bus",
+ * "search". */
 const char *pm_bound_floor_name(pm_floor_kind k);
 
 /* The fractional-assignment work floor alone (what pm_floors.cores holds
  * for a class platform): by LP duality, for any y >= 0 with
  * sum_k n_k y_k = 1, sum_v min_k y_k t_vk (k over the classes v may use,
- * pins respected) is a floor; this maximises it exactly for one or two
- * classes and, for more, evaluates exactly a y found by a numeric search
- * (a proven floor, possibly below the LP optimum).  `counts` gives n_k
+ * pins respected) is a floor; this finds the maximising y numerically
+ * (Kelley's cutting planes), fixes it exactly at the vertex of f where it
+ * lies and evaluates f there exactly: the LP optimum as an exact fraction,
+ * for any number of classes.  Should rounding mislead the search or the
+ * vertex's weights outgrow 62 bits, the value is f at the y found (still
+ * a proven floor, below the optimum).  `counts` gives n_k
  * (nclasses entries).  PM_EPLATFORM when a node may use no class with
  * cores; PM_ERANGE, PM_ENOMEM. */
 int pm_bound_work_floor(const pm_graph *g, const uint32_t *counts, pm_rat *out);

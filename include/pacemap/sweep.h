@@ -1,42 +1,43 @@
 /*
- * sweep.h - how far more cores help: for each core count P of a range, map
- * the plan (pm_plan_map: the list schedule, every firing of a multirate
- * node on one core, and the refinement when asked), simulate the map
- * self-timed (pm_sim_run), compare the achieved period with the floors (pm_floors) and
- * name what limits it, with evidence and what-if numbers.
+ * sweep.h - how far more cores help: for each core count P of a range (or
+ * each count of one core class, the others kept), map the plan
+ * (pm_plan_map, whichever mapper its options choose), simulate the map
+ * self-timed (pm_sim_run), compare the achieved period with the floors
+ * (pm_bound_floors) and name what limits it, with evidence and what-if
+ * numbers.
  *
- * The limit of one point, in the trade's words (docs/sweep.md states the
- * rule; T is the achieved period, L the iteration bound, N the largest
- * node, W/P the total work spread over P cores):
- *   loop     T == L: a loop of the graph sets the period; no core count or
- *            mapping does better.  Evidence: the loop (nodes, cycles,
- *            delays) - the simulator's critical chain when that chain is a
- *            loop of the graph on one core, else the bound's critical loop.
- *   node     T == N (and not L): the largest node; more cores cannot help.
- *   cores    T == W/P, or T == ceil(W/P) (a map puts whole nodes of whole
- *            cycles on each core, so some core carries at least that):
- *            every core is full, as far as whole nodes allow.
- *   mapping  T above every floor: the map made a loop of its own.  Evidence:
- *            the simulator's critical chain, a cycle of the inter-processor
- *            communication graph (Sriram & Bhattacharyya, "Embedded
- *            Multiprocessors: Scheduling and Synchronization", 2000): its
- *            nodes, cross-core transfers and core-order links.
- * Ties go to loop, then node, then cores (the floors that more cores cannot
- * move are named first), as pm_bound_floors picks its binding floor.
+ * The period never grows with P: a map for fewer cores is a map for more
+ * (the extra cores idle, the period is the same), so when a smaller count's
+ * map had a lower period than the map found for P, that map runs at P
+ * (pm_sweep_point.map_count says whose map it is).
+ *
+ * The limit of one point (docs/sweep.md states the rule): each kind is a
+ * quantity the map's period T can never be below, named when T equals it
+ * exactly, in this order (ties go to the first):
+ *   loop     the iteration bound, or a loop of the graph counting the
+ *            transfers the map put on it (the simulator's critical chain,
+ *            a cycle of the inter-processor communication graph: Sriram &
+ *            Bhattacharyya, "Embedded Multiprocessors: Scheduling and
+ *            Synchronization", 2000, made of that loop's data edges only);
+ *   node     the largest node at its time on its core's class;
+ *   cores    the busiest core's occupancy: recv + run + send per iteration;
+ *   bus      the bus's occupancy: the transfers of one iteration;
+ *   mapping  none of these: a cycle of core orders and transfers the map
+ *            made; its gap to map_floor says how far a better map might go.
  *
  * What-ifs explain the saturation point (the smallest P from which the
  * period no longer improves): for a loop, the iteration bound recomputed
  * exactly (pm_bound_compute on a modified copy of the graph) with each node
  * of the loop made faster, and with one more delay on the loop; for a
- * mapping loop, the same map re-simulated with each node of the loop made
- * faster; for the largest node, the floors with it faster.  Plus the next
- * bottleneck behind the limit, with its value.
+ * mapping or a loop through transfers, the same map re-simulated with each
+ * node of the loop made faster; for the largest node, the floors with it
+ * faster.  Plus the next bottleneck behind the limit, with its value.
  *
- * Ownership: a pm_sweep owns every array in it; free with pm_sweep_free()
- * (safe on a zeroed or already freed result).  Node and edge ids index the
- * plan's graph (for a multirate scenario its expansion).  Not thread-safe
- * on the plan: the sweep changes its core count while it runs (and
- * restores it).
+ * Ownership: a pm_sweep owns every array and map in it; free with
+ * pm_sweep_free() (safe on a zeroed or already freed result).  Node and
+ * edge ids index the plan's graph (for a multirate scenario its
+ * expansion).  Not thread-safe on the plan: the sweep changes its cores
+ * while it runs (and restores them).
  */
 #ifndef PACEMAP_SWEEP_H
 #define PACEMAP_SWEEP_H
@@ -60,10 +61,12 @@
 #define PM_SWEEP_DEFAULT_FASTER 10
 
 typedef enum pm_limit_kind {
-    PM_LIMIT_LOOP = 0, /* a loop of the graph */
-    PM_LIMIT_MAPPING,  /* a loop the map made (transfers, core order) */
-    PM_LIMIT_CORES,    /* total work / P */
-    PM_LIMIT_NODE      /* the largest node */
+    PM_LIMIT_LOOP = 0, /* a loop of the graph, with the transfers the map put on it */
+    PM_LIMIT_MAPPING,  /* the map itself: a cycle of core orders and transfers,
+                          above every other kind (gap to map_floor) */
+    PM_LIMIT_CORES,    /* the busiest core's occupancy: work + send/recv */
+    PM_LIMIT_NODE,     /* the largest node, at its time on its core's class */
+    PM_LIMIT_BUS       /* the bus's occupancy: every transfer of one iteration */
 } pm_limit_kind;
 
 /* A cross-core transfer on a limiting loop. */
@@ -105,14 +108,30 @@ typedef struct pm_sweep_limit {
 } pm_sweep_limit;
 
 typedef struct pm_sweep_point {
-    uint32_t procs;
+    uint32_t procs;         /* all cores of the point */
+    uint32_t count;         /* the count swept: procs, or the varied class's cores */
     pm_rat period;          /* achieved (exact when steady) */
     bool steady;            /* the simulation reached its periodic regime */
-    pm_floors floors;       /* loop, node, cores and lower_bound for this P */
+    pm_floors floors;       /* loop, node, cores, lower_bound and map_floor here */
+    bool floor_searched;    /* map_floor raised to the proven smallest busiest-core
+                               occupancy of any map (exhaustive search) */
     double speedup;         /* period of the first point / this period (NAN if 0) */
     double efficiency;      /* speedup * first procs / procs */
     int64_t latency;        /* steady latency of one iteration, cycles */
     uint32_t cross_edges;   /* edges of the map between cores */
+    /* The map simulated: this count's own, or an earlier (smaller) count's
+     * when that one had a lower period (the extra cores then idle). */
+    pm_map *map;            /* owned */
+    uint32_t map_count;     /* the count whose map it is (== count when its own) */
+    pm_rat own_period;      /* the period of this count's own map */
+    uint32_t idle_cores;    /* cores the map leaves without a node */
+    /* What the map puts on its cores, per iteration (the simulator's counts). */
+    int64_t busiest;        /* occupancy of the busiest core: recv + run + send */
+    uint32_t busiest_core;
+    int64_t busiest_run;    /* of which node cycles */
+    uint32_t largest;       /* the node with the largest time on its core's class */
+    int64_t largest_cycles;
+    int64_t bus_busy;       /* bus cycles per iteration (0 without a bus) */
     pm_sweep_limit limit;
 } pm_sweep_point;
 
@@ -121,8 +140,8 @@ typedef struct pm_sweep_faster {
     uint32_t node;
     int64_t cycles, new_cycles; /* smallest cycles before and after (>= 0) */
     pm_rat loop_alone;          /* the binding loop's own ratio after (loop/mapping) */
-    pm_rat after;               /* loop: new iteration bound; mapping: new period of
-                                   the same map; node: new lower bound */
+    pm_rat after;               /* same_map: new period of the same map; loop: new
+                                   iteration bound; node: new lower bound */
     pm_rat floor_after;         /* the lower bound at that P after the change */
 } pm_sweep_faster;
 
@@ -131,6 +150,9 @@ typedef struct pm_sweep_whatif {
     uint32_t point;             /* index of the point explained (the saturation) */
     pm_limit_kind kind;         /* that point's limit */
     int64_t faster;             /* cycles taken off one node at a time */
+    bool same_map;              /* rows' `after` is the period of the point's map
+                                   re-simulated (a mapping, or a loop through
+                                   transfers); else a floor recomputed */
     pm_sweep_faster *rows;
     uint32_t nrows;
     /* loop: one more delay on the loop edge where it helps most */
@@ -151,6 +173,7 @@ typedef struct pm_sweep_whatif {
 } pm_sweep_whatif;
 
 typedef struct pm_sweep {
+    uint32_t vary_class;        /* the class whose count is swept, or PM_NONE */
     uint32_t npoints;
     pm_sweep_point *points;     /* procs from .. to, ascending */
     pm_bound bound;             /* iteration bound, critical loops, parts */
@@ -166,6 +189,12 @@ typedef void (*pm_sweep_progress)(void *ctx, uint32_t procs, uint32_t done, uint
 
 typedef struct pm_sweep_opts {
     uint32_t procs_from, procs_to; /* 1 <= from <= to; to - from < PM_SWEEP_MAX_POINTS */
+    bool by_class;                 /* false: from..to count identical cores (a platform
+                                      with core classes: only its own cores) */
+    uint32_t vary_class;           /* by_class: from..to count the cores of this class
+                                      (a class index), the others keep theirs */
+    const pm_plan_opts *plan;      /* NULL: {sched, refine} below; else the mapper
+                                      options as given (sched and refine unused) */
     uint64_t iterations;           /* simulated per point; 0 = simulator default */
     int64_t faster;                /* what-if cycles; 0 = PM_SWEEP_DEFAULT_FASTER */
     const pm_sched_opts *sched;    /* NULL = scheduler defaults */
@@ -180,29 +209,37 @@ typedef struct pm_sweep_opts {
 
 /*
  * Sweep the plan (pm_plan_init: a single-rate scenario or the expansion of
- * a multirate one) over opts->procs_from .. opts->procs_to identical cores.
- * Each point's map is pm_plan_map's with opts->sched and opts->refine, so
- * a multirate node keeps all its firings on one core.  A platform with
- * named core classes sweeps only its own core count (from == to == its
- * ncores, else PM_EPLATFORM).  The core count of both graphs of the plan
- * is set for each point with pm_plan_set_procs and restored before
- * returning.  With opts->map, the one point uses that map instead of
- * pm_plan_map (PM_EINVAL unless from == to == map->ncores; PM_EMAP if it
- * does not fit).
+ * a multirate one) over opts->procs_from .. opts->procs_to identical cores,
+ * or with opts->by_class over those counts of class opts->vary_class, the
+ * other classes as declared (cores stay numbered in the order the classes
+ * are written).  Each point's map is pm_plan_map's with opts->plan (or
+ * {opts->sched, opts->refine}), so a multirate node keeps all its firings
+ * on one core; or an earlier point's map on these cores when that one's
+ * period was lower.  A platform with named core classes and no by_class
+ * sweeps only its own cores (from == to == its ncores, else PM_EPLATFORM).
+ * The cores of both graphs of the plan are set for each point and restored
+ * before returning.  With opts->map, the one point uses that map instead of
+ * pm_plan_map (PM_EINVAL unless from == to == map->ncores and not
+ * by_class; PM_EMAP if it does not fit).  On small graphs of identical
+ * cores without pins, an exhaustive search may raise each point's
+ * map_floor (PM_FLOOR_SEARCH, docs/methods.md).
  * Errors: PM_EINVAL (NULL plan, bad options, empty graph), PM_ELIMIT (too
- * many points), PM_EPLATFORM (a pin beyond some P, classes; diag says
- * which), and any error of pm_bound_compute, pm_plan_map and pm_sim_run
- * (PM_EZERODELAY, PM_EDEADLOCK, ...), diag naming the core count.  *out is
- * filled on PM_OK; free it in every case.  The plan stays the caller's.
- * Complexity: per point one mapping (with refinement, many simulations)
- * and one simulation; the what-ifs add up to 2 * PM_SWEEP_MAX_WHATIF bound
+ * many points), PM_EPLATFORM (a pin beyond some count, or one a class
+ * count would move; classes without by_class; by_class without classes;
+ * diag says which), and any error of pm_bound_compute, pm_plan_map and
+ * pm_sim_run (PM_EZERODELAY, PM_EDEADLOCK, ...), diag naming the core
+ * count.  *out is filled on PM_OK; free it in every case.  The plan stays
+ * the caller's.
+ * Complexity: per point one mapping (with refinement, many simulations),
+ * one simulation (two when an earlier map is tried) and on small graphs a
+ * bounded search; the what-ifs add up to 2 * PM_SWEEP_MAX_WHATIF bound
  * computations or simulations.
  */
 int pm_sweep_run(pm_plan *plan, const pm_sweep_opts *opts, pm_sweep *out, pm_diag *diag);
 
 void pm_sweep_free(pm_sweep *s);
 
-/* "loop", "mapping", "cores", "node". */
+/* "loop", "mapping", "cores", "node", "bus". */
 const char *pm_sweep_limit_name(pm_limit_kind k);
 
 /* Smallest core count the graph's pins allow (1 without pins). */

@@ -25,6 +25,7 @@ const char *pm_bound_floor_name(pm_floor_kind k)
     case PM_FLOOR_PACKING: return "packing";
     case PM_FLOOR_PINNED: return "pinned";
     case PM_FLOOR_BUS: return "bus";
+    case PM_FLOOR_SEARCH: return "search";
     }
     return "?";
 }

@@ -96,6 +96,7 @@ static const char *cb_floor_words(pm_floor_kind k)
     case PM_FLOOR_PACKING: return "whole nodes on the cores (packing)";
     case PM_FLOOR_PINNED: return "the nodes pinned to one core";
     case PM_FLOOR_BUS: return "transfers the pins force onto the bus";
+    case PM_FLOOR_SEARCH: return "the best map's busiest core (exhaustive search)";
     }
     return "?";
 }

@@ -1,5 +1,5 @@
 /*
- * cmd_sweep.c - `pacemap sweep FILE [-p A..B] [-n ITER] [--faster N]
+ * cmd_sweep.c - `pacemap sweep FILE [-p [CLASS=]A..B] [-n ITER] [--faster N]
  * [--map F] [--svg F] [--csv F] [--json] [--quiet]`: for each core count, schedule,
  * simulate and name the limit (pm_sweep_run); print the table, the
  * saturation point, the evidence per core count and the what-ifs; write
@@ -8,7 +8,8 @@
  *
  * Range: default 1..16, but never more cores than nodes (extra cores would
  * idle) and never fewer than the pins need.  A platform with named core
- * classes is analysed at its own core count only; -p is refused for it.
+ * classes is analysed at its own cores, or with -p CLASS=A..B at each
+ * count of one class, the other classes as declared.
  * With --map F the one core count of the map is analysed (a hand map).
  */
 #include "cli.h"
@@ -24,16 +25,9 @@
 #include "pacemap/outfile.h"
 #include "pacemap/sim.h"
 
-#define SW_DEFAULT_TO 16
 #define SW_WIDTH 100
 #define SW_INDENT 16
 
-typedef struct sw_args {
-    uint32_t range[2];
-    bool range_set, json, quiet, iterations_set, no_refine;
-    uint32_t iterations, faster;
-    const char *svg, *csv, *map;
-} sw_args;
 
 const char *sw_rat_text(char *buf, size_t n, pm_rat r)
 {
@@ -114,11 +108,14 @@ static void sw_text_head(const sw_report *r, uint64_t iterations)
     const pm_sweep *s = r->s;
     char a[48];
     sw_line l = {{0}, 0};
-    sw_add(&l, "sweep of %s: %u nodes, %u edges, %s, P = %u..%u, %llu iterations per point",
+    sw_add(&l, "sweep of %s: %u nodes, %u edges, %s, %s = %u..%u, %llu iterations per point",
            r->file, g->nnodes, g->nedges,
            g->platform.interconnect == PM_BUS ? "shared bus" : "point-to-point links",
-           s->points[0].procs, s->points[s->npoints - 1].procs, (unsigned long long)iterations);
-    if (g->platform.classes_named)
+           s->vary_class == PM_NONE ? "P" : g->platform.class_names[s->vary_class],
+           s->points[0].count, s->points[s->npoints - 1].count, (unsigned long long)iterations);
+    if (s->vary_class != PM_NONE)
+        sw_add(&l, " (the other classes as declared)");
+    else if (g->platform.classes_named)
         sw_add(&l, " (core classes: the scenario's own cores only)");
     sw_print_wrapped("", l.buf, 2);
     l.len = 0;
@@ -137,86 +134,115 @@ static void sw_text_head(const sw_report *r, uint64_t iterations)
     sw_print_wrapped("", l.buf, 2);
 }
 
-/* "optimal" when the steady period equals the map floor (proven optimal
- * for this P), else "+X%" computed exactly by pm_bound_gap. */
-static const char *sw_gap_text(const pm_sweep_point *p)
+/* The count of a point as the user wrote it: "P = 4" or "dsp = 3". */
+static const char *sw_count_text(const sw_report *r, uint32_t count, char *buf, size_t n)
 {
-    static char buf[24];
-    bool opt = false;
-    pm_rat pct;
-    if (pm_bound_gap(p->period, p->floors.map_floor, &opt, &pct) != PM_OK)
-        return "-";
-    if (opt && p->steady)
-        return "optimal";
-    snprintf(buf, sizeof buf, "+%.3g%%", pm_rat_to_double(pct));
+    if (r->s->vary_class == PM_NONE)
+        snprintf(buf, n, "P = %u", count);
+    else
+        snprintf(buf, n, "%s = %u", r->g->platform.class_names[r->s->vary_class], count);
     return buf;
+}
+
+/* Points that run a smaller count's map, their extra cores idle. */
+static void sw_text_reused(const sw_report *r)
+{
+    for (uint32_t i = 0; i < r->s->npoints; i++) {
+        const pm_sweep_point *p = &r->s->points[i];
+        if (p->map_count == p->count)
+            continue;
+        char a[48], b[48], c[48], d[48];
+        sw_line l = {{0}, 0};
+        sw_add(&l, "%s runs the map made for %s (%u core%s idle): its own map's period was "
+                   "%s, above %s", sw_count_text(r, p->count, c, sizeof c),
+               sw_count_text(r, p->map_count, d, sizeof d), p->idle_cores,
+               p->idle_cores == 1 ? "" : "s", sw_rat_text(a, sizeof a, p->own_period),
+               sw_rat_text(b, sizeof b, p->period));
+        sw_print_wrapped("note: ", l.buf, 6);
+    }
 }
 
 static void sw_text_table(const sw_report *r)
 {
     const pm_sweep *s = r->s;
-    char a[48], b[48], c[48], d[48];
-    printf("\n%5s %12s %12s %12s %12s %9s %8s %11s  %s\n", "P", "period", "lower bound",
-           "map floor", "iter. bound", "vs floor", "speedup", "efficiency", "limit");
-    for (uint32_t i = 0; i < s->npoints; i++) {
-        const pm_sweep_point *p = &s->points[i];
-        char sp[24] = "-", ef[24] = "-"; /* a zero period has no speedup */
-        if (isfinite(p->speedup)) {
-            snprintf(sp, sizeof sp, "%.2f", p->speedup);
-            snprintf(ef, sizeof ef, "%.1f%%", 100.0 * p->efficiency);
-        }
-        printf("%5u %11s%c %12s %12s %12s %9s %8s %11s  %s\n", p->procs,
-               sw_rat_text(a, sizeof a, p->period), p->steady ? ' ' : '~',
-               sw_rat_text(b, sizeof b, p->floors.lower_bound),
-               sw_rat_text(d, sizeof d, p->floors.map_floor),
-               p->floors.has_loop ? sw_rat_text(c, sizeof c, p->floors.loop) : "-",
-               sw_gap_text(p), sp, ef, pm_sweep_limit_name(p->limit.kind));
-    }
+    const pm_sweep_point *p0 = &s->points[0];
+    char a[48];
+    putchar('\n');
+    sw_write_table(r, stdout, false);
     printf("vs floor: \"optimal\" when the steady period equals the proven map floor,"
            " else how far above it\n");
+    printf("speedup: period at P = %u (%s) / period; efficiency: speedup x %u / P\n",
+           p0->procs, sw_rat_text(a, sizeof a, p0->period), p0->procs);
+    printf("idle: cores the map leaves without a node\n");
     for (uint32_t i = 0; i < s->npoints; i++)
         if (!s->points[i].steady) {
             printf("~ no periodic regime within the iterations run: an average (use -n)\n");
             break;
         }
+    sw_text_reused(r);
 }
 
 /* ---- evidence ----------------------------------------------------------- */
+
+static void sw_hops(sw_line *l, const pm_graph *g, const pm_sweep_limit *m, const char *lead)
+{
+    for (uint32_t i = 0; i < m->nhops; i++) {
+        const pm_sweep_hop *h = &m->hops[i];
+        sw_add(l, "%s%s -> %s core %u>%u (%lld cycles%s)", i ? ", " : lead,
+               pm_graph_node_name(g, g->edges[h->edge].src),
+               pm_graph_node_name(g, g->edges[h->edge].dst), h->from_core, h->to_core,
+               (long long)h->cost, h->bus ? ", bus" : "");
+    }
+}
 
 static void sw_evidence_mapping(sw_line *l, const pm_graph *g, const pm_sweep_point *p)
 {
     const pm_sweep_limit *m = &p->limit;
     char a[48];
-    if (m->single_core != PM_NONE && m->nnodes == g->nnodes) {
-        sw_add(l, "the map puts all %u nodes on core %u: %lld cycles per iteration, "
-                  "above work / P = %s", g->nnodes, m->single_core, (long long)m->cycles,
-               sw_rat_text(a, sizeof a, p->floors.cores));
-        return;
-    }
-    if (m->single_core != PM_NONE) {
-        sw_add(l, "core %u carries ", m->single_core);
-        sw_node_list(l, g, m->nodes, m->nnodes, " ", false);
-        sw_add(l, ": %lld cycles per iteration, above work / P = %s (uneven split)",
-               (long long)m->cycles, sw_rat_text(a, sizeof a, p->floors.cores));
-        return;
-    }
-    sw_add(l, "a loop the map made: ");
+    sw_add(l, "a cycle the map made: ");
     sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
     sw_add(l, ", %lld cycles over %lld iteration%s%s", (long long)m->cycles, (long long)m->delays,
            m->delays == 1 ? "" : "s", m->exact ? "" : " (chain incomplete)");
-    for (uint32_t i = 0; i < m->nhops; i++) {
-        const pm_sweep_hop *h = &m->hops[i];
-        sw_add(l, "%s%s -> %s core %u>%u (%lld cycles%s)", i ? ", " : "; transfers ",
-               pm_graph_node_name(g, g->edges[h->edge].src),
-               pm_graph_node_name(g, g->edges[h->edge].dst), h->from_core, h->to_core,
-               (long long)h->cost, h->bus ? ", bus" : "");
-    }
+    sw_hops(l, g, m, "; transfers ");
     for (uint32_t i = 0; i < m->norders; i++)
         sw_add(l, "%score %u: %s then %s%s", i ? ", " : "; core order ", m->orders[i].core,
                pm_graph_node_name(g, m->orders[i].from), pm_graph_node_name(g, m->orders[i].to),
                m->orders[i].wraps ? " (next iteration)" : "");
     if (m->nbus_waits)
         sw_add(l, "; %u wait%s for the bus", m->nbus_waits, m->nbus_waits == 1 ? "" : "s");
+    sw_add(l, "; a better map could reach down to the map floor %s",
+           sw_rat_text(a, sizeof a, p->floors.map_floor));
+}
+
+static void sw_evidence_loop(sw_line *l, const pm_graph *g, const pm_sweep_limit *m)
+{
+    sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
+    sw_add(l, ": %lld cycles / %lld delay%s", (long long)m->cycles, (long long)m->delays,
+           m->delays == 1 ? "" : "s");
+    if (m->nhops == 0) {
+        sw_add(l, ", the iteration bound");
+        return;
+    }
+    int64_t moved = 0;
+    for (uint32_t i = 0; i < m->nhops; i++)
+        moved += m->hops[i].cost;
+    sw_add(l, ", of which %lld in the transfer%s the map put on it: ", (long long)moved,
+           m->nhops == 1 ? "" : "s");
+    sw_hops(l, g, m, "");
+}
+
+static void sw_evidence_cores(sw_line *l, const sw_report *r, const pm_sweep_point *p)
+{
+    char a[48];
+    const pm_sweep_limit *m = &p->limit;
+    sw_add(l, "core %u is busy %lld cycles per iteration: ", p->busiest_core,
+           (long long)p->busiest);
+    sw_node_list(l, r->g, m->nodes, m->nnodes, " ", false);
+    if (p->busiest > p->busiest_run)
+        sw_add(l, " (%lld) + send/recv %lld", (long long)p->busiest_run,
+               (long long)(p->busiest - p->busiest_run));
+    sw_add(l, "; %s = %s", r->g->platform.nclasses > 1 ? "work floor" : "work / P",
+           sw_rat_text(a, sizeof a, p->floors.cores));
 }
 
 static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
@@ -225,19 +251,18 @@ static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
     const pm_sweep_limit *m = &p->limit;
     switch (m->kind) {
     case PM_LIMIT_LOOP:
-        sw_node_list(l, g, m->nodes, m->nnodes, " -> ", true);
-        sw_add(l, ": %lld cycles / %lld delay%s, the iteration bound", (long long)m->cycles,
-               (long long)m->delays, m->delays == 1 ? "" : "s");
+        sw_evidence_loop(l, g, m);
         break;
     case PM_LIMIT_NODE:
-        sw_add(l, "node %s takes %lld cycles; it runs whole on one core",
+        sw_add(l, "node %s takes %lld cycles on its core; it runs whole on one core",
                m->nnodes ? pm_graph_node_name(g, m->nodes[0]) : "?", (long long)m->cycles);
         break;
     case PM_LIMIT_CORES:
-        sw_add(l, "%lld cycles of work / %u core%s: every core is busy%s",
-               (long long)r->s->bound.total_cycles, p->procs, p->procs == 1 ? "" : "s",
-               p->floors.cores.den == 1 ? " all the time"
-                                        : ", as evenly as whole nodes allow");
+        sw_evidence_cores(l, r, p);
+        break;
+    case PM_LIMIT_BUS:
+        sw_add(l, "the bus carries %lld cycles of transfers per iteration (%u edges cross cores)",
+               (long long)p->bus_busy, p->cross_edges);
         break;
     case PM_LIMIT_MAPPING:
         sw_evidence_mapping(l, g, p);
@@ -248,7 +273,7 @@ static void sw_evidence(sw_line *l, const sw_report *r, const pm_sweep_point *p)
 static bool sw_same_limit(const pm_sweep_limit *a, const pm_sweep_limit *b)
 {
     if (a->kind != b->kind || a->nnodes != b->nnodes || a->cycles != b->cycles ||
-        a->kind == PM_LIMIT_CORES || a->nhops != b->nhops)
+        a->kind == PM_LIMIT_CORES || a->kind == PM_LIMIT_BUS || a->nhops != b->nhops)
         return false;
     return memcmp(a->nodes, b->nodes, a->nnodes * sizeof *a->nodes) == 0;
 }
@@ -275,15 +300,16 @@ static void sw_text_saturation(const sw_report *r)
 {
     const pm_sweep *s = r->s;
     const pm_sweep_point *p = &s->points[s->saturation];
-    char a[48];
+    char a[48], c[48];
     sw_line l = {{0}, 0};
+    sw_count_text(r, p->count, c, sizeof c);
     if (s->npoints == 1 && !s->saturation_reached) {
-        sw_add(&l, "one core count only (P = %u): nothing to compare", p->procs);
+        sw_add(&l, "one core count only (%s): nothing to compare", c);
     } else if (!s->saturation_reached) {
-        sw_add(&l, "the period still falls at P = %u (%s): more cores may help; "
-                   "widen the range with -p", p->procs, sw_rat_text(a, sizeof a, p->period));
+        sw_add(&l, "the period still falls at %s (%s): more cores may help; "
+                   "widen the range with -p", c, sw_rat_text(a, sizeof a, p->period));
     } else {
-        sw_add(&l, "from P = %u on the period stays at %s%s. Limit (%s): ", p->procs,
+        sw_add(&l, "from %s on the period stays at %s%s. Limit (%s): ", c,
                sw_rat_text(a, sizeof a, p->period),
                s->saturation_proven ? ", a floor no core count can move" : "",
                pm_sweep_limit_name(p->limit.kind));
@@ -318,7 +344,7 @@ static void sw_whatif_rows(const sw_report *r)
     bool ratio = w->kind != PM_LIMIT_NODE;
     snprintf(lb, sizeof lb, "lower bound at P = %u", p->procs);
     printf("  %-20s %8s %8s %16s %16s %22s\n", "node made faster", "cycles", "now",
-           w->kind == PM_LIMIT_LOOP ? "iteration bound" : ratio ? "period (map)" : "",
+           w->same_map ? "period (map)" : w->kind == PM_LIMIT_LOOP ? "iteration bound" : "",
            ratio ? "this loop alone" : "", lb);
     for (uint32_t i = 0; i < w->nrows; i++) {
         const pm_sweep_faster *row = &w->rows[i];
@@ -365,8 +391,9 @@ static void sw_whatif_next(const sw_report *r)
         break;
     }
     sw_add(&l, " at %s cycles per iteration", sw_rat_text(a, sizeof a, w->next_value));
-    sw_print_wrapped(w->kind == PM_LIMIT_MAPPING ? "  the floors (what a better map could reach): "
-                                                   : "  next bottleneck: ", l.buf, 6);
+    bool map = w->kind == PM_LIMIT_MAPPING || w->same_map;
+    sw_print_wrapped(map ? "  the floors (what a better map could reach): "
+                         : "  next bottleneck: ", l.buf, 6);
 }
 
 static void sw_text_whatif(const sw_report *r)
@@ -380,7 +407,7 @@ static void sw_text_whatif(const sw_report *r)
         printf("; each node %lld cycles faster in turn", (long long)w->faster);
     printf("):\n");
     sw_whatif_rows(r);
-    if (w->kind == PM_LIMIT_MAPPING)
+    if (w->same_map)
         printf("  (the same map, re-simulated; a different map may avoid the loop altogether)\n");
     if (w->kind == PM_LIMIT_CORES)
         printf("  %s\n", w->point + 1 < r->s->npoints
@@ -414,66 +441,12 @@ static void sw_progress(void *ctx, uint32_t procs, uint32_t done, uint32_t total
     fflush(stderr);
 }
 
-/* ---- output files ------------------------------------------------------- */
-
 /* ---- the command -------------------------------------------------------- */
-
-/* The pinned node that needs the most cores. */
-static uint32_t sw_pinned_node(const pm_graph *g)
-{
-    uint32_t best = PM_NONE;
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        if (g->nodes[v].pin_core != PM_NONE &&
-            (best == PM_NONE || g->nodes[v].pin_core > g->nodes[best].pin_core))
-            best = v;
-    return best;
-}
-
-/* Decide the range of core counts; a usage error prints and returns 2. */
-static int sw_range(const pm_graph *g, const char *file, sw_args *a)
-{
-    if (g->platform.classes_named) {
-        if (a->range_set) {
-            cli_usage_error("sweep: %s declares core classes; -p cannot change them "
-                            "(drop -p to analyse its own %u cores)", file, g->platform.ncores);
-            return CLI_EXIT_USAGE;
-        }
-        a->range[0] = a->range[1] = g->platform.ncores;
-        return CLI_EXIT_OK;
-    }
-    uint32_t need = pm_sweep_min_procs(g), cap = g->nnodes > need ? g->nnodes : need;
-    if (!a->range_set) {
-        a->range[0] = need;
-        a->range[1] = SW_DEFAULT_TO < cap ? SW_DEFAULT_TO : cap;
-        if (a->range[1] < need)
-            a->range[1] = need;
-        return CLI_EXIT_OK;
-    }
-    if (a->range[0] < need) {
-        uint32_t v = sw_pinned_node(g);
-        cli_usage_error("sweep: -p %u..%u: node '%s' is pinned to core %u; start at %u", a->range[0],
-                        a->range[1], pm_graph_node_name(g, v), g->nodes[v].pin_core, need);
-        return CLI_EXIT_USAGE;
-    }
-    if (a->range[1] - a->range[0] >= PM_SWEEP_MAX_POINTS) {
-        cli_usage_error("sweep: -p %u..%u: at most %d core counts per sweep", a->range[0],
-                        a->range[1], PM_SWEEP_MAX_POINTS);
-        return CLI_EXIT_USAGE;
-    }
-    if (a->range[1] > cap) {
-        cli_warning("sweep: %s has %u nodes; more cores would idle: sweeping %u..%u", file,
-                    g->nnodes, a->range[0] < cap ? a->range[0] : cap, cap);
-        a->range[1] = cap;
-        if (a->range[0] > cap)
-            a->range[0] = cap;
-    }
-    return CLI_EXIT_OK;
-}
 
 /* --map: the scenario at -p N (or its own cores) and the map for it. */
 static int sw_load_map(const char *file, sw_args *a, pm_plan *s, pm_map **m)
 {
-    if (a->range_set && a->range[0] != a->range[1]) {
+    if (a->range_set && (a->range[0] != a->range[1] || a->class_name)) {
         cli_usage_error("sweep: --map fixes the core count: give -p N or no -p");
         return CLI_EXIT_USAGE;
     }
@@ -504,7 +477,8 @@ static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map
     uint64_t iterations = a->iterations ? a->iterations : PM_SIM_DEFAULT_ITERATIONS;
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
                        .iterations = iterations, .faster = a->faster,
-                       .refine = !a->no_refine, .map = m};
+                       .refine = !a->no_refine, .map = m, .by_class = a->by_class,
+                       .vary_class = a->vary_class};
     if (!a->quiet && isatty(STDERR_FILENO))
         o.progress = sw_progress;
     pm_sweep s;
@@ -526,10 +500,11 @@ static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map
 
 int pm_cmd_sweep(int argc, char **argv)
 {
-    sw_args a = {.range = {1, SW_DEFAULT_TO}};
+    sw_args a = {.range = {1, SW_DEFAULT_TO}, .vary_class = PM_NONE};
     const cli_opt opts[] = {
-        {"-p", "--procs", CLI_RANGE, a.range, &a.range_set,
-         "core counts to try (default 1..16, at most one core per node)", "A..B"},
+        {"-p", "--procs", CLI_STRING, &a.procs, NULL,
+         "core counts (default 1..16); CLASS=A..B varies one class",
+         "[CLASS=]A..B"},
         {"-n", "--iterations", CLI_U32, &a.iterations, &a.iterations_set,
          "iterations simulated per core count (default 1000)", "ITER"},
         {"--faster", NULL, CLI_U32, &a.faster, NULL,
@@ -545,7 +520,7 @@ int pm_cmd_sweep(int argc, char **argv)
         {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL, "no progress line on stderr", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
     const cli_cmd cmd = {"sweep",
-                         "FILE [-p A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
+                         "FILE [-p [CLASS=]A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
                          "For each core count: schedule, simulate, name what limits the period.",
                          opts};
     const char *file;
@@ -556,6 +531,8 @@ int pm_cmd_sweep(int argc, char **argv)
         cli_usage_error("sweep: -n must be at least 1");
         return CLI_EXIT_USAGE;
     }
+    if (a.procs && sw_parse_procs(&a) != CLI_EXIT_OK)
+        return CLI_EXIT_USAGE;
     pm_plan scn;
     pm_map *m = NULL;
     memset(&scn, 0, sizeof scn);

@@ -67,37 +67,87 @@ static void sw_json_orders(pm_json *j, const pm_graph *g, const pm_sweep_limit *
     pm_json_array_end(j);
 }
 
-static void sw_json_limit(pm_json *j, const pm_graph *g, const pm_sweep_limit *l)
+static void sw_json_chain(pm_json *j, const pm_graph *g, const pm_sweep_limit *l)
 {
+    pm_json_key(j, "cycles");
+    pm_json_int(j, l->cycles);
+    pm_json_key(j, "delays");
+    pm_json_int(j, l->delays);
+    pm_json_key(j, "exact");
+    pm_json_bool(j, l->exact);
+    sw_json_hops(j, g, l);
+}
+
+static void sw_json_limit(pm_json *j, const pm_graph *g, const pm_sweep_point *p)
+{
+    const pm_sweep_limit *l = &p->limit;
     pm_json_key(j, "limit");
     pm_json_object_begin(j);
     pm_json_key(j, "kind");
     pm_json_string(j, pm_sweep_limit_name(l->kind));
     pm_json_key(j, "nodes");
     sw_json_nodes(j, g, l->nodes, l->nnodes);
-    if (l->kind == PM_LIMIT_LOOP || l->kind == PM_LIMIT_MAPPING) {
+    if (l->kind == PM_LIMIT_LOOP || l->kind == PM_LIMIT_MAPPING)
+        sw_json_chain(j, g, l);
+    if (l->kind == PM_LIMIT_CORES || l->kind == PM_LIMIT_NODE || l->kind == PM_LIMIT_BUS) {
         pm_json_key(j, "cycles");
         pm_json_int(j, l->cycles);
-        pm_json_key(j, "delays");
-        pm_json_int(j, l->delays);
-        pm_json_key(j, "exact");
-        pm_json_bool(j, l->exact);
+    }
+    if (l->kind == PM_LIMIT_CORES) {
+        pm_json_key(j, "core");
+        pm_json_uint(j, p->busiest_core);
+        pm_json_key(j, "run_cycles");
+        pm_json_int(j, p->busiest_run);
+        pm_json_key(j, "send_recv_cycles");
+        pm_json_int(j, p->busiest - p->busiest_run);
     }
     if (l->kind == PM_LIMIT_MAPPING) {
-        sw_json_hops(j, g, l);
         sw_json_orders(j, g, l);
         pm_json_key(j, "bus_waits");
         pm_json_uint(j, l->nbus_waits);
-        pm_json_key(j, "single_core");
-        if (l->single_core == PM_NONE)
-            pm_json_null(j);
+        bool opt = false;
+        pm_rat pct;
+        pm_json_key(j, "above_map_floor_pct");
+        if (pm_bound_gap(p->period, p->floors.map_floor, &opt, &pct) == PM_OK)
+            pm_json_rat(j, pct);
         else
-            pm_json_uint(j, l->single_core);
+            pm_json_null(j);
     }
     pm_json_object_end(j);
 }
 
-static void sw_json_point(pm_json *j, const pm_graph *g, const pm_sweep_point *p)
+/* Whose map the point runs and what it leaves idle. */
+static void sw_json_map(pm_json *j, const pm_graph *g, const pm_sweep *s,
+                        const pm_sweep_point *p)
+{
+    if (s->vary_class != PM_NONE) {
+        pm_json_key(j, "class_count");
+        pm_json_object_begin(j);
+        pm_json_key(j, "class");
+        pm_json_string(j, g->platform.class_names[s->vary_class]);
+        pm_json_key(j, "count");
+        pm_json_uint(j, p->count);
+        pm_json_object_end(j);
+    }
+    pm_json_key(j, "idle_cores");
+    pm_json_uint(j, p->idle_cores);
+    pm_json_key(j, "map_made_for");
+    pm_json_uint(j, p->map_count);
+    pm_json_key(j, "own_map_period");
+    pm_json_rat(j, p->own_period);
+    pm_json_key(j, "map_floor_kind");
+    pm_json_string(j, pm_bound_floor_name(p->floors.map_binding));
+    pm_json_key(j, "busiest_core");
+    pm_json_object_begin(j);
+    pm_json_key(j, "core");
+    pm_json_uint(j, p->busiest_core);
+    pm_json_key(j, "cycles");
+    pm_json_int(j, p->busiest);
+    pm_json_object_end(j);
+}
+
+static void sw_json_point(pm_json *j, const pm_graph *g, const pm_sweep *s,
+                          const pm_sweep_point *p)
 {
     pm_json_object_begin(j);
     pm_json_key(j, "procs");
@@ -113,7 +163,8 @@ static void sw_json_point(pm_json *j, const pm_graph *g, const pm_sweep_point *p
     pm_json_key(j, "map_optimal");
     pm_json_bool(j, p->steady && pm_bound_gap(p->period, p->floors.map_floor, &opt, &pct) == PM_OK
                         && opt);
-    sw_json_limit(j, g, &p->limit);
+    sw_json_limit(j, g, p);
+    sw_json_map(j, g, s, p);
     pm_json_key(j, "steady");
     pm_json_bool(j, p->steady);
     pm_json_key(j, "speedup");
@@ -152,7 +203,7 @@ static void sw_json_rows(pm_json *j, const pm_graph *g, const pm_sweep_whatif *w
         pm_json_int(j, r->cycles);
         pm_json_key(j, "new_cycles");
         pm_json_int(j, r->new_cycles);
-        pm_json_key(j, w->kind == PM_LIMIT_MAPPING ? "period" : w->kind == PM_LIMIT_LOOP
+        pm_json_key(j, w->same_map ? "period" : w->kind == PM_LIMIT_LOOP
                                                                 ? "iteration_bound"
                                                                 : "lower_bound");
         pm_json_rat(j, r->after);
@@ -253,10 +304,12 @@ void sw_write_json(const sw_report *r, FILE *out)
         pm_json_null(&j);
     pm_json_key(&j, "total_cycles");
     pm_json_int(&j, r->s->bound.total_cycles);
+    pm_json_key(&j, "efficiency_base_procs");
+    pm_json_uint(&j, r->s->points[0].procs);
     pm_json_key(&j, "points");
     pm_json_array_begin(&j);
     for (uint32_t i = 0; i < r->s->npoints; i++)
-        sw_json_point(&j, r->g, &r->s->points[i]);
+        sw_json_point(&j, r->g, r->s, &r->s->points[i]);
     pm_json_array_end(&j);
     sw_json_saturation(&j, r);
     if (r->s->whatif.present)
@@ -265,39 +318,6 @@ void sw_write_json(const sw_report *r, FILE *out)
     pm_json_string(&j, cli_caution);
     pm_json_object_end(&j);
     pm_json_finish(&j);
-}
-
-/* ---- CSV ---------------------------------------------------------------- */
-
-static void sw_csv_rat(FILE *out, pm_rat r)
-{
-    fprintf(out, ",%.17g,%lld/%lld", pm_rat_to_double(r), (long long)r.num, (long long)r.den);
-}
-
-int sw_write_csv(const void *ctx, FILE *out)
-{
-    const sw_report *r = ctx;
-    fputs("procs,period,period_exact,lower_bound,lower_bound_exact,iteration_bound,"
-          "iteration_bound_exact,speedup,efficiency,steady,limit,limit_nodes\n", out);
-    for (uint32_t i = 0; i < r->s->npoints; i++) {
-        const pm_sweep_point *p = &r->s->points[i];
-        fprintf(out, "%u", p->procs);
-        sw_csv_rat(out, p->period);
-        sw_csv_rat(out, p->floors.lower_bound);
-        if (p->floors.has_loop)
-            sw_csv_rat(out, p->floors.loop);
-        else
-            fputs(",,", out);
-        if (isfinite(p->speedup))
-            fprintf(out, ",%.6f,%.6f", p->speedup, p->efficiency);
-        else
-            fputs(",,", out); /* a zero period has no speedup */
-        fprintf(out, ",%s,%s,", p->steady ? "yes" : "no", pm_sweep_limit_name(p->limit.kind));
-        for (uint32_t k = 0; k < p->limit.nnodes; k++)
-            fprintf(out, "%s%s", k ? " " : "", pm_graph_node_name(r->g, p->limit.nodes[k]));
-        fputc('\n', out);
-    }
-    return ferror(out) ? PM_EIO : PM_OK;
 }
 
 /* ---- SVG ---------------------------------------------------------------- */
@@ -364,7 +384,9 @@ static void sw_plot_series(const sw_report *r, sw_plot_data *d)
     d->top[t++] = (pm_plot_series){"achieved period (simulated)", d->col[SW_PERIOD], true, 1};
     if (f->has_loop)
         d->top[t++] = (pm_plot_series){"iteration bound (loops)", d->col[SW_LOOP], false, 2};
-    d->top[t++] = (pm_plot_series){"total work / P", d->col[SW_CORES], false, 3};
+    d->top[t++] = (pm_plot_series){r->g->platform.nclasses > 1 ? "work floor (classes)"
+                                                               : "total work / P",
+                                   d->col[SW_CORES], false, 3};
     d->top[t++] = (pm_plot_series){"largest node", d->col[SW_NODE], false, 4};
     if (f->has_budget)
         d->top[t++] = (pm_plot_series){"budget (clock / rate)", d->col[SW_BUDGET], false, 5};

@@ -22,6 +22,7 @@ const char *pm_sweep_limit_name(pm_limit_kind k)
     case PM_LIMIT_MAPPING: return "mapping";
     case PM_LIMIT_CORES: return "cores";
     case PM_LIMIT_NODE: return "node";
+    case PM_LIMIT_BUS: return "bus";
     }
     return "?";
 }
@@ -39,42 +40,36 @@ void pm_sweep_free(pm_sweep *s)
 {
     if (!s)
         return;
-    for (uint32_t i = 0; s->points && i < s->npoints; i++)
+    for (uint32_t i = 0; s->points && i < s->npoints; i++) {
         sweep_limit_free(&s->points[i].limit);
+        pm_map_destroy(s->points[i].map);
+    }
     free(s->points);
     pm_bound_free(&s->bound);
     sweep_whatif_free(&s->whatif);
     memset(s, 0, sizeof *s);
 }
 
-/* Both graphs of the plan share one core count; a platform with core
- * classes is left alone at its own (sweep_check allows only that). */
-static int sweep_set_procs(pm_plan *p, uint32_t procs, pm_diag *diag)
+/* The map of a point: a copy of the caller's, or the plan's for these
+ * cores.  The plan options are built here, in one place. */
+static int sweep_own_map(pm_plan *p, const pm_sweep_opts *o, pm_map **out, pm_diag *diag)
 {
-    if (p->graph->platform.ncores == procs)
-        return PM_OK;
-    return pm_plan_set_procs(p, procs, diag);
-}
-
-int sweep_sched_sim(pm_plan *p, const pm_sweep_opts *o, uint32_t procs,
-                    const int64_t *node_cycles, pm_map **own, const pm_map **use,
-                    pm_sim_result *r, pm_diag *diag)
-{
-    *own = NULL;
-    *use = o->map;
+    if (o->map) {
+        int rc = pm_map_check(o->map, p->graph, diag);
+        uint32_t now = sweep_count_of(p->graph, o);
+        return rc == PM_OK ? sweep_map_onto(o->map, p->graph, o, now, out) : rc;
+    }
     pm_plan_opts po = {.sched = o->sched, .refine = o->refine,
                        .mapper = o->refine ? PM_PLAN_MAPPER_PERIOD : PM_PLAN_MAPPER_LIST};
-    int rc = sweep_set_procs(p, procs, diag);
-    if (rc == PM_OK && o->map)
-        rc = pm_map_check(o->map, p->graph, diag);
-    else if (rc == PM_OK)
-        rc = pm_plan_map(p, &po, NULL, own, diag);
-    if (rc != PM_OK)
-        return rc;
-    if (!o->map)
-        *use = *own;
-    pm_sim_opts so = {.iterations = o->iterations, .node_cycles = node_cycles};
-    return pm_sim_run(p->graph, *use, &so, r, diag);
+    return pm_plan_map(p, o->plan ? o->plan : &po, NULL, out, diag);
+}
+
+static int sweep_simulate(const pm_graph *g, const pm_sweep_opts *o, const pm_map *m,
+                          pm_sim_result *r, pm_diag *diag)
+{
+    pm_sim_opts so = {.iterations = o->iterations};
+    memset(r, 0, sizeof *r);
+    return pm_sim_run(g, m, &so, r, diag);
 }
 
 static uint32_t sweep_cross_edges(const pm_graph *g, const pm_map *m)
@@ -86,41 +81,98 @@ static uint32_t sweep_cross_edges(const pm_graph *g, const pm_map *m)
 }
 
 /* Prefix a diagnostic from a lower layer with the core count it concerns. */
-static void sweep_diag_procs(pm_diag *diag, uint32_t procs)
+static void sweep_diag_procs(pm_diag *diag, const pm_graph *g, const pm_sweep_opts *o,
+                             uint32_t count)
 {
     if (!diag)
         return;
     char msg[sizeof diag->msg];
-    int n = snprintf(msg, sizeof msg, "with %u cores: ", procs);
+    int n = o->by_class ? snprintf(msg, sizeof msg, "with %u '%s' cores: ", count,
+                                   g->platform.class_names[o->vary_class])
+                        : snprintf(msg, sizeof msg, "with %u cores: ", count);
     snprintf(msg + n, sizeof msg - (size_t)n, "%.*s", (int)(sizeof msg) - n - 1,
              diag->msg[0] ? diag->msg : "failed");
     memcpy(diag->msg, msg, sizeof msg);
 }
 
-static int sweep_point(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, uint32_t i,
+/* One sweep in progress: the point with the lowest period so far. */
+typedef struct sweep_ctx {
+    pm_plan *p;
+    const pm_sweep_opts *o;
+    pm_sweep *s;
+    uint32_t best; /* index, or PM_NONE before the first point */
+} sweep_ctx;
+
+/* An earlier count's map had a lower period: run it on these cores, the
+ * extra ones idle, and keep it when it does better here than our own. */
+static int sweep_reuse(const sweep_ctx *x, pm_sweep_point *pt, pm_sim_result *r,
                        pm_diag *diag)
 {
-    const pm_graph *g = p->graph;
-    pm_sweep_point *pt = &s->points[i];
-    pt->procs = o->procs_from + i;
-    pm_map *own = NULL;
-    const pm_map *m = NULL;
+    const pm_sweep_point *b = &x->s->points[x->best];
+    const pm_graph *g = x->p->graph;
+    pm_map *m = NULL;
+    pm_sim_result r2;
+    memset(&r2, 0, sizeof r2);
+    int rc = sweep_map_onto(b->map, g, x->o, b->count, &m);
+    if (rc == PM_OK)
+        rc = sweep_simulate(g, x->o, m, &r2, diag);
+    if (rc == PM_OK && pm_rat_cmp(r2.period, r->period) < 0) {
+        pm_map_destroy(pt->map);
+        pt->map = m;
+        m = NULL;
+        pt->map_count = b->map_count;
+        pm_sim_result_free(r);
+        *r = r2;
+        memset(&r2, 0, sizeof r2);
+    }
+    pm_map_destroy(m);
+    pm_sim_result_free(&r2);
+    return rc;
+}
+
+/* Floors, core facts and the limit of a simulated point. */
+static int sweep_measure(const pm_graph *g, pm_sweep *s, pm_sweep_point *pt,
+                         const pm_sim_result *r)
+{
+    pt->procs = g->platform.ncores;
+    int rc = pm_bound_floors(g, &s->bound, pt->procs, &pt->floors);
+    if (rc == PM_OK)
+        rc = sweep_search_floor(g, pt);
+    if (rc != PM_OK)
+        return rc;
+    pt->period = r->period;
+    pt->steady = r->steady;
+    pt->latency = r->latency_steady;
+    pt->cross_edges = sweep_cross_edges(g, pt->map);
+    sweep_core_facts(g, pt->map, r, pt);
+    return sweep_limit_classify(g, pt->map, &s->bound, r, pt);
+}
+
+static int sweep_point(sweep_ctx *x, uint32_t i, pm_diag *diag)
+{
+    pm_sweep_point *pt = &x->s->points[i];
+    pt->count = x->o->procs_from + i;
     pm_sim_result r;
     memset(&r, 0, sizeof r);
-    int rc = sweep_sched_sim(p, o, pt->procs, NULL, &own, &m, &r, diag);
+    int rc = sweep_set_count(x->p, x->o, pt->count, diag);
+    const pm_graph *g = x->p->graph;
     if (rc == PM_OK)
-        rc = pm_bound_floors(g, &s->bound, pt->procs, &pt->floors);
+        rc = sweep_own_map(x->p, x->o, &pt->map, diag);
+    if (rc == PM_OK)
+        rc = sweep_simulate(g, x->o, pt->map, &r, diag);
     if (rc == PM_OK) {
-        pt->period = r.period;
-        pt->steady = r.steady;
-        pt->latency = r.latency_steady;
-        pt->cross_edges = sweep_cross_edges(g, m);
-        rc = sweep_limit_classify(g, m, &s->bound, &r, pt);
-    } else {
-        sweep_diag_procs(diag, pt->procs);
+        pt->own_period = r.period;
+        pt->map_count = pt->count;
+        if (x->best != PM_NONE && pm_rat_cmp(x->s->points[x->best].period, r.period) < 0)
+            rc = sweep_reuse(x, pt, &r, diag);
     }
+    if (rc == PM_OK)
+        rc = sweep_measure(g, x->s, pt, &r);
+    if (rc != PM_OK)
+        sweep_diag_procs(diag, g, x->o, pt->count);
+    else if (x->best == PM_NONE || pm_rat_cmp(pt->period, x->s->points[x->best].period) < 0)
+        x->best = i;
     pm_sim_result_free(&r);
-    pm_map_destroy(own);
     return rc;
 }
 
@@ -158,6 +210,24 @@ static void sweep_saturation(pm_sweep *s)
     s->saturation_reached = s->saturation_proven || sat + 1 < n;
 }
 
+static int sweep_check_classes(const pm_graph *g, const pm_sweep_opts *o, pm_diag *diag)
+{
+    const pm_platform *pl = &g->platform;
+    if (o->by_class && (!pl->classes_named || o->vary_class >= pl->nclasses)) {
+        pm_diag_set(diag, g->file, 0, 0, "no core class to vary: the platform has %s",
+                    pl->classes_named ? "no such class" : "identical cores");
+        return PM_EPLATFORM;
+    }
+    if (!o->by_class && pl->classes_named &&
+        (o->procs_from != pl->ncores || o->procs_to != pl->ncores)) {
+        pm_diag_set(diag, g->file, 0, 0,
+                    "the platform declares core classes: sweep the count of one class, "
+                    "or only its own %u cores", pl->ncores);
+        return PM_EPLATFORM;
+    }
+    return PM_OK;
+}
+
 static int sweep_check(const pm_graph *g, const pm_sweep_opts *o, pm_diag *diag)
 {
     if (!g || !o || !g->finalized || o->procs_from == 0 || o->procs_from > o->procs_to ||
@@ -167,21 +237,15 @@ static int sweep_check(const pm_graph *g, const pm_sweep_opts *o, pm_diag *diag)
         pm_diag_set(diag, g->file, 0, 0, "nothing to sweep: the graph has no nodes");
         return PM_EINVAL;
     }
-    if (o->map && (o->procs_from != o->procs_to || o->map->ncores != o->procs_from))
+    if (o->map && (o->procs_from != o->procs_to || o->map->ncores != o->procs_from ||
+                   o->by_class))
         return PM_EINVAL;
     if (o->procs_to - o->procs_from >= PM_SWEEP_MAX_POINTS) {
         pm_diag_set(diag, g->file, 0, 0, "at most %d core counts per sweep",
                     PM_SWEEP_MAX_POINTS);
         return PM_ELIMIT;
     }
-    if (g->platform.classes_named &&
-        (o->procs_from != g->platform.ncores || o->procs_to != g->platform.ncores)) {
-        pm_diag_set(diag, g->file, 0, 0,
-                    "the platform declares core classes: only its own %u cores can be swept",
-                    g->platform.ncores);
-        return PM_EPLATFORM;
-    }
-    return PM_OK;
+    return sweep_check_classes(g, o, diag);
 }
 
 static int sweep_points(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag)
@@ -190,12 +254,13 @@ static int sweep_points(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag
     s->points = calloc(s->npoints, sizeof *s->points);
     if (!s->points)
         return PM_ENOMEM;
+    sweep_ctx x = {p, o, s, PM_NONE};
     for (uint32_t i = 0; i < s->npoints; i++) {
-        int rc = sweep_point(p, o, s, i, diag);
+        int rc = sweep_point(&x, i, diag);
         if (rc != PM_OK)
             return rc;
         if (o->progress)
-            o->progress(o->progress_ctx, s->points[i].procs, i + 1, s->npoints);
+            o->progress(o->progress_ctx, s->points[i].count, i + 1, s->npoints);
     }
     return PM_OK;
 }
@@ -205,11 +270,14 @@ int pm_sweep_run(pm_plan *plan, const pm_sweep_opts *opts, pm_sweep *out, pm_dia
     if (!out)
         return PM_EINVAL;
     memset(out, 0, sizeof *out);
+    out->vary_class = PM_NONE;
     pm_graph *g = plan ? plan->graph : NULL;
     int rc = sweep_check(g, opts, diag);
     if (rc != PM_OK)
         return rc;
-    uint32_t orig = g->platform.ncores;
+    if (opts->by_class)
+        out->vary_class = opts->vary_class;
+    uint32_t orig = sweep_count_of(g, opts);
     rc = pm_bound_compute(g, NULL, &out->bound, diag);
     if (rc == PM_OK)
         rc = sweep_points(plan, opts, out, diag);
@@ -218,6 +286,6 @@ int pm_sweep_run(pm_plan *plan, const pm_sweep_opts *opts, pm_sweep *out, pm_dia
         sweep_saturation(out);
         rc = sweep_whatif_run(plan, opts, out, diag);
     }
-    int rc2 = sweep_set_procs(plan, orig, NULL);
+    int rc2 = sweep_set_count(plan, opts, orig, NULL);
     return rc != PM_OK ? rc : rc2;
 }

@@ -1,7 +1,8 @@
 /*
- * sweep_internal.h - what the pieces of the sweep share privately:
- * scheduling and simulating one core count, classifying a point's limit
- * (sweep_limit.c) and the what-ifs (sweep_whatif.c).  Not a public API.
+ * sweep_internal.h - what the pieces of the sweep share privately: the
+ * cores of a point, carrying maps onto more cores and the search floor
+ * (sweep_cores.c), classifying a point's limit (sweep_limit.c) and the
+ * what-ifs (sweep_whatif.c).  Not a public API.
  */
 #ifndef PACEMAP_SWEEP_INTERNAL_H
 #define PACEMAP_SWEEP_INTERNAL_H
@@ -10,13 +11,28 @@
 #include "pacemap/sim.h"
 #include "pacemap/sweep.h"
 
-/* Set the plan to `procs` cores (unless it already has them), map it with
- * pm_plan_map (or take o->map) and simulate the map on p->graph.  *use is
- * the map simulated; *own is the caller's to destroy (NULL with o->map),
- * like *r, also on error. */
-int sweep_sched_sim(pm_plan *p, const pm_sweep_opts *o, uint32_t procs,
-                    const int64_t *node_cycles, pm_map **own, const pm_map **use,
-                    pm_sim_result *r, pm_diag *diag);
+/* Set the plan to `count` cores (identical cores, or the varied class's
+ * cores) unless it already has them; PM_EPLATFORM (diag) for a pin the
+ * change would move or drop. */
+int sweep_set_count(pm_plan *p, const pm_sweep_opts *o, uint32_t count, pm_diag *diag);
+
+/* The count the sweep varies, as g has it now. */
+uint32_t sweep_count_of(const pm_graph *g, const pm_sweep_opts *o);
+
+/* Map m, made when the varied count was `from`, onto g's cores now (same
+ * class, same place within it; lags kept).  *out is the caller's. */
+int sweep_map_onto(const pm_map *m, const pm_graph *g, const pm_sweep_opts *o,
+                   uint32_t from, pm_map **out);
+
+/* pt's busiest core, largest node, idle cores and bus time from map m and
+ * its simulation r. */
+void sweep_core_facts(const pm_graph *g, const pm_map *m, const pm_sim_result *r,
+                      pm_sweep_point *pt);
+
+/* Raise pt->floors.map_floor to the smallest busiest-core occupancy of any
+ * map when an exhaustive search proves it (small graphs, identical cores,
+ * no pins; else nothing changes). */
+int sweep_search_floor(const pm_graph *g, pm_sweep_point *pt);
 
 /* Fill pt->limit from the floors, the bound and the simulator's chain. */
 int sweep_limit_classify(const pm_graph *g, const pm_map *m, const pm_bound *b,

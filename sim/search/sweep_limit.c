@@ -1,19 +1,21 @@
 /*
  * sweep_limit.c - name what limits one point of a sweep, with evidence.
  *
- * The kind comes from comparing the achieved period T with the floors
- * (exact rationals): T == iteration bound -> loop; T == largest node ->
- * node; T == work / P, or its ceiling (node times are whole cycles and
- * each core carries whole nodes) -> cores; T above all of them -> mapping.  Ties go
- * in that order, since more cores cannot move the first two.  The evidence
- * comes from the simulator's critical chain (the chain of firings, each
- * held back by the one before, that repeats one iteration or more later:
- * a cycle of the inter-processor communication graph, Sriram &
- * Bhattacharyya 2000): its nodes in time order, its cross-core transfers,
- * its core-order links.  A chain that is a loop of the graph with neither
- * transfer nor core-order link is itself the evidence of a `loop`;
- * otherwise a `loop` shows the bound's first critical loop.
- * What it does not do: decide anything from floating point.
+ * Every kind is a quantity the period can never be below for the map
+ * simulated, compared exactly with the achieved period T:
+ *   loop     T is the iteration bound, or T is the ratio of a loop of the
+ *            graph counting the transfers the map put on it (the
+ *            simulator's critical chain is made of that loop's data edges
+ *            only: a cycle of the inter-processor communication graph,
+ *            Sriram & Bhattacharyya 2000);
+ *   node     T is the largest node's time on its core's class;
+ *   cores    T is the busiest core's occupancy (recv + run + send cycles
+ *            per iteration);
+ *   bus      T is the bus's occupancy (every transfer of one iteration);
+ *   mapping  none of these: the map made a cycle of core orders and
+ *            transfers of its own (the critical chain is the evidence).
+ * Ties go in that order.  What it does not do: decide anything from
+ * floating point.
  */
 #include "sweep_internal.h"
 
@@ -31,19 +33,19 @@ void sweep_limit_free(pm_sweep_limit *l)
     memset(l, 0, sizeof *l);
 }
 
-static pm_limit_kind limit_kind(const pm_sweep_point *pt)
+static pm_limit_kind limit_kind(const pm_sweep_point *pt, bool graph_loop)
 {
     const pm_floors *f = &pt->floors;
-    if (f->has_loop && pm_rat_cmp(pt->period, f->loop) == 0)
+    pm_rat t = pt->period;
+    if ((f->has_loop && pm_rat_cmp(t, f->loop) == 0) || graph_loop)
         return PM_LIMIT_LOOP;
-    if (pm_rat_cmp(pt->period, f->node) == 0)
+    if (pm_rat_cmp(t, pm_rat_int(pt->largest_cycles)) == 0)
         return PM_LIMIT_NODE;
-    /* a map runs each node whole on one core, so some core carries at
-     * least ceil(W / P) integer cycles: that too is the cores' floor */
-    if (pm_rat_cmp(pt->period, f->cores) == 0 ||
-        pm_rat_cmp(pt->period, pm_rat_int(pm_rat_ceil(f->cores))) == 0)
+    if (pm_rat_cmp(t, pm_rat_int(pt->busiest)) == 0)
         return PM_LIMIT_CORES;
-    if (pm_rat_cmp(pt->period, f->lower_bound) > 0)
+    if (pt->bus_busy > 0 && pm_rat_cmp(t, pm_rat_int(pt->bus_busy)) == 0)
+        return PM_LIMIT_BUS;
+    if (pm_rat_cmp(t, f->lower_bound) >= 0)
         return PM_LIMIT_MAPPING;
     /* below a floor: only an unsteady estimate can be; name the floor */
     return f->binding == PM_FLOOR_LOOP ? PM_LIMIT_LOOP
@@ -87,12 +89,12 @@ static void limit_link(const limit_walk *w, uint32_t i, pm_sweep_limit *l, uint3
         if (w->m->core_of[w->g->edges[e].src] != w->m->core_of[w->g->edges[e].dst])
             l->hops[l->nhops++] = (pm_sweep_hop){e, a->core, b->core, limit_cost(w->g, e),
                                                  false};
-        else
-            data[1 + data[0]++] = e;
+        data[1 + data[0]++] = e;
         break;
     case PM_CAUSE_BUS:
         l->hops[l->nhops++] = (pm_sweep_hop){e, w->m->core_of[w->g->edges[e].src],
                                              b->core, limit_cost(w->g, e), true};
+        data[1 + data[0]++] = e;
         break;
     case PM_CAUSE_BUS_BUSY:
         l->nbus_waits++;
@@ -123,8 +125,9 @@ static uint32_t limit_single_core(const limit_walk *w, const pm_sweep_limit *l)
     return c;
 }
 
-/* The chain as evidence; data[0] counts same-core data links, data[1..]
- * their edges (a loop of the graph when they close the whole chain). */
+/* The chain as evidence; data[0] counts its data links, data[1..] their
+ * edges in time order (a loop of the graph when they close the whole
+ * chain). */
 static int limit_from_chain(const limit_walk *w, pm_sweep_limit *l, uint32_t *data)
 {
     int rc = limit_alloc(l, w->n);
@@ -162,7 +165,8 @@ static int limit_copy_loop(pm_sweep_limit *l, const pm_loop *lp)
     return PM_OK;
 }
 
-/* The chain is exactly a loop of the graph: keep its nodes and edges. */
+/* The chain is exactly a loop of the graph: keep its nodes, edges and
+ * the transfers the map put on it. */
 static int limit_chain_loop(pm_sweep_limit *l, const uint32_t *data)
 {
     l->edges = malloc(((size_t)data[0] + 1) * sizeof *l->edges);
@@ -170,44 +174,70 @@ static int limit_chain_loop(pm_sweep_limit *l, const uint32_t *data)
         return PM_ENOMEM;
     memcpy(l->edges, data + 1, data[0] * sizeof *l->edges);
     l->nedges = data[0];
-    free(l->hops), l->hops = NULL;
     free(l->orders), l->orders = NULL;
     return PM_OK;
 }
 
 static bool limit_pure_loop(const pm_sweep_limit *l, const uint32_t *data)
 {
-    return l->exact && l->norders == 0 && l->nhops == 0 && l->nbus_waits == 0 &&
-           data[0] == l->nnodes && l->nnodes > 0;
+    return l->exact && l->norders == 0 && l->nbus_waits == 0 && data[0] == l->nnodes &&
+           l->nnodes > 0;
 }
 
-static int limit_evidence(const limit_walk *w, const pm_bound *b, pm_sweep_limit *l)
-{
-    uint32_t *data = calloc((size_t)w->n + 2, sizeof *data);
-    if (!data)
-        return PM_ENOMEM;
-    int rc = limit_from_chain(w, l, data);
-    if (rc == PM_OK && l->kind == PM_LIMIT_LOOP) {
-        if (limit_pure_loop(l, data))
-            rc = limit_chain_loop(l, data);
-        else if (b->ncritical > 0)
-            rc = limit_copy_loop(l, &b->critical[0]);
-        l->kind = PM_LIMIT_LOOP;
-    }
-    free(data);
-    return rc;
-}
-
-static int limit_node(const pm_bound *b, pm_sweep_limit *l)
+static int limit_one(pm_sweep_limit *l, uint32_t v, int64_t cycles)
 {
     l->nodes = malloc(sizeof *l->nodes);
     if (!l->nodes)
         return PM_ENOMEM;
-    l->nodes[0] = b->largest_node;
-    l->nnodes = b->largest_node == PM_NONE ? 0 : 1;
-    l->cycles = b->largest_cycles;
+    l->nodes[0] = v;
+    l->nnodes = v == PM_NONE ? 0 : 1;
+    l->cycles = cycles;
     l->delays = 1;
     l->exact = true;
+    return PM_OK;
+}
+
+/* The busiest core's nodes in their order on it. */
+static int limit_core(const pm_map *m, const pm_sweep_point *pt, pm_sweep_limit *l)
+{
+    uint32_t c = pt->busiest_core, n = m->off[c + 1] - m->off[c];
+    l->nodes = malloc(((size_t)n + 1) * sizeof *l->nodes);
+    if (!l->nodes)
+        return PM_ENOMEM;
+    memcpy(l->nodes, m->order + m->off[c], n * sizeof *l->nodes);
+    l->nnodes = n;
+    l->cycles = pt->busiest;
+    l->delays = 1;
+    l->exact = true;
+    l->single_core = c;
+    return PM_OK;
+}
+
+/* The evidence of the kind found: the chain for a mapping or a loop the
+ * chain closes, the bound's loop, the node, the core, the bus. */
+static int limit_evidence(const pm_map *m, const pm_bound *b, const pm_sweep_point *pt,
+                          bool graph_loop, const uint32_t *data, pm_sweep_limit *l)
+{
+    pm_limit_kind k = l->kind;
+    if (k == PM_LIMIT_MAPPING)
+        return PM_OK;
+    if (k == PM_LIMIT_LOOP && graph_loop)
+        return limit_chain_loop(l, data);
+    sweep_limit_free(l);
+    l->kind = k;
+    l->single_core = PM_NONE;
+    switch (k) {
+    case PM_LIMIT_LOOP:
+        return b->ncritical > 0 ? limit_copy_loop(l, &b->critical[0]) : PM_OK;
+    case PM_LIMIT_NODE:
+        return limit_one(l, pt->largest, pt->largest_cycles);
+    case PM_LIMIT_CORES:
+        return limit_core(m, pt, l);
+    case PM_LIMIT_BUS:
+        return limit_one(l, PM_NONE, pt->bus_busy);
+    case PM_LIMIT_MAPPING:
+        break;
+    }
     return PM_OK;
 }
 
@@ -216,17 +246,16 @@ int sweep_limit_classify(const pm_graph *g, const pm_map *m, const pm_bound *b,
 {
     pm_sweep_limit *l = &pt->limit;
     memset(l, 0, sizeof *l);
-    l->kind = limit_kind(pt);
     l->single_core = PM_NONE;
-    if (l->kind == PM_LIMIT_NODE)
-        return limit_node(b, l);
-    if (l->kind == PM_LIMIT_CORES)
-        return PM_OK;
     limit_walk w = {g, m, r, r->ncritical};
     if (r->critical_delays > 0 && w.n > 0)
         w.n--; /* the last element repeats the first, one loop earlier */
-    pm_limit_kind k = l->kind;
-    int rc = limit_evidence(&w, b, l);
-    l->kind = k;
+    uint32_t *data = calloc((size_t)w.n + 2, sizeof *data);
+    int rc = data ? limit_from_chain(&w, l, data) : PM_ENOMEM;
+    bool graph_loop = rc == PM_OK && limit_pure_loop(l, data);
+    l->kind = limit_kind(pt, graph_loop);
+    if (rc == PM_OK)
+        rc = limit_evidence(m, b, pt, graph_loop, data, l);
+    free(data);
     return rc;
 }

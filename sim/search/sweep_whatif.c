@@ -148,12 +148,9 @@ static int whatif_map_rows(pm_plan *p, pm_graph *c, const pm_sweep_opts *o,
 {
     pm_graph *g = p->graph;
     const pm_sweep_limit *l = &pt->limit;
-    pm_map *own = NULL;
-    const pm_map *m = NULL;
-    pm_sim_result r;
-    memset(&r, 0, sizeof r);
-    int rc = sweep_sched_sim(p, o, pt->procs, NULL, &own, &m, &r, diag);
-    pm_sim_result_free(&r);
+    const pm_map *m = pt->map;
+    /* the point's own cores: the map is simulated on them again */
+    int rc = sweep_set_count(p, o, pt->count, diag);
     int64_t *t = rc == PM_OK ? whatif_times(g, m) : NULL;
     uint32_t n = l->nnodes < PM_SWEEP_MAX_WHATIF ? l->nnodes : PM_SWEEP_MAX_WHATIF;
     if (rc == PM_OK)
@@ -167,7 +164,6 @@ static int whatif_map_rows(pm_plan *p, pm_graph *c, const pm_sweep_opts *o,
         rc = whatif_resim(g, c, o, m, t, pt, row, diag);
     }
     free(t);
-    pm_map_destroy(own);
     return rc;
 }
 
@@ -297,7 +293,9 @@ static int whatif_next(const pm_graph *c, const pm_bound *b, const pm_sweep_poin
     whatif_cand node = {PM_LIMIT_NODE, f->node, &b->largest_node, big != PM_NONE};
     whatif_cand cores = {PM_LIMIT_CORES, f->cores, NULL, 0};
     bool has_loop = f->has_loop && crit;
-    switch (pt->limit.kind) {
+    /* a loop through transfers: a better map reaches down to the floors */
+    bool map_loop = pt->limit.kind == PM_LIMIT_LOOP && pt->limit.nhops > 0;
+    switch (map_loop ? PM_LIMIT_MAPPING : pt->limit.kind) {
     case PM_LIMIT_LOOP:
         n += whatif_other_loop(b, &pt->limit, &cand[n]);
         cand[n++] = node, cand[n++] = cores;
@@ -316,6 +314,7 @@ static int whatif_next(const pm_graph *c, const pm_bound *b, const pm_sweep_poin
         cand[n++] = node;
         break;
     case PM_LIMIT_MAPPING:
+    case PM_LIMIT_BUS:
         cand[n++] = f->binding == PM_FLOOR_LOOP && has_loop ? loop
                     : f->binding == PM_FLOOR_NODE       ? node : cores;
         break;
@@ -340,10 +339,14 @@ int sweep_whatif_run(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag *d
     w->point = at;
     w->kind = pt->limit.kind;
     w->faster = o->faster > 0 ? o->faster : PM_SWEEP_DEFAULT_FASTER;
-    if (w->kind == PM_LIMIT_LOOP || w->kind == PM_LIMIT_NODE)
-        rc = whatif_floor_rows(c, pt, w, diag);
-    else if (w->kind == PM_LIMIT_MAPPING && pt->limit.delays > 0)
+    /* a loop through transfers is a loop of the map: re-simulate it */
+    bool through_map = w->kind == PM_LIMIT_MAPPING ||
+                       (w->kind == PM_LIMIT_LOOP && pt->limit.nhops > 0);
+    w->same_map = through_map && pt->limit.delays > 0;
+    if (w->same_map)
         rc = whatif_map_rows(p, c, o, pt, w, diag);
+    else if (w->kind == PM_LIMIT_LOOP || w->kind == PM_LIMIT_NODE)
+        rc = whatif_floor_rows(c, pt, w, diag);
     if (rc == PM_OK && w->kind == PM_LIMIT_LOOP)
         rc = whatif_delay(c, pt, w, diag);
     if (rc == PM_OK)
