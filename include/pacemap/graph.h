@@ -78,6 +78,8 @@ typedef struct pm_platform {
     pm_interconnect interconnect;
     uint64_t clock_hz;     /* 0 = not given */
     uint64_t rate_hz;      /* 0 = not given; iteration rate the application needs */
+    int64_t word_bytes;    /* bytes a word of edge data takes (comm word-bytes=);
+                              0 = not given (4) */
     char *title;           /* NULL = not given; owned */
 } pm_platform;
 

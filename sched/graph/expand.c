@@ -116,6 +116,7 @@ static int expand_platform(const pm_graph *g, pm_graph *x)
     x->platform.interconnect = p->interconnect;
     x->platform.clock_hz = p->clock_hz;
     x->platform.rate_hz = p->rate_hz;
+    x->platform.word_bytes = p->word_bytes;
     if (p->title && !(x->platform.title = strdup(p->title)))
         return PM_ENOMEM;
     return PM_OK;

@@ -304,19 +304,25 @@ static int rd_procs(reader_state *st)
     return rd_procs_store(st, cls, n);
 }
 
-/* comm := 'comm' { KEY '=' INT }   KEY := latency | per-word | send | recv */
+/* comm := 'comm' { KEY '=' INT }
+ * KEY := latency | per-word | send | recv | word-bytes (at least 1) */
 static int rd_comm(reader_state *st)
 {
-    static const char *const keys[] = { "latency", "per-word", "send", "recv" };
+    static const char *const keys[] = { "latency", "per-word", "send", "recv", "word-bytes" };
     pm_comm *c = &st->g->platform.comm;
-    int64_t *slot[] = { &c->latency, &c->per_word, &c->send, &c->recv };
+    int64_t *slot[] = { &c->latency, &c->per_word, &c->send, &c->recv, &st->g->platform.word_bytes };
     unsigned seen = 0, k;
     if (rd_once(st, &st->seen_comm, "comm"))
         return st->rc;
-    while (st->tok.kind != TOK_END)
-        if (rd_key(st, "comm", keys, 4, "latency, per-word, send or recv", &seen, &k) ||
+    while (st->tok.kind != TOK_END) {
+        uint32_t col = st->tok.col;
+        if (rd_key(st, "comm", keys, 5, "latency, per-word, send, recv or word-bytes", &seen,
+                   &k) ||
             rd_int(st, keys[k], '=', slot[k]))
             return st->rc;
+        if (k == 4 && st->g->platform.word_bytes == 0)
+            return reader_fail(st, PM_ERANGE, col, "word-bytes must be at least 1");
+    }
     return st->rc;
 }
 
