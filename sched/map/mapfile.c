@@ -290,6 +290,7 @@ static int mf_capacity(mf_state *st, mf_cur *c)
     if (c->end - c->s < 2 || memcmp(c->s, "->", 2) != 0)
         return mf_error(st, c, c->s, PM_ESYNTAX, "expected '->' in a capacity line");
     c->s += 2;
+    mf_skip_space(c);
     const char *pair = c->s;
     rc = mf_name(st, c, &v);
     if (!rc)
