@@ -263,7 +263,7 @@ static void test_interval_needs_clock_and_rate(void **st)
     pm_rat iv;
     pm_diag d;
     pm_diag_clear(&d);
-    assert_int_equal(pm_fitbuf_interval(p.source, &iv, &d), PM_EINVAL);
+    assert_int_equal(pm_fitbuf_interval(p.source, &iv, &d), PM_EPLATFORM);
     assert_non_null(strstr(d.msg, "'rate'"));
     pm_plan_free(&p);
 }

@@ -23,7 +23,7 @@
 
 #define PM_FITBUF_WORD_BYTES 4 /* bytes per word when the scenario gives none */
 
-/* I = clock / rate cycles, reduced.  PM_EINVAL with a one-line message in
+/* I = clock / rate cycles, reduced.  PM_EPLATFORM with a one-line message in
  * diag (the scenario file, no position) when clock or rate is missing. */
 int pm_fitbuf_interval(const pm_graph *g, pm_rat *out, pm_diag *diag);
 

@@ -16,7 +16,7 @@ int pm_fitbuf_interval(const pm_graph *g, pm_rat *out, pm_diag *diag)
     if (!p->clock_hz || !p->rate_hz || p->clock_hz > INT64_MAX || p->rate_hz > INT64_MAX) {
         pm_diag_set(diag, g->file, 0, 0, "a paced run needs 'clock' and 'rate' in the scenario "
                                          "(the input delivers a sample every clock/rate cycles)");
-        return PM_EINVAL;
+        return PM_EPLATFORM;
     }
     return pm_rat_make((int64_t)p->clock_hz, (int64_t)p->rate_hz, out);
 }
