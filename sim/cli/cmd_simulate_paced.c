@@ -249,6 +249,16 @@ static void sp_text_buffer_row(const pm_plan *scn, const pm_map *m, const sp_sta
     putchar('\n');
 }
 
+/* Bytes the fitted capacities save against the unbounded paced run. */
+static int64_t sp_saved(const pm_graph *src, const sp_state *st)
+{
+    int64_t saved = 0;
+    for (uint32_t e = 0; st->fit && e < src->nedges; e++)
+        if (st->tokens[e] >= 0)
+            saved += sp_bytes(src, e, st->tokens[e] - (int64_t)st->fit[e]);
+    return saved;
+}
+
 static void sp_text_buffers(const pm_plan *scn, const pm_map *m, const sp_state *st)
 {
     const pm_graph *src = scn->source;
@@ -259,20 +269,15 @@ static void sp_text_buffers(const pm_plan *scn, const pm_map *m, const sp_state 
            (long long)pm_fitbuf_word_bytes(src));
     printf("%-*s %-*s %7s %8s %10s%s\n", SP_NAME_W, "from", SP_NAME_W, "to", "cores",
            "tokens", "bytes", st->fit ? "  capacity      bytes" : "");
-    int64_t saved = 0;
-    for (uint32_t e = 0; e < src->nedges; e++) {
-        if (st->tokens[e] < 0)
-            continue;
-        sp_text_buffer_row(scn, m, st, e, per_core);
-        if (st->fit)
-            saved += sp_bytes(src, e, st->tokens[e] - (int64_t)st->fit[e]);
-    }
+    for (uint32_t e = 0; e < src->nedges; e++)
+        if (st->tokens[e] >= 0)
+            sp_text_buffer_row(scn, m, st, e, per_core);
     for (uint32_t c = 0; c < m->ncores; c++)
         if (per_core[c])
             printf("core %-4u total %lld bytes\n", c, (long long)per_core[c]);
     if (st->fit)
         printf("fitted capacities: %lld bytes less than the unbounded paced run holds\n",
-               (long long)saved);
+               (long long)sp_saved(src, st));
     free(per_core);
 }
 
@@ -351,8 +356,11 @@ void sp_json(pm_json *j, const pm_plan *scn, const pm_map *m, const sp_state *st
     (void)m;
     sp_json_pace(j, st);
     sp_json_buffers(j, scn->source, st, false);
-    if (st->fit)
+    if (st->fit) {
         sp_json_buffers(j, scn->source, st, true);
+        pm_json_key(j, "buffers_saved_bytes");
+        pm_json_int(j, sp_saved(scn->source, st));
+    }
     pm_json_key(j, "word_bytes");
     pm_json_int(j, pm_fitbuf_word_bytes(scn->source));
 }
