@@ -38,5 +38,14 @@ for b in paced["buffers"]:
     assert {"from", "to", "capacity", "bytes"} <= set(b), b
     assert b["capacity"] >= 1
 assert again["paced"]["keeps_up"], "the fitted map does not keep up"
+try:
+    import jsonschema
+except ImportError:
+    jsonschema = None
+if jsonschema:
+    schema = json.load(open("docs/schema.json"))
+    schema = {"$ref": "#/$defs/simulate", "$defs": schema["$defs"]}
+    for doc in (plain, paced, again):
+        jsonschema.validate(doc, schema, cls=jsonschema.Draft202012Validator)
 PY
 echo "check_paced: ok"
