@@ -34,6 +34,8 @@
 #include <cmocka.h>
 
 #include "pacemap/fitbuf.h"
+#include "pacemap/gantt.h"
+#include "pacemap/vcd.h"
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
 #include "pacemap/plan.h"
@@ -582,6 +584,45 @@ static void test_jitter_repeatable(void **st)
     assert_true(some_late);
 }
 
+/* Charts of a paced run: releases 0, 50, 100 of I = 50 (ceil(50k)) become
+ * the VCD variable `release` (1, 2, 3 at those times) and dashed marks in
+ * the SVG. */
+static void test_release_marks(void **st)
+{
+    (void)st;
+    pm_graph *g = chain(10, 20, 5);
+    pm_map *m = map2(0, 1);
+    pm_sim_pace pace = { .interval = { 50, 1 } };
+    pm_sim_opts o = { .iterations = 10, .pace = &pace, .record = 3 };
+    pm_sim_result r;
+    assert_int_equal(pm_sim_run(g, m, &o, &r, NULL), PM_OK);
+    assert_int_equal(r.pace.nreleases, 3);
+    assert_int_equal(r.pace.releases[2], 100);
+    char *buf = NULL;
+    size_t len = 0;
+    FILE *f = open_memstream(&buf, &len);
+    assert_int_equal(pm_vcd_write(g, m, &r, f), PM_OK);
+    fclose(f);
+    assert_non_null(strstr(buf, " release $end"));
+    assert_non_null(strstr(buf, "#100\n"));
+    free(buf);
+    const char *lanes[] = { "core 0", "core 1" };
+    pm_gantt_box box = { 0, 0, 10, "a", 0 };
+    pm_gantt chart = { "t", 2, lanes, &box, 1, NULL, 0, 0, NULL };
+    f = open_memstream(&buf, &len);
+    assert_int_equal(pm_gantt_write_svg_marked(&chart, r.pace.releases, 2, f), PM_OK);
+    fclose(f);
+    const char *p = buf;
+    int marks = 0;
+    while ((p = strstr(p, "class=\"release\"")) != NULL)
+        marks++, p++;
+    assert_int_equal(marks, 1); /* of 0 and 50 only 0 lies within the 10 cycles charted */
+    free(buf);
+    pm_sim_result_free(&r);
+    pm_map_destroy(m);
+    pm_graph_destroy(g);
+}
+
 /* ---- (c) capacity lines ------------------------------------------------------ */
 
 static void test_capacity_lines(void **st)
@@ -635,6 +676,7 @@ int main(void)
         cmocka_unit_test(test_model_random),
         cmocka_unit_test(test_jitter_repeatable),
         cmocka_unit_test(test_capacity_lines),
+        cmocka_unit_test(test_release_marks),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -75,6 +75,8 @@ typedef struct pm_sim_paced {
     double latency_mean;
     uint64_t overruns;       /* input firings that began at or after their next release */
     uint64_t first_overrun;  /* iteration of the first one (when overruns > 0) */
+    int64_t *releases;       /* release of each recorded iteration (charts); owned */
+    uint32_t nreleases;
 } pm_sim_paced;
 
 typedef struct pm_sim_opts {

@@ -98,9 +98,15 @@ static int sm_chart_lanes(const sm_run *s, sm_chart *c)
     return PM_OK;
 }
 
+/* The run the charts show: the paced one when there is one. */
+static const pm_sim_result *sm_charted(const sm_run *s)
+{
+    return s->sp.on ? &s->sp.r : &s->r;
+}
+
 static int sm_chart_make(const sm_run *s, sm_chart *c)
 {
-    const pm_sim_result *r = &s->r;
+    const pm_sim_result *r = sm_charted(s);
     memset(c, 0, sizeof *c);
     size_t nt = r->ntransfers;
     c->boxes = calloc(r->ntrace + nt + 1, sizeof *c->boxes);
@@ -137,8 +143,9 @@ static int sm_write_svg(const void *ctx, FILE *f)
     const sm_run *s = ctx;
     sm_chart c;
     int rc = sm_chart_make(s, &c);
-    if (rc == PM_OK)
-        rc = pm_gantt_write_svg(&c.chart, f);
+    const pm_sim_paced *pc = &sm_charted(s)->pace;
+    if (rc == PM_OK) /* a paced run marks its releases */
+        rc = pm_gantt_write_svg_marked(&c.chart, pc->releases, pc->nreleases, f);
     sm_chart_free(&c);
     return rc;
 }
@@ -146,7 +153,7 @@ static int sm_write_svg(const void *ctx, FILE *f)
 static int sm_write_vcd(const void *ctx, FILE *f)
 {
     const sm_run *s = ctx;
-    return pm_vcd_write(s->g, s->m, &s->r, f);
+    return pm_vcd_write(s->g, s->m, sm_charted(s), f);
 }
 
 /* ---- human text --------------------------------------------------------- */

@@ -230,6 +230,7 @@ void pm_sim_result_free(pm_sim_result *r)
     free(r->critical);
     free(r->trace);
     free(r->transfers);
+    free(r->pace.releases);
     memset(r, 0, sizeof *r);
 }
 

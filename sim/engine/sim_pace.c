@@ -130,6 +130,21 @@ static int sim_pace_cmp(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
+/* Releases of the recorded iterations, for the charts. */
+static int sim_pace_releases(const sim *s, pm_sim_result *r)
+{
+    uint32_t n = r->recorded;
+    if (n == 0)
+        return PM_OK;
+    r->pace.releases = malloc(n * sizeof *r->pace.releases);
+    if (!r->pace.releases)
+        return PM_ENOMEM;
+    for (uint32_t k = 0; k < n; k++)
+        r->pace.releases[k] = pm_sim_release(s->pace, k, 1);
+    r->pace.nreleases = n;
+    return PM_OK;
+}
+
 int sim_pace_report(const sim *s, pm_sim_result *r)
 {
     int64_t *lat = malloc(s->N * sizeof *lat);
@@ -150,5 +165,5 @@ int sim_pace_report(const sim *s, pm_sim_result *r)
     p->overruns = s->overruns;
     p->first_overrun = s->first_overrun;
     free(lat);
-    return PM_OK;
+    return sim_pace_releases(s, r);
 }
