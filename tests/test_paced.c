@@ -623,6 +623,70 @@ static void test_release_marks(void **st)
     pm_graph_destroy(g);
 }
 
+/* ---- multirate transfers as blocks ---------------------------------------------- */
+
+static void block_case(const char *mode, int64_t latency, int64_t period)
+{
+    char text[512];
+    snprintf(text, sizeof text, "procs 2\ncomm latency=10 per-word=1 send=2 recv=3 transfer=%s\n"
+             "node src cycles=5\nnode dst cycles=4\nedge src -> dst produce=4\n", mode);
+    pm_plan p = load_plan(text);
+    pm_map *m = plan_map(&p, "core 0: src\ncore 1: dst\n");
+    pm_sim_opts o = { .iterations = 1 }; /* iteration 0 alone: its latency */
+    pm_sim_result r;
+    assert_int_equal(pm_sim_run(p.graph, m, &o, &r, NULL), PM_OK);
+    assert_int_equal(r.latency_max, latency);
+    pm_sim_result_free(&r);
+    o.iterations = 50; /* src outruns dst: the period is dst's core's */
+    assert_int_equal(pm_sim_run(p.graph, m, &o, &r, NULL), PM_OK);
+    assert_int_equal(r.period.num, period);
+    assert_int_equal(r.period.den, 1);
+    pm_sim_result_free(&r);
+    pm_map_destroy(m);
+    pm_plan_free(&p);
+}
+
+/* src (5 cycles) makes 4 tokens of 1 word for dst (4 cycles, 4 firings),
+ * on two cores; latency 10, per-word 1, send 2, recv 3.
+ * Block: one transfer of 4 words arrives 5 + 10 + 4 = 19; dst#0 receives
+ * 19..22 and runs 22..26, dst#1..3 follow on their core: 26..30, 30..34,
+ * 34..38: latency 38.  Core 1 is busy 3 + 4 * 4 = 19 per iteration, core 0
+ * 5 + 2 = 7: period 19.
+ * Token: four transfers of 1 word, each arriving 5 + 10 + 1 = 16; each dst
+ * firing receives 3 and runs 4: 16..23, 23..30, 30..37, 37..44: latency
+ * 44; core 1 busy 4 * 7 = 28, core 0 5 + 4 * 2 = 13: period 28. */
+static void test_block_transfers(void **st)
+{
+    (void)st;
+    block_case("block", 38, 19);
+    block_case("token", 44, 28);
+}
+
+/* The block expansion of src -> dst produce=4 delay=2 (dst fires 4 times):
+ * tokens 0, 1 of an iteration come from the previous iteration's block,
+ * whose first token went to dst#2 of that iteration; so dst#0 follows
+ * dst#3 one iteration back, dst#1 follows dst#0, the block of this
+ * iteration goes whole (4 words) to dst#2, and dst#3 follows dst#2. */
+static void test_block_expansion_wraps(void **st)
+{
+    (void)st;
+    pm_plan p = load_plan("comm transfer=block\nnode src cycles=5\nnode dst cycles=4\n"
+                          "edge src -> dst produce=4 delay=2\n");
+    const pm_graph *x = p.graph;
+    assert_int_equal(x->nedges, 4);
+    struct { const char *from, *to; int64_t delay, words; } want[] = {
+        { "dst#3", "dst#0", 1, 0 }, { "dst#0", "dst#1", 0, 0 },
+        { "src", "dst#2", 0, 4 }, { "dst#2", "dst#3", 0, 0 },
+    };
+    for (uint32_t e = 0; e < 4; e++) {
+        assert_string_equal(pm_graph_node_name(x, x->edges[e].src), want[e].from);
+        assert_string_equal(pm_graph_node_name(x, x->edges[e].dst), want[e].to);
+        assert_int_equal(x->edges[e].delay, want[e].delay);
+        assert_int_equal(x->edges[e].words, want[e].words);
+    }
+    pm_plan_free(&p);
+}
+
 /* ---- (c) capacity lines ------------------------------------------------------ */
 
 static void test_capacity_lines(void **st)
@@ -677,6 +741,8 @@ int main(void)
         cmocka_unit_test(test_jitter_repeatable),
         cmocka_unit_test(test_capacity_lines),
         cmocka_unit_test(test_release_marks),
+        cmocka_unit_test(test_block_transfers),
+        cmocka_unit_test(test_block_expansion_wraps),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
