@@ -48,4 +48,18 @@ if jsonschema:
     for doc in (plain, paced, again):
         jsonschema.validate(doc, schema, cls=jsonschema.Draft202012Validator)
 PY
+# run --paced: every firing waits for its release, so each measured
+# iteration's last sink ends after that iteration's release (latency > 0;
+# a source running ahead of its samples would make it negative).
+"$PM_BIN" run "$scn" -p 2 -n 60 --oversubscribe --paced --json > "$tmp/run.json" \
+    || fail "run --paced"
+/usr/bin/python3 - "$tmp/run.json" <<'PY' || exit 1
+import json, sys
+p = json.load(open(sys.argv[1]))["paced"]
+lat = p["latency_ns"]
+assert p["interval"] == {"num": 800, "den": 1, "value": 800}, p["interval"]
+assert 0 < lat["min"] <= lat["median"] <= lat["p99"] <= lat["max"], lat
+assert isinstance(p["overruns"], int) and p["overruns"] >= 0
+assert p["predicted"] is None or p["predicted"]["latency_ns_min"] > 0
+PY
 echo "check_paced: ok"
