@@ -213,7 +213,8 @@ static void sp_text_latency(const sp_state *st)
     printf("\nlatency        min %lld, mean %.6g, p99 %lld, max %lld cycles (release to sink end)\n",
            (long long)pc->latency_min, pc->latency_mean, (long long)pc->latency_p99,
            (long long)pc->latency_max);
-    printf("overruns       %llu over %llu iterations\n", (unsigned long long)pc->overruns,
+    printf("overruns       %llu input firing%s began at or after the next sample's arrival "
+           "(%llu iterations)\n", (unsigned long long)pc->overruns, pc->overruns == 1 ? "" : "s",
            (unsigned long long)st->r.iterations);
 }
 
