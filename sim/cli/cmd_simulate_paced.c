@@ -195,9 +195,10 @@ static void sp_text_verdict(const pm_plan *scn, const pm_map *m, const pm_bound 
         printf("%llu overrun%s (first at iteration %llu): back-pressure or jitter\n",
                (unsigned long long)st->r.pace.overruns, st->r.pace.overruns == 1 ? "" : "s",
                (unsigned long long)st->r.pace.first_overrun);
-    if (per > 0)
-        printf("               sustains %.6g Hz at most (clock / period), %.6g Hz asked\n",
-               (double)p->clock_hz / per, (double)p->rate_hz);
+    if (per > 0) /* an unsteady run's period is an average: say so */
+        printf("               sustains %s%.6g Hz (clock / period), %.6g Hz asked\n",
+               u->steady ? "at most " : "about ", (double)p->clock_hz / per,
+               (double)p->rate_hz);
     if (per > iv)
         sp_text_binds(scn, m, b, has_bound, u);
 }
