@@ -411,7 +411,7 @@ static void test_comm_errors(void **state)
 {
     (void)state;
     expect_error("comm latency=1 foo=2\n", PM_ESYNTAX, "t.pace:1:16: error: unknown key 'foo' for "
-                 "'comm' (expected latency, per-word, send or recv)");
+                 "'comm' (expected latency, per-word, send, recv, word-bytes or transfer)");
     expect_error("comm send=1 send=2\n", PM_ESYNTAX, "t.pace:1:13: error: key 'send' given twice");
     expect_error("comm latency 3\n", PM_ESYNTAX, "t.pace:1:14: error: expected '=' after "
                  "'latency', found '3'");

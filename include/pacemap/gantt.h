@@ -44,6 +44,12 @@ typedef struct pm_gantt {
  * write fails. */
 int pm_gantt_write_svg(const pm_gantt *chart, FILE *out);
 
+/* The same chart with a dashed vertical mark at each of `marks` (cycles,
+ * e.g. the releases of a paced run), labelled by index from 0.  Marks past
+ * the chart's span are left out.  PM_EIO when a write fails. */
+int pm_gantt_write_svg_marked(const pm_gantt *chart, const int64_t *marks, size_t nmarks,
+                              FILE *out);
+
 /* Plain-text chart at most `width` columns wide (width <= 100). */
 int pm_gantt_write_text(const pm_gantt *chart, FILE *out, int width);
 

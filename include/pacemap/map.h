@@ -26,6 +26,10 @@ typedef struct pm_map {
                           its core's round (software pipelining): round r of the
                           core runs the node's iteration r - lag, none while that
                           is negative.  0 for every node unless set. */
+    uint32_t *cap;     /* NULL, or one entry per edge of the graph the map was read
+                          for: the edge's capacity in tokens (0 = unbounded), from
+                          the map file's `capacity FROM -> TO N` lines; malloc'd,
+                          freed by pm_map_destroy */
 } pm_map;
 
 /* Largest lag a map may give a node (keeps round arithmetic far from
@@ -50,7 +54,10 @@ bool pm_map_has_lags(const pm_map *m);
 int pm_map_check(const pm_map *m, const pm_graph *g, pm_diag *diag);
 
 /* Read a `.map` file for graph g (docs/format.md); errors carry FILE:LINE:COL.
- * The result is checked with pm_map_check. */
+ * The result is checked with pm_map_check.  Capacity lines set m->cap (an
+ * array of g's nedges; NULL without such lines): one line names a pair of
+ * nodes and applies to every edge between them in that direction; they
+ * need a single-rate g (PM_EUNSUPPORTED at the line otherwise). */
 int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag *diag);
 int pm_map_read_string(const char *text, size_t len, const char *name,
                        const pm_graph *g, pm_map **out, pm_diag *diag);
@@ -95,7 +102,8 @@ int pm_map_expand(const pm_graph *g, const uint64_t *rep, const pm_map *m,
 int pm_map_collapse(const pm_graph *g, const uint64_t *rep, const pm_map *xm,
                     pm_map **out, pm_diag *diag);
 
-/* Write `m` in `.map` form to a stdio stream. */
+/* Write `m` in `.map` form to a stdio stream; with m->cap, one capacity
+ * line per pair of nodes that has a capacity (the largest of its edges'). */
 #include <stdio.h>
 int pm_map_write(const pm_map *m, const pm_graph *g, FILE *out);
 

@@ -37,6 +37,7 @@
 #include "pacemap/error.h"
 #include "pacemap/graph.h"
 #include "pacemap/map.h"
+#include "pacemap/sim.h"
 #include "pacemap/topo.h"
 
 #define PM_RUNNER_BLOCK 64u             /* default samples per token */
@@ -59,6 +60,9 @@ typedef struct pm_runner_config {
     const uint32_t *pu;     /* map core c runs on PU pu[c] (OS index); with topo */
     bool yield;             /* sched_yield while waiting (PUs shared or busy host) */
     bool record_outputs;    /* keep every sink block in the result */
+    const pm_sim_pace *pace;/* NULL: sources run free; else every firing of iteration k
+                               waits until ceil(k * I) cycles x ns_per_cycle after the
+                               start (runner_paced.c; interval only, no jitter) */
 } pm_runner_config;
 
 /* Defaults: 1000 iterations, 100 warm-up, PM_RUNNER_BLOCK, auto rings,
@@ -91,7 +95,20 @@ typedef struct pm_runner_result {
     float *outputs;         /* record_outputs: [nsinks][warmup+iterations][block] */
     bool stalled;           /* the watchdog (or a same-core wait) stopped the run */
     pm_runner_wait *waits;     /* ncores, meaningful when stalled */
+    /* a paced run (cfg->pace): release of iteration k to its last sink end,
+     * over the measured iterations; sources that started at or after their
+     * next release */
+    bool paced;
+    double paced_latency_ns_min, paced_latency_ns_median, paced_latency_ns_p99,
+        paced_latency_ns_max;
+    uint64_t overruns;
 } pm_runner_result;
+
+/* The simulator's paced prediction for a run (pm_runner_predict_paced). */
+typedef struct pm_runner_paced_model {
+    double latency_ns_min, latency_ns_p99, latency_ns_max;
+    uint64_t overruns;
+} pm_runner_paced_model;
 
 void pm_runner_result_free(pm_runner_result *r);
 
@@ -163,5 +180,14 @@ int pm_runner_serial_map(const pm_graph *g, pm_map **out);
  * For tests and programs that want a map without scheduling.  PM_EPLATFORM when a node
  * has no core, PM_EZERODELAY, PM_ENOMEM.  O(V * ncores + E). */
 int pm_runner_round_robin_map(const pm_graph *g, uint32_t ncores, pm_map **out);
+
+/* The paced run pm_runner_predict's model gives (same host view: node_ns
+ * per node, handoff_ns per cross-core token, p2p links), with the pace's
+ * interval in cycles turned into host time by ns_per_cycle (jitter
+ * ignored): latency min, p99 and max and overruns over 1000 iterations.
+ * Errors of pm_sim_run, PM_ERANGE for an interval out of range, PM_ENOMEM. */
+int pm_runner_predict_paced(const pm_graph *g, const pm_map *m, const double *node_ns,
+                            double handoff_ns, const pm_sim_pace *pace, double ns_per_cycle,
+                            pm_runner_paced_model *out, pm_diag *diag);
 
 #endif

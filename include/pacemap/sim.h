@@ -47,6 +47,38 @@
 #define PM_SIM_DEFAULT_ITERATIONS 1000
 #define PM_SIM_MAX_CYCLICITY 64
 
+/* A paced run (docs/simulation.md): the input delivers a sample every
+ * `interval` cycles (I = clock / rate, exact).  Firing j of a node that
+ * fires q times per iteration may not begin before its release
+ * ceil(j * I / q) (single rate: iteration k at ceil(k * I)), plus, with
+ * jitter J > 0, a lateness in 0..J drawn from the release time and the seed
+ * (pm_sim_release).  The arrays are indexed by node of the simulated graph;
+ * each may be NULL (then: q = 1, phase 0, inputs = nodes without an input
+ * edge from another node, sinks = nodes without an output edge to another
+ * node, or all nodes when none has). */
+typedef struct pm_sim_pace {
+    pm_rat interval;         /* I > 0 */
+    const uint32_t *count;   /* q: firings per iteration of the node's scenario node */
+    const uint32_t *phase;   /* which of those firings the node is: 0 .. q - 1 */
+    const bool *input;       /* overruns are counted on these */
+    const bool *sink;        /* their ends set the latency */
+    int64_t jitter;          /* J >= 0 cycles */
+    uint64_t seed;
+} pm_sim_pace;
+
+/* What a paced run measured (pm_sim_result.pace; all 0 when not paced).
+ * Latency of iteration k: last end of a sink firing of k minus the release
+ * of k (firing 0 of its inputs, jitter included).  p99: nearest rank. */
+typedef struct pm_sim_paced {
+    bool on;
+    int64_t latency_min, latency_max, latency_p99;
+    double latency_mean;
+    uint64_t overruns;       /* input firings that began at or after their next release */
+    uint64_t first_overrun;  /* iteration of the first one (when overruns > 0) */
+    int64_t *releases;       /* release of each recorded iteration (charts); owned */
+    uint32_t nreleases;
+} pm_sim_paced;
+
 typedef struct pm_sim_opts {
     uint64_t iterations;        /* N >= 1; 0 means PM_SIM_DEFAULT_ITERATIONS */
     uint32_t fifo_cap;          /* tokens per cross-core edge; 0 = unbounded.  An
@@ -58,6 +90,9 @@ typedef struct pm_sim_opts {
                                    PM_SIM_MAX_CYCLICITY */
     const int64_t *node_cycles; /* NULL, or nnodes execution times (>= 0) that replace
                                    pm_graph_cycles_on (the runner's measured times) */
+    const pm_sim_pace *pace;    /* NULL: sources run as fast as they can */
+    const uint32_t *edge_cap;   /* NULL, or nedges capacities (tokens, 0 = fifo_cap)
+                                   for cross-core edges: a map's capacity lines */
 } pm_sim_opts;
 
 /* What held a firing's begin (or a transfer's grant) back. */
@@ -67,7 +102,8 @@ typedef enum pm_sim_cause {
     PM_CAUSE_EDGE,      /* a token of `edge` (same core, or a p2p transfer) */
     PM_CAUSE_BUS,       /* a token of `edge` that came over the bus */
     PM_CAUSE_FIFO,      /* room on output `edge` (the consumer had to begin first) */
-    PM_CAUSE_BUS_BUSY   /* a transfer waited for the transfer before it on the bus */
+    PM_CAUSE_BUS_BUSY,  /* a transfer waited for the transfer before it on the bus */
+    PM_CAUSE_RELEASE    /* a paced run: its sample was not there yet */
 } pm_sim_cause;
 
 /* One element of the critical chain: a firing (node, iteration), or with
@@ -154,6 +190,7 @@ typedef struct pm_sim_result {
     size_t ntrace;
     pm_sim_transfer *transfers;
     size_t ntransfers;
+    pm_sim_paced pace;       /* a paced run's latency and overruns */
 } pm_sim_result;
 
 /*
@@ -162,7 +199,8 @@ typedef struct pm_sim_result {
  * `deadlock`, `waits` and `iterations` describe where it stopped and diag
  * holds a one-line message naming the cycle); free it in both cases.
  * Errors: PM_EMAP (map does not fit; diag says why), PM_EUNSUPPORTED
- * (multirate graph), PM_EINVAL (bad options), PM_ERANGE (times overflow
+ * (multirate graph), PM_EINVAL (bad options, a pace without clock-rate
+ * interval), PM_ERANGE (times overflow
  * 62 bits), PM_ELIMIT (tokens pile up past the memory limit; diag names
  * the edge), PM_ENOMEM.
  * Complexity: O(N * (V + E)) time with point-to-point links (a compiled
@@ -176,8 +214,15 @@ int pm_sim_run(const pm_graph *g, const pm_map *m, const pm_sim_opts *opts,
  * fine. */
 void pm_sim_result_free(pm_sim_result *r);
 
+/* Release of firing j of a node firing q times per iteration in paced run
+ * p: ceil(j * I / q) plus, when p->jitter > 0, the lateness
+ * splitmix64(seed + T * 0x9e3779b97f4a7c15) mod (J + 1) of that nominal
+ * time T (splitmix64: Steele, Lea & Flood, OOPSLA 2014; its output
+ * function).  Firings released at the same nominal time are late alike. */
+int64_t pm_sim_release(const pm_sim_pace *p, uint64_t j, uint32_t q);
+
 /* Stable lower-case name of a cause: "start", "order", "edge", "bus",
- * "fifo", "bus-busy". */
+ * "fifo", "bus-busy", "release". */
 const char *pm_sim_cause_name(pm_sim_cause c);
 
 #endif

@@ -8,7 +8,8 @@
  * `coreN_io` holds 1 while the core receives, 2 while it sends; per
  * cross-core edge `SRC__DST` holds the tokens buffered on it (delays plus
  * tokens made, minus tokens taken, by the recorded firings).  Only the
- * iterations the simulation recorded (pm_sim_opts.record) appear.
+ * iterations the simulation recorded (pm_sim_opts.record) appear.  A paced
+ * run adds `release`: the number (from 1) of the last sample released.
  * Output is deterministic (no date); the writer only reads its inputs.
  */
 #ifndef PACEMAP_VCD_H

@@ -116,6 +116,8 @@ static int expand_platform(const pm_graph *g, pm_graph *x)
     x->platform.interconnect = p->interconnect;
     x->platform.clock_hz = p->clock_hz;
     x->platform.rate_hz = p->rate_hz;
+    x->platform.word_bytes = p->word_bytes;
+    x->platform.block_transfers = p->block_transfers;
     if (p->title && !(x->platform.title = strdup(p->title)))
         return PM_ENOMEM;
     return PM_OK;
@@ -171,11 +173,11 @@ static int expand_nodes(const pm_graph *g, const uint64_t *rep, pm_graph *x,
 
 /* ---- edges -------------------------------------------------------------------- */
 
-/* One run of tokens: firing i of the producer, `delay` iterations before
- * consumer firing j, `len` tokens. */
+/* One edge of the expansion: from firing i of `src` to firing j of the
+ * edge's consumer, `delay` iterations before it, carrying `len` tokens. */
 static int expand_add_run(const pm_graph *g, const pm_edge *pe, pm_graph *x,
-                          const uint32_t *first, pm_i128 i, pm_i128 j, pm_i128 delay,
-                          pm_i128 len, pm_diag *diag)
+                          const uint32_t *first, uint32_t src, pm_i128 i, pm_i128 j,
+                          pm_i128 delay, pm_i128 len, pm_diag *diag)
 {
     pm_i128 words = len * (pm_i128)pe->words;
     if (words > PM_MAX_VALUE) {
@@ -184,12 +186,36 @@ static int expand_add_run(const pm_graph *g, const pm_edge *pe, pm_graph *x,
                     pm_graph_node_name(g, pe->src), pm_graph_node_name(g, pe->dst));
         return PM_ERANGE;
     }
-    pm_edge ne = pm_graph_edge_default(first[pe->src] + (uint32_t)i, first[pe->dst] + (uint32_t)j);
+    pm_edge ne = pm_graph_edge_default(first[src] + (uint32_t)i, first[pe->dst] + (uint32_t)j);
     ne.line = pe->line;
     ne.col = pe->col;
     ne.delay = (int64_t)delay;
     ne.words = (int64_t)words;
     return pm_graph_add_edge(x, &ne, NULL);
+}
+
+/* Transfers as blocks: producer firing I sends its p tokens as one
+ * transfer to the consumer firing that takes the first of them (an edge of
+ * p * words words), and each later consumer firing of the block follows
+ * the one before it on the consumer's core (an edge of no words between
+ * consecutive firings of the consumer: the previous iteration's last firing
+ * when the run starts the window).  A run starting at token t belongs to
+ * an earlier run's block unless t is the block's first token d + I * p.
+ * Every firing of a node runs on one core in firing order, so those edges
+ * add no cost and the block arrives whole before its first reader. */
+static int expand_add_block(const pm_graph *g, const pm_edge *pe, pm_graph *x,
+                            const uint32_t *first, const uint64_t *rep, pm_i128 t, pm_i128 I,
+                            pm_i128 j, pm_i128 delay, pm_diag *diag)
+{
+    pm_i128 p = pe->produce;
+    if (t == pe->delay + I * p) /* the block's first token: the transfer */
+        return expand_add_run(g, pe, x, first, pe->src, I + delay * (pm_i128)rep[pe->src], j,
+                              delay, p, diag);
+    pm_edge order = *pe;
+    order.words = 0;
+    if (t > 0)
+        return expand_add_run(g, &order, x, first, pe->dst, j - 1, j, 0, 0, diag);
+    return expand_add_run(g, &order, x, first, pe->dst, (pm_i128)rep[pe->dst] - 1, j, 1, 0, diag);
 }
 
 static int expand_edge(const pm_graph *g, uint32_t e, const uint64_t *rep,
@@ -209,7 +235,11 @@ static int expand_edge(const pm_graph *g, uint32_t e, const uint64_t *rep,
         if (T < next)
             next = T;
         pm_i128 iter = sdf_floordiv(I, qu);     /* <= 0 */
-        rc = expand_add_run(g, pe, x, first, I - iter * qu, j, -iter, next - t, diag);
+        if (g->platform.block_transfers)
+            rc = expand_add_block(g, pe, x, first, rep, t, I, j, -iter, diag);
+        else
+            rc = expand_add_run(g, pe, x, first, pe->src, I - iter * qu, j, -iter, next - t,
+                                diag);
         t = next;
     }
     return rc;

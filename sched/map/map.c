@@ -17,6 +17,7 @@ void pm_map_destroy(pm_map *m)
     free(m->off);
     free(m->order);
     free(m->lag);
+    free(m->cap);
     free(m);
 }
 

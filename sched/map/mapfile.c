@@ -2,7 +2,9 @@
  * mapfile.c - `.map` files (docs/format.md): read them for a graph, write them.
  *
  *   file  := { line }
- *   line  := [ "core" INT ":" { NAME [ "@" LAG ] } ] [ "#" comment ] NEWLINE
+ *   line  := [ core | capacity ] [ "#" comment ] NEWLINE
+ *   core  := "core" INT ":" { NAME [ "@" LAG ] }
+ *   capacity := "capacity" NAME "->" NAME INT      (INT >= 1 tokens)
  *
  * LAG (decimal, 0 .. PM_MAP_MAX_LAG) is how many iterations the node runs
  * behind its core's round; a name without it has lag 0.
@@ -28,6 +30,8 @@ typedef struct mf_state {
     uint32_t *line_of;   /* per core: line that listed it, 0 if none */
     uint32_t **lists;
     uint32_t *counts, *caps;
+    uint32_t *ecap;      /* per edge: capacity, 0 = none (NULL until a capacity line) */
+    uint32_t *cap_line;  /* per edge: the line that gave it */
 } mf_state;
 
 /* Cursor over one line. */
@@ -201,11 +205,107 @@ static int mf_names(mf_state *st, mf_cur *c, uint32_t core)
     return PM_OK;
 }
 
+/* A node name at the cursor (the scenario's name characters). */
+static int mf_name(mf_state *st, mf_cur *c, uint32_t *v)
+{
+    mf_skip_space(c);
+    const char *at = c->s;
+    int n = 0;
+    while (at + n < c->end && (strchr("_.", at[n]) || (at[n] >= '0' && at[n] <= '9') ||
+                               ((at[n] | 32) >= 'a' && (at[n] | 32) <= 'z')))
+        n++;
+    if (n == 0)
+        return mf_error(st, c, at, PM_ESYNTAX, "expected a node name in a capacity line");
+    *v = pm_graph_find(st->g, at, (size_t)n);
+    if (*v == PM_NONE)
+        return mf_error(st, c, at, PM_ENAME, "unknown node '%.*s'", n > 80 ? 80 : n, at);
+    c->s += n;
+    return PM_OK;
+}
+
+/* The capacity N after the names, 1 .. 2^31 - 1 tokens. */
+static int mf_cap_value(mf_state *st, mf_cur *c, uint32_t *cap)
+{
+    mf_skip_space(c);
+    const char *at = c->s;
+    int n = mf_token(c);
+    uint64_t v = 0;
+    bool ok = n > 0 && n < 11;
+    for (int i = 0; ok && i < n; i++) {
+        ok = at[i] >= '0' && at[i] <= '9';
+        v = v * 10 + (uint64_t)(at[i] - '0');
+    }
+    if (!ok || v == 0 || v > INT32_MAX)
+        return mf_error(st, c, at, PM_ESYNTAX,
+                        "expected a capacity of 1 to %d tokens, found '%.*s'", INT32_MAX,
+                        n ? (n > 40 ? 40 : n) : 1, n ? at : " ");
+    c->s += n;
+    if (!mf_at_end(c))
+        return mf_error(st, c, c->s, PM_ESYNTAX, "expected end of line after the capacity");
+    *cap = (uint32_t)v;
+    return PM_OK;
+}
+
+/* Set the capacity of every edge u -> v; a pair given twice is an error. */
+static int mf_cap_store(mf_state *st, mf_cur *c, const char *at, uint32_t u, uint32_t v,
+                        uint32_t cap)
+{
+    const pm_graph *g = st->g;
+    bool any = false;
+    for (uint32_t e = 0; e < g->nedges; e++) {
+        if (g->edges[e].src != u || g->edges[e].dst != v)
+            continue;
+        if (st->cap_line[e])
+            return mf_error(st, c, at, PM_EMAP, "capacity of '%s' -> '%s' given twice (first "
+                            "on line %u)", pm_graph_node_name(g, u), pm_graph_node_name(g, v),
+                            st->cap_line[e]);
+        st->ecap[e] = cap, st->cap_line[e] = st->line, any = true;
+    }
+    if (!any)
+        return mf_error(st, c, at, PM_EMAP, "no edge '%s' -> '%s' in the scenario",
+                        pm_graph_node_name(g, u), pm_graph_node_name(g, v));
+    return PM_OK;
+}
+
+/* capacity := "capacity" NAME "->" NAME INT */
+static int mf_capacity(mf_state *st, mf_cur *c)
+{
+    const pm_graph *g = st->g;
+    const char *at = c->s;
+    if (!pm_graph_is_single_rate(g))
+        return mf_error(st, c, at, PM_EUNSUPPORTED,
+                        "capacity lines need a single-rate scenario");
+    if (!st->ecap) {
+        st->ecap = calloc((size_t)g->nedges + 1, sizeof *st->ecap);
+        st->cap_line = calloc((size_t)g->nedges + 1, sizeof *st->cap_line);
+        if (!st->ecap || !st->cap_line)
+            return PM_ENOMEM;
+    }
+    c->s += 8;
+    uint32_t u = 0, v = 0, cap = 0;
+    int rc = mf_name(st, c, &u);
+    if (rc)
+        return rc;
+    mf_skip_space(c);
+    if (c->end - c->s < 2 || memcmp(c->s, "->", 2) != 0)
+        return mf_error(st, c, c->s, PM_ESYNTAX, "expected '->' in a capacity line");
+    c->s += 2;
+    mf_skip_space(c);
+    const char *pair = c->s;
+    rc = mf_name(st, c, &v);
+    if (!rc)
+        rc = mf_cap_value(st, c, &cap);
+    return rc ? rc : mf_cap_store(st, c, pair, u, v, cap);
+}
+
 static int mf_line(mf_state *st, const char *s, const char *end)
 {
     mf_cur c = {s, end, s};
     if (mf_at_end(&c))
         return PM_OK;
+    if (end - c.s > 8 && memcmp(c.s, "capacity", 8) == 0 &&
+        (c.s[8] == ' ' || c.s[8] == '\t'))
+        return mf_capacity(st, &c);
     uint32_t core = 0;
     int rc = mf_header(st, &c, &core);
     return rc == PM_OK ? mf_names(st, &c, core) : rc;
@@ -248,6 +348,8 @@ static void mf_free(mf_state *st, uint32_t ncores)
     free(st->core_of);
     free(st->lag);
     free(st->line_of);
+    free(st->ecap);
+    free(st->cap_line);
 }
 
 int pm_map_read_string(const char *text, size_t len, const char *name,
@@ -272,6 +374,8 @@ int pm_map_read_string(const char *text, size_t len, const char *name,
         rc = pm_map_create(P, g->nnodes, (const uint32_t *const *)st.lists, st.counts, out);
     if (rc == PM_OK)
         memcpy((*out)->lag, st.lag, (size_t)g->nnodes * sizeof *st.lag);
+    if (rc == PM_OK && st.ecap)
+        (*out)->cap = st.ecap, st.ecap = NULL;
     if (rc == PM_OK && (rc = pm_map_check(*out, g, diag)) != PM_OK) {
         pm_map_destroy(*out);
         *out = NULL;
@@ -323,6 +427,25 @@ int pm_map_read_file(const char *path, const pm_graph *g, pm_map **out, pm_diag 
     return rc;
 }
 
+/* One line per pair of nodes, at its first edge: the largest capacity of
+ * the pair's edges (the reader gives a line's capacity to all of them). */
+static void mf_write_caps(const pm_map *m, const pm_graph *g, FILE *out)
+{
+    for (uint32_t e = 0; m->cap && e < g->nedges; e++) {
+        const pm_edge *ed = &g->edges[e];
+        uint32_t most = 0;
+        bool first = true;
+        for (uint32_t f = 0; f < g->nedges; f++)
+            if (g->edges[f].src == ed->src && g->edges[f].dst == ed->dst) {
+                first &= f >= e;
+                most = m->cap[f] > most ? m->cap[f] : most;
+            }
+        if (first && most)
+            fprintf(out, "capacity %s -> %s %u\n", pm_graph_node_name(g, ed->src),
+                    pm_graph_node_name(g, ed->dst), most);
+    }
+}
+
 int pm_map_write(const pm_map *m, const pm_graph *g, FILE *out)
 {
     fputs("# core: nodes in execution order\n", out);
@@ -337,5 +460,6 @@ int pm_map_write(const pm_map *m, const pm_graph *g, FILE *out)
         }
         fputc('\n', out);
     }
+    mf_write_caps(m, g, out);
     return ferror(out) ? PM_EIO : PM_OK;
 }

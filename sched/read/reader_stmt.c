@@ -304,19 +304,39 @@ static int rd_procs(reader_state *st)
     return rd_procs_store(st, cls, n);
 }
 
-/* comm := 'comm' { KEY '=' INT }   KEY := latency | per-word | send | recv */
+/* The value of transfer=: 'block' or 'token'. */
+static int rd_transfer(reader_state *st)
+{
+    if (st->tok.kind != TOK_NAME || (!rd_is(&st->tok, "block") && !rd_is(&st->tok, "token")))
+        return reader_fail(st, PM_ESYNTAX, st->tok.col,
+                           "expected 'block' or 'token' after 'transfer=', found %s",
+                           reader_found(st));
+    st->g->platform.block_transfers = rd_is(&st->tok, "block");
+    return rd_next(st);
+}
+
+/* comm := 'comm' { KEY '=' VALUE }
+ * KEY := latency | per-word | send | recv | word-bytes (INT, word-bytes >= 1)
+ *      | transfer ('block' | 'token') */
 static int rd_comm(reader_state *st)
 {
-    static const char *const keys[] = { "latency", "per-word", "send", "recv" };
+    static const char *const keys[] = { "latency", "per-word", "send", "recv", "word-bytes",
+                                        "transfer" };
     pm_comm *c = &st->g->platform.comm;
-    int64_t *slot[] = { &c->latency, &c->per_word, &c->send, &c->recv };
+    int64_t *slot[] = { &c->latency, &c->per_word, &c->send, &c->recv,
+                        &st->g->platform.word_bytes };
     unsigned seen = 0, k;
     if (rd_once(st, &st->seen_comm, "comm"))
         return st->rc;
-    while (st->tok.kind != TOK_END)
-        if (rd_key(st, "comm", keys, 4, "latency, per-word, send or recv", &seen, &k) ||
-            rd_int(st, keys[k], '=', slot[k]))
+    while (st->tok.kind != TOK_END) {
+        uint32_t col = st->tok.col;
+        if (rd_key(st, "comm", keys, 6, "latency, per-word, send, recv, word-bytes or transfer",
+                   &seen, &k) ||
+            (k == 5 ? rd_transfer(st) : rd_int(st, keys[k], '=', slot[k])))
             return st->rc;
+        if (k == 4 && st->g->platform.word_bytes == 0)
+            return reader_fail(st, PM_ERANGE, col, "word-bytes must be at least 1");
+    }
     return st->rc;
 }
 

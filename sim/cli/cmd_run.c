@@ -23,10 +23,12 @@
 #include "pacemap/sched.h"
 #include "pacemap/topo.h"
 
+#include "cmd_run_paced.h"
+
 typedef struct cr_opts {
     uint32_t procs, iters, warmup, ring, block, watchdog;
     bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
-    bool oversubscribe, json, no_refine;
+    bool oversubscribe, json, no_refine, paced;
     const char *map, *cores, *nspc, *mapper;
     const char *file;
 } cr_opts;
@@ -48,6 +50,7 @@ typedef struct cr_state {
     double predicted_in_run;  /* the model again, with the in-run firing times */
     pm_runner_result res;
     bool outputs_match;
+    crp_state paced;          /* --paced */
 } cr_state;
 
 static int cr_parse(cr_opts *o, int argc, char **argv)
@@ -76,6 +79,8 @@ static int cr_parse(cr_opts *o, int argc, char **argv)
          "host ns per node cycle for spin nodes (default 1e9/clock, else 1)", "X"},
         {"--watchdog", NULL, CLI_U32, &o->watchdog, &o->watchdog_set,
          "stop after this many ms without progress (default 2000)", "MS"},
+        {"--paced", NULL, CLI_FLAG, &o->paced, NULL,
+         "release iteration k at ceil(k*clock/rate) cycles: latency, overruns", NULL},
         {"--json", NULL, CLI_FLAG, &o->json, NULL, "machine-readable output", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
     };
@@ -113,6 +118,12 @@ static int cr_config(cr_state *s)
             return CLI_EXIT_USAGE;
         }
         c->ns_per_cycle = v;
+    }
+    if (o->paced) {
+        int st = crp_init(&s->scn, &s->paced);
+        if (st != CLI_EXIT_OK)
+            return st;
+        c->pace = &s->paced.pace;
     }
     return CLI_EXIT_OK;
 }
@@ -186,7 +197,9 @@ static void cr_watchdog_fit(cr_state *s)
 /* Without --ring, each ring holds the model's buffer depth plus one,
  * at least delay + PM_RUNNER_RING_SLACK and at most delay + 1024 (a depth
  * that keeps growing in the model means the parts run at different
- * rates; back-pressure then paces the producer). */
+ * rates; back-pressure then paces the producer).  A capacity line of the
+ * map (`capacity FROM -> TO N`) gives its edge N slots instead (raised by
+ * the runner to the least the edge needs). */
 static void cr_ring_sizes(cr_state *s)
 {
     if (s->o.ring_set || !s->cap)
@@ -195,6 +208,8 @@ static void cr_ring_sizes(cr_state *s)
         uint64_t d = (uint64_t)s->g->edges[e].delay, want = (uint64_t)s->depth[e] + 1u;
         uint64_t lo = d + PM_RUNNER_RING_SLACK, hi = d + 1024u;
         want = want < lo ? lo : want > hi ? hi : want;
+        if (s->m->cap && s->m->cap[e]) /* the map's capacity line: that many slots */
+            want = s->m->cap[e];
         s->cap[e] = want > UINT32_MAX ? UINT32_MAX : (uint32_t)want;
     }
     s->cfg.edge_capacity = s->cap;
@@ -271,12 +286,15 @@ static int cr_execute(cr_state *s)
     if (rc == PM_OK) {
         pm_runner_config c = s->cfg;
         c.pu = s->pus.pu; /* the single thread goes on the first PU */
+        c.pace = NULL;    /* outputs do not depend on timing */
         rc = pm_runner_execute(s->g, serial, &c, &one);
     }
     if (rc == PM_OK && pm_runner_predict(s->g, s->m, s->res.node_ns, s->handoff,
                                          s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
                                          NULL, NULL) != PM_OK)
         s->predicted_in_run = 0;
+    if (rc == PM_OK && s->paced.on)
+        crp_predict(&s->paced, s->g, s->m, s->res.node_ns, s->handoff, s->cfg.ns_per_cycle);
     if (rc == PM_OK)
         s->outputs_match = one.output_hash == s->res.output_hash &&
                            s->res.order_errors == 0;
@@ -399,6 +417,7 @@ static void cr_text_results(const cr_state *s)
     printf("pinning            %s\n", cr_all_pinned(s)
                ? "every thread pinned to its PU"
                : "NOT pinned (the system refused; times may include migrations)");
+    crp_text(&s->paced, r, s->cfg.ns_per_cycle);
     printf("\n");
     cr_print_wrapped(cli_caution, 100);
 }
@@ -459,6 +478,7 @@ static void cr_json(const cr_state *s)
     pm_json_key(&j, "outputs_match"); pm_json_bool(&j, s->outputs_match);
     pm_json_key(&j, "order_errors"); pm_json_uint(&j, r->order_errors);
     cr_json_cores(&j, s);
+    crp_json(&s->paced, r, &j);
     pm_json_object_end(&j);
     pm_json_finish(&j);
 }
@@ -466,6 +486,7 @@ static void cr_json(const cr_state *s)
 static void cr_free(cr_state *s)
 {
     pm_runner_result_free(&s->res);
+    crp_free(&s->paced);
     free(s->node_ns);
     free(s->depth);
     free(s->cap);

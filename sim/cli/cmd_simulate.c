@@ -1,6 +1,7 @@
 /*
  * cmd_simulate.c - `pacemap simulate FILE [-p N] [-n ITER] [--map F]
- * [--fifo N] [--vcd F] [--svg F] [--json]`: run the map (the list
+ * [--fifo N] [--paced [--jitter CYCLES] [--seed N] [--fit-buffers]] [--emit-map F]
+ * [--vcd F] [--svg F] [--json]`: run the map (the list
  * scheduler's, or a hand map) self-timed over many iterations and report
  * the period against the floors, latency, utilisation, buffer depths, bus
  * load and the chain that sets the period; write a VCD waveform and an SVG
@@ -9,6 +10,7 @@
  * calls and prints.
  */
 #include "cli.h"
+#include "cmd_simulate_paced.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -29,8 +31,9 @@
 
 typedef struct sm_args {
     uint32_t procs, iterations, fifo;
-    bool procs_set, json, no_refine;
+    bool procs_set, json, no_refine, jitter_set, seed_set;
     const char *map, *vcd, *svg, *mapper;
+    sp_args sp;      /* --paced and what goes with it */
 } sm_args;
 
 typedef struct sm_run {
@@ -43,6 +46,7 @@ typedef struct sm_run {
     pm_floors f;
     bool has_bound;
     uint32_t fifo;
+    sp_state sp;      /* the paced run, when asked */
 } sm_run;
 
 /* ---- charts ------------------------------------------------------------- */
@@ -94,9 +98,15 @@ static int sm_chart_lanes(const sm_run *s, sm_chart *c)
     return PM_OK;
 }
 
+/* The run the charts show: the paced one when there is one. */
+static const pm_sim_result *sm_charted(const sm_run *s)
+{
+    return s->sp.on ? &s->sp.r : &s->r;
+}
+
 static int sm_chart_make(const sm_run *s, sm_chart *c)
 {
-    const pm_sim_result *r = &s->r;
+    const pm_sim_result *r = sm_charted(s);
     memset(c, 0, sizeof *c);
     size_t nt = r->ntransfers;
     c->boxes = calloc(r->ntrace + nt + 1, sizeof *c->boxes);
@@ -133,8 +143,9 @@ static int sm_write_svg(const void *ctx, FILE *f)
     const sm_run *s = ctx;
     sm_chart c;
     int rc = sm_chart_make(s, &c);
-    if (rc == PM_OK)
-        rc = pm_gantt_write_svg(&c.chart, f);
+    const pm_sim_paced *pc = &sm_charted(s)->pace;
+    if (rc == PM_OK) /* a paced run marks its releases */
+        rc = pm_gantt_write_svg_marked(&c.chart, pc->releases, pc->nreleases, f);
     sm_chart_free(&c);
     return rc;
 }
@@ -142,7 +153,7 @@ static int sm_write_svg(const void *ctx, FILE *f)
 static int sm_write_vcd(const void *ctx, FILE *f)
 {
     const sm_run *s = ctx;
-    return pm_vcd_write(s->g, s->m, &s->r, f);
+    return pm_vcd_write(s->g, s->m, sm_charted(s), f);
 }
 
 /* ---- human text --------------------------------------------------------- */
@@ -302,7 +313,10 @@ static void sm_text(const sm_run *s)
            s->r.iterations == 1 ? "" : "s");
     sm_text_period(s);
     sm_text_cores(s);
-    sm_text_edges(s);
+    if (s->sp.on)
+        sp_text(&s->scn, s->m, &s->b, s->has_bound, &s->r, &s->sp);
+    else
+        sm_text_edges(s);
     sm_text_chain(s);
     sm_print_wrapped(cli_caution);
 }
@@ -414,7 +428,10 @@ static void sm_json(const sm_run *s)
     for (uint32_t c = 0; c < r->ncores; c++)
         pm_json_double(&j, r->utilisation[c]);
     pm_json_array_end(&j);
-    sm_json_edges(&j, s);
+    if (s->sp.on)
+        sp_json(&j, &s->scn, s->m, &s->sp);
+    else
+        sm_json_edges(&j, s);
     pm_json_key(&j, "steady");
     pm_json_bool(&j, r->steady);
     pm_json_key(&j, "cyclicity");
@@ -460,8 +477,11 @@ static int sm_compute(const sm_args *a, sm_run *s)
     int rc = sm_map(a, s, &d);
     if (rc == PM_OK) {
         pm_sim_opts o = { .iterations = a->iterations, .fifo_cap = a->fifo,
-                          .record = a->iterations < SM_RECORD ? a->iterations : SM_RECORD };
+                          .record = a->iterations < SM_RECORD ? a->iterations : SM_RECORD,
+                          .edge_cap = s->m->cap };
         rc = pm_sim_run(s->g, s->m, &o, &s->r, &d);
+        if (rc == PM_OK && a->sp.on && (rc = sp_run(&s->scn, s->m, &o, &s->r, &a->sp, &s->sp)))
+            return rc; /* reported */
     }
     if (rc == PM_OK && pm_bound_compute(s->g, NULL, &s->b, NULL) == PM_OK) {
         s->has_bound = pm_bound_floors(s->g, &s->b, s->m->ncores, &s->f) == PM_OK;
@@ -479,6 +499,8 @@ static int sm_compute(const sm_args *a, sm_run *s)
 static int sm_main(const sm_args *a, sm_run *s)
 {
     int rc = sm_compute(a, s);
+    if (rc == PM_OK && a->sp.emit_map)
+        rc = sp_emit_map(&s->scn, s->m, &a->sp, &s->sp);
     if (rc == PM_OK && a->vcd)
         rc = cli_write_file(a->vcd, sm_write_vcd, s);
     if (rc == PM_OK && a->svg)
@@ -494,7 +516,7 @@ static int sm_main(const sm_args *a, sm_run *s)
 
 int pm_cmd_simulate(int argc, char **argv)
 {
-    sm_args a = { .iterations = PM_SIM_DEFAULT_ITERATIONS };
+    sm_args a = { .iterations = PM_SIM_DEFAULT_ITERATIONS, .sp = { .seed = 1 } };
     const cli_opt opts[] = {
         { "-p", "--procs", CLI_U32, &a.procs, &a.procs_set,
           "identical cores (default: the scenario's)", "N" },
@@ -505,6 +527,16 @@ int pm_cmd_simulate(int argc, char **argv)
           "tokens each cross-core edge can buffer (default: unbounded)", "N" },
         { "--mapper", NULL, CLI_STRING, &a.mapper, NULL,
           "period (default: lowest period, lags) or list (the list scheduler)", "NAME" },
+        { "--paced", NULL, CLI_FLAG, &a.sp.on, NULL,
+          "release input samples every clock/rate cycles: latency, overruns, buffers", NULL },
+        { "--jitter", NULL, CLI_U32, &a.sp.jitter, &a.jitter_set,
+          "with --paced: each release up to CYCLES late (seeded, repeatable)", "CYCLES" },
+        { "--seed", NULL, CLI_U32, &a.sp.seed, &a.seed_set,
+          "with --jitter: the seed of the lateness (default 1)", "N" },
+        { "--fit-buffers", NULL, CLI_FLAG, &a.sp.fit, NULL,
+          "with --paced: smallest capacity per cross-core edge that keeps up", NULL },
+        { "--emit-map", NULL, CLI_STRING, &a.sp.emit_map, NULL,
+          "write the map (with fitted capacities) to F", "F" },
         { "--no-refine", NULL, CLI_FLAG, &a.no_refine, NULL,
           "use the list schedule's map as it is (no search for a lower period)", NULL },
         { "--vcd", NULL, CLI_STRING, &a.vcd, NULL, "write a VCD waveform of the first iterations",
@@ -528,6 +560,10 @@ int pm_cmd_simulate(int argc, char **argv)
     pm_plan_opts po;
     if (cli_mapper_choice("simulate", a.mapper, a.no_refine, &po) != CLI_EXIT_OK)
         return CLI_EXIT_USAGE;
+    if (!a.sp.on && (a.jitter_set || a.seed_set || a.sp.fit)) {
+        cli_usage_error("--jitter, --seed and --fit-buffers go with --paced");
+        return CLI_EXIT_USAGE;
+    }
     sm_run s;
     memset(&s, 0, sizeof s);
     s.file = file;
@@ -538,6 +574,7 @@ int pm_cmd_simulate(int argc, char **argv)
     s.g = s.scn.graph;
     st = sm_main(&a, &s);
     pm_sim_result_free(&s.r);
+    sp_free(&s.sp);
     if (s.has_bound)
         pm_bound_free(&s.b);
     pm_map_destroy(s.m);

@@ -123,7 +123,7 @@ int sim_record_transfer(sim *s, uint32_t xs, uint64_t k, int64_t req, int64_t gr
 
 static int sim_loop(sim *s, pm_diag *diag)
 {
-    if (!s->bus) {
+    if (!s->bus && !s->pace && !s->caps) { /* the compiled pass knows neither */
         int rc = sim_loop_p2p(s, diag);
         if (rc != 1)
             return rc;
@@ -175,6 +175,8 @@ static int sim_collect(sim *s, pm_sim_result *r, pm_diag *diag)
         rc = sim_report_resources(s, r);
     if (!rc)
         rc = sim_report_chain(s, r);
+    if (!rc && s->pace)
+        rc = sim_pace_report(s, r);
     return rc;
 }
 
@@ -228,11 +230,13 @@ void pm_sim_result_free(pm_sim_result *r)
     free(r->critical);
     free(r->trace);
     free(r->transfers);
+    free(r->pace.releases);
     memset(r, 0, sizeof *r);
 }
 
 const char *pm_sim_cause_name(pm_sim_cause c)
 {
-    static const char *const names[] = { "start", "order", "edge", "bus", "fifo", "bus-busy" };
+    static const char *const names[] = { "start", "order", "edge", "bus", "fifo", "bus-busy",
+                                         "release" };
     return (unsigned)c < sizeof names / sizeof names[0] ? names[c] : "?";
 }

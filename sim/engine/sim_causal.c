@@ -304,6 +304,8 @@ static int sim_commit(sim *s, uint32_t c, uint32_t v, uint64_t k, int64_t x, uin
     if (__builtin_expect(k >= s->N, 0))
         return sim_commit_extra(s, c, v, k, x);
     sim_note_begin(s, v, k, x);
+    if (s->pace)
+        sim_pace_note(s, v, k, x);
     s->done[v]++;
     s->firings++;
     int64_t end = x + s->nd[v].end_off;
@@ -391,6 +393,11 @@ static int sim_run_core(sim *s, uint32_t c, pm_diag *diag)
             if (rc == 1 && (rc = sim_core_advanced(s, c, diag)) != 0)
                 return rc;
             continue; /* v had no iteration in this round */
+        }
+        if (s->pace) {
+            int64_t rel = sim_pace_release(s, v, k);
+            if (rel > x)
+                x = rel, cause = PM_CAUSE_RELEASE;
         }
         if (!sim_ready(s, c, v, k, &x, &cause))
             return PM_OK;

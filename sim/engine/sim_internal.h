@@ -191,6 +191,13 @@ typedef struct sim {
     size_t ntrace, trace_cap;
     pm_sim_transfer *tr;
     size_t ntr, tr_cap;
+    /* a paced run (sim_pace.c) and per-edge capacities */
+    const pm_sim_pace *pace;
+    bool caps;                   /* some edge has a capacity of its own */
+    uint32_t *pq, *pph;          /* per node: firings per iteration, which one */
+    bool *pin, *psink;           /* per node: input, sink */
+    int64_t *sink_end;           /* per iteration < N: last end of a sink firing */
+    uint64_t overruns, first_overrun;
 } sim;
 
 #define SIM_LBR (PM_SIM_MAX_CYCLICITY + 1)
@@ -377,6 +384,14 @@ int sim_loop_p2p(sim *s, pm_diag *diag);
 int sim_loop_causal(sim *s, pm_diag *diag);
 int sim_bq_init(sim_bq *b, uint32_t cores);
 void sim_bq_free(sim_bq *b, uint32_t cores);
+
+/* Paced runs (sim_pace.c): preparation, the release of (v,k), what a
+ * firing that began at x adds to latency and overruns, the result. */
+int sim_pace_init(sim *s, const pm_sim_opts *o, pm_diag *diag);
+void sim_pace_free(sim *s);
+int64_t sim_pace_release(const sim *s, uint32_t v, uint64_t k);
+void sim_pace_note(sim *s, uint32_t v, uint64_t k, int64_t x);
+int sim_pace_report(const sim *s, pm_sim_result *r);
 
 /* End-of-run analysis (sim_report.c). */
 int sim_report_steady(sim *s, pm_sim_result *r);

@@ -117,7 +117,7 @@ static void sim_lag_span(sim *s)
 }
 
 /* Cross-core edges get an xslot; every node gets its input list. */
-static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
+static int sim_build_edges(sim *s, const pm_sim_opts *o, pm_diag *diag)
 {
     const pm_graph *g = s->g;
     const pm_comm *cm = &g->platform.comm;
@@ -143,7 +143,8 @@ static int sim_build_edges(sim *s, uint32_t fifo_cap, pm_diag *diag)
             return PM_ERANGE;
         }
         x->cost = (int64_t)cost;
-        x->cap = fifo_cap ? (ed->delay > fifo_cap ? ed->delay : fifo_cap) : 0;
+        int64_t fc = o->edge_cap && o->edge_cap[e] ? o->edge_cap[e] : o->fifo_cap;
+        x->cap = fc ? (ed->delay > fc ? ed->delay : fc) : 0;
         if (x->cap && s->lags) /* room for the tokens the lags keep in flight too */
             x->cap = sim_lag_cap(s, ed, x->cap);
         if (x->cap > s->span)
@@ -196,7 +197,9 @@ static int sim_build_xlists(sim *s)
         return PM_ENOMEM;
     for (uint32_t i = 0; i < s->nx; i++) {
         const sim_x *x = &s->x[s->xout[i]];
-        s->fo[i] = (sim_fo){ x->dst, x->edge, (uint32_t)(x->cap - x->delay), s->xout[i], x->cost };
+        /* an unbounded edge among bounded ones never waits for room */
+        uint32_t back = x->cap ? (uint32_t)(x->cap - x->delay) : UINT32_MAX;
+        s->fo[i] = (sim_fo){ x->dst, x->edge, back, s->xout[i], x->cost };
     }
     return PM_OK;
 }
@@ -412,7 +415,9 @@ int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
     s->g = g, s->m = m, s->n = g->nnodes, s->P = m->ncores;
     s->N = o->iterations ? o->iterations : PM_SIM_DEFAULT_ITERATIONS;
     s->bus = g->platform.interconnect == PM_BUS;
-    s->fifo = o->fifo_cap > 0;
+    for (uint32_t e = 0; o->edge_cap && e < g->nedges; e++)
+        s->caps |= o->edge_cap[e] > 0;
+    s->fifo = o->fifo_cap > 0 || s->caps;
     s->record = o->record;
     for (uint32_t v = 0; v < s->n; v++)
         s->lag_max = m->lag[v] > s->lag_max ? m->lag[v] : s->lag_max;
@@ -427,7 +432,7 @@ int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
         rc = sim_node_times(s, o, diag);
     if (rc)
         return rc;
-    rc = sim_build_edges(s, o->fifo_cap, diag);
+    rc = sim_build_edges(s, o, diag);
     if (!rc && s->lags)
         sim_lag_span(s);
     if (!rc)
@@ -441,6 +446,8 @@ int sim_init(sim *s, const pm_graph *g, const pm_map *m, const pm_sim_opts *o,
     if (rc)
         return rc;
     rc = sim_check_range(s, diag);
+    if (!rc && o->pace)
+        rc = sim_pace_init(s, o, diag);
     if (!rc)
         rc = sim_ring_fit(s, diag);
     if (!rc)
@@ -458,6 +465,7 @@ void sim_free(sim *s)
     for (size_t i = 0; i < sizeof ps / sizeof ps[0]; i++)
         free(ps[i]);
     sim_bq_free(&s->pend, s->P);
+    sim_pace_free(s);
     if (s->occ)
         for (uint32_t i = 0; i < s->nx; i++)
             free(s->occ[i].q);

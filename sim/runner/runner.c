@@ -344,6 +344,8 @@ int pm_runner_execute(const pm_graph *g, const pm_map *m, const pm_runner_config
         runner_collect(&x);
         if (out->stalled)
             rc = PM_EDEADLOCK;
+        else if (cfg->pace)
+            rc = runner_paced_collect(&x);
     } else {
         pm_runner_result_free(out);
     }

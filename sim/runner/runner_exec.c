@@ -132,6 +132,8 @@ static void runner_keep_output(runner_thread *th, uint32_t v, uint64_t k)
 static bool runner_fire(runner_thread *th, uint32_t v, uint64_t k)
 {
     runner_ctx *x = th->x;
+    if (x->cfg->pace)
+        runner_pace_wait(th, v, k);
     if (!runner_gather(th, v, k))
         return false;
     int64_t t1 = runner_now();

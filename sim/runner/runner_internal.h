@@ -123,6 +123,11 @@ bool runner_is_end(const pm_graph *g, uint32_t v, bool out);
 int runner_setup(runner_ctx *x);
 void runner_teardown(runner_ctx *x);
 
+/* Paced runs (runner_paced.c): the host time of iteration k's release
+ * after t0, the wait for it, the paced statistics of a finished run. */
+int64_t runner_release_ns(const runner_ctx *x, uint32_t v, uint64_t k);
+void runner_pace_wait(runner_thread *th, uint32_t v, uint64_t k);
+int runner_paced_collect(runner_ctx *x);
 /* Start the threads, watch them, join them; x->r->stalled says whether
  * they had to be stopped.  PM_EPLATFORM when a thread cannot start. */
 int runner_threads(runner_ctx *x);

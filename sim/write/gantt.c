@@ -302,7 +302,26 @@ static void sv_caution_line(FILE *out, const char *s, int n, int index, const vo
     fputs("</text>\n", out);
 }
 
-int pm_gantt_write_svg(const pm_gantt *c, FILE *out)
+/* Dashed vertical marks across the lanes (a paced run's releases), each
+ * labelled with its index above the lanes; marks past the chart's span are
+ * left out. */
+static void sv_marks(const pm_gantt *c, const int64_t *marks, size_t n, FILE *out,
+                     int64_t span)
+{
+    double y0 = SV_TOP - 6, y1 = sv_lane_y(c->nlanes) - SV_GAP;
+    for (size_t i = 0; i < n; i++) {
+        if (marks[i] < 0 || marks[i] > span)
+            continue;
+        double x = sv_x(marks[i], span);
+        fprintf(out, "<g class=\"release\"><title>release %zu at %lld</title>"
+                     "<line x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" y2=\"%.2f\" stroke=\"#555\" "
+                     "stroke-dasharray=\"3,3\"/><text x=\"%.2f\" y=\"%.2f\" font-size=\"9\">"
+                     "%zu</text></g>\n",
+                i, (long long)marks[i], x, y0, x, y1, x + 2, y0 - 2, i);
+    }
+}
+
+static int sv_write(const pm_gantt *c, const int64_t *marks, size_t nmarks, FILE *out)
 {
     if (!gantt_valid(c))
         return PM_EINVAL;
@@ -326,6 +345,7 @@ int pm_gantt_write_svg(const pm_gantt *c, FILE *out)
     sv_lanes(c, out);
     sv_boxes(c, out, span);
     sv_arrows(c, out, span);
+    sv_marks(c, marks, nmarks, out, span);
     sv_axis(c, out, span, axis_y);
     if (c->caution) {
         double y0 = axis_y + (c->clock_hz ? 40 : 26) + 12;
@@ -333,4 +353,14 @@ int pm_gantt_write_svg(const pm_gantt *c, FILE *out)
     }
     fputs("</svg>\n", out);
     return ferror(out) ? PM_EIO : PM_OK;
+}
+
+int pm_gantt_write_svg(const pm_gantt *c, FILE *out)
+{
+    return sv_write(c, NULL, 0, out);
+}
+
+int pm_gantt_write_svg_marked(const pm_gantt *c, const int64_t *marks, size_t nmarks, FILE *out)
+{
+    return sv_write(c, marks, nmarks, out);
 }

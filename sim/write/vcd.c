@@ -25,6 +25,7 @@ typedef struct vcd {
     size_t n, cap;
     uint32_t ncores, nx, nvars;
     uint32_t *xvar;   /* edge -> variable, or UINT32_MAX */
+    uint32_t rel_var; /* paced runs: the `release` variable, else UINT32_MAX */
 } vcd;
 
 static int vcd_add(vcd *v, int64_t time, uint32_t var, uint32_t kind, int64_t value)
@@ -79,6 +80,31 @@ static int vcd_firing_changes(vcd *v, const pm_graph *g, const pm_sim_firing *f)
     return rc;
 }
 
+/* A paced run's releases: `release` holds the number (from 1) of the last
+ * sample that arrived. */
+static int vcd_release_changes(vcd *v, const pm_sim_result *r)
+{
+    v->rel_var = UINT32_MAX;
+    if (!r->pace.on || !r->pace.nreleases)
+        return PM_OK;
+    v->rel_var = v->nvars++;
+    int rc = PM_OK;
+    const int64_t *t = r->pace.releases;
+    for (uint32_t k = 0; k < r->pace.nreleases && !rc; k++)
+        if (k + 1 == r->pace.nreleases || t[k + 1] != t[k]) /* one change per time */
+            rc = vcd_add(v, t[k], v->rel_var, 1, (int64_t)k + 1);
+    return rc;
+}
+
+static void vcd_release_header(const vcd *v, FILE *out)
+{
+    char id[8];
+    if (v->rel_var == UINT32_MAX)
+        return;
+    vcd_id(v->rel_var, id);
+    fprintf(out, "$var integer 32 %s release $end\n", id);
+}
+
 static void vcd_header(const vcd *v, const pm_graph *g, FILE *out)
 {
     char id[8];
@@ -101,6 +127,7 @@ static void vcd_header(const vcd *v, const pm_graph *g, FILE *out)
             fprintf(out, "$var integer 32 %s %s__%s $end\n", id,
                     pm_graph_node_name(g, g->edges[e].src), pm_graph_node_name(g, g->edges[e].dst));
         }
+    vcd_release_header(v, out);
     fprintf(out, "$upscope $end\n$enddefinitions $end\n");
 }
 
@@ -176,13 +203,15 @@ static int vcd_build(vcd *v, const pm_graph *g, const pm_map *m, const pm_sim_re
     for (uint32_t e = 0; e < g->nedges; e++)
         v->xvar[e] = m->core_of[g->edges[e].src] != m->core_of[g->edges[e].dst] ? v->nvars++
                                                                                  : UINT32_MAX;
+    int rc = vcd_release_changes(v, r);
+    if (rc)
+        return rc;
     *init = calloc(v->nvars + 1, sizeof **init);
     if (!*init)
         return PM_ENOMEM;
     for (uint32_t e = 0; e < g->nedges; e++)
         if (v->xvar[e] != UINT32_MAX)
             (*init)[v->xvar[e]] = g->edges[e].delay;
-    int rc = PM_OK;
     for (size_t i = 0; i < r->ntrace && !rc; i++)
         rc = vcd_firing_changes(v, g, &r->trace[i]);
     if (!rc && v->n)
