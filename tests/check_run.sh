@@ -35,13 +35,16 @@ printf 'core 0: a\ncore 1: b\n' > "$tmp/two.map"
 "$PM_BIN" run "$tmp/two.pace" --map "$tmp/two.map" -n 30 --oversubscribe > "$tmp/out.txt" \
     || fail "run --map failed"
 grep -q "bit-identical" "$tmp/out.txt" || fail "outputs not reported identical"
-grep -q "core 1 .*-> PU" "$tmp/out.txt" || fail "PU choice not printed"
+grep -q "core 1: processing unit [0-9]* on physical core" "$tmp/out.txt" \
+    || fail "PU choice not printed in plain words"
+grep -q "L#" "$tmp/out.txt" && fail "topology written in borrowed notation"
 
 # pinning refused (hwloc told this is not the running system): a warning,
 # the run goes on unpinned and the report says so
 HWLOC_THISSYSTEM=0 "$PM_BIN" run "$tmp/two.pace" -n 20 --oversubscribe > "$tmp/out.txt" \
     2> "$tmp/err.txt" || fail "unpinned run failed"
-grep -q "warning: .*unpinned" "$tmp/err.txt" || fail "no pinning warning"
+grep -q "^pacemap: warning: .*unpinned.*--cores" "$tmp/err.txt" || fail "no pinning warning"
+grep -q "pace:[0-9]*:[0-9]*:" "$tmp/err.txt" && fail "pinning refused given a scenario position"
 grep -q "NOT pinned" "$tmp/out.txt" || fail "report does not say unpinned"
 
 # an affinity mask narrows the PUs: one PU for two map cores is an error
@@ -51,6 +54,8 @@ if command -v taskset > /dev/null 2>&1; then
         taskset -c "$first" "$PM_BIN" run "$tmp/two.pace" 2> "$tmp/err.txt"
         [ $? -eq 1 ] || fail "affinity of one PU: wrong exit status"
         grep -q "only 1 processing unit is available" "$tmp/err.txt" || fail "mask ignored"
+        grep -q "^pacemap: error: run: .*oversubscribe" "$tmp/err.txt" \
+            || fail "host problem not a plain pacemap error saying what to do"
     fi
 fi
 
@@ -58,6 +63,8 @@ fi
 "$PM_BIN" run "$tmp/two.pace" --cores 0 2> "$tmp/err.txt"
 [ $? -eq 1 ] || fail "too few PUs: wrong exit status"
 grep -q "2 cores but only 1 processing unit" "$tmp/err.txt" || fail "counts not named"
+grep -q "^pacemap: error: " "$tmp/err.txt" || fail "too few PUs: not a plain host error"
+grep -q "pace:[0-9]*:[0-9]*:" "$tmp/err.txt" && fail "host problem given a scenario position"
 
 # a map whose core order waits on itself: refused before running, exit 1
 cat > "$tmp/dl.pace" <<'PACE'

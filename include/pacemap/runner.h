@@ -59,6 +59,13 @@ typedef struct pm_runner_config {
     const uint32_t *pu;     /* map core c runs on PU pu[c] (OS index); with topo */
     bool yield;             /* sched_yield while waiting (PUs shared or busy host) */
     bool record_outputs;    /* keep every sink block in the result */
+    bool cpu_time;          /* also time each firing on the thread's CPU clock
+                               (CLOCK_THREAD_CPUTIME_ID): busy then counts only
+                               the time the thread ran (PUs shared) */
+    int64_t (*clock)(void *ctx); /* NULL = CLOCK_MONOTONIC in ns; else the
+                               nanosecond clock of timestamps and calibration
+                               (tests inject a synthetic host); thread-safe */
+    void *clock_ctx;
 } pm_runner_config;
 
 /* Defaults: 1000 iterations, 100 warm-up, PM_RUNNER_BLOCK, auto rings,
@@ -79,8 +86,13 @@ typedef struct pm_runner_result {
     uint32_t iterations, warmup;
     double period_ns_median, period_ns_p99, period_ns_mean;
     double latency_ns_median, latency_ns_p99; /* first source start to last sink end */
-    double *busy;           /* ncores: share of the measured window spent firing */
-    double *node_ns;        /* nnodes: median firing time (kernel + outputs) */
+    double *busy;           /* ncores: share of the measured window spent firing
+                               (kernel and ring operations, not waiting); with
+                               cpu_time only the time the thread ran; <= 1 */
+    double *work;           /* ncores: share of the window in node kernels */
+    double *wait;           /* ncores: share of the window waiting on rings */
+    double *node_ns;        /* nnodes: median kernel time of a firing in the run */
+    double *fire_ns;        /* nnodes: median firing time, kernel + outputs sent */
     bool *pinned;           /* ncores: the thread was bound to its PU */
     uint64_t *tokens;       /* nedges: tokens consumed */
     uint32_t *remaining;    /* nedges: tokens left in the channel at the end */

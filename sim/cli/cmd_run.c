@@ -137,32 +137,37 @@ static int cr_make_map(cr_state *s)
     return CLI_EXIT_OK;
 }
 
+/* A problem of this host, not of the scenario: one line without a file
+ * position, exit 1 (cli_usage_error prints the bare "pacemap: error:"). */
+static int cr_host_error(const char *what)
+{
+    cli_usage_error("run: %s", what);
+    return CLI_EXIT_INPUT;
+}
+
 static int cr_choose_pus(cr_state *s)
 {
     pm_diag d;
     pm_diag_clear(&d);
     uint32_t *list = NULL, n = 0;
     int rc = pm_topo_create(NULL, &s->topo);
-    if (rc != PM_OK) {
-        pm_diag_set(&d, "pacemap", 0, 0, "hwloc cannot read this machine's topology");
-        cli_error(&d);
-        return CLI_EXIT_INPUT;
-    }
+    if (rc != PM_OK)
+        return cr_host_error("hwloc cannot read this machine's topology; check that "
+                             "/sys is mounted and readable, or run on another host");
     if (s->o.cores && (rc = pm_topo_parse_list(s->o.cores, &list, &n, &d)) != PM_OK) {
         cli_usage_error("run: --cores '%s': %s", s->o.cores, d.msg);
         return CLI_EXIT_USAGE;
     }
     rc = pm_topo_choose(s->topo, s->m->ncores, list, n, s->o.oversubscribe, &s->pus, &d);
     free(list);
-    if (rc != PM_OK) {
-        pm_diag d2 = d;
-        pm_diag_set(&d2, s->g->file, 0, 0, "%s", d.msg);
-        cli_error(&d2);
+    if (rc == PM_ENOMEM)
         return cli_exit_for(rc);
-    }
+    if (rc != PM_OK)
+        return cr_host_error(d.msg);
     s->cfg.topo = s->topo;
     s->cfg.pu = s->pus.pu;
     s->cfg.yield = s->pus.shared;
+    s->cfg.cpu_time = s->pus.shared; /* shared PUs: count only the time a thread ran */
     return CLI_EXIT_OK;
 }
 
@@ -321,7 +326,7 @@ static void cr_text_setup(const cr_state *s)
            s->scheduled_map ? "from the list scheduler" : s->o.map);
     printf("processing units: %s\n", s->pus.summary);
     for (uint32_t c = 0; c < s->pus.n; c++)
-        printf("  core %-3u -> PU %-4u %s\n", c, s->pus.pu[c], s->pus.why[c]);
+        printf("  core %u: processing unit %u %s\n", c, s->pus.pu[c], s->pus.why[c]);
     printf("spin calibration: %.3f busy-loop turns per ns; 1 node cycle = %.4g ns",
            s->cfg.turns_per_ns, s->cfg.ns_per_cycle);
     if (p->clock_hz && !s->o.nspc)
@@ -482,7 +487,8 @@ static int cr_steps(cr_state *s)
         return st;
     if (!cr_all_pinned(s))
         cli_warning("run: the system refused to pin threads (restricted cpuset or "
-                    "container?); ran unpinned");
+                    "container?); ran unpinned, so times may include migrations: run where "
+                    "thread affinity is allowed, or pick allowed units with --cores");
     if (s->o.json) {
         cr_json(s);
     } else {

@@ -239,18 +239,42 @@ static void runner_latency(runner_ctx *x, double *tmp)
     x->r->latency_ns_p99 = runner_quantile(tmp, cnt, 0.99);
 }
 
+/* Length of [a, b) inside [from, to). */
+static int64_t runner_clip(int64_t a, int64_t b, int64_t from, int64_t to)
+{
+    a = a > from ? a : from;
+    b = b < to ? b : to;
+    return b > a ? b - a : 0;
+}
+
+/* Busy, work and wait shares of the measured window per core.  A core's
+ * firings never overlap, so clipped to the window they sum to at most
+ * the window; with cpu_time each firing counts only the share of it the
+ * thread was on a processing unit. */
 static void runner_busy(runner_ctx *x)
 {
     pm_runner_result *r = x->r;
     uint32_t n = x->g->nnodes, w = r->warmup;
     int64_t from = w > 0 ? runner_span(x, w - 1u, NULL, 0, false) : runner_span(x, 0, NULL, 0, true);
-    double window = (double)(runner_span(x, x->total - 1u, NULL, 0, false) - from);
-    for (uint32_t c = 0; c < r->ncores; c++) {
-        int64_t sum = 0;
+    int64_t to = runner_span(x, x->total - 1u, NULL, 0, false);
+    double window = (double)(to - from);
+    for (uint32_t c = 0; c < r->ncores && window > 0; c++) {
+        double busy = 0, work = 0;
         for (uint64_t k = w; k < x->total; k++)
-            for (uint32_t i = x->m->off[c]; i < x->m->off[c + 1]; i++)
-                sum += x->end[k * n + x->m->order[i]] - x->start[k * n + x->m->order[i]];
-        r->busy[c] = window > 0 ? (double)sum / window : 0.0;
+            for (uint32_t i = x->m->off[c]; i < x->m->off[c + 1]; i++) {
+                size_t at = k * n + x->m->order[i];
+                int64_t wall = x->end[at] - x->start[at];
+                double ran = x->cpu && wall > 0 && x->cpu[at] < wall
+                           ? (double)x->cpu[at] / (double)wall : 1.0;
+                busy += ran * (double)runner_clip(x->start[at], x->end[at], from, to);
+                work += ran * (double)runner_clip(x->start[at], x->kend[at], from, to);
+            }
+        r->busy[c] = busy / window;
+        r->work[c] = work / window;
+        /* waits of the measured iterations may begin before the window
+         * opens: never more than the window left after the firings */
+        double wait = (double)x->th[c].wait_ns / window;
+        r->wait[c] = wait < 1.0 - r->busy[c] ? wait : 1.0 - r->busy[c];
     }
 }
 
@@ -260,8 +284,12 @@ static void runner_node_times(runner_ctx *x, double *tmp)
     for (uint32_t v = 0; v < n; v++) {
         uint32_t cnt = 0;
         for (uint64_t k = x->r->warmup; k < x->total; k++)
-            tmp[cnt++] = (double)(x->end[k * n + v] - x->start[k * n + v]);
+            tmp[cnt++] = (double)(x->kend[k * n + v] - x->start[k * n + v]);
         x->r->node_ns[v] = runner_quantile(tmp, cnt, 0.5);
+        cnt = 0;
+        for (uint64_t k = x->r->warmup; k < x->total; k++)
+            tmp[cnt++] = (double)(x->end[k * n + v] - x->start[k * n + v]);
+        x->r->fire_ns[v] = runner_quantile(tmp, cnt, 0.5);
     }
 }
 

@@ -58,11 +58,18 @@ static void *runner_wait(runner_thread *th, uint32_t v, uint32_t e, uint64_t k, 
 {
     runner_ctx *x = th->x;
     runner_chan *c = &x->chan[e];
+    int64_t since = 0;
     for (uint64_t s = 0;; s++) {
         void *p = for_space ? runner_chan_claim(c, x->bytes)
                             : (void *)(uintptr_t)runner_chan_peek(c, x->bytes);
-        if (p)
+        if (p) {
+            /* the clock is read only when the ring was not ready at once */
+            if (s > 0 && k >= x->cfg->warmup)
+                th->wait_ns += runner_clock(x->cfg) - since;
             return p;
+        }
+        if (s == 0)
+            since = runner_clock(x->cfg);
         if (!c->ring)
             atomic_store(&x->stop, true);
         if (atomic_load_explicit(&x->stop, memory_order_relaxed)) {
@@ -102,19 +109,38 @@ static bool runner_gather(runner_thread *th, uint32_t v, uint64_t k)
     return true;
 }
 
+/* Publish the filled ring slots of v's out-edges [from, to). */
+static void runner_publish(runner_ctx *x, uint32_t from, uint32_t to)
+{
+    for (uint32_t i = from; i < to; i++)
+        if (x->chan[x->g->out_edge[i]].ring)
+            pm_ring_push(x->chan[x->g->out_edge[i]].ring);
+}
+
+/* Fill a slot on every out-edge, then publish the ring slots together, so
+ * each ring's head line moves once, after the copies (batched pushes).
+ * Before waiting for room, what is filled is published: a consumer may
+ * need it to make that room. */
 static bool runner_scatter(runner_thread *th, uint32_t v, uint64_t k)
 {
     runner_ctx *x = th->x;
     const pm_graph *g = x->g;
+    uint32_t pending = g->out_off[v];
     for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
         uint32_t e = g->out_edge[i];
-        runner_token *t = runner_wait(th, v, e, k, true);
-        if (!t)
-            return false;
+        runner_token *t = runner_chan_claim(&x->chan[e], x->bytes);
+        if (!t) {
+            runner_publish(x, pending, i);
+            pending = i;
+            if (!(t = runner_wait(th, v, e, k, true)))
+                return false;
+        }
         t->seq = (int64_t)k;
         memcpy(t->data, th->out, x->cfg->block * sizeof *t->data);
-        runner_chan_push(&x->chan[e]);
+        if (!x->chan[e].ring)
+            runner_chan_push(&x->chan[e]);
     }
+    runner_publish(x, pending, g->out_off[v + 1]);
     return true;
 }
 
@@ -134,13 +160,19 @@ static bool runner_fire(runner_thread *th, uint32_t v, uint64_t k)
     runner_ctx *x = th->x;
     if (!runner_gather(th, v, k))
         return false;
-    int64_t t1 = runner_now();
+    const pm_runner_config *cfg = x->cfg;
+    int64_t c1 = cfg->cpu_time ? runner_cpu_now() : 0;
+    int64_t t1 = runner_clock(cfg);
     pm_kernel_process(x->kern[v], th->in, th->out);
+    int64_t t2 = runner_clock(cfg);
     if (!runner_scatter(th, v, k))
         return false;
     size_t at = (size_t)k * x->g->nnodes + v;
     x->start[at] = t1 - x->t0;
-    x->end[at] = runner_now() - x->t0;
+    x->kend[at] = t2 - x->t0;
+    x->end[at] = runner_clock(cfg) - x->t0;
+    if (cfg->cpu_time)
+        x->cpu[at] = runner_cpu_now() - c1;
     runner_keep_output(th, v, k);
     atomic_store_explicit(&th->fired, atomic_load_explicit(&th->fired, memory_order_relaxed) + 1u,
                           memory_order_relaxed);
@@ -284,12 +316,16 @@ static int runner_alloc_result(runner_ctx *x)
     r->iterations = x->cfg->iterations;
     r->warmup = x->cfg->warmup;
     r->busy = calloc(r->ncores, sizeof *r->busy);
+    r->work = calloc(r->ncores, sizeof *r->work);
+    r->wait = calloc(r->ncores, sizeof *r->wait);
     r->node_ns = calloc(g->nnodes ? g->nnodes : 1, sizeof *r->node_ns);
+    r->fire_ns = calloc(g->nnodes ? g->nnodes : 1, sizeof *r->fire_ns);
     r->pinned = calloc(r->ncores, sizeof *r->pinned);
     r->waits = calloc(r->ncores, sizeof *r->waits);
     r->tokens = calloc(g->nedges ? g->nedges : 1, sizeof *r->tokens);
     r->remaining = calloc(g->nedges ? g->nedges : 1, sizeof *r->remaining);
-    if (!r->busy || !r->node_ns || !r->pinned || !r->waits || !r->tokens || !r->remaining)
+    if (!r->busy || !r->work || !r->wait || !r->node_ns || !r->fire_ns || !r->pinned ||
+        !r->waits || !r->tokens || !r->remaining)
         return PM_ENOMEM;
     return runner_pick_sinks(x);
 }
@@ -325,7 +361,10 @@ int runner_setup(runner_ctx *x)
     x->kern = calloc(n, sizeof *x->kern);
     x->start = calloc(recs, sizeof *x->start);
     x->end = calloc(recs, sizeof *x->end);
-    if (!x->chan || !x->kern || !x->start || !x->end)
+    x->kend = calloc(recs, sizeof *x->kend);
+    x->cpu = x->cfg->cpu_time ? calloc(recs, sizeof *x->cpu) : NULL;
+    if (!x->chan || !x->kern || !x->start || !x->end || !x->kend ||
+        (x->cfg->cpu_time && !x->cpu))
         return PM_ENOMEM;
     int rc = runner_alloc_result(x);
     for (uint32_t e = 0; rc == PM_OK && e < g->nedges; e++)
@@ -353,6 +392,8 @@ void runner_teardown(runner_ctx *x)
     free(x->kern);
     free(x->start);
     free(x->end);
+    free(x->kend);
+    free(x->cpu);
     free(x->sink_slot);
     free(x->is_source);
     free(x->sink_hash);
@@ -363,7 +404,10 @@ void pm_runner_result_free(pm_runner_result *r)
     if (!r)
         return;
     free(r->busy);
+    free(r->work);
+    free(r->wait);
     free(r->node_ns);
+    free(r->fire_ns);
     free(r->pinned);
     free(r->tokens);
     free(r->remaining);
@@ -422,7 +466,7 @@ int runner_threads(runner_ctx *x)
         else
             x->th[c].started = true;
     }
-    x->t0 = runner_now();
+    x->t0 = runner_clock(x->cfg);
     atomic_store(&x->go, rc == PM_OK ? 1 : -1);
     bool stalled = rc == PM_OK && runner_watch(x);
     for (uint32_t c = 0; c < nc; c++)

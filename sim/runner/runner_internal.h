@@ -30,6 +30,20 @@ static inline int64_t runner_now(void)
     return (int64_t)ts.tv_sec * 1000000000 + ts.tv_nsec;
 }
 
+/* The run's clock: the injected one, else the monotonic clock. */
+static inline int64_t runner_clock(const pm_runner_config *cfg)
+{
+    return cfg->clock ? cfg->clock(cfg->clock_ctx) : runner_now();
+}
+
+/* This thread's CPU time in nanoseconds (time it really ran). */
+static inline int64_t runner_cpu_now(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
+    return (int64_t)ts.tv_sec * 1000000000 + ts.tv_nsec;
+}
+
 /* Nearest-rank quantile q in [0,1] of v[0..n) (sorts v). */
 double runner_quantile(double *v, size_t n, double q);
 
@@ -92,6 +106,7 @@ typedef struct runner_thread {
     _Atomic bool finished;
     float *in, *out;         /* block buffers */
     uint64_t order_errors;
+    int64_t wait_ns;         /* time spent waiting on rings, measured iterations */
     pm_runner_wait wait;
 } runner_thread;
 
@@ -104,6 +119,8 @@ struct runner_ctx {
     runner_chan *chan;          /* nedges */
     pm_kernel **kern;        /* nnodes */
     int64_t *start, *end;    /* [iteration][node], ns since t0 */
+    int64_t *kend;           /* [iteration][node]: end of the kernel, before outputs */
+    int64_t *cpu;            /* [iteration][node]: thread CPU ns of the firing (cpu_time) */
     int64_t t0;
     uint32_t *sink_slot;     /* node -> index in result sinks, PM_NONE */
     bool *is_source;         /* node has no in-edge from another node */
