@@ -26,7 +26,7 @@
 typedef struct cr_opts {
     uint32_t procs, iters, warmup, ring, block, watchdog;
     bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
-    bool oversubscribe, json, no_refine;
+    bool oversubscribe, json, no_refine, host_map;
     const char *map, *cores, *nspc;
     const char *file;
 } cr_opts;
@@ -44,7 +44,10 @@ typedef struct cr_state {
     double *node_ns;
     uint32_t *depth, *cap;    /* per edge: model buffer depth, ring slots */
     double handoff, handoff_p99, predicted;
-    double predicted_in_run;  /* the model again, with the in-run firing times */
+    double predicted_in_run;  /* the model again, with the in-run kernel times */
+    pm_host_costs host;       /* the runner's own costs on this host */
+    double scn_map_predicted; /* --host-map: the scenario's map under the host's costs */
+    pm_runner_share *share;   /* ncores: the model's breakdown of the period */
     pm_runner_result res;
     bool outputs_match;
 } cr_state;
@@ -63,6 +66,8 @@ static int cr_parse(cr_opts *o, int argc, char **argv)
          "use these processing units (OS indices, e.g. 0,2-3)", "LIST"},
         {"--oversubscribe", NULL, CLI_FLAG, &o->oversubscribe, NULL,
          "allow more map cores than processing units", NULL},
+        {"--host-map", NULL, CLI_FLAG, &o->host_map, NULL,
+         "map again with this host's measured costs and run that map", NULL},
         {"--no-refine", NULL, CLI_FLAG, &o->no_refine, NULL,
          "use the list schedule's map as it is (no search for a lower period)", NULL},
         {"--ring", NULL, CLI_U32, &o->ring, &o->ring_set,
@@ -77,7 +82,7 @@ static int cr_parse(cr_opts *o, int argc, char **argv)
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
     };
     const cli_cmd cmd = {"run", "FILE -p N [-n ITER] [--map F] [--cores LIST] "
-                                "[--oversubscribe] [--ring N] [--json]",
+                                "[--oversubscribe] [--host-map] [--ring N] [--json]",
                          "Run the map with pinned threads on this host's cores and compare "
                          "the measured period with the predicted one.", opts};
     return cli_parse(&cmd, argc, argv, &o->file);
@@ -202,25 +207,91 @@ static void cr_ring_sizes(cr_state *s)
     s->cfg.edge_capacity = s->cap;
 }
 
-static int cr_measure(cr_state *s)
+/* Host cycles of node v: its time alone plus the runner's costs, in the
+ * scenario's cycles at its clock (at least 0). */
+static int64_t cr_host_cycles(const cr_state *s, double ns)
 {
-    pm_diag d;
-    pm_diag_clear(&d);
+    double c = ns / s->cfg.ns_per_cycle;
+    return c < 0.5 ? 0 : c > 1e15 ? (int64_t)1e15 : (int64_t)llround(c);
+}
+
+/* --host-map: map p->graph again with the nodes' host times and the
+ * host's comm costs (a copy of the graph; the scenario is not changed),
+ * keep the scenario's map's prediction for the comparison, run the new
+ * map.  Needs identical cores: per-class cycles have no single host time. */
+static int cr_host_map(cr_state *s, pm_diag *d)
+{
+    const pm_graph *g = s->g;
+    if (g->platform.nclasses > 1) {
+        pm_diag_set(d, g->file, 0, 0, "run --host-map needs identical cores; this scenario "
+                    "declares %u core classes", g->platform.nclasses);
+        return PM_EUNSUPPORTED;
+    }
+    int rc = pm_runner_predict_host(g, s->m, s->node_ns, &s->host, 0, &s->scn_map_predicted,
+                                    NULL, d);
+    pm_graph hg = *g;
+    hg.nodes = malloc((g->nnodes ? g->nnodes : 1) * sizeof *hg.nodes);
+    if (rc == PM_OK && !hg.nodes)
+        rc = PM_ENOMEM;
+    for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++) {
+        hg.nodes[v] = g->nodes[v];
+        hg.nodes[v].cycles = cr_host_cycles(s, pm_runner_host_node_ns(g, &s->host, s->node_ns, v));
+        hg.nodes[v].class_cycles = PM_NONE;
+    }
+    double lat, snd, rcv;
+    pm_runner_host_comm(&s->host, &lat, &snd, &rcv);
+    hg.platform.comm = (pm_comm){cr_host_cycles(s, lat), 0, cr_host_cycles(s, snd),
+                                 cr_host_cycles(s, rcv)};
+    hg.platform.interconnect = PM_P2P;
+    pm_plan hp = s->scn;
+    hp.graph = &hg;
+    if (!hp.multirate)
+        hp.source = &hg;
+    pm_plan_opts po = {.refine = !s->o.no_refine};
+    pm_map *hm = NULL;
+    if (rc == PM_OK)
+        rc = pm_plan_map(&hp, &po, NULL, &hm, d);
+    free(hg.nodes);
+    if (rc == PM_OK) {
+        pm_map_destroy(s->m);
+        s->m = hm;
+    }
+    return rc;
+}
+
+/* Calibrate the busy loop, time each node alone, measure the runner's own
+ * costs on the first two PUs. */
+static int cr_calibrate(cr_state *s)
+{
     int rc = pm_runner_calibrate(&s->cfg.turns_per_ns);
     s->main_pinned = pm_topo_bind_thread(s->topo, s->pus.pu[0]) == PM_OK;
     s->node_ns = calloc(s->g->nnodes ? s->g->nnodes : 1, sizeof *s->node_ns);
     if (rc == PM_OK)
         rc = s->node_ns ? pm_runner_node_times(s->g, s->m, &s->cfg, 15, s->node_ns) : PM_ENOMEM;
-    if (rc == PM_OK && s->m->ncores > 1)
-        rc = pm_runner_handoff(&s->cfg, s->pus.pu[0], s->pus.pu[1], 2000, &s->handoff,
-                            &s->handoff_p99, &s->handoff_pinned);
+    if (rc == PM_OK)
+        rc = pm_runner_host_costs(&s->cfg, s->pus.pu[0],
+                                  s->m->ncores > 1 ? s->pus.pu[1] : PM_NONE, 2000, &s->host);
+    s->handoff = s->host.latency_idle.median;
+    s->handoff_p99 = s->host.latency_idle.p99;
+    s->handoff_pinned = s->host.pinned || s->m->ncores < 2;
+    return rc;
+}
+
+static int cr_measure(cr_state *s)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = cr_calibrate(s);
     s->depth = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->depth);
     s->cap = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->cap);
-    if (rc == PM_OK && (!s->depth || !s->cap))
+    s->share = calloc(s->m->ncores, sizeof *s->share);
+    if (rc == PM_OK && (!s->depth || !s->cap || !s->share))
         rc = PM_ENOMEM;
+    if (rc == PM_OK && s->o.host_map)
+        rc = cr_host_map(s, &d);
     if (rc == PM_OK)
-        rc = pm_runner_predict(s->g, s->m, s->node_ns, s->handoff, s->o.ring_set ? s->o.ring : 0,
-                            &s->predicted, s->depth, &d);
+        rc = pm_runner_predict_host(s->g, s->m, s->node_ns, &s->host,
+                                    s->o.ring_set ? s->o.ring : 0, &s->predicted, s->depth, &d);
     cr_watchdog_fit(s);
     cr_ring_sizes(s);
     if (rc != PM_OK) {
@@ -275,10 +346,12 @@ static int cr_execute(cr_state *s)
         c.pu = s->pus.pu; /* the single thread goes on the first PU */
         rc = pm_runner_execute(s->g, serial, &c, &one);
     }
-    if (rc == PM_OK && pm_runner_predict(s->g, s->m, s->res.node_ns, s->handoff,
-                                         s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
-                                         NULL, NULL) != PM_OK)
+    if (rc == PM_OK && pm_runner_predict_host(s->g, s->m, s->res.node_ns, &s->host,
+                                              s->o.ring_set ? s->o.ring : 0,
+                                              &s->predicted_in_run, NULL, NULL) != PM_OK)
         s->predicted_in_run = 0;
+    if (rc == PM_OK)
+        pm_runner_breakdown(s->g, s->m, s->node_ns, &s->host, s->predicted, s->share);
     if (rc == PM_OK)
         s->outputs_match = one.output_hash == s->res.output_hash &&
                            s->res.order_errors == 0;
@@ -323,7 +396,8 @@ static void cr_text_setup(const cr_state *s)
     printf("run %s%s%s%s\n", s->o.file, p->title ? " \"" : "", p->title ? p->title : "",
            p->title ? "\"" : "");
     printf("map: %u core%s, %s\n", s->m->ncores, s->m->ncores == 1 ? "" : "s",
-           s->scheduled_map ? "from the list scheduler" : s->o.map);
+           s->o.host_map ? "mapped again with this host's costs (--host-map)"
+           : s->scheduled_map ? "from the list scheduler" : s->o.map);
     printf("processing units: %s\n", s->pus.summary);
     for (uint32_t c = 0; c < s->pus.n; c++)
         printf("  core %u: processing unit %u %s\n", c, s->pus.pu[c], s->pus.why[c]);
@@ -332,27 +406,96 @@ static void cr_text_setup(const cr_state *s)
     if (p->clock_hz && !s->o.nspc)
         printf(" (clock %.6g MHz)", (double)p->clock_hz / 1e6);
     printf("\n");
-    if (s->m->ncores > 1)
-        printf("handoff PU %u -> PU %u: median %.0f ns, p99 %.0f ns (ring ping-pong, half "
-               "the round trip)\n", s->pus.pu[0], s->pus.pu[1], s->handoff, s->handoff_p99);
+}
+
+/* ns and cycles at the scenario's clock, as "123 ns = 49.2 cyc". */
+static void cr_cost(const cr_state *s, const char *what, pm_host_stat st)
+{
+    printf("  %-34s %8.1f ns %8.1f cyc   p99 %8.1f ns %8.1f cyc\n", what, st.median,
+           st.median / s->cfg.ns_per_cycle, st.p99, st.p99 / s->cfg.ns_per_cycle);
+}
+
+static void cr_text_host(const cr_state *s)
+{
+    const pm_host_costs *h = &s->host;
+    printf("\nhost costs of the runner (median and p99; cycles at %.4g ns per cycle)\n",
+           s->cfg.ns_per_cycle);
+    cr_cost(s, "dispatch per firing", h->dispatch);
+    printf("  %-34s %8.1f ns %8.1f cyc\n", "source signal + sink hash, per iter.",
+           h->ends_ns, h->ends_ns / s->cfg.ns_per_cycle);
+    if (h->nsizes == 0)
+        return;
+    cr_cost(s, "handoff latency, both cores idle", h->latency_idle);
+    cr_cost(s, "handoff latency, both cores busy", h->latency_busy);
+    for (uint32_t i = 0; i < h->nsizes; i++) {
+        char what[64];
+        snprintf(what, sizeof what, "send per token of %u words%s", h->words[i],
+                 i == h->run_size ? " (run)" : "");
+        cr_cost(s, what, h->send[i]);
+        snprintf(what, sizeof what, "recv per token of %u words%s", h->words[i],
+                 i == h->run_size ? " (run)" : "");
+        cr_cost(s, what, h->recv[i]);
+    }
+    double lat, snd, rcv, npc = s->cfg.ns_per_cycle;
+    pm_runner_host_comm(h, &lat, &snd, &rcv);
+    printf("this host as a comm line (send/recv at 0 words; per word: send %.2f + recv %.2f "
+           "cycles):\n", h->send_per_word / npc, h->recv_per_word / npc);
+    printf("  comm latency=%.0f per-word=%.0f send=%.0f recv=%.0f\n", lat / npc,
+           (h->send_per_word + h->recv_per_word) / npc, h->send_base / npc, h->recv_base / npc);
 }
 
 static void cr_text_nodes(const cr_state *s)
 {
-    printf("\n%-20s %5s  %-12s %12s %14s %14s\n", "node", "core", "work", "cycles",
-           "host ns alone", "ns in the run");
+    printf("\n%-20s %4s  %-10s %9s %10s %10s %11s\n", "node", "core", "work", "cycles",
+           "ns alone", "ns in run", "host cycles");
     for (uint32_t c = 0; c < s->m->ncores; c++)
         for (uint32_t i = s->m->off[c]; i < s->m->off[c + 1]; i++) {
             uint32_t v = s->m->order[i];
             char wb[32];
             uint32_t cls = s->g->platform.core_class[c];
-            printf("%-20.20s %5u  %-12s %12lld %14.0f %14.0f\n", pm_graph_node_name(s->g, v),
-                   c, cr_work_text(&s->g->nodes[v], wb, sizeof wb),
+            double host = pm_runner_host_node_ns(s->g, &s->host, s->node_ns, v);
+            printf("%-20.20s %4u  %-10s %9lld %10.0f %10.0f %11.0f\n",
+                   pm_graph_node_name(s->g, v), c, cr_work_text(&s->g->nodes[v], wb, sizeof wb),
                    (long long)pm_graph_cycles_on(s->g, v, cls), s->node_ns[v],
-                   s->res.node_ns[v]);
+                   s->res.node_ns[v], host / s->cfg.ns_per_cycle);
         }
-    printf("(alone: median of 15 timed samples on one PU; in the run: median firing time, "
-           "outputs included)\n\n");
+    printf("(alone: kernel, median of 15 timed samples on one PU; in run: kernel, median;\n"
+           " host cycles: alone + dispatch (+ source/sink share), what the model uses)\n");
+}
+
+/* The host cycles as scenario lines to paste (single-rate scenarios). */
+static void cr_text_paste(const cr_state *s)
+{
+    if (s->scn.multirate || s->g->platform.nclasses > 1) {
+        printf("\n(no node lines to paste: the scenario is multirate or has core classes)\n");
+        return;
+    }
+    printf("\nnode lines with this host's cycles (paste into a scenario):\n");
+    for (uint32_t v = 0; v < s->g->nnodes; v++) {
+        char wb[32];
+        const pm_node *n = &s->g->nodes[v];
+        double host = pm_runner_host_node_ns(s->g, &s->host, s->node_ns, v);
+        printf("  node %s cycles=%.0f%s%s\n", pm_graph_node_name(s->g, v),
+               host / s->cfg.ns_per_cycle, n->work == PM_WORK_SPIN ? "" : " work=",
+               n->work == PM_WORK_SPIN ? "" : cr_work_text(n, wb, sizeof wb));
+    }
+}
+
+static void cr_text_breakdown(const cr_state *s)
+{
+    const pm_runner_result *r = &s->res;
+    printf("\nwhere the period goes, ns per iteration (model: host costs; run: measured)\n");
+    printf("%-6s %10s %10s %10s %10s   %10s %10s %10s\n", "core", "work", "dispatch",
+           "transfers", "waiting", "run work", "run wait", "run other");
+    for (uint32_t c = 0; c < s->m->ncores; c++) {
+        const pm_runner_share *m = &s->share[c];
+        double per = r->period_ns_mean;
+        printf("%-6u %10.0f %10.0f %10.0f %10.0f   %10.0f %10.0f %10.0f\n", c, m->work,
+               m->dispatch, m->transfers, m->waiting, r->busy[c] * per, r->wait[c] * per,
+               (1.0 - r->busy[c] - r->wait[c]) * per);
+    }
+    printf("(run other: dispatch and ring operations; run columns are shares of the mean "
+           "period)\n\n");
 }
 
 /* Print text in lines of at most `width` columns, breaking at spaces. */
@@ -377,20 +520,23 @@ static void cr_print_wrapped(const char *text, size_t width)
 static void cr_text_results(const cr_state *s)
 {
     const pm_runner_result *r = &s->res;
-    printf("predicted period   %12.0f ns  (simulator: host times above, handoff between "
-           "cores)\n", s->predicted);
+    if (s->o.host_map)
+        printf("scenario's map     %12.0f ns  predicted with the host's costs\n",
+               s->scn_map_predicted);
+    printf("predicted period   %12.0f ns  (simulator: times alone + the runner's host costs)\n",
+           s->predicted);
     printf("measured period    %12.0f ns  median; p99 %.0f ns, mean %.0f ns\n",
            r->period_ns_median, r->period_ns_p99, r->period_ns_mean);
     printf("measured/predicted %12.3f\n", s->predicted > 0 ? r->period_ns_median / s->predicted
                                                          : 0.0);
-    printf("model, in-run times%12.0f ns  (the prediction again, firing times of this run)\n",
+    printf("model, in-run times%12.0f ns  (the prediction again, kernel times of this run)\n",
            s->predicted_in_run);
     printf("latency            %12.0f ns  median; p99 %.0f ns (first source start to last "
            "sink end)\n", r->latency_ns_median, r->latency_ns_p99);
     printf("iterations         %12u     after %u warm-up\n", r->iterations, r->warmup);
-    printf("busy share        ");
+    printf("busy share (kernels)");
     for (uint32_t c = 0; c < r->ncores; c++)
-        printf(" core %u %.1f%%", c, 100.0 * r->busy[c]);
+        printf("%s core %u %.1f%%", c ? "," : "", c, 100.0 * r->busy[c]);
     printf("\noutputs            %s\n", s->outputs_match
                ? "bit-identical to a single-threaded run; every token once, in order"
                : "DIFFER from a single-threaded run or arrived out of order");
@@ -469,6 +615,7 @@ static void cr_free(cr_state *s)
     free(s->node_ns);
     free(s->depth);
     free(s->cap);
+    free(s->share);
     pm_topo_choice_free(&s->pus);
     pm_topo_destroy(s->topo);
     pm_map_destroy(s->m);
@@ -493,7 +640,10 @@ static int cr_steps(cr_state *s)
         cr_json(s);
     } else {
         cr_text_setup(s);
+        cr_text_host(s);
         cr_text_nodes(s);
+        cr_text_paste(s);
+        cr_text_breakdown(s);
         cr_text_results(s);
     }
     return s->outputs_match ? CLI_EXIT_OK : CLI_EXIT_INPUT;

@@ -46,6 +46,18 @@ uint64_t runner_fnv(uint64_t h, const void *p, size_t n)
     return h;
 }
 
+/* FNV-1a taken a float's bits at a time instead of a byte: a quarter of
+ * the multiplies in every sink firing, still a function of every bit. */
+uint64_t runner_hash_block(uint64_t h, const float *p, uint32_t n)
+{
+    for (uint32_t i = 0; i < n; i++) {
+        uint32_t w;
+        memcpy(&w, &p[i], sizeof w);
+        h = (h ^ w) * UINT64_C(0x100000001b3);
+    }
+    return h;
+}
+
 void pm_runner_config_default(pm_runner_config *c)
 {
     memset(c, 0, sizeof *c);
@@ -155,25 +167,26 @@ enum { RUN_PREDICT_ITERS = 1000 };
  * so sixteenths of a nanosecond keep rounding far below timer noise. */
 #define RUN_UNITS_PER_NS 16.0
 
-static int64_t runner_units(double ns)
+int64_t runner_units(double ns)
 {
     double u = ns * RUN_UNITS_PER_NS;
     return u <= 0 ? 0 : u >= (double)PM_MAX_VALUE ? PM_MAX_VALUE : (int64_t)llround(u);
 }
 
-int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
-                   double handoff_ns, uint32_t fifo_cap, double *period_ns,
-                   uint32_t *depth, pm_diag *diag)
+int runner_predict_ns(const pm_graph *g, const pm_map *m, const double *node_ns,
+                      const double *comm_ns, uint32_t fifo_cap, double *period_ns,
+                      uint32_t *depth, pm_diag *diag)
 {
     int64_t *t = malloc((g->nnodes ? g->nnodes : 1) * sizeof *t);
     if (!t)
         return PM_ENOMEM;
     for (uint32_t v = 0; v < g->nnodes; v++)
         t[v] = runner_units(node_ns[v]);
-    /* the host's platform: every cross-core token arrives one handoff after
-     * its producer ends, links overlap freely (a borrowed, read-only view) */
+    /* the host's platform: point-to-point links that overlap freely, every
+     * token the same size (a borrowed, read-only view) */
     pm_graph host = *g;
-    host.platform.comm = (pm_comm){runner_units(handoff_ns), 0, 0, 0};
+    host.platform.comm = (pm_comm){runner_units(comm_ns[0]), 0, runner_units(comm_ns[1]),
+                                   runner_units(comm_ns[2])};
     host.platform.interconnect = PM_P2P;
     pm_sim_opts o = {.iterations = RUN_PREDICT_ITERS, .fifo_cap = fifo_cap, .node_cycles = t};
     pm_sim_result r;
@@ -190,6 +203,13 @@ int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
     return rc;
 }
 
+int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
+                   double handoff_ns, uint32_t fifo_cap, double *period_ns,
+                   uint32_t *depth, pm_diag *diag)
+{
+    const double comm[3] = {handoff_ns, 0, 0};
+    return runner_predict_ns(g, m, node_ns, comm, fifo_cap, period_ns, depth, diag);
+}
 
 /* ---- what a run gives -------------------------------------------------------- */
 
@@ -247,10 +267,9 @@ static int64_t runner_clip(int64_t a, int64_t b, int64_t from, int64_t to)
     return b > a ? b - a : 0;
 }
 
-/* Busy, work and wait shares of the measured window per core.  A core's
- * firings never overlap, so clipped to the window they sum to at most
- * the window; with cpu_time each firing counts only the share of it the
- * thread was on a processing unit. */
+/* Busy and wait shares of the measured window per core.  A core's
+ * kernels never overlap, so clipped to the window they sum to at most the
+ * window; with cpu_time no more than the time the thread ran counts. */
 static void runner_busy(runner_ctx *x)
 {
     pm_runner_result *r = x->r;
@@ -259,20 +278,17 @@ static void runner_busy(runner_ctx *x)
     int64_t to = runner_span(x, x->total - 1u, NULL, 0, false);
     double window = (double)(to - from);
     for (uint32_t c = 0; c < r->ncores && window > 0; c++) {
-        double busy = 0, work = 0;
+        double busy = 0;
         for (uint64_t k = w; k < x->total; k++)
             for (uint32_t i = x->m->off[c]; i < x->m->off[c + 1]; i++) {
                 size_t at = k * n + x->m->order[i];
-                int64_t wall = x->end[at] - x->start[at];
-                double ran = x->cpu && wall > 0 && x->cpu[at] < wall
-                           ? (double)x->cpu[at] / (double)wall : 1.0;
-                busy += ran * (double)runner_clip(x->start[at], x->end[at], from, to);
-                work += ran * (double)runner_clip(x->start[at], x->kend[at], from, to);
+                busy += (double)runner_clip(x->start[at], x->end[at], from, to);
             }
+        if (x->cfg->cpu_time && (double)x->th[c].cpu_ns < busy)
+            busy = (double)x->th[c].cpu_ns;
         r->busy[c] = busy / window;
-        r->work[c] = work / window;
         /* waits of the measured iterations may begin before the window
-         * opens: never more than the window left after the firings */
+         * opens: never more than the window left after the kernels */
         double wait = (double)x->th[c].wait_ns / window;
         r->wait[c] = wait < 1.0 - r->busy[c] ? wait : 1.0 - r->busy[c];
     }
@@ -284,12 +300,8 @@ static void runner_node_times(runner_ctx *x, double *tmp)
     for (uint32_t v = 0; v < n; v++) {
         uint32_t cnt = 0;
         for (uint64_t k = x->r->warmup; k < x->total; k++)
-            tmp[cnt++] = (double)(x->kend[k * n + v] - x->start[k * n + v]);
-        x->r->node_ns[v] = runner_quantile(tmp, cnt, 0.5);
-        cnt = 0;
-        for (uint64_t k = x->r->warmup; k < x->total; k++)
             tmp[cnt++] = (double)(x->end[k * n + v] - x->start[k * n + v]);
-        x->r->fire_ns[v] = runner_quantile(tmp, cnt, 0.5);
+        x->r->node_ns[v] = runner_quantile(tmp, cnt, 0.5);
     }
 }
 

@@ -150,7 +150,7 @@ static void runner_keep_output(runner_thread *th, uint32_t v, uint64_t k)
     uint32_t s = x->sink_slot[v], b = x->cfg->block;
     if (s == PM_NONE)
         return;
-    x->sink_hash[s] = runner_fnv(x->sink_hash[s], th->out, b * sizeof *th->out);
+    x->sink_hash[s] = runner_hash_block(x->sink_hash[s], th->out, b);
     if (x->r->outputs)
         memcpy(x->r->outputs + ((size_t)s * x->total + k) * b, th->out, b * sizeof *th->out);
 }
@@ -161,18 +161,17 @@ static bool runner_fire(runner_thread *th, uint32_t v, uint64_t k)
     if (!runner_gather(th, v, k))
         return false;
     const pm_runner_config *cfg = x->cfg;
-    int64_t c1 = cfg->cpu_time ? runner_cpu_now() : 0;
+    if (cfg->cpu_time && k == cfg->warmup && th->cpu_from < 0)
+        th->cpu_from = runner_cpu_now();
+    /* two clock reads a firing, both around the kernel: the ring work and
+     * the loop fall between firings and show as the cores' other time */
     int64_t t1 = runner_clock(cfg);
     pm_kernel_process(x->kern[v], th->in, th->out);
-    int64_t t2 = runner_clock(cfg);
-    if (!runner_scatter(th, v, k))
-        return false;
     size_t at = (size_t)k * x->g->nnodes + v;
     x->start[at] = t1 - x->t0;
-    x->kend[at] = t2 - x->t0;
     x->end[at] = runner_clock(cfg) - x->t0;
-    if (cfg->cpu_time)
-        x->cpu[at] = runner_cpu_now() - c1;
+    if (!runner_scatter(th, v, k))
+        return false;
     runner_keep_output(th, v, k);
     atomic_store_explicit(&th->fired, atomic_load_explicit(&th->fired, memory_order_relaxed) + 1u,
                           memory_order_relaxed);
@@ -220,7 +219,10 @@ static void *runner_worker(void *arg)
     if (go < 0)
         return NULL;
     th->wait = (pm_runner_wait){th->core, PM_NONE, PM_NONE, false, x->total};
+    th->cpu_from = -1;
     runner_core_loop(th);
+    if (x->cfg->cpu_time && th->cpu_from >= 0)
+        th->cpu_ns = runner_cpu_now() - th->cpu_from;
     atomic_store(&th->finished, true);
     return NULL;
 }
@@ -316,15 +318,13 @@ static int runner_alloc_result(runner_ctx *x)
     r->iterations = x->cfg->iterations;
     r->warmup = x->cfg->warmup;
     r->busy = calloc(r->ncores, sizeof *r->busy);
-    r->work = calloc(r->ncores, sizeof *r->work);
     r->wait = calloc(r->ncores, sizeof *r->wait);
     r->node_ns = calloc(g->nnodes ? g->nnodes : 1, sizeof *r->node_ns);
-    r->fire_ns = calloc(g->nnodes ? g->nnodes : 1, sizeof *r->fire_ns);
     r->pinned = calloc(r->ncores, sizeof *r->pinned);
     r->waits = calloc(r->ncores, sizeof *r->waits);
     r->tokens = calloc(g->nedges ? g->nedges : 1, sizeof *r->tokens);
     r->remaining = calloc(g->nedges ? g->nedges : 1, sizeof *r->remaining);
-    if (!r->busy || !r->work || !r->wait || !r->node_ns || !r->fire_ns || !r->pinned ||
+    if (!r->busy || !r->wait || !r->node_ns || !r->pinned ||
         !r->waits || !r->tokens || !r->remaining)
         return PM_ENOMEM;
     return runner_pick_sinks(x);
@@ -361,10 +361,7 @@ int runner_setup(runner_ctx *x)
     x->kern = calloc(n, sizeof *x->kern);
     x->start = calloc(recs, sizeof *x->start);
     x->end = calloc(recs, sizeof *x->end);
-    x->kend = calloc(recs, sizeof *x->kend);
-    x->cpu = x->cfg->cpu_time ? calloc(recs, sizeof *x->cpu) : NULL;
-    if (!x->chan || !x->kern || !x->start || !x->end || !x->kend ||
-        (x->cfg->cpu_time && !x->cpu))
+    if (!x->chan || !x->kern || !x->start || !x->end)
         return PM_ENOMEM;
     int rc = runner_alloc_result(x);
     for (uint32_t e = 0; rc == PM_OK && e < g->nedges; e++)
@@ -392,8 +389,6 @@ void runner_teardown(runner_ctx *x)
     free(x->kern);
     free(x->start);
     free(x->end);
-    free(x->kend);
-    free(x->cpu);
     free(x->sink_slot);
     free(x->is_source);
     free(x->sink_hash);
@@ -404,10 +399,8 @@ void pm_runner_result_free(pm_runner_result *r)
     if (!r)
         return;
     free(r->busy);
-    free(r->work);
     free(r->wait);
     free(r->node_ns);
-    free(r->fire_ns);
     free(r->pinned);
     free(r->tokens);
     free(r->remaining);

@@ -50,6 +50,9 @@ double runner_quantile(double *v, size_t n, double q);
 /* FNV-1a over n bytes at p, continuing from h. */
 uint64_t runner_fnv(uint64_t h, const void *p, size_t n);
 
+/* The sink outputs' hash over n samples, continuing from h. */
+uint64_t runner_hash_block(uint64_t h, const float *p, uint32_t n);
+
 /* The kernel of node v on map core `core` (spin turns from its cycles). */
 int runner_kernel_for(const pm_graph *g, const pm_runner_config *cfg, uint32_t v, uint32_t core,
                    pm_kernel **k);
@@ -79,6 +82,25 @@ static inline uint64_t runner_min_slots(const pm_graph *g, const pm_map *m, uint
     return (uint64_t)ed->delay + (ld > ls ? ld - ls : 0u) + 1u;
 }
 
+/* Host nanoseconds in the model's integer units (1/16 ns), saturating. */
+int64_t runner_units(double ns);
+
+/* The simulator's steady period (ns) of m when node v takes node_ns[v]
+ * and a cross-core token costs comm_ns = {latency, send, recv}: the body
+ * of pm_runner_predict. */
+int runner_predict_ns(const pm_graph *g, const pm_map *m, const double *node_ns,
+                      const double *comm_ns, uint32_t fifo_cap, double *period_ns,
+                      uint32_t *depth, pm_diag *diag);
+
+/* ---- measurements (runner_time.c) ---------------------------------------------- */
+
+/* Ping-pong of `bytes` tokens between pu_a (the caller) and pu_b; with
+ * busy_turns the initiator runs that busy loop before each token and the
+ * echo half of it after answering.  Half round trips, as pm_runner_handoff. */
+int runner_handoff_run(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
+                       uint32_t rounds, size_t bytes, uint64_t busy_turns, double *median_ns,
+                       double *p99_ns, bool *pinned);
+
 /* ---- a run (runner_exec.c) --------------------------------------------------- */
 
 /* A token: the producing iteration (negative for initial tokens), then
@@ -107,6 +129,8 @@ typedef struct runner_thread {
     float *in, *out;         /* block buffers */
     uint64_t order_errors;
     int64_t wait_ns;         /* time spent waiting on rings, measured iterations */
+    int64_t cpu_from, cpu_ns;/* cpu_time: CPU clock at the first measured firing,
+                                CPU time from there to the thread's end */
     pm_runner_wait wait;
 } runner_thread;
 
@@ -118,9 +142,8 @@ struct runner_ctx {
     uint32_t total;          /* warm-up + measured iterations */
     runner_chan *chan;          /* nedges */
     pm_kernel **kern;        /* nnodes */
-    int64_t *start, *end;    /* [iteration][node], ns since t0 */
-    int64_t *kend;           /* [iteration][node]: end of the kernel, before outputs */
-    int64_t *cpu;            /* [iteration][node]: thread CPU ns of the firing (cpu_time) */
+    int64_t *start, *end;    /* [iteration][node], ns since t0: the kernel's start
+                                (inputs in hand) and end (outputs not yet sent) */
     int64_t t0;
     uint32_t *sink_slot;     /* node -> index in result sinks, PM_NONE */
     bool *is_source;         /* node has no in-edge from another node */
