@@ -559,6 +559,15 @@ static void cr_json_cores(pm_json *j, const cr_state *s)
         pm_json_key(j, "pu"); pm_json_uint(j, s->pus.pu[c]);
         pm_json_key(j, "why"); pm_json_string(j, s->pus.why[c]);
         pm_json_key(j, "busy"); pm_json_double(j, s->res.busy[c]);
+        pm_json_key(j, "wait"); pm_json_double(j, s->res.wait[c]);
+        const pm_runner_share *m = &s->share[c];
+        pm_json_key(j, "model_ns");
+        pm_json_object_begin(j);
+        pm_json_key(j, "work"); pm_json_double(j, m->work);
+        pm_json_key(j, "dispatch"); pm_json_double(j, m->dispatch);
+        pm_json_key(j, "transfers"); pm_json_double(j, m->transfers);
+        pm_json_key(j, "waiting"); pm_json_double(j, m->waiting);
+        pm_json_object_end(j);
         pm_json_key(j, "pinned"); pm_json_bool(j, s->res.pinned[c]);
         pm_json_object_end(j);
     }
@@ -573,9 +582,56 @@ static void cr_json_cores(pm_json *j, const cr_state *s)
         pm_json_key(j, "work"); pm_json_string(j, cr_work_text(&s->g->nodes[v], wb, sizeof wb));
         pm_json_key(j, "host_ns"); pm_json_double(j, s->node_ns[v]);
         pm_json_key(j, "run_ns"); pm_json_double(j, s->res.node_ns[v]);
+        pm_json_key(j, "host_cycles");
+        pm_json_double(j, pm_runner_host_node_ns(s->g, &s->host, s->node_ns, v) /
+                              s->cfg.ns_per_cycle);
         pm_json_object_end(j);
     }
     pm_json_array_end(j);
+}
+
+static void cr_json_stat(pm_json *j, const char *key, pm_host_stat st)
+{
+    pm_json_key(j, key);
+    pm_json_object_begin(j);
+    pm_json_key(j, "median"); pm_json_double(j, st.median);
+    pm_json_key(j, "p99"); pm_json_double(j, st.p99);
+    pm_json_object_end(j);
+}
+
+/* The runner's host costs in ns, and the comm line in the scenario's cycles. */
+static void cr_json_host(pm_json *j, const cr_state *s)
+{
+    const pm_host_costs *h = &s->host;
+    double lat, snd, rcv, npc = s->cfg.ns_per_cycle;
+    pm_runner_host_comm(h, &lat, &snd, &rcv);
+    pm_json_key(j, "host_costs");
+    pm_json_object_begin(j);
+    cr_json_stat(j, "dispatch_ns", h->dispatch);
+    pm_json_key(j, "ends_ns"); pm_json_double(j, h->ends_ns);
+    if (h->nsizes) {
+        cr_json_stat(j, "latency_idle_ns", h->latency_idle);
+        cr_json_stat(j, "latency_busy_ns", h->latency_busy);
+        pm_json_key(j, "sizes");
+        pm_json_array_begin(j);
+        for (uint32_t i = 0; i < h->nsizes; i++) {
+            pm_json_object_begin(j);
+            pm_json_key(j, "words"); pm_json_uint(j, h->words[i]);
+            cr_json_stat(j, "send_ns", h->send[i]);
+            cr_json_stat(j, "recv_ns", h->recv[i]);
+            pm_json_object_end(j);
+        }
+        pm_json_array_end(j);
+        pm_json_key(j, "comm_cycles");
+        pm_json_object_begin(j);
+        pm_json_key(j, "latency"); pm_json_double(j, lat / npc);
+        pm_json_key(j, "per_word");
+        pm_json_double(j, (h->send_per_word + h->recv_per_word) / npc);
+        pm_json_key(j, "send"); pm_json_double(j, h->send_base / npc);
+        pm_json_key(j, "recv"); pm_json_double(j, h->recv_base / npc);
+        pm_json_object_end(j);
+    }
+    pm_json_object_end(j);
 }
 
 static void cr_json(const cr_state *s)
@@ -604,6 +660,11 @@ static void cr_json(const cr_state *s)
     pm_json_key(&j, "oversubscribed"); pm_json_bool(&j, s->pus.shared);
     pm_json_key(&j, "outputs_match"); pm_json_bool(&j, s->outputs_match);
     pm_json_key(&j, "order_errors"); pm_json_uint(&j, r->order_errors);
+    pm_json_key(&j, "host_map"); pm_json_bool(&j, s->o.host_map);
+    if (s->o.host_map) {
+        pm_json_key(&j, "scenario_map_predicted_ns"); pm_json_double(&j, s->scn_map_predicted);
+    }
+    cr_json_host(&j, s);
     cr_json_cores(&j, s);
     pm_json_object_end(&j);
     pm_json_finish(&j);
