@@ -221,7 +221,7 @@ static int64_t runner_span(const runner_ctx *x, uint64_t k, const uint32_t *set,
     int64_t best = first_start ? INT64_MAX : INT64_MIN;
     for (uint32_t i = 0; i < cnt; i++) {
         uint32_t v = set ? set[i] : i;
-        int64_t t = first_start ? x->start[k * n + v] : x->end[k * n + v];
+        int64_t t = first_start ? x->start[runner_rec(x, k, v)] : x->end[runner_rec(x, k, v)];
         best = first_start ? (t < best ? t : best) : (t > best ? t : best);
     }
     return cnt ? best : 0;
@@ -273,7 +273,7 @@ static int64_t runner_clip(int64_t a, int64_t b, int64_t from, int64_t to)
 static void runner_busy(runner_ctx *x)
 {
     pm_runner_result *r = x->r;
-    uint32_t n = x->g->nnodes, w = r->warmup;
+    uint32_t w = r->warmup;
     int64_t from = w > 0 ? runner_span(x, w - 1u, NULL, 0, false) : runner_span(x, 0, NULL, 0, true);
     int64_t to = runner_span(x, x->total - 1u, NULL, 0, false);
     double window = (double)(to - from);
@@ -281,7 +281,7 @@ static void runner_busy(runner_ctx *x)
         double busy = 0;
         for (uint64_t k = w; k < x->total; k++)
             for (uint32_t i = x->m->off[c]; i < x->m->off[c + 1]; i++) {
-                size_t at = k * n + x->m->order[i];
+                size_t at = runner_rec(x, k, x->m->order[i]);
                 busy += (double)runner_clip(x->start[at], x->end[at], from, to);
             }
         if (x->cfg->cpu_time && (double)x->th[c].cpu_ns < busy)
@@ -300,7 +300,7 @@ static void runner_node_times(runner_ctx *x, double *tmp)
     for (uint32_t v = 0; v < n; v++) {
         uint32_t cnt = 0;
         for (uint64_t k = x->r->warmup; k < x->total; k++)
-            tmp[cnt++] = (double)(x->end[k * n + v] - x->start[k * n + v]);
+            tmp[cnt++] = (double)(x->end[runner_rec(x, k, v)] - x->start[runner_rec(x, k, v)]);
         x->r->node_ns[v] = runner_quantile(tmp, cnt, 0.5);
     }
 }
@@ -314,10 +314,13 @@ static void runner_collect(runner_ctx *x)
         r->waits[c] = x->th[c].wait;
     }
     for (uint32_t e = 0; e < r->nedges; e++)
+        r->tokens[e] = x->chan[e].taken;
+    for (uint32_t e = 0; e < r->nedges; e++)
         r->remaining[e] = x->chan[e].ring ? pm_ring_count(x->chan[e].ring) : x->chan[e].count;
     r->output_hash = UINT64_C(0xcbf29ce484222325);
     for (uint32_t s = 0; s < r->nsinks; s++)
-        r->output_hash = runner_fnv(r->output_hash, &x->sink_hash[s], sizeof x->sink_hash[s]);
+        r->output_hash = runner_fnv(r->output_hash, &x->sink_hash[s * RUNNER_HASH_STRIDE],
+                                    sizeof *x->sink_hash);
     if (r->stalled)
         return;
     double *tmp = malloc(x->total * sizeof *tmp);

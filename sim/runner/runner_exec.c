@@ -99,7 +99,7 @@ static bool runner_gather(runner_thread *th, uint32_t v, uint64_t k)
         for (uint32_t j = 0; j < b; j++)
             th->in[j] = i == 0 && !src ? t->data[j] : th->in[j] + t->data[j];
         runner_chan_pop(&x->chan[e]);
-        x->r->tokens[e]++;
+        x->chan[e].taken++;
     }
     if (nin + src > 1) {
         float scale = 1.0f / (float)(nin + src);
@@ -150,7 +150,8 @@ static void runner_keep_output(runner_thread *th, uint32_t v, uint64_t k)
     uint32_t s = x->sink_slot[v], b = x->cfg->block;
     if (s == PM_NONE)
         return;
-    x->sink_hash[s] = runner_hash_block(x->sink_hash[s], th->out, b);
+    uint64_t *h = &x->sink_hash[s * RUNNER_HASH_STRIDE];
+    *h = runner_hash_block(*h, th->out, b);
     if (x->r->outputs)
         memcpy(x->r->outputs + ((size_t)s * x->total + k) * b, th->out, b * sizeof *th->out);
 }
@@ -167,7 +168,7 @@ static bool runner_fire(runner_thread *th, uint32_t v, uint64_t k)
      * the loop fall between firings and show as the cores' other time */
     int64_t t1 = runner_clock(cfg);
     pm_kernel_process(x->kern[v], th->in, th->out);
-    size_t at = (size_t)k * x->g->nnodes + v;
+    size_t at = runner_rec(x, k, v);
     x->start[at] = t1 - x->t0;
     x->end[at] = runner_clock(cfg) - x->t0;
     if (!runner_scatter(th, v, k))
@@ -286,7 +287,7 @@ static int runner_pick_sinks(runner_ctx *x)
     r->sinks = malloc((r->nsinks ? r->nsinks : 1) * sizeof *r->sinks);
     x->sink_slot = malloc((g->nnodes ? g->nnodes : 1) * sizeof *x->sink_slot);
     x->is_source = malloc((g->nnodes ? g->nnodes : 1) * sizeof *x->is_source);
-    x->sink_hash = malloc((r->nsinks ? r->nsinks : 1) * sizeof *x->sink_hash);
+    x->sink_hash = aligned_alloc(PM_RING_LINE, (r->nsinks ? r->nsinks : 1) * PM_RING_LINE);
     if (!r->sinks || !x->sink_slot || !x->sink_hash || !x->is_source)
         return PM_ENOMEM;
     n = 0;
@@ -295,7 +296,7 @@ static int runner_pick_sinks(runner_ctx *x)
         bool s = all || runner_is_end(g, v, true);
         x->sink_slot[v] = s ? n : PM_NONE;
         if (s) {
-            x->sink_hash[n] = UINT64_C(0xcbf29ce484222325);
+            x->sink_hash[n * RUNNER_HASH_STRIDE] = UINT64_C(0xcbf29ce484222325);
             r->sinks[n++] = v;
         }
     }
@@ -333,9 +334,10 @@ static int runner_alloc_result(runner_ctx *x)
 static int runner_alloc_threads(runner_ctx *x)
 {
     uint32_t nc = x->m->ncores, b = x->cfg->block;
-    x->th = calloc(nc, sizeof *x->th);
+    x->th = aligned_alloc(PM_RING_LINE, nc * sizeof *x->th);
     if (!x->th)
         return PM_ENOMEM;
+    memset(x->th, 0, nc * sizeof *x->th);
     for (uint32_t c = 0; c < nc; c++) {
         runner_thread *th = &x->th[c];
         th->x = x;
@@ -350,19 +352,44 @@ static int runner_alloc_threads(runner_ctx *x)
     return PM_OK;
 }
 
+/* Lay out the records core by core (runner_rec); the total entries. */
+static size_t runner_layout(runner_ctx *x)
+{
+    const pm_map *m = x->m;
+    const size_t line = PM_RING_LINE / sizeof(int64_t);
+    size_t at = 0;
+    for (uint32_t c = 0; c < m->ncores; c++) {
+        size_t cnt = m->off[c + 1] - m->off[c];
+        for (uint32_t i = m->off[c]; i < m->off[c + 1]; i++) {
+            x->rec_base[m->order[i]] = at + (i - m->off[c]);
+            x->rec_stride[m->order[i]] = cnt;
+        }
+        at += (cnt * x->total + line - 1u) / line * line + line;
+    }
+    return at;
+}
+
 int runner_setup(runner_ctx *x)
 {
     const pm_graph *g = x->g;
-    size_t n = g->nnodes ? g->nnodes : 1, recs = (size_t)x->total * n;
-    if (recs > PM_RUNNER_MAX_RECORDS)
+    size_t n = g->nnodes ? g->nnodes : 1, ne = g->nedges ? g->nedges : 1;
+    if ((size_t)x->total * n > PM_RUNNER_MAX_RECORDS)
         return PM_ELIMIT;
     x->bytes = sizeof(runner_token) + x->cfg->block * sizeof(float);
-    x->chan = calloc(g->nedges ? g->nedges : 1, sizeof *x->chan);
+    x->chan = aligned_alloc(PM_RING_LINE, ne * sizeof *x->chan);
     x->kern = calloc(n, sizeof *x->kern);
-    x->start = calloc(recs, sizeof *x->start);
-    x->end = calloc(recs, sizeof *x->end);
-    if (!x->chan || !x->kern || !x->start || !x->end)
+    x->rec_base = malloc(n * sizeof *x->rec_base);
+    x->rec_stride = malloc(n * sizeof *x->rec_stride);
+    if (!x->chan || !x->kern || !x->rec_base || !x->rec_stride)
         return PM_ENOMEM;
+    memset(x->chan, 0, ne * sizeof *x->chan);
+    size_t recs = runner_layout(x);
+    x->start = aligned_alloc(PM_RING_LINE, recs * sizeof *x->start);
+    x->end = aligned_alloc(PM_RING_LINE, recs * sizeof *x->end);
+    if (!x->start || !x->end)
+        return PM_ENOMEM;
+    memset(x->start, 0, recs * sizeof *x->start);
+    memset(x->end, 0, recs * sizeof *x->end);
     int rc = runner_alloc_result(x);
     for (uint32_t e = 0; rc == PM_OK && e < g->nedges; e++)
         if ((rc = runner_make_chan(x, e)) == PM_OK)
@@ -389,6 +416,8 @@ void runner_teardown(runner_ctx *x)
     free(x->kern);
     free(x->start);
     free(x->end);
+    free(x->rec_base);
+    free(x->rec_stride);
     free(x->sink_slot);
     free(x->is_source);
     free(x->sink_hash);

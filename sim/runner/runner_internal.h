@@ -9,6 +9,7 @@
 
 #include <pthread.h>
 #include <sched.h>
+#include <stdalign.h>
 #include <stdatomic.h>
 #include <stdbool.h>
 #include <stdint.h>
@@ -110,17 +111,21 @@ typedef struct runner_token {
     float data[];
 } runner_token;
 
-/* An edge's channel: an SPSC ring across cores, a plain FIFO on one core. */
+/* An edge's channel: an SPSC ring across cores, a plain FIFO on one core.
+ * Its consumer writes head, count and taken at every firing: each channel
+ * has cache lines of its own, so two cores never write one line. */
 typedef struct runner_chan {
-    pm_ring *ring;
+    alignas(PM_RING_LINE) pm_ring *ring;
     unsigned char *fifo; /* same-core: cap slots of `bytes` */
     uint32_t cap, head, count;
+    uint64_t taken;      /* tokens consumed */
 } runner_chan;
 
 typedef struct runner_ctx runner_ctx;
 
+/* Each on its own cache lines: a thread writes its own at every firing. */
 typedef struct runner_thread {
-    runner_ctx *x;
+    alignas(PM_RING_LINE) runner_ctx *x;
     uint32_t core;
     pthread_t tid;
     bool started, pinned;
@@ -142,17 +147,28 @@ struct runner_ctx {
     uint32_t total;          /* warm-up + measured iterations */
     runner_chan *chan;          /* nedges */
     pm_kernel **kern;        /* nnodes */
-    int64_t *start, *end;    /* [iteration][node], ns since t0: the kernel's start
+    int64_t *start, *end;    /* at runner_rec(k, v), ns since t0: the kernel's start
                                 (inputs in hand) and end (outputs not yet sent) */
+    size_t *rec_base, *rec_stride; /* nnodes: where v's records lie */
     int64_t t0;
     uint32_t *sink_slot;     /* node -> index in result sinks, PM_NONE */
     bool *is_source;         /* node has no in-edge from another node */
-    uint64_t *sink_hash;     /* per sink */
+    uint64_t *sink_hash;     /* per sink, RUNNER_HASH_STRIDE apart */
     runner_thread *th;          /* ncores */
     _Atomic int go;          /* 0 wait, 1 start, -1 give up (a thread failed to start) */
     _Atomic bool stop;
     pm_runner_result *r;
 };
+
+#define RUNNER_HASH_STRIDE (PM_RING_LINE / sizeof(uint64_t)) /* one line per sink */
+
+/* Index of node v's iteration-k records: each core's records are one
+ * block of its own, [iteration][place in the core's order], the blocks a
+ * cache line apart, so the threads never write one line. */
+static inline size_t runner_rec(const runner_ctx *x, uint64_t k, uint32_t v)
+{
+    return x->rec_base[v] + (size_t)k * x->rec_stride[v];
+}
 
 /* Whether v has no edges out (out) or in (!out) but self-loops. */
 bool runner_is_end(const pm_graph *g, uint32_t v, bool out);
