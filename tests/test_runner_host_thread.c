@@ -106,9 +106,14 @@ static void test_calibration_synthetic_host(void **state)
     assert_true(h.recv_per_word == 0.0 && h.recv_base == 100.0);
     /* a round trip between two reads: one-way STEP / 2 = 400 ns */
     assert_true(h.latency_idle.median == 400.0 && h.latency_busy.median == 400.0);
+    /* the two-thread loop's crossing depends on how the threads' reads
+     * interleave (each waits a varying number of turns): only its use is
+     * exact; the model's latency is the crossing less the receive */
+    assert_true(h.crossing.median >= 0 && h.crossing.p99 >= h.crossing.median);
     double lat, snd, rcv;
     pm_runner_host_comm(&h, &lat, &snd, &rcv);
-    assert_true(snd == 100.0 && rcv == 100.0 && lat == 400.0 - 100.0); /* less the receive */
+    assert_true(snd == 100.0 && rcv == 100.0);
+    assert_true(lat == (h.crossing.median > 100.0 ? h.crossing.median - 100.0 : 0.0));
 }
 
 static void test_calibration_block_between_sizes(void **state)
@@ -135,7 +140,7 @@ static pm_host_costs given_costs(void)
     h.words[0] = 66;
     h.send[0].median = 20;
     h.recv[0].median = 30;
-    h.latency_busy.median = 150; /* send 20 + wire 100 + recv 30 */
+    h.crossing.median = 150; /* send 20 + wire 100 + recv 30 */
     return h;
 }
 

@@ -171,6 +171,11 @@ typedef struct pm_host_costs {
     uint32_t run_size;      /* index of the run's token size (cfg->block) */
     pm_host_stat latency_idle; /* one-way handoff, both sides only waiting */
     pm_host_stat latency_busy; /* one-way handoff, both sides working between */
+    pm_host_stat crossing;  /* one crossing of the runner itself: a loop of two
+                               zero-work nodes on the two PUs, half its period
+                               less each node's dispatch and output hash:
+                               the kernel end to the next kernel start, less
+                               the consumer's dispatch */
     double send_base, send_per_word, recv_base, recv_per_word; /* least squares
                                over the medians by size (per word >= 0) */
     bool pinned;            /* every measuring thread held its PU */
@@ -183,7 +188,8 @@ typedef struct pm_host_costs {
  * time per token in batches of 8 tokens through a ring between the two
  * threads, for blocks 1, 16, 64, 256 and cfg->block; the one-way handoff
  * by ping-pong (half the round trip) with both sides idle, then with both
- * running a busy loop of about 2 us between tokens.  `rounds` samples
+ * running a busy loop of about 2 us between tokens; the crossing of the
+ * runner's own loop of two zero-work nodes over pu_a and pu_b.  `rounds` samples
  * each (>= 10, the first tenth dropped).  pu_b == PM_NONE measures only
  * the dispatch (nsizes 0).  Timing uses cfg->clock when set.
  * PM_EINVAL, PM_ENOMEM, PM_EPLATFORM (no thread).  ~rounds x 30 us.
@@ -193,8 +199,8 @@ int pm_runner_host_costs(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu
 
 /* The model's comm costs of one cross-core token on this host, in ns:
  * send and recv occupancy at the run's size, and the latency from the
- * producer's kernel end to the token's arrival: the busy handoff less the
- * receive (never below 0; the send overlaps it, as in the simulator). */
+ * producer's kernel end to the token's arrival: the runner's crossing less
+ * the receive (never below 0; the send overlaps it, as in the simulator). */
 void pm_runner_host_comm(const pm_host_costs *h, double *latency_ns, double *send_ns,
                          double *recv_ns);
 

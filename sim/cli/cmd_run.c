@@ -427,6 +427,7 @@ static void cr_text_host(const cr_state *s)
         return;
     cr_cost(s, "handoff latency, both cores idle", h->latency_idle);
     cr_cost(s, "handoff latency, both cores busy", h->latency_busy);
+    cr_cost(s, "crossing of the runner's own loop", h->crossing);
     for (uint32_t i = 0; i < h->nsizes; i++) {
         char what[64];
         snprintf(what, sizeof what, "send per token of %u words%s", h->words[i],
@@ -612,6 +613,7 @@ static void cr_json_host(pm_json *j, const cr_state *s)
     if (h->nsizes) {
         cr_json_stat(j, "latency_idle_ns", h->latency_idle);
         cr_json_stat(j, "latency_busy_ns", h->latency_busy);
+        cr_json_stat(j, "crossing_ns", h->crossing);
         pm_json_key(j, "sizes");
         pm_json_array_begin(j);
         for (uint32_t i = 0; i < h->nsizes; i++) {

@@ -80,6 +80,54 @@ static int host_chain_period(const pm_runner_config *cfg, uint32_t pu, uint32_t 
     return rc;
 }
 
+/* The runner's own crossing: A on pu_a, B on pu_b, A -> B -> A with one
+ * delay, zero work.  A period holds two firings (each its dispatch and,
+ * with no sink in the graph, its output hash) and two crossings. */
+static int host_crossing(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
+                         uint32_t rounds, pm_host_costs *h)
+{
+    pm_graph *g = pm_graph_create("host-loop");
+    uint32_t two = 2, a = 0, b = 0;
+    int rc = g ? pm_graph_set_cores(g, 1, NULL, &two) : PM_ENOMEM;
+    if (rc == PM_OK)
+        rc = pm_graph_add_node(g, "a", 1, 0, &a);
+    if (rc == PM_OK)
+        rc = pm_graph_add_node(g, "b", 1, 0, &b);
+    pm_edge ab = pm_graph_edge_default(a, b), ba = pm_graph_edge_default(b, a);
+    ba.delay = 1;
+    if (rc == PM_OK)
+        rc = pm_graph_add_edge(g, &ab, NULL);
+    if (rc == PM_OK)
+        rc = pm_graph_add_edge(g, &ba, NULL);
+    if (rc == PM_OK)
+        rc = pm_graph_finalize(g);
+    pm_map *m = NULL;
+    const uint32_t c0[] = {0}, c1[] = {1}, counts[] = {1, 1}, pus[] = {pu_a, pu_b};
+    const uint32_t *lists[] = {c0, c1};
+    if (rc == PM_OK)
+        rc = pm_map_create(2, 2, lists, counts, &m);
+    pm_runner_config c = *cfg;
+    c.iterations = rounds;
+    c.warmup = rounds / 10 > 0 ? rounds / 10 : 1;
+    c.pu = pus;
+    c.record_outputs = false;
+    c.cpu_time = false;
+    c.edge_capacity = NULL;
+    c.ring_capacity = 0;
+    pm_runner_result r = {0};
+    if (rc == PM_OK)
+        rc = pm_runner_execute(g, m, &c, &r);
+    double own = h->dispatch.median + h->ends_ns / 2;
+    if (rc == PM_OK) {
+        double med = r.period_ns_median / 2 - own, p99 = r.period_ns_p99 / 2 - own;
+        h->crossing = (pm_host_stat){med > 0 ? med : 0, p99 > med ? p99 : med > 0 ? med : 0};
+    }
+    pm_runner_result_free(&r);
+    pm_map_destroy(m);
+    pm_graph_destroy(g);
+    return rc;
+}
+
 /* Dispatch is the slope between the two chain lengths; what is left at
  * length 0 is the source's signal and the sink's hash. */
 static int host_dispatch(const pm_runner_config *cfg, uint32_t pu, uint32_t rounds,
@@ -275,7 +323,7 @@ static int host_transfers(const pm_runner_config *cfg, uint32_t pu_a, uint32_t p
         rc = runner_handoff_run(cfg, pu_a, pu_b, rounds, bytes, busy, &h->latency_busy.median,
                                 &h->latency_busy.p99, &pin);
     h->pinned = h->pinned && pin;
-    return rc;
+    return rc == PM_OK ? host_crossing(cfg, pu_a, pu_b, rounds, h) : rc;
 }
 
 int pm_runner_host_costs(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
@@ -304,10 +352,10 @@ void pm_runner_host_comm(const pm_host_costs *h, double *latency_ns, double *sen
     }
     *send_ns = h->send[h->run_size].median;
     *recv_ns = h->recv[h->run_size].median;
-    /* the ping-pong's half round trip is send + wire + receive; the model
-     * counts a token's latency from its producer's kernel end, while the
-     * producer's core is still sending it, so only the receive comes off */
-    double rest = h->latency_busy.median - *recv_ns;
+    /* the crossing is send + wire + receive as the runner does them; the
+     * model counts a token's latency from its producer's kernel end, while
+     * the producer's core is still sending it, so only the receive comes off */
+    double rest = h->crossing.median - *recv_ns;
     *latency_ns = rest > 0 ? rest : 0;
 }
 
