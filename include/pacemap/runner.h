@@ -16,11 +16,12 @@
  * carries the producing iteration as a sequence number, checked on receipt.
  *
  * The procedure of a `pacemap run` is: pm_runner_calibrate (busy loop),
- * pm_runner_node_times (each node alone), pm_runner_handoff (ring latency between
- * two pinned threads), pm_runner_predict (the period the simulator gives
- * with those host times), pm_runner_execute (the measured run), and a
- * second pm_runner_execute of pm_runner_serial_map to check the outputs bit for
- * bit.
+ * pm_runner_node_times (each node alone), pm_runner_host_costs (what the
+ * runner itself costs: dispatch, send/recv per token, handoffs, its own
+ * crossing between two pinned threads), pm_runner_predict_host (the period
+ * the simulator gives with those host times and costs), pm_runner_execute
+ * (the measured run), and a second pm_runner_execute of
+ * pm_runner_serial_map to check the outputs bit for bit.
  *
  * Single-rate graphs only (PM_EUNSUPPORTED otherwise).  The library never
  * prints; pinning failures and stalls come back in the result.

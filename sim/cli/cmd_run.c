@@ -1,12 +1,12 @@
 /*
  * cmd_run.c - `pacemap run FILE -p N [-n ITER] [--map F] [--cores LIST]
- * [--oversubscribe] [--ring N] [--json]`: execute a map on real cores and
+ * [--oversubscribe] [--host-map] [--ring N] [--json]`: execute a map on real cores and
  * compare the measured period with the model's prediction (docs/runner.md).
  *
  * Steps: load, map (--map, else pm_plan_map's), choose PUs,
- * calibrate, time each node alone,
- * measure the handoff, predict, run, rerun single-threaded to check the
- * outputs, report.  All computing is in runner.h/topo.h; this file parses,
+ * calibrate, time each node alone, measure the runner's host costs,
+ * (--host-map: map again with them), predict, run, rerun single-threaded
+ * to check the outputs, report.  All computing is in runner.h/topo.h; this file parses,
  * orders the steps and prints.
  */
 #include "cli.h"
