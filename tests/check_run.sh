@@ -20,6 +20,57 @@ for k in ("period_ns", "period_ns_p99", "predicted_ns"):
 assert d["period_ns_p99"] >= d["period_ns"]
 assert d["outputs_match"] is True and d["order_errors"] == 0
 assert len(d["cores"]) == 2 and len(d["nodes"]) == 17
+# shared PUs: each thread counts only the time it ran, never above 100 %
+for c in d["cores"]:
+    assert 0 <= c["busy"] <= 1 and 0 <= c["wait"] <= 1 - c["busy"] + 1e-9, c
+    m = c["model_ns"]
+    assert min(m.values()) >= 0
+h = d["host_costs"]
+assert h["dispatch_ns"]["p99"] >= h["dispatch_ns"]["median"] >= 0
+sizes = [z["words"] for z in h["sizes"]]
+assert sizes == sorted(sizes) and 66 in sizes, sizes  # 64 samples + 2 words
+for k in ("latency", "per_word", "send", "recv"):
+    assert h["comm_cycles"][k] >= 0, k
+for n in d["nodes"]:
+    assert n["host_cycles"] >= 0
+PYEOF
+
+# the regression of the fidelity issue: two map cores on one PU showed a
+# busy share of 136 %; now each core counts only the time its thread ran
+"$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 200 --cores 0 --oversubscribe > "$tmp/os.txt" \
+    || fail "oversubscribed run failed"
+"$PY" - "$tmp/os.txt" <<'PYEOF' || fail "busy share above 100 % on a shared PU"
+import re, sys
+line = [l for l in open(sys.argv[1]) if l.startswith("busy share")][0]
+shares = [float(x) for x in re.findall(r"([0-9.]+)%", line)]
+assert len(shares) == 2 and all(0 <= x <= 100 for x in shares), line
+PYEOF
+
+# the host's costs ready to paste: a comm line and node lines the reader takes
+"$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 50 --oversubscribe > "$tmp/host.txt" \
+    || fail "run for the host costs failed"
+grep -q "handoff latency, both cores busy" "$tmp/host.txt" || fail "no busy handoff"
+grep -q "dispatch per firing" "$tmp/host.txt" || fail "no dispatch cost"
+grep -q "^where the period goes" "$tmp/host.txt" || fail "no breakdown of the period"
+{
+    echo "# rx_chain with this host's costs, pasted from run's report"
+    echo "clock 400MHz"
+    echo "procs 2"
+    grep "^  comm latency=" "$tmp/host.txt" | sed 's/^  //'
+    sed -n 's/^  \(node [^ ]* cycles=.*\)/\1/p' "$tmp/host.txt"
+    grep "^edge" scenarios/rx_chain.pace
+} > "$tmp/pasted.pace"
+"$PM_BIN" check "$tmp/pasted.pace" > /dev/null || fail "pasted host costs do not read back"
+awk 'length > 100 { exit 1 }' "$tmp/host.txt" || fail "report wider than 100 columns"
+
+# --host-map maps with those costs and says how the scenario's map compares
+"$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 50 --oversubscribe --host-map --json \
+    > "$tmp/hm.json" || fail "run --host-map failed"
+"$PY" - "$tmp/hm.json" <<'PYEOF' || fail "bad --host-map JSON"
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert d["host_map"] is True and d["scenario_map_predicted_ns"] > 0
+assert d["outputs_match"] is True
 PYEOF
 
 # a hand map: every node on core 1 except the input
@@ -35,13 +86,16 @@ printf 'core 0: a\ncore 1: b\n' > "$tmp/two.map"
 "$PM_BIN" run "$tmp/two.pace" --map "$tmp/two.map" -n 30 --oversubscribe > "$tmp/out.txt" \
     || fail "run --map failed"
 grep -q "bit-identical" "$tmp/out.txt" || fail "outputs not reported identical"
-grep -q "core 1 .*-> PU" "$tmp/out.txt" || fail "PU choice not printed"
+grep -q "core 1: processing unit [0-9]* on physical core" "$tmp/out.txt" \
+    || fail "PU choice not printed in plain words"
+grep -q "L#" "$tmp/out.txt" && fail "topology written in borrowed notation"
 
 # pinning refused (hwloc told this is not the running system): a warning,
 # the run goes on unpinned and the report says so
 HWLOC_THISSYSTEM=0 "$PM_BIN" run "$tmp/two.pace" -n 20 --oversubscribe > "$tmp/out.txt" \
     2> "$tmp/err.txt" || fail "unpinned run failed"
-grep -q "warning: .*unpinned" "$tmp/err.txt" || fail "no pinning warning"
+grep -q "^pacemap: warning: .*unpinned.*--cores" "$tmp/err.txt" || fail "no pinning warning"
+grep -q "pace:[0-9]*:[0-9]*:" "$tmp/err.txt" && fail "pinning refused given a scenario position"
 grep -q "NOT pinned" "$tmp/out.txt" || fail "report does not say unpinned"
 
 # an affinity mask narrows the PUs: one PU for two map cores is an error
@@ -51,6 +105,8 @@ if command -v taskset > /dev/null 2>&1; then
         taskset -c "$first" "$PM_BIN" run "$tmp/two.pace" 2> "$tmp/err.txt"
         [ $? -eq 1 ] || fail "affinity of one PU: wrong exit status"
         grep -q "only 1 processing unit is available" "$tmp/err.txt" || fail "mask ignored"
+        grep -q "^pacemap: error: run: .*oversubscribe" "$tmp/err.txt" \
+            || fail "host problem not a plain pacemap error saying what to do"
     fi
 fi
 
@@ -58,6 +114,8 @@ fi
 "$PM_BIN" run "$tmp/two.pace" --cores 0 2> "$tmp/err.txt"
 [ $? -eq 1 ] || fail "too few PUs: wrong exit status"
 grep -q "2 cores but only 1 processing unit" "$tmp/err.txt" || fail "counts not named"
+grep -q "^pacemap: error: " "$tmp/err.txt" || fail "too few PUs: not a plain host error"
+grep -q "pace:[0-9]*:[0-9]*:" "$tmp/err.txt" && fail "host problem given a scenario position"
 
 # a map whose core order waits on itself: refused before running, exit 1
 cat > "$tmp/dl.pace" <<'PACE'

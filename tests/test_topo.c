@@ -106,7 +106,9 @@ static void test_shared_cache_preferred(void **state)
     pm_topo_choice c;
     assert_int_equal(pm_topo_choose(t, 2, NULL, 0, false, &c, NULL), PM_OK);
     assert_int_equal(locate(desc, c.pu[0]).l3, locate(desc, c.pu[1]).l3);
-    assert_non_null(strstr(c.summary, "L3"));
+    assert_non_null(strstr(c.summary, "last-level cache"));
+    assert_null(strstr(c.why[0], "L#")); /* plain words, no borrowed notation */
+    assert_non_null(strstr(c.why[0], "on physical core 0 of package 0, last-level cache 0"));
     pm_topo_choice_free(&c);
     assert_int_equal(pm_topo_choose(t, 3, NULL, 0, false, &c, NULL), PM_OK);
     assert_int_equal(distinct_cores(desc, &c), 3);

@@ -16,11 +16,12 @@
  * carries the producing iteration as a sequence number, checked on receipt.
  *
  * The procedure of a `pacemap run` is: pm_runner_calibrate (busy loop),
- * pm_runner_node_times (each node alone), pm_runner_handoff (ring latency between
- * two pinned threads), pm_runner_predict (the period the simulator gives
- * with those host times), pm_runner_execute (the measured run), and a
- * second pm_runner_execute of pm_runner_serial_map to check the outputs bit for
- * bit.
+ * pm_runner_node_times (each node alone), pm_runner_host_costs (what the
+ * runner itself costs: dispatch, send/recv per token, handoffs, its own
+ * crossing between two pinned threads), pm_runner_predict_host (the period
+ * the simulator gives with those host times and costs), pm_runner_execute
+ * (the measured run), and a second pm_runner_execute of
+ * pm_runner_serial_map to check the outputs bit for bit.
  *
  * Single-rate graphs only (PM_EUNSUPPORTED otherwise).  The library never
  * prints; pinning failures and stalls come back in the result.
@@ -63,6 +64,14 @@ typedef struct pm_runner_config {
     const pm_sim_pace *pace;/* NULL: sources run free; else every firing of iteration k
                                waits until ceil(k * I) cycles x ns_per_cycle after the
                                start (runner_paced.c; interval only, no jitter) */
+    bool cpu_time;          /* also read each thread's CPU clock
+                               (CLOCK_THREAD_CPUTIME_ID) over the measured
+                               iterations: busy then counts only the time the
+                               thread ran (PUs shared) */
+    int64_t (*clock)(void *ctx); /* NULL = CLOCK_MONOTONIC in ns; else the
+                               nanosecond clock of timestamps and calibration
+                               (tests inject a synthetic host); thread-safe */
+    void *clock_ctx;
 } pm_runner_config;
 
 /* Defaults: 1000 iterations, 100 warm-up, PM_RUNNER_BLOCK, auto rings,
@@ -83,8 +92,11 @@ typedef struct pm_runner_result {
     uint32_t iterations, warmup;
     double period_ns_median, period_ns_p99, period_ns_mean;
     double latency_ns_median, latency_ns_p99; /* first source start to last sink end */
-    double *busy;           /* ncores: share of the measured window spent firing */
-    double *node_ns;        /* nnodes: median firing time (kernel + outputs) */
+    double *busy;           /* ncores: share of the measured window spent in node
+                               kernels; with cpu_time at most the share the
+                               thread ran (its CPU clock); always <= 1 */
+    double *wait;           /* ncores: share of the window waiting on rings */
+    double *node_ns;        /* nnodes: median kernel time of a firing in the run */
     bool *pinned;           /* ncores: the thread was bound to its PU */
     uint64_t *tokens;       /* nedges: tokens consumed */
     uint32_t *remaining;    /* nedges: tokens left in the channel at the end */
@@ -152,6 +164,89 @@ int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
 int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
                    double handoff_ns, uint32_t fifo_cap, double *period_ns,
                    uint32_t *depth, pm_diag *diag);
+
+/* ---- the host's own costs (runner_host.c) ---------------------------------- */
+
+#define PM_HOST_MAX_SIZES 5 /* token sizes measured */
+
+/* Median and 99th percentile of a measured cost, in host nanoseconds. */
+typedef struct pm_host_stat {
+    double median, p99;
+} pm_host_stat;
+
+/* What the runner itself costs on this host, measured by
+ * pm_runner_host_costs.  A token of a run with block B is B + 2 words of
+ * 4 bytes (the samples and the sequence number). */
+typedef struct pm_host_costs {
+    pm_host_stat dispatch;  /* per firing: the core loop, timestamps, same-core
+                               channels, a zero-turn kernel (serial chains) */
+    double ends_ns;         /* per iteration: a source's test signal and a
+                               sink's output hash, on top of dispatch */
+    uint32_t nsizes;        /* token sizes measured; 0 = no cross-core part */
+    uint32_t words[PM_HOST_MAX_SIZES];                  /* ascending */
+    pm_host_stat send[PM_HOST_MAX_SIZES];  /* producer's time per token */
+    pm_host_stat recv[PM_HOST_MAX_SIZES];  /* consumer's time per token */
+    uint32_t run_size;      /* index of the run's token size (cfg->block) */
+    pm_host_stat latency_idle; /* one-way handoff, both sides only waiting */
+    pm_host_stat latency_busy; /* one-way handoff, both sides working between */
+    pm_host_stat crossing;  /* one crossing of the runner itself: a loop of two
+                               zero-work nodes on the two PUs, half its period
+                               less each node's dispatch and output hash:
+                               the kernel end to the next kernel start, less
+                               the consumer's dispatch */
+    double send_base, send_per_word, recv_base, recv_per_word; /* least squares
+                               over the medians by size (per word >= 0) */
+    bool pinned;            /* every measuring thread held its PU */
+} pm_host_costs;
+
+/*
+ * Measure the runner's costs on PUs pu_a (the calling thread, left bound
+ * to it) and pu_b: dispatch per firing from serial chains of zero-work
+ * nodes of two lengths (slope; the intercept is ends_ns); send and receive
+ * time per token in batches of 8 tokens through a ring between the two
+ * threads, for blocks 1, 16, 64, 256 and cfg->block; the one-way handoff
+ * by ping-pong (half the round trip) with both sides idle, then with both
+ * running a busy loop of about 2 us between tokens; the crossing of the
+ * runner's own loop of two zero-work nodes over pu_a and pu_b.  `rounds` samples
+ * each (>= 10, the first tenth dropped).  pu_b == PM_NONE measures only
+ * the dispatch (nsizes 0).  Timing uses cfg->clock when set.
+ * PM_EINVAL, PM_ENOMEM, PM_EPLATFORM (no thread).  ~rounds x 30 us.
+ */
+int pm_runner_host_costs(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
+                         uint32_t rounds, pm_host_costs *out);
+
+/* The model's comm costs of one cross-core token on this host, in ns:
+ * send and recv occupancy at the run's size, and the latency from the
+ * producer's kernel end to the token's arrival: the runner's crossing less
+ * the receive (never below 0; the send overlaps it, as in the simulator). */
+void pm_runner_host_comm(const pm_host_costs *h, double *latency_ns, double *send_ns,
+                         double *recv_ns);
+
+/* Host time of node v in the model: node_ns[v] plus dispatch, plus half of
+ * ends_ns when v is a source and half when it is a sink (every node, when
+ * the graph has no sink: the runner then keeps every output).  O(V + E). */
+double pm_runner_host_node_ns(const pm_graph *g, const pm_host_costs *h, const double *node_ns,
+                              uint32_t v);
+
+/* pm_runner_predict with the host's costs: node v takes
+ * pm_runner_host_node_ns, every cross-core token costs the producer's
+ * core `send`, the consumer's `recv` and arrives `latency` later
+ * (pm_runner_host_comm).  Same errors. */
+int pm_runner_predict_host(const pm_graph *g, const pm_map *m, const double *node_ns,
+                           const pm_host_costs *h, uint32_t fifo_cap, double *period_ns,
+                           uint32_t *depth, pm_diag *diag);
+
+/* Where core c's period goes in that model, ns per iteration. */
+typedef struct pm_runner_share {
+    double work;       /* node kernels */
+    double dispatch;   /* the runner's per-firing cost (and sources/sinks) */
+    double transfers;  /* send and recv of cross-core tokens */
+    double waiting;    /* period minus the rest: waiting on other cores */
+} pm_runner_share;
+
+/* Fill share[0..m->ncores) for `period_ns`.  O(V + E). */
+void pm_runner_breakdown(const pm_graph *g, const pm_map *m, const double *node_ns,
+                         const pm_host_costs *h, double period_ns, pm_runner_share *share);
 
 /* Run m with one thread per core: cfg->warmup + cfg->iterations
  * iterations, each node for every one of them whatever its lag; timings

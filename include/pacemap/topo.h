@@ -3,7 +3,7 @@
  * real-core runner's threads use (docs/runner.md).
  *
  * Choice rule: distinct physical cores first, then SMT siblings of cores
- * already used; among cores, those of the first L3 cache (else package)
+ * already used; among cores, those of the first L3 (last-level) cache (else package)
  * that holds enough cores come first, so threads share a cache where
  * possible.  Each chosen PU carries a one-line reason.  Only PUs allowed
  * to this process are considered: its cgroup cpuset and, on this machine,
@@ -22,7 +22,7 @@
 
 #include "pacemap/error.h"
 
-#define PM_TOPO_WHY 160 /* bytes of one reason line */
+#define PM_TOPO_WHY 200 /* bytes of one reason line */
 
 typedef struct pm_topo pm_topo;
 

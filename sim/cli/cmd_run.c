@@ -1,12 +1,12 @@
 /*
  * cmd_run.c - `pacemap run FILE -p N [-n ITER] [--map F] [--cores LIST]
- * [--oversubscribe] [--ring N] [--json]`: execute a map on real cores and
+ * [--oversubscribe] [--host-map] [--ring N] [--json]`: execute a map on real cores and
  * compare the measured period with the model's prediction (docs/runner.md).
  *
  * Steps: load, map (--map, else pm_plan_map's), choose PUs,
- * calibrate, time each node alone,
- * measure the handoff, predict, run, rerun single-threaded to check the
- * outputs, report.  All computing is in runner.h/topo.h; this file parses,
+ * calibrate, time each node alone, measure the runner's host costs,
+ * (--host-map: map again with them), predict, run, rerun single-threaded
+ * to check the outputs, report.  All computing is in runner.h/topo.h; this file parses,
  * orders the steps and prints.
  */
 #include "cli.h"
@@ -28,7 +28,7 @@
 typedef struct cr_opts {
     uint32_t procs, iters, warmup, ring, block, watchdog;
     bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
-    bool oversubscribe, json, no_refine, paced;
+    bool oversubscribe, json, no_refine, paced, host_map;
     const char *map, *cores, *nspc, *mapper;
     const char *file;
 } cr_opts;
@@ -47,7 +47,10 @@ typedef struct cr_state {
     double *node_ns;
     uint32_t *depth, *cap;    /* per edge: model buffer depth, ring slots */
     double handoff, handoff_p99, predicted;
-    double predicted_in_run;  /* the model again, with the in-run firing times */
+    double predicted_in_run;  /* the model again, with the in-run kernel times */
+    pm_host_costs host;       /* the runner's own costs on this host */
+    double scn_map_predicted; /* --host-map: the scenario's map under the host's costs */
+    pm_runner_share *share;   /* ncores: the model's breakdown of the period */
     pm_runner_result res;
     bool outputs_match;
     crp_state paced;          /* --paced */
@@ -69,6 +72,8 @@ static int cr_parse(cr_opts *o, int argc, char **argv)
          "allow more map cores than processing units", NULL},
         {"--mapper", NULL, CLI_STRING, &o->mapper, NULL,
          "period (default: lowest period, lags) or list (the list scheduler)", "NAME"},
+        {"--host-map", NULL, CLI_FLAG, &o->host_map, NULL,
+         "map again with this host's measured costs and run that map", NULL},
         {"--no-refine", NULL, CLI_FLAG, &o->no_refine, NULL,
          "use the list schedule's map as it is (no search for a lower period)", NULL},
         {"--ring", NULL, CLI_U32, &o->ring, &o->ring_set,
@@ -85,7 +90,7 @@ static int cr_parse(cr_opts *o, int argc, char **argv)
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL},
     };
     const cli_cmd cmd = {"run", "FILE -p N [-n ITER] [--map F] [--cores LIST] "
-                                "[--oversubscribe] [--ring N] [--json]",
+                                "[--oversubscribe] [--host-map] [--ring N] [--json]",
                          "Run the map with pinned threads on this host's cores and compare "
                          "the measured period with the predicted one.", opts};
     return cli_parse(&cmd, argc, argv, &o->file);
@@ -151,32 +156,37 @@ static int cr_make_map(cr_state *s)
     return CLI_EXIT_OK;
 }
 
+/* A problem of this host, not of the scenario: one line without a file
+ * position, exit 1 (cli_usage_error prints the bare "pacemap: error:"). */
+static int cr_host_error(const char *what)
+{
+    cli_usage_error("run: %s", what);
+    return CLI_EXIT_INPUT;
+}
+
 static int cr_choose_pus(cr_state *s)
 {
     pm_diag d;
     pm_diag_clear(&d);
     uint32_t *list = NULL, n = 0;
     int rc = pm_topo_create(NULL, &s->topo);
-    if (rc != PM_OK) {
-        pm_diag_set(&d, "pacemap", 0, 0, "hwloc cannot read this machine's topology");
-        cli_error(&d);
-        return CLI_EXIT_INPUT;
-    }
+    if (rc != PM_OK)
+        return cr_host_error("hwloc cannot read this machine's topology; check that "
+                             "/sys is mounted and readable, or run on another host");
     if (s->o.cores && (rc = pm_topo_parse_list(s->o.cores, &list, &n, &d)) != PM_OK) {
         cli_usage_error("run: --cores '%s': %s", s->o.cores, d.msg);
         return CLI_EXIT_USAGE;
     }
     rc = pm_topo_choose(s->topo, s->m->ncores, list, n, s->o.oversubscribe, &s->pus, &d);
     free(list);
-    if (rc != PM_OK) {
-        pm_diag d2 = d;
-        pm_diag_set(&d2, s->g->file, 0, 0, "%s", d.msg);
-        cli_error(&d2);
+    if (rc == PM_ENOMEM)
         return cli_exit_for(rc);
-    }
+    if (rc != PM_OK)
+        return cr_host_error(d.msg);
     s->cfg.topo = s->topo;
     s->cfg.pu = s->pus.pu;
     s->cfg.yield = s->pus.shared;
+    s->cfg.cpu_time = s->pus.shared; /* shared PUs: count only the time a thread ran */
     return CLI_EXIT_OK;
 }
 
@@ -215,25 +225,91 @@ static void cr_ring_sizes(cr_state *s)
     s->cfg.edge_capacity = s->cap;
 }
 
-static int cr_measure(cr_state *s)
+/* Host cycles of node v: its time alone plus the runner's costs, in the
+ * scenario's cycles at its clock (at least 0). */
+static int64_t cr_host_cycles(const cr_state *s, double ns)
 {
-    pm_diag d;
-    pm_diag_clear(&d);
+    double c = ns / s->cfg.ns_per_cycle;
+    return c < 0.5 ? 0 : c > 1e15 ? (int64_t)1e15 : (int64_t)llround(c);
+}
+
+/* --host-map: map p->graph again with the nodes' host times and the
+ * host's comm costs (a copy of the graph; the scenario is not changed),
+ * keep the scenario's map's prediction for the comparison, run the new
+ * map.  Needs identical cores: per-class cycles have no single host time. */
+static int cr_host_map(cr_state *s, pm_diag *d)
+{
+    const pm_graph *g = s->g;
+    if (g->platform.nclasses > 1) {
+        pm_diag_set(d, g->file, 0, 0, "run --host-map needs identical cores; this scenario "
+                    "declares %u core classes", g->platform.nclasses);
+        return PM_EUNSUPPORTED;
+    }
+    int rc = pm_runner_predict_host(g, s->m, s->node_ns, &s->host, 0, &s->scn_map_predicted,
+                                    NULL, d);
+    pm_graph hg = *g;
+    hg.nodes = malloc((g->nnodes ? g->nnodes : 1) * sizeof *hg.nodes);
+    if (rc == PM_OK && !hg.nodes)
+        rc = PM_ENOMEM;
+    for (uint32_t v = 0; rc == PM_OK && v < g->nnodes; v++) {
+        hg.nodes[v] = g->nodes[v];
+        hg.nodes[v].cycles = cr_host_cycles(s, pm_runner_host_node_ns(g, &s->host, s->node_ns, v));
+        hg.nodes[v].class_cycles = PM_NONE;
+    }
+    double lat, snd, rcv;
+    pm_runner_host_comm(&s->host, &lat, &snd, &rcv);
+    hg.platform.comm = (pm_comm){cr_host_cycles(s, lat), 0, cr_host_cycles(s, snd),
+                                 cr_host_cycles(s, rcv)};
+    hg.platform.interconnect = PM_P2P;
+    pm_plan hp = s->scn;
+    hp.graph = &hg;
+    if (!hp.multirate)
+        hp.source = &hg;
+    pm_plan_opts po = {.refine = !s->o.no_refine};
+    pm_map *hm = NULL;
+    if (rc == PM_OK)
+        rc = pm_plan_map(&hp, &po, NULL, &hm, d);
+    free(hg.nodes);
+    if (rc == PM_OK) {
+        pm_map_destroy(s->m);
+        s->m = hm;
+    }
+    return rc;
+}
+
+/* Calibrate the busy loop, time each node alone, measure the runner's own
+ * costs on the first two PUs. */
+static int cr_calibrate(cr_state *s)
+{
     int rc = pm_runner_calibrate(&s->cfg.turns_per_ns);
     s->main_pinned = pm_topo_bind_thread(s->topo, s->pus.pu[0]) == PM_OK;
     s->node_ns = calloc(s->g->nnodes ? s->g->nnodes : 1, sizeof *s->node_ns);
     if (rc == PM_OK)
         rc = s->node_ns ? pm_runner_node_times(s->g, s->m, &s->cfg, 15, s->node_ns) : PM_ENOMEM;
-    if (rc == PM_OK && s->m->ncores > 1)
-        rc = pm_runner_handoff(&s->cfg, s->pus.pu[0], s->pus.pu[1], 2000, &s->handoff,
-                            &s->handoff_p99, &s->handoff_pinned);
+    if (rc == PM_OK)
+        rc = pm_runner_host_costs(&s->cfg, s->pus.pu[0],
+                                  s->m->ncores > 1 ? s->pus.pu[1] : PM_NONE, 2000, &s->host);
+    s->handoff = s->host.latency_idle.median;
+    s->handoff_p99 = s->host.latency_idle.p99;
+    s->handoff_pinned = s->host.pinned || s->m->ncores < 2;
+    return rc;
+}
+
+static int cr_measure(cr_state *s)
+{
+    pm_diag d;
+    pm_diag_clear(&d);
+    int rc = cr_calibrate(s);
     s->depth = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->depth);
     s->cap = calloc(s->g->nedges ? s->g->nedges : 1, sizeof *s->cap);
-    if (rc == PM_OK && (!s->depth || !s->cap))
+    s->share = calloc(s->m->ncores, sizeof *s->share);
+    if (rc == PM_OK && (!s->depth || !s->cap || !s->share))
         rc = PM_ENOMEM;
+    if (rc == PM_OK && s->o.host_map)
+        rc = cr_host_map(s, &d);
     if (rc == PM_OK)
-        rc = pm_runner_predict(s->g, s->m, s->node_ns, s->handoff, s->o.ring_set ? s->o.ring : 0,
-                            &s->predicted, s->depth, &d);
+        rc = pm_runner_predict_host(s->g, s->m, s->node_ns, &s->host,
+                                    s->o.ring_set ? s->o.ring : 0, &s->predicted, s->depth, &d);
     cr_watchdog_fit(s);
     cr_ring_sizes(s);
     if (rc != PM_OK) {
@@ -289,12 +365,14 @@ static int cr_execute(cr_state *s)
         c.pace = NULL;    /* outputs do not depend on timing */
         rc = pm_runner_execute(s->g, serial, &c, &one);
     }
-    if (rc == PM_OK && pm_runner_predict(s->g, s->m, s->res.node_ns, s->handoff,
-                                         s->o.ring_set ? s->o.ring : 0, &s->predicted_in_run,
-                                         NULL, NULL) != PM_OK)
+    if (rc == PM_OK && pm_runner_predict_host(s->g, s->m, s->res.node_ns, &s->host,
+                                              s->o.ring_set ? s->o.ring : 0,
+                                              &s->predicted_in_run, NULL, NULL) != PM_OK)
         s->predicted_in_run = 0;
     if (rc == PM_OK && s->paced.on)
         crp_predict(&s->paced, s->g, s->m, s->res.node_ns, s->handoff, s->cfg.ns_per_cycle);
+    if (rc == PM_OK)
+        pm_runner_breakdown(s->g, s->m, s->node_ns, &s->host, s->predicted, s->share);
     if (rc == PM_OK)
         s->outputs_match = one.output_hash == s->res.output_hash &&
                            s->res.order_errors == 0;
@@ -339,38 +417,109 @@ static void cr_text_setup(const cr_state *s)
     printf("run %s%s%s%s\n", s->o.file, p->title ? " \"" : "", p->title ? p->title : "",
            p->title ? "\"" : "");
     printf("map: %u core%s, %s\n", s->m->ncores, s->m->ncores == 1 ? "" : "s",
-           !s->scheduled_map ? s->o.map
+           s->o.host_map ? "mapped again with this host's costs (--host-map)"
+           : !s->scheduled_map ? s->o.map
            : s->po.mapper == PM_PLAN_MAPPER_LIST ? "from the list scheduler"
                                                  : "from the period-first mapper");
     printf("processing units: %s\n", s->pus.summary);
     for (uint32_t c = 0; c < s->pus.n; c++)
-        printf("  core %-3u -> PU %-4u %s\n", c, s->pus.pu[c], s->pus.why[c]);
+        printf("  core %u: processing unit %u %s\n", c, s->pus.pu[c], s->pus.why[c]);
     printf("spin calibration: %.3f busy-loop turns per ns; 1 node cycle = %.4g ns",
            s->cfg.turns_per_ns, s->cfg.ns_per_cycle);
     if (p->clock_hz && !s->o.nspc)
         printf(" (clock %.6g MHz)", (double)p->clock_hz / 1e6);
     printf("\n");
-    if (s->m->ncores > 1)
-        printf("handoff PU %u -> PU %u: median %.0f ns, p99 %.0f ns (ring ping-pong, half "
-               "the round trip)\n", s->pus.pu[0], s->pus.pu[1], s->handoff, s->handoff_p99);
+}
+
+/* ns and cycles at the scenario's clock, as "123 ns = 49.2 cyc". */
+static void cr_cost(const cr_state *s, const char *what, pm_host_stat st)
+{
+    printf("  %-34s %8.1f ns %8.1f cyc   p99 %8.1f ns %8.1f cyc\n", what, st.median,
+           st.median / s->cfg.ns_per_cycle, st.p99, st.p99 / s->cfg.ns_per_cycle);
+}
+
+static void cr_text_host(const cr_state *s)
+{
+    const pm_host_costs *h = &s->host;
+    printf("\nhost costs of the runner (median and p99; cycles at %.4g ns per cycle)\n",
+           s->cfg.ns_per_cycle);
+    cr_cost(s, "dispatch per firing", h->dispatch);
+    printf("  %-34s %8.1f ns %8.1f cyc\n", "source signal + sink hash, per iter.",
+           h->ends_ns, h->ends_ns / s->cfg.ns_per_cycle);
+    if (h->nsizes == 0)
+        return;
+    cr_cost(s, "handoff latency, both cores idle", h->latency_idle);
+    cr_cost(s, "handoff latency, both cores busy", h->latency_busy);
+    cr_cost(s, "crossing of the runner's own loop", h->crossing);
+    for (uint32_t i = 0; i < h->nsizes; i++) {
+        char what[64];
+        snprintf(what, sizeof what, "send per token of %u words%s", h->words[i],
+                 i == h->run_size ? " (run)" : "");
+        cr_cost(s, what, h->send[i]);
+        snprintf(what, sizeof what, "recv per token of %u words%s", h->words[i],
+                 i == h->run_size ? " (run)" : "");
+        cr_cost(s, what, h->recv[i]);
+    }
+    double lat, snd, rcv, npc = s->cfg.ns_per_cycle;
+    pm_runner_host_comm(h, &lat, &snd, &rcv);
+    printf("this host as a comm line (send/recv at 0 words; per word: send %.2f + recv %.2f "
+           "cycles):\n", h->send_per_word / npc, h->recv_per_word / npc);
+    printf("  comm latency=%.0f per-word=%.0f send=%.0f recv=%.0f\n", lat / npc,
+           (h->send_per_word + h->recv_per_word) / npc, h->send_base / npc, h->recv_base / npc);
 }
 
 static void cr_text_nodes(const cr_state *s)
 {
-    printf("\n%-20s %5s  %-12s %12s %14s %14s\n", "node", "core", "work", "cycles",
-           "host ns alone", "ns in the run");
+    printf("\n%-20s %4s  %-10s %9s %10s %10s %11s\n", "node", "core", "work", "cycles",
+           "ns alone", "ns in run", "host cycles");
     for (uint32_t c = 0; c < s->m->ncores; c++)
         for (uint32_t i = s->m->off[c]; i < s->m->off[c + 1]; i++) {
             uint32_t v = s->m->order[i];
             char wb[32];
             uint32_t cls = s->g->platform.core_class[c];
-            printf("%-20.20s %5u  %-12s %12lld %14.0f %14.0f\n", pm_graph_node_name(s->g, v),
-                   c, cr_work_text(&s->g->nodes[v], wb, sizeof wb),
+            double host = pm_runner_host_node_ns(s->g, &s->host, s->node_ns, v);
+            printf("%-20.20s %4u  %-10s %9lld %10.0f %10.0f %11.0f\n",
+                   pm_graph_node_name(s->g, v), c, cr_work_text(&s->g->nodes[v], wb, sizeof wb),
                    (long long)pm_graph_cycles_on(s->g, v, cls), s->node_ns[v],
-                   s->res.node_ns[v]);
+                   s->res.node_ns[v], host / s->cfg.ns_per_cycle);
         }
-    printf("(alone: median of 15 timed samples on one PU; in the run: median firing time, "
-           "outputs included)\n\n");
+    printf("(alone: kernel, median of 15 timed samples on one PU; in run: kernel, median;\n"
+           " host cycles: alone + dispatch (+ source/sink share), what the model uses)\n");
+}
+
+/* The host cycles as scenario lines to paste (single-rate scenarios). */
+static void cr_text_paste(const cr_state *s)
+{
+    if (s->scn.multirate || s->g->platform.nclasses > 1) {
+        printf("\n(no node lines to paste: the scenario is multirate or has core classes)\n");
+        return;
+    }
+    printf("\nnode lines with this host's cycles (paste into a scenario):\n");
+    for (uint32_t v = 0; v < s->g->nnodes; v++) {
+        char wb[32];
+        const pm_node *n = &s->g->nodes[v];
+        double host = pm_runner_host_node_ns(s->g, &s->host, s->node_ns, v);
+        printf("  node %s cycles=%.0f%s%s\n", pm_graph_node_name(s->g, v),
+               host / s->cfg.ns_per_cycle, n->work == PM_WORK_SPIN ? "" : " work=",
+               n->work == PM_WORK_SPIN ? "" : cr_work_text(n, wb, sizeof wb));
+    }
+}
+
+static void cr_text_breakdown(const cr_state *s)
+{
+    const pm_runner_result *r = &s->res;
+    printf("\nwhere the period goes, ns per iteration (model: host costs; run: measured)\n");
+    printf("%-6s %10s %10s %10s %10s   %10s %10s %10s\n", "core", "work", "dispatch",
+           "transfers", "waiting", "run work", "run wait", "run other");
+    for (uint32_t c = 0; c < s->m->ncores; c++) {
+        const pm_runner_share *m = &s->share[c];
+        double per = r->period_ns_mean;
+        printf("%-6u %10.0f %10.0f %10.0f %10.0f   %10.0f %10.0f %10.0f\n", c, m->work,
+               m->dispatch, m->transfers, m->waiting, r->busy[c] * per, r->wait[c] * per,
+               (1.0 - r->busy[c] - r->wait[c]) * per);
+    }
+    printf("(run other: dispatch and ring operations; run columns are shares of the mean "
+           "period)\n\n");
 }
 
 /* Print text in lines of at most `width` columns, breaking at spaces. */
@@ -395,20 +544,23 @@ static void cr_print_wrapped(const char *text, size_t width)
 static void cr_text_results(const cr_state *s)
 {
     const pm_runner_result *r = &s->res;
-    printf("predicted period   %12.0f ns  (simulator: host times above, handoff between "
-           "cores)\n", s->predicted);
+    if (s->o.host_map)
+        printf("scenario's map     %12.0f ns  predicted with the host's costs\n",
+               s->scn_map_predicted);
+    printf("predicted period   %12.0f ns  (simulator: times alone + the runner's host costs)\n",
+           s->predicted);
     printf("measured period    %12.0f ns  median; p99 %.0f ns, mean %.0f ns\n",
            r->period_ns_median, r->period_ns_p99, r->period_ns_mean);
     printf("measured/predicted %12.3f\n", s->predicted > 0 ? r->period_ns_median / s->predicted
                                                          : 0.0);
-    printf("model, in-run times%12.0f ns  (the prediction again, firing times of this run)\n",
+    printf("model, in-run times%12.0f ns  (the prediction again, kernel times of this run)\n",
            s->predicted_in_run);
     printf("latency            %12.0f ns  median; p99 %.0f ns (first source start to last "
            "sink end)\n", r->latency_ns_median, r->latency_ns_p99);
     printf("iterations         %12u     after %u warm-up\n", r->iterations, r->warmup);
-    printf("busy share        ");
+    printf("busy share (kernels)");
     for (uint32_t c = 0; c < r->ncores; c++)
-        printf(" core %u %.1f%%", c, 100.0 * r->busy[c]);
+        printf("%s core %u %.1f%%", c ? "," : "", c, 100.0 * r->busy[c]);
     printf("\noutputs            %s\n", s->outputs_match
                ? "bit-identical to a single-threaded run; every token once, in order"
                : "DIFFER from a single-threaded run or arrived out of order");
@@ -432,6 +584,15 @@ static void cr_json_cores(pm_json *j, const cr_state *s)
         pm_json_key(j, "pu"); pm_json_uint(j, s->pus.pu[c]);
         pm_json_key(j, "why"); pm_json_string(j, s->pus.why[c]);
         pm_json_key(j, "busy"); pm_json_double(j, s->res.busy[c]);
+        pm_json_key(j, "wait"); pm_json_double(j, s->res.wait[c]);
+        const pm_runner_share *m = &s->share[c];
+        pm_json_key(j, "model_ns");
+        pm_json_object_begin(j);
+        pm_json_key(j, "work"); pm_json_double(j, m->work);
+        pm_json_key(j, "dispatch"); pm_json_double(j, m->dispatch);
+        pm_json_key(j, "transfers"); pm_json_double(j, m->transfers);
+        pm_json_key(j, "waiting"); pm_json_double(j, m->waiting);
+        pm_json_object_end(j);
         pm_json_key(j, "pinned"); pm_json_bool(j, s->res.pinned[c]);
         pm_json_object_end(j);
     }
@@ -446,9 +607,57 @@ static void cr_json_cores(pm_json *j, const cr_state *s)
         pm_json_key(j, "work"); pm_json_string(j, cr_work_text(&s->g->nodes[v], wb, sizeof wb));
         pm_json_key(j, "host_ns"); pm_json_double(j, s->node_ns[v]);
         pm_json_key(j, "run_ns"); pm_json_double(j, s->res.node_ns[v]);
+        pm_json_key(j, "host_cycles");
+        pm_json_double(j, pm_runner_host_node_ns(s->g, &s->host, s->node_ns, v) /
+                              s->cfg.ns_per_cycle);
         pm_json_object_end(j);
     }
     pm_json_array_end(j);
+}
+
+static void cr_json_stat(pm_json *j, const char *key, pm_host_stat st)
+{
+    pm_json_key(j, key);
+    pm_json_object_begin(j);
+    pm_json_key(j, "median"); pm_json_double(j, st.median);
+    pm_json_key(j, "p99"); pm_json_double(j, st.p99);
+    pm_json_object_end(j);
+}
+
+/* The runner's host costs in ns, and the comm line in the scenario's cycles. */
+static void cr_json_host(pm_json *j, const cr_state *s)
+{
+    const pm_host_costs *h = &s->host;
+    double lat, snd, rcv, npc = s->cfg.ns_per_cycle;
+    pm_runner_host_comm(h, &lat, &snd, &rcv);
+    pm_json_key(j, "host_costs");
+    pm_json_object_begin(j);
+    cr_json_stat(j, "dispatch_ns", h->dispatch);
+    pm_json_key(j, "ends_ns"); pm_json_double(j, h->ends_ns);
+    if (h->nsizes) {
+        cr_json_stat(j, "latency_idle_ns", h->latency_idle);
+        cr_json_stat(j, "latency_busy_ns", h->latency_busy);
+        cr_json_stat(j, "crossing_ns", h->crossing);
+        pm_json_key(j, "sizes");
+        pm_json_array_begin(j);
+        for (uint32_t i = 0; i < h->nsizes; i++) {
+            pm_json_object_begin(j);
+            pm_json_key(j, "words"); pm_json_uint(j, h->words[i]);
+            cr_json_stat(j, "send_ns", h->send[i]);
+            cr_json_stat(j, "recv_ns", h->recv[i]);
+            pm_json_object_end(j);
+        }
+        pm_json_array_end(j);
+        pm_json_key(j, "comm_cycles");
+        pm_json_object_begin(j);
+        pm_json_key(j, "latency"); pm_json_double(j, lat / npc);
+        pm_json_key(j, "per_word");
+        pm_json_double(j, (h->send_per_word + h->recv_per_word) / npc);
+        pm_json_key(j, "send"); pm_json_double(j, h->send_base / npc);
+        pm_json_key(j, "recv"); pm_json_double(j, h->recv_base / npc);
+        pm_json_object_end(j);
+    }
+    pm_json_object_end(j);
 }
 
 static void cr_json(const cr_state *s)
@@ -477,6 +686,11 @@ static void cr_json(const cr_state *s)
     pm_json_key(&j, "oversubscribed"); pm_json_bool(&j, s->pus.shared);
     pm_json_key(&j, "outputs_match"); pm_json_bool(&j, s->outputs_match);
     pm_json_key(&j, "order_errors"); pm_json_uint(&j, r->order_errors);
+    pm_json_key(&j, "host_map"); pm_json_bool(&j, s->o.host_map);
+    if (s->o.host_map) {
+        pm_json_key(&j, "scenario_map_predicted_ns"); pm_json_double(&j, s->scn_map_predicted);
+    }
+    cr_json_host(&j, s);
     cr_json_cores(&j, s);
     crp_json(&s->paced, r, &j);
     pm_json_object_end(&j);
@@ -490,6 +704,7 @@ static void cr_free(cr_state *s)
     free(s->node_ns);
     free(s->depth);
     free(s->cap);
+    free(s->share);
     pm_topo_choice_free(&s->pus);
     pm_topo_destroy(s->topo);
     pm_map_destroy(s->m);
@@ -508,12 +723,16 @@ static int cr_steps(cr_state *s)
         return st;
     if (!cr_all_pinned(s))
         cli_warning("run: the system refused to pin threads (restricted cpuset or "
-                    "container?); ran unpinned");
+                    "container?); ran unpinned, so times may include migrations: run where "
+                    "thread affinity is allowed, or pick allowed units with --cores");
     if (s->o.json) {
         cr_json(s);
     } else {
         cr_text_setup(s);
+        cr_text_host(s);
         cr_text_nodes(s);
+        cr_text_paste(s);
+        cr_text_breakdown(s);
         cr_text_results(s);
     }
     return s->outputs_match ? CLI_EXIT_OK : CLI_EXIT_INPUT;

@@ -46,6 +46,18 @@ uint64_t runner_fnv(uint64_t h, const void *p, size_t n)
     return h;
 }
 
+/* FNV-1a taken a float's bits at a time instead of a byte: a quarter of
+ * the multiplies in every sink firing, still a function of every bit. */
+uint64_t runner_hash_block(uint64_t h, const float *p, uint32_t n)
+{
+    for (uint32_t i = 0; i < n; i++) {
+        uint32_t w;
+        memcpy(&w, &p[i], sizeof w);
+        h = (h ^ w) * UINT64_C(0x100000001b3);
+    }
+    return h;
+}
+
 void pm_runner_config_default(pm_runner_config *c)
 {
     memset(c, 0, sizeof *c);
@@ -155,25 +167,26 @@ enum { RUN_PREDICT_ITERS = 1000 };
  * so sixteenths of a nanosecond keep rounding far below timer noise. */
 #define RUN_UNITS_PER_NS 16.0
 
-static int64_t runner_units(double ns)
+int64_t runner_units(double ns)
 {
     double u = ns * RUN_UNITS_PER_NS;
     return u <= 0 ? 0 : u >= (double)PM_MAX_VALUE ? PM_MAX_VALUE : (int64_t)llround(u);
 }
 
-int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
-                   double handoff_ns, uint32_t fifo_cap, double *period_ns,
-                   uint32_t *depth, pm_diag *diag)
+int runner_predict_ns(const pm_graph *g, const pm_map *m, const double *node_ns,
+                      const double *comm_ns, uint32_t fifo_cap, double *period_ns,
+                      uint32_t *depth, pm_diag *diag)
 {
     int64_t *t = malloc((g->nnodes ? g->nnodes : 1) * sizeof *t);
     if (!t)
         return PM_ENOMEM;
     for (uint32_t v = 0; v < g->nnodes; v++)
         t[v] = runner_units(node_ns[v]);
-    /* the host's platform: every cross-core token arrives one handoff after
-     * its producer ends, links overlap freely (a borrowed, read-only view) */
+    /* the host's platform: point-to-point links that overlap freely, every
+     * token the same size (a borrowed, read-only view) */
     pm_graph host = *g;
-    host.platform.comm = (pm_comm){runner_units(handoff_ns), 0, 0, 0};
+    host.platform.comm = (pm_comm){runner_units(comm_ns[0]), 0, runner_units(comm_ns[1]),
+                                   runner_units(comm_ns[2])};
     host.platform.interconnect = PM_P2P;
     pm_sim_opts o = {.iterations = RUN_PREDICT_ITERS, .fifo_cap = fifo_cap, .node_cycles = t};
     pm_sim_result r;
@@ -190,6 +203,13 @@ int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
     return rc;
 }
 
+int pm_runner_predict(const pm_graph *g, const pm_map *m, const double *node_ns,
+                   double handoff_ns, uint32_t fifo_cap, double *period_ns,
+                   uint32_t *depth, pm_diag *diag)
+{
+    const double comm[3] = {handoff_ns, 0, 0};
+    return runner_predict_ns(g, m, node_ns, comm, fifo_cap, period_ns, depth, diag);
+}
 
 /* ---- what a run gives -------------------------------------------------------- */
 
@@ -201,7 +221,7 @@ static int64_t runner_span(const runner_ctx *x, uint64_t k, const uint32_t *set,
     int64_t best = first_start ? INT64_MAX : INT64_MIN;
     for (uint32_t i = 0; i < cnt; i++) {
         uint32_t v = set ? set[i] : i;
-        int64_t t = first_start ? x->start[k * n + v] : x->end[k * n + v];
+        int64_t t = first_start ? x->start[runner_rec(x, k, v)] : x->end[runner_rec(x, k, v)];
         best = first_start ? (t < best ? t : best) : (t > best ? t : best);
     }
     return cnt ? best : 0;
@@ -239,18 +259,38 @@ static void runner_latency(runner_ctx *x, double *tmp)
     x->r->latency_ns_p99 = runner_quantile(tmp, cnt, 0.99);
 }
 
+/* Length of [a, b) inside [from, to). */
+static int64_t runner_clip(int64_t a, int64_t b, int64_t from, int64_t to)
+{
+    a = a > from ? a : from;
+    b = b < to ? b : to;
+    return b > a ? b - a : 0;
+}
+
+/* Busy and wait shares of the measured window per core.  A core's
+ * kernels never overlap, so clipped to the window they sum to at most the
+ * window; with cpu_time no more than the time the thread ran counts. */
 static void runner_busy(runner_ctx *x)
 {
     pm_runner_result *r = x->r;
-    uint32_t n = x->g->nnodes, w = r->warmup;
+    uint32_t w = r->warmup;
     int64_t from = w > 0 ? runner_span(x, w - 1u, NULL, 0, false) : runner_span(x, 0, NULL, 0, true);
-    double window = (double)(runner_span(x, x->total - 1u, NULL, 0, false) - from);
-    for (uint32_t c = 0; c < r->ncores; c++) {
-        int64_t sum = 0;
+    int64_t to = runner_span(x, x->total - 1u, NULL, 0, false);
+    double window = (double)(to - from);
+    for (uint32_t c = 0; c < r->ncores && window > 0; c++) {
+        double busy = 0;
         for (uint64_t k = w; k < x->total; k++)
-            for (uint32_t i = x->m->off[c]; i < x->m->off[c + 1]; i++)
-                sum += x->end[k * n + x->m->order[i]] - x->start[k * n + x->m->order[i]];
-        r->busy[c] = window > 0 ? (double)sum / window : 0.0;
+            for (uint32_t i = x->m->off[c]; i < x->m->off[c + 1]; i++) {
+                size_t at = runner_rec(x, k, x->m->order[i]);
+                busy += (double)runner_clip(x->start[at], x->end[at], from, to);
+            }
+        if (x->cfg->cpu_time && (double)x->th[c].cpu_ns < busy)
+            busy = (double)x->th[c].cpu_ns;
+        r->busy[c] = busy / window;
+        /* waits of the measured iterations may begin before the window
+         * opens: never more than the window left after the kernels */
+        double wait = (double)x->th[c].wait_ns / window;
+        r->wait[c] = wait < 1.0 - r->busy[c] ? wait : 1.0 - r->busy[c];
     }
 }
 
@@ -260,7 +300,7 @@ static void runner_node_times(runner_ctx *x, double *tmp)
     for (uint32_t v = 0; v < n; v++) {
         uint32_t cnt = 0;
         for (uint64_t k = x->r->warmup; k < x->total; k++)
-            tmp[cnt++] = (double)(x->end[k * n + v] - x->start[k * n + v]);
+            tmp[cnt++] = (double)(x->end[runner_rec(x, k, v)] - x->start[runner_rec(x, k, v)]);
         x->r->node_ns[v] = runner_quantile(tmp, cnt, 0.5);
     }
 }
@@ -274,10 +314,13 @@ static void runner_collect(runner_ctx *x)
         r->waits[c] = x->th[c].wait;
     }
     for (uint32_t e = 0; e < r->nedges; e++)
+        r->tokens[e] = x->chan[e].taken;
+    for (uint32_t e = 0; e < r->nedges; e++)
         r->remaining[e] = x->chan[e].ring ? pm_ring_count(x->chan[e].ring) : x->chan[e].count;
     r->output_hash = UINT64_C(0xcbf29ce484222325);
     for (uint32_t s = 0; s < r->nsinks; s++)
-        r->output_hash = runner_fnv(r->output_hash, &x->sink_hash[s], sizeof x->sink_hash[s]);
+        r->output_hash = runner_fnv(r->output_hash, &x->sink_hash[s * RUNNER_HASH_STRIDE],
+                                    sizeof *x->sink_hash);
     if (r->stalled)
         return;
     double *tmp = malloc(x->total * sizeof *tmp);

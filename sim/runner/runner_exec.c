@@ -58,11 +58,18 @@ static void *runner_wait(runner_thread *th, uint32_t v, uint32_t e, uint64_t k, 
 {
     runner_ctx *x = th->x;
     runner_chan *c = &x->chan[e];
+    int64_t since = 0;
     for (uint64_t s = 0;; s++) {
         void *p = for_space ? runner_chan_claim(c, x->bytes)
                             : (void *)(uintptr_t)runner_chan_peek(c, x->bytes);
-        if (p)
+        if (p) {
+            /* the clock is read only when the ring was not ready at once */
+            if (s > 0 && k >= x->cfg->warmup)
+                th->wait_ns += runner_clock(x->cfg) - since;
             return p;
+        }
+        if (s == 0)
+            since = runner_clock(x->cfg);
         if (!c->ring)
             atomic_store(&x->stop, true);
         if (atomic_load_explicit(&x->stop, memory_order_relaxed)) {
@@ -92,7 +99,7 @@ static bool runner_gather(runner_thread *th, uint32_t v, uint64_t k)
         for (uint32_t j = 0; j < b; j++)
             th->in[j] = i == 0 && !src ? t->data[j] : th->in[j] + t->data[j];
         runner_chan_pop(&x->chan[e]);
-        x->r->tokens[e]++;
+        x->chan[e].taken++;
     }
     if (nin + src > 1) {
         float scale = 1.0f / (float)(nin + src);
@@ -102,19 +109,38 @@ static bool runner_gather(runner_thread *th, uint32_t v, uint64_t k)
     return true;
 }
 
+/* Publish the filled ring slots of v's out-edges [from, to). */
+static void runner_publish(runner_ctx *x, uint32_t from, uint32_t to)
+{
+    for (uint32_t i = from; i < to; i++)
+        if (x->chan[x->g->out_edge[i]].ring)
+            pm_ring_push(x->chan[x->g->out_edge[i]].ring);
+}
+
+/* Fill a slot on every out-edge, then publish the ring slots together, so
+ * each ring's head line moves once, after the copies (batched pushes).
+ * Before waiting for room, what is filled is published: a consumer may
+ * need it to make that room. */
 static bool runner_scatter(runner_thread *th, uint32_t v, uint64_t k)
 {
     runner_ctx *x = th->x;
     const pm_graph *g = x->g;
+    uint32_t pending = g->out_off[v];
     for (uint32_t i = g->out_off[v]; i < g->out_off[v + 1]; i++) {
         uint32_t e = g->out_edge[i];
-        runner_token *t = runner_wait(th, v, e, k, true);
-        if (!t)
-            return false;
+        runner_token *t = runner_chan_claim(&x->chan[e], x->bytes);
+        if (!t) {
+            runner_publish(x, pending, i);
+            pending = i;
+            if (!(t = runner_wait(th, v, e, k, true)))
+                return false;
+        }
         t->seq = (int64_t)k;
         memcpy(t->data, th->out, x->cfg->block * sizeof *t->data);
-        runner_chan_push(&x->chan[e]);
+        if (!x->chan[e].ring)
+            runner_chan_push(&x->chan[e]);
     }
+    runner_publish(x, pending, g->out_off[v + 1]);
     return true;
 }
 
@@ -124,7 +150,8 @@ static void runner_keep_output(runner_thread *th, uint32_t v, uint64_t k)
     uint32_t s = x->sink_slot[v], b = x->cfg->block;
     if (s == PM_NONE)
         return;
-    x->sink_hash[s] = runner_fnv(x->sink_hash[s], th->out, b * sizeof *th->out);
+    uint64_t *h = &x->sink_hash[s * RUNNER_HASH_STRIDE];
+    *h = runner_hash_block(*h, th->out, b);
     if (x->r->outputs)
         memcpy(x->r->outputs + ((size_t)s * x->total + k) * b, th->out, b * sizeof *th->out);
 }
@@ -136,13 +163,18 @@ static bool runner_fire(runner_thread *th, uint32_t v, uint64_t k)
         runner_pace_wait(th, v, k);
     if (!runner_gather(th, v, k))
         return false;
-    int64_t t1 = runner_now();
+    const pm_runner_config *cfg = x->cfg;
+    if (cfg->cpu_time && k == cfg->warmup && th->cpu_from < 0)
+        th->cpu_from = runner_cpu_now();
+    /* two clock reads a firing, both around the kernel: the ring work and
+     * the loop fall between firings and show as the cores' other time */
+    int64_t t1 = runner_clock(cfg);
     pm_kernel_process(x->kern[v], th->in, th->out);
+    size_t at = runner_rec(x, k, v);
+    x->start[at] = t1 - x->t0;
+    x->end[at] = runner_clock(cfg) - x->t0;
     if (!runner_scatter(th, v, k))
         return false;
-    size_t at = (size_t)k * x->g->nnodes + v;
-    x->start[at] = t1 - x->t0;
-    x->end[at] = runner_now() - x->t0;
     runner_keep_output(th, v, k);
     atomic_store_explicit(&th->fired, atomic_load_explicit(&th->fired, memory_order_relaxed) + 1u,
                           memory_order_relaxed);
@@ -190,7 +222,10 @@ static void *runner_worker(void *arg)
     if (go < 0)
         return NULL;
     th->wait = (pm_runner_wait){th->core, PM_NONE, PM_NONE, false, x->total};
+    th->cpu_from = -1;
     runner_core_loop(th);
+    if (x->cfg->cpu_time && th->cpu_from >= 0)
+        th->cpu_ns = runner_cpu_now() - th->cpu_from;
     atomic_store(&th->finished, true);
     return NULL;
 }
@@ -254,7 +289,7 @@ static int runner_pick_sinks(runner_ctx *x)
     r->sinks = malloc((r->nsinks ? r->nsinks : 1) * sizeof *r->sinks);
     x->sink_slot = malloc((g->nnodes ? g->nnodes : 1) * sizeof *x->sink_slot);
     x->is_source = malloc((g->nnodes ? g->nnodes : 1) * sizeof *x->is_source);
-    x->sink_hash = malloc((r->nsinks ? r->nsinks : 1) * sizeof *x->sink_hash);
+    x->sink_hash = aligned_alloc(PM_RING_LINE, (r->nsinks ? r->nsinks : 1) * PM_RING_LINE);
     if (!r->sinks || !x->sink_slot || !x->sink_hash || !x->is_source)
         return PM_ENOMEM;
     n = 0;
@@ -263,7 +298,7 @@ static int runner_pick_sinks(runner_ctx *x)
         bool s = all || runner_is_end(g, v, true);
         x->sink_slot[v] = s ? n : PM_NONE;
         if (s) {
-            x->sink_hash[n] = UINT64_C(0xcbf29ce484222325);
+            x->sink_hash[n * RUNNER_HASH_STRIDE] = UINT64_C(0xcbf29ce484222325);
             r->sinks[n++] = v;
         }
     }
@@ -286,12 +321,14 @@ static int runner_alloc_result(runner_ctx *x)
     r->iterations = x->cfg->iterations;
     r->warmup = x->cfg->warmup;
     r->busy = calloc(r->ncores, sizeof *r->busy);
+    r->wait = calloc(r->ncores, sizeof *r->wait);
     r->node_ns = calloc(g->nnodes ? g->nnodes : 1, sizeof *r->node_ns);
     r->pinned = calloc(r->ncores, sizeof *r->pinned);
     r->waits = calloc(r->ncores, sizeof *r->waits);
     r->tokens = calloc(g->nedges ? g->nedges : 1, sizeof *r->tokens);
     r->remaining = calloc(g->nedges ? g->nedges : 1, sizeof *r->remaining);
-    if (!r->busy || !r->node_ns || !r->pinned || !r->waits || !r->tokens || !r->remaining)
+    if (!r->busy || !r->wait || !r->node_ns || !r->pinned ||
+        !r->waits || !r->tokens || !r->remaining)
         return PM_ENOMEM;
     return runner_pick_sinks(x);
 }
@@ -299,9 +336,10 @@ static int runner_alloc_result(runner_ctx *x)
 static int runner_alloc_threads(runner_ctx *x)
 {
     uint32_t nc = x->m->ncores, b = x->cfg->block;
-    x->th = calloc(nc, sizeof *x->th);
+    x->th = aligned_alloc(PM_RING_LINE, nc * sizeof *x->th);
     if (!x->th)
         return PM_ENOMEM;
+    memset(x->th, 0, nc * sizeof *x->th);
     for (uint32_t c = 0; c < nc; c++) {
         runner_thread *th = &x->th[c];
         th->x = x;
@@ -316,19 +354,44 @@ static int runner_alloc_threads(runner_ctx *x)
     return PM_OK;
 }
 
+/* Lay out the records core by core (runner_rec); the total entries. */
+static size_t runner_layout(runner_ctx *x)
+{
+    const pm_map *m = x->m;
+    const size_t line = PM_RING_LINE / sizeof(int64_t);
+    size_t at = 0;
+    for (uint32_t c = 0; c < m->ncores; c++) {
+        size_t cnt = m->off[c + 1] - m->off[c];
+        for (uint32_t i = m->off[c]; i < m->off[c + 1]; i++) {
+            x->rec_base[m->order[i]] = at + (i - m->off[c]);
+            x->rec_stride[m->order[i]] = cnt;
+        }
+        at += (cnt * x->total + line - 1u) / line * line + line;
+    }
+    return at;
+}
+
 int runner_setup(runner_ctx *x)
 {
     const pm_graph *g = x->g;
-    size_t n = g->nnodes ? g->nnodes : 1, recs = (size_t)x->total * n;
-    if (recs > PM_RUNNER_MAX_RECORDS)
+    size_t n = g->nnodes ? g->nnodes : 1, ne = g->nedges ? g->nedges : 1;
+    if ((size_t)x->total * n > PM_RUNNER_MAX_RECORDS)
         return PM_ELIMIT;
     x->bytes = sizeof(runner_token) + x->cfg->block * sizeof(float);
-    x->chan = calloc(g->nedges ? g->nedges : 1, sizeof *x->chan);
+    x->chan = aligned_alloc(PM_RING_LINE, ne * sizeof *x->chan);
     x->kern = calloc(n, sizeof *x->kern);
-    x->start = calloc(recs, sizeof *x->start);
-    x->end = calloc(recs, sizeof *x->end);
-    if (!x->chan || !x->kern || !x->start || !x->end)
+    x->rec_base = malloc(n * sizeof *x->rec_base);
+    x->rec_stride = malloc(n * sizeof *x->rec_stride);
+    if (!x->chan || !x->kern || !x->rec_base || !x->rec_stride)
         return PM_ENOMEM;
+    memset(x->chan, 0, ne * sizeof *x->chan);
+    size_t recs = runner_layout(x);
+    x->start = aligned_alloc(PM_RING_LINE, recs * sizeof *x->start);
+    x->end = aligned_alloc(PM_RING_LINE, recs * sizeof *x->end);
+    if (!x->start || !x->end)
+        return PM_ENOMEM;
+    memset(x->start, 0, recs * sizeof *x->start);
+    memset(x->end, 0, recs * sizeof *x->end);
     int rc = runner_alloc_result(x);
     for (uint32_t e = 0; rc == PM_OK && e < g->nedges; e++)
         if ((rc = runner_make_chan(x, e)) == PM_OK)
@@ -355,6 +418,8 @@ void runner_teardown(runner_ctx *x)
     free(x->kern);
     free(x->start);
     free(x->end);
+    free(x->rec_base);
+    free(x->rec_stride);
     free(x->sink_slot);
     free(x->is_source);
     free(x->sink_hash);
@@ -365,6 +430,7 @@ void pm_runner_result_free(pm_runner_result *r)
     if (!r)
         return;
     free(r->busy);
+    free(r->wait);
     free(r->node_ns);
     free(r->pinned);
     free(r->tokens);
@@ -424,7 +490,7 @@ int runner_threads(runner_ctx *x)
         else
             x->th[c].started = true;
     }
-    x->t0 = runner_now();
+    x->t0 = runner_clock(x->cfg);
     atomic_store(&x->go, rc == PM_OK ? 1 : -1);
     bool stalled = rc == PM_OK && runner_watch(x);
     for (uint32_t c = 0; c < nc; c++)

@@ -108,6 +108,7 @@ typedef struct runner_pingpong {
     pm_ring *there, *back;
     size_t bytes;
     uint32_t rounds, pu;
+    uint64_t busy_turns; /* busy loop between tokens (0 = only wait) */
     const pm_runner_config *cfg;
     bool pinned;
     double *rt; /* round trips, filled by the initiator */
@@ -116,6 +117,7 @@ typedef struct runner_pingpong {
 static void runner_echo(runner_pingpong *p)
 {
     float copy[PM_KERNEL_MAX_BLOCK / 64];
+    volatile uint32_t sink = 0;
     for (uint32_t r = 0; r < p->rounds; r++) {
         const unsigned char *in;
         for (uint64_t s = 0; !(in = pm_ring_peek(p->there)); s++)
@@ -128,7 +130,12 @@ static void runner_echo(runner_pingpong *p)
             runner_wait_turn(p->cfg, s);
         memcpy(o, copy, n);
         pm_ring_push(p->back);
+        /* half the initiator's work: this side is waiting again before the
+         * next token leaves, so the round trip holds no leftover work */
+        if (p->busy_turns)
+            sink = pm_kernel_spin(p->busy_turns / 2);
     }
+    (void)sink;
 }
 
 static void *runner_echo_thread(void *arg)
@@ -143,8 +150,11 @@ static void runner_ping(runner_pingpong *p)
 {
     float data[PM_KERNEL_MAX_BLOCK / 64] = {0};
     size_t n = p->bytes < sizeof data ? p->bytes : sizeof data;
+    volatile uint32_t sink = 0;
     for (uint32_t r = 0; r < p->rounds; r++) {
-        int64_t t0 = runner_now();
+        if (p->busy_turns)
+            sink = pm_kernel_spin(p->busy_turns);
+        int64_t t0 = runner_clock(p->cfg);
         unsigned char *o;
         for (uint64_t s = 0; !(o = pm_ring_claim(p->there)); s++)
             runner_wait_turn(p->cfg, s);
@@ -155,16 +165,17 @@ static void runner_ping(runner_pingpong *p)
             runner_wait_turn(p->cfg, s);
         memcpy(data, in, n);
         pm_ring_pop(p->back);
-        p->rt[r] = (double)(runner_now() - t0);
+        p->rt[r] = (double)(runner_clock(p->cfg) - t0);
     }
+    (void)sink;
 }
 
-int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
-                   uint32_t rounds, double *median_ns, double *p99_ns, bool *pinned)
+int runner_handoff_run(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
+                       uint32_t rounds, size_t bytes, uint64_t busy_turns, double *median_ns,
+                       double *p99_ns, bool *pinned)
 {
     if (rounds < 10)
         return PM_EINVAL;
-    size_t bytes = sizeof(int64_t) + cfg->block * sizeof(float);
     runner_pingpong a = {0}, b = {0};
     a.rt = malloc(rounds * sizeof *a.rt);
     int rc = a.rt ? pm_ring_create(bytes, 1, &a.there) : PM_ENOMEM;
@@ -174,6 +185,7 @@ int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
     a.rounds = rounds;
     a.cfg = cfg;
     a.pu = pu_a;
+    a.busy_turns = busy_turns;
     b = a;
     b.pu = pu_b;
     pthread_t t;
@@ -193,4 +205,11 @@ int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
     pm_ring_destroy(a.back);
     free(a.rt);
     return rc;
+}
+
+int pm_runner_handoff(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu_b,
+                   uint32_t rounds, double *median_ns, double *p99_ns, bool *pinned)
+{
+    size_t bytes = sizeof(int64_t) + cfg->block * sizeof(float);
+    return runner_handoff_run(cfg, pu_a, pu_b, rounds, bytes, 0, median_ns, p99_ns, pinned);
 }

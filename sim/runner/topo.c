@@ -188,15 +188,17 @@ static const topo_pu *topo_find_os(const pm_topo *t, uint32_t os)
     return NULL;
 }
 
-#define TOPO_PLACE 64 /* "core L#a, package L#b, L3 L#c" with 10-digit numbers */
+#define TOPO_PLACE 96 /* the longest place below with 10-digit numbers */
 
+/* Where PU p sits, in plain words; the numbers count from 0 in the order
+ * the machine lists its cores, packages and caches. */
 static void topo_place(const topo_pu *p, char *buf)
 {
-    int len = snprintf(buf, TOPO_PLACE, "core L#%u", p->core);
+    int len = snprintf(buf, TOPO_PLACE, "on physical core %u", p->core);
     if (p->pkg != PM_TOPO_NONE)
-        len += snprintf(buf + len, TOPO_PLACE - (size_t)len, ", package L#%u", p->pkg);
+        len += snprintf(buf + len, TOPO_PLACE - (size_t)len, " of package %u", p->pkg);
     if (p->l3 != PM_TOPO_NONE)
-        snprintf(buf + len, TOPO_PLACE - (size_t)len, ", L3 L#%u", p->l3);
+        snprintf(buf + len, TOPO_PLACE - (size_t)len, ", last-level cache %u", p->l3);
 }
 
 /* Reason for thread i placed on p, given the PUs of threads before it. */
@@ -221,7 +223,7 @@ static void topo_reason(const pm_topo *t, const pm_topo_choice *c, uint32_t i,
         snprintf(c->why[i], PM_TOPO_WHY, "%s%s; SMT sibling of map core %u "
                  "(only %u physical cores)", src, place, same_core, t->ncores);
     else
-        snprintf(c->why[i], PM_TOPO_WHY, "%s%s; a physical core of its own", src, place);
+        snprintf(c->why[i], PM_TOPO_WHY, "%s%s; a core of its own", src, place);
 }
 
 static void topo_summary(const pm_topo *t, pm_topo_choice *c)
@@ -242,7 +244,7 @@ static void topo_summary(const pm_topo *t, pm_topo_choice *c)
     snprintf(c->summary, sizeof c->summary,
              "%u thread%s on %u of %u physical cores (%u PU%s allowed)%s%s", c->n,
              c->n == 1 ? "" : "s", cores, t->ncores, t->npus, t->npus == 1 ? "" : "s",
-             one_l3 ? ", one L3 cache" : one_pkg ? ", one package" : "",
+             one_l3 ? ", sharing one last-level cache" : one_pkg ? ", one package" : "",
              c->shared ? ", PUs shared" : "");
 }
 

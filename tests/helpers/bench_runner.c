@@ -1,18 +1,22 @@
 /*
  * bench_runner.c - benchmark of the real-core runner (run by
- * tests/bench/bench_run.sh): handoff latency between two pinned threads,
- * and measured against predicted period on invented graphs whose nodes
- * take at least 10 µs.  run/alone is the mean over nodes of (median firing
- * time in the run) / (median time alone): above 1 the nodes themselves
- * ran slower with all cores busy, rather than waiting longer.  meas/post
- * divides the measured median by the prediction made again from the
- * in-run firing times: the model's own error once node slow-down is out.
+ * tests/bench/bench_run.sh): the runner's host costs (dispatch, send and
+ * receive per token, handoff idle and busy), and measured against
+ * predicted period on invented graphs: three with nodes of at least 10 µs
+ * and random ones whose node times are drawn log-uniformly from 100 ns to
+ * 100 µs.  "predicted" adds the host costs to the node times (what `run`
+ * prints); "bare" is the older model, node times alone and the handoff as
+ * latency.  run/alone is the mean over nodes of (median kernel time in the
+ * run) / (median time alone): above 1 the kernels themselves ran slower
+ * with all cores busy.  meas/post divides the measured median by the
+ * prediction made again from the in-run kernel times.
  * Graphs are built with the pm_graph API so the bench needs no scenario
  * files.  Prints one aligned table; never fails on
  * timing (exit 1 only when something cannot run or outputs differ).
  *
  * usage: bench_runner [ITERATIONS]
  */
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -112,30 +116,62 @@ static bench kernels(void)
                    "kernels fir/fft/biquad"};
 }
 
-static int bench_one(bench b, pm_runner_config *cfg, double handoff)
+/* A random graph of n nodes, node v taking 100 ns * 1000^u (u uniform in
+ * [0,1)): a chain with forward skips and one loop back over two delays,
+ * dealt round robin to two cores.  A 64-bit LCG (Knuth's MMIX constants)
+ * so every run of the bench gets the same graphs. */
+static bench random_graph(uint64_t seed, uint32_t n, char *name, size_t len)
 {
+    pm_graph *g = two_core_graph();
+    uint64_t x = seed;
+    for (uint32_t v = 0; v < n; v++) {
+        x = x * 6364136223846793005u + 1442695040888963407u;
+        double u = (double)(x >> 11) / 9007199254740992.0;
+        char nm[16];
+        snprintf(nm, sizeof nm, "r%u", v);
+        add(g, nm, (int64_t)(100.0 * pow(1000.0, u)), PM_WORK_SPIN, 0);
+        if (v > 0)
+            connect(g, v - 1, v, 0);
+        if (v > 1 && (x >> 40) % 3 == 0)
+            connect(g, v - 2, v, 0);
+    }
+    connect(g, n - 1, n / 2, 2);
+    pm_graph_finalize(g);
+    pm_map *m = NULL;
+    if (pm_runner_round_robin_map(g, 2, &m) != PM_OK)
+        exit(1);
+    snprintf(name, len, "random %u nodes #%llu", n, (unsigned long long)seed);
+    return (bench){g, m, name};
+}
+
+static int bench_one(bench b, pm_runner_config *cfg, const pm_host_costs *h)
+{
+    double handoff = h->latency_idle.median, bare = 0;
     double *ns = calloc(b.g->nnodes, sizeof *ns), pred = 0, lo = 1e300;
     pm_runner_result rs = {0}, os = {0}, *r = &rs, *one = &os;
     pm_map *serial = NULL;
     int rc = pm_runner_node_times(b.g, b.m, cfg, 15, ns);
     if (rc == PM_OK)
-        rc = pm_runner_predict(b.g, b.m, ns, handoff, 0, &pred, NULL, NULL);
+        rc = pm_runner_predict_host(b.g, b.m, ns, h, 0, &pred, NULL, NULL);
+    if (rc == PM_OK)
+        rc = pm_runner_predict(b.g, b.m, ns, handoff, 0, &bare, NULL, NULL);
     if (rc == PM_OK)
         rc = pm_runner_execute(b.g, b.m, cfg, r);
     if (rc == PM_OK && (rc = pm_runner_serial_map(b.g, &serial)) == PM_OK)
         rc = pm_runner_execute(b.g, serial, cfg, one);
     double slow = 0, post = 0;
     if (rc == PM_OK &&
-        pm_runner_predict(b.g, b.m, r->node_ns, handoff, 0, &post, NULL, NULL) != PM_OK)
+        pm_runner_predict_host(b.g, b.m, r->node_ns, h, 0, &post, NULL, NULL) != PM_OK)
         post = 0;
     for (uint32_t v = 0; v < b.g->nnodes; v++) {
         lo = ns[v] < lo ? ns[v] : lo;
         slow += rc == PM_OK ? r->node_ns[v] / ns[v] / b.g->nnodes : 0;
     }
     if (rc == PM_OK)
-        printf("%-24s %8.1f %9.1f %9.1f %9.1f %9.4f %9.4f %9.4f  %s\n", b.name, lo / 1000,
-               pred / 1000, r->period_ns_median / 1000, r->period_ns_p99 / 1000,
-               r->period_ns_median / pred, slow, r->period_ns_median / post,
+        printf("%-24s %8.2f %9.2f %9.2f %9.2f %9.4f %9.4f %9.4f %9.4f  %s\n", b.name,
+               lo / 1000, pred / 1000, r->period_ns_median / 1000, r->period_ns_p99 / 1000,
+               r->period_ns_median / pred, r->period_ns_median / bare, slow,
+               r->period_ns_median / post,
                one->output_hash == r->output_hash && !r->order_errors ? "same" : "DIFFER");
     else
         printf("%-24s failed: %s\n", b.name, pm_error_name(rc));
@@ -165,19 +201,28 @@ int main(int argc, char **argv)
     cfg.topo = t;
     cfg.pu = ch.pu;
     cfg.yield = ch.shared;
-    double med, p99;
-    bool pinned;
+    pm_host_costs h;
     if (pm_runner_calibrate(&cfg.turns_per_ns) != PM_OK ||
-        pm_runner_handoff(&cfg, ch.pu[0], ch.pu[1], 20000, &med, &p99, &pinned) != PM_OK)
+        pm_runner_host_costs(&cfg, ch.pu[0], ch.pu[1], 5000, &h) != PM_OK)
         return 1;
-    printf("PUs: %s\nspin: %.3f turns/ns; handoff PU %u -> PU %u (block %u floats): "
-           "median %.0f ns, p99 %.0f ns, %s\n", ch.summary, cfg.turns_per_ns, ch.pu[0],
-           ch.pu[1], cfg.block, med, p99, pinned ? "pinned" : "NOT pinned");
+    printf("PUs: %s\nspin: %.3f turns/ns; %s\n", ch.summary, cfg.turns_per_ns,
+           h.pinned ? "pinned" : "NOT pinned");
+    printf("host costs, ns (median / p99): dispatch %.1f / %.1f per firing, source+sink %.1f; "
+           "handoff idle %.0f / %.0f, busy %.0f / %.0f\n", h.dispatch.median, h.dispatch.p99,
+           h.ends_ns, h.latency_idle.median, h.latency_idle.p99, h.latency_busy.median,
+           h.latency_busy.p99);
+    for (uint32_t i = 0; i < h.nsizes; i++)
+        printf("  token of %4u words: send %6.1f / %6.1f, recv %6.1f / %6.1f%s\n", h.words[i],
+               h.send[i].median, h.send[i].p99, h.recv[i].median, h.recv[i].p99,
+               i == h.run_size ? "  (the runs below)" : "");
     printf("iterations %u after %u warm-up; times in us\n", cfg.iterations, cfg.warmup);
-    printf("%-24s %8s %9s %9s %9s %9s %9s %9s  %s\n", "graph", "min node", "predicted",
-           "median", "p99", "meas/pred", "run/alone", "meas/post", "outputs");
-    int bad = bench_one(pipeline(), &cfg, med) | bench_one(loop(), &cfg, med) |
-              bench_one(kernels(), &cfg, med);
+    printf("%-24s %8s %9s %9s %9s %9s %9s %9s %9s  %s\n", "graph", "min node", "predicted",
+           "median", "p99", "meas/pred", "meas/bare", "run/alone", "meas/post", "outputs");
+    int bad = bench_one(pipeline(), &cfg, &h) | bench_one(loop(), &cfg, &h) |
+              bench_one(kernels(), &cfg, &h);
+    char names[4][48];
+    for (uint32_t i = 0; i < 4; i++)
+        bad |= bench_one(random_graph(i + 1, 6 + 2 * i, names[i], sizeof names[i]), &cfg, &h);
     pm_topo_choice_free(&ch);
     pm_topo_destroy(t);
     return bad;
