@@ -24,6 +24,9 @@ DEBIAN_PACKAGES = build-essential pkg-config libcmocka-dev libhwloc-dev hwloc \
            libboost-graph-dev glpk-utils python3 python3-networkx libfftw3-dev \
            clang libclang-rt-dev graphviz python3-jsonschema
 
+# The version lives in include/pacemap/version.h only.
+VERSION  := $(shell sed -n 's/^\#define PM_VERSION "\(.*\)"/\1/p' include/pacemap/version.h)
+
 # ---- sources ----------------------------------------------------------------
 # The library is every folder of sched/ and sim/ but the command line's.
 CLI_SRC  := $(wildcard sim/cli/*.c)
@@ -117,7 +120,7 @@ install: all
 	printf '%s\n' 'prefix=$(PREFIX)' 'libdir=$${prefix}/lib' 'includedir=$${prefix}/include' '' \
 	    'Name: pacemap' \
 	    'Description: Iteration bounds, list schedules and self-timed simulation of DSP graphs on multicore' \
-	    'Version: 0.1.0' 'Libs: -L$${libdir} -lpacemap' 'Libs.private: -lhwloc -lpthread -lm' \
+	    'Version: $(VERSION)' 'Libs: -L$${libdir} -lpacemap' 'Libs.private: -lhwloc -lpthread -lm' \
 	    'Cflags: -I$${includedir}' > $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc
 
 uninstall:

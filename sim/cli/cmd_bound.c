@@ -7,10 +7,12 @@
  * (sched/bound/bound.c, sched/bound/floors.c).  What it does not do: schedule.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include "pacemap/bound.h"
 #include "pacemap/json.h"
 
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -144,16 +146,17 @@ static void cb_text_floors(const pm_graph *g, const pm_bound *b, const pm_floors
 
 static void cb_text_budget(const pm_graph *g, const pm_floors *f)
 {
-    char rb[64];
-    double clock = (double)g->platform.clock_hz;
-    printf("\nbudget at %.6g MHz and %.6g kHz: %s cycles per iteration (%.3f us)\n",
-           clock / 1e6, (double)g->platform.rate_hz / 1e3, cb_fmt_rat(rb, sizeof rb, f->budget),
-           pm_rat_to_double(f->budget) / clock * 1e6);
+    char rb[64], clk[PM_UNITS_LEN], rate[PM_UNITS_LEN], t[PM_UNITS_LEN];
+    uint64_t hz = g->platform.clock_hz;
+    printf("\nbudget at %s and %s: %s cycles per iteration (%s)\n",
+           pm_units_freq(clk, sizeof clk, hz), pm_units_freq(rate, sizeof rate, g->platform.rate_hz),
+           cb_fmt_rat(rb, sizeof rb, f->budget),
+           pm_units_cycles(t, sizeof t, pm_rat_to_double(f->budget), hz));
     if (f->has_loop)
         printf("  iteration bound: %s\n", f->loop_fits ? "fits" : "DOES NOT FIT");
-    printf("  lower bound:     %s, margin %s cycles (%.3f us)\n",
+    printf("  lower bound:     %s, margin %s cycles (%s%s)\n",
            f->lower_fits ? "fits" : "DOES NOT FIT", cb_fmt_rat(rb, sizeof rb, f->margin),
-           f->margin_us);
+           f->margin_us < 0 ? "-" : "", pm_units_time(t, sizeof t, fabs(f->margin_us) * 1e-6));
 }
 
 /* The caution, wrapped to 80 columns. */
@@ -188,10 +191,13 @@ static void cb_text(const char *file, const pm_graph *g, const pm_bound *b,
     } else {
         printf("iteration bound: %s cycles per iteration", cb_fmt_rat(rb, sizeof rb,
                                                                    b->iteration_bound));
-        if (g->platform.clock_hz)
-            printf(" (%.4g us at %.6g MHz)", pm_rat_to_double(b->iteration_bound) /
-                                                 (double)g->platform.clock_hz * 1e6,
-                   (double)g->platform.clock_hz / 1e6);
+        if (g->platform.clock_hz) {
+            char t[PM_UNITS_LEN], clk[PM_UNITS_LEN];
+            printf(" (%s at %s)", pm_units_cycles(t, sizeof t,
+                                                  pm_rat_to_double(b->iteration_bound),
+                                                  g->platform.clock_hz),
+                   pm_units_freq(clk, sizeof clk, g->platform.clock_hz));
+        }
         printf("\n");
         cb_text_critical(g, b);
         cb_text_parts(g, b);

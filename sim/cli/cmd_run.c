@@ -10,6 +10,7 @@
  * orders the steps and prints.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -324,8 +325,10 @@ static void cr_text_setup(const cr_state *s)
         printf("  core %-3u -> PU %-4u %s\n", c, s->pus.pu[c], s->pus.why[c]);
     printf("spin calibration: %.3f busy-loop turns per ns; 1 node cycle = %.4g ns",
            s->cfg.turns_per_ns, s->cfg.ns_per_cycle);
-    if (p->clock_hz && !s->o.nspc)
-        printf(" (clock %.6g MHz)", (double)p->clock_hz / 1e6);
+    if (p->clock_hz && !s->o.nspc) {
+        char clk[PM_UNITS_LEN];
+        printf(" (clock %s)", pm_units_freq(clk, sizeof clk, p->clock_hz));
+    }
     printf("\n");
     if (s->m->ncores > 1)
         printf("handoff PU %u -> PU %u: median %.0f ns, p99 %.0f ns (ring ping-pong, half "

@@ -6,6 +6,7 @@
  * an SVG chart through pm_outfile.  Scheduling itself lives in sched/.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -109,9 +110,11 @@ static void sc_text_summary(const sc_result *r)
     printf("%s: %u nodes on %u cores, %s\n", r->file, r->g->nnodes, p->ncores,
            p->interconnect == PM_BUS ? "bus" : "point-to-point links");
     printf("makespan       %lld cycles", (long long)r->s->makespan);
-    if (p->clock_hz)
-        printf(" (%.4g us at %.6g MHz)", (double)r->s->makespan * 1e6 / (double)p->clock_hz,
-               (double)p->clock_hz / 1e6);
+    if (p->clock_hz) {
+        char t[PM_UNITS_LEN], clk[PM_UNITS_LEN];
+        printf(" (%s at %s)", pm_units_cycles(t, sizeof t, (double)r->s->makespan, p->clock_hz),
+               pm_units_freq(clk, sizeof clk, p->clock_hz));
+    }
     putchar('\n');
     if (r->nloop > 0) {
         printf("loop floor     %.6g cycles per iteration (%lld/%lld): loop", 

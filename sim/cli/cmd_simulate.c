@@ -9,6 +9,7 @@
  * calls and prints.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -29,7 +30,7 @@
 
 typedef struct sm_args {
     uint32_t procs, iterations, fifo;
-    bool procs_set, json, no_refine;
+    bool procs_set, json, no_refine, fifo_set;
     const char *map, *vcd, *svg;
 } sm_args;
 
@@ -174,8 +175,11 @@ static void sm_text_period(const sm_run *s)
     const pm_sim_result *r = &s->r;
     printf("period         %.6g cycles per iteration (%lld/%lld)", pm_rat_to_double(r->period),
            (long long)r->period.num, (long long)r->period.den);
-    if (s->g->platform.clock_hz && r->period.num)
-        printf(", %.6g us", pm_rat_to_double(r->period) * 1e6 / (double)s->g->platform.clock_hz);
+    if (s->g->platform.clock_hz && r->period.num) {
+        char t[PM_UNITS_LEN];
+        printf(", %s", pm_units_cycles(t, sizeof t, pm_rat_to_double(r->period),
+                                       s->g->platform.clock_hz));
+    }
     putchar('\n');
     if (r->steady)
         printf("               steady from iteration %llu, repeats every %u iteration%s\n",
@@ -500,7 +504,7 @@ int pm_cmd_simulate(int argc, char **argv)
         { "-n", "--iterations", CLI_U32, &a.iterations, NULL,
           "iterations to simulate (default 1000)", "ITER" },
         { "--map", NULL, CLI_STRING, &a.map, NULL, "run this map instead of scheduling", "F" },
-        { "--fifo", NULL, CLI_U32, &a.fifo, NULL,
+        { "--fifo", NULL, CLI_U32, &a.fifo, &a.fifo_set,
           "tokens each cross-core edge can buffer (default: unbounded)", "N" },
         { "--no-refine", NULL, CLI_FLAG, &a.no_refine, NULL,
           "use the list schedule's map as it is (no search for a lower period)", NULL },
@@ -520,6 +524,11 @@ int pm_cmd_simulate(int argc, char **argv)
         return st;
     if (a.iterations == 0) {
         cli_usage_error("-n must be at least 1");
+        return CLI_EXIT_USAGE;
+    }
+    if (a.fifo_set && a.fifo == 0) {
+        cli_usage_error("--fifo 0: a FIFO must hold at least one token "
+                        "(leave --fifo out for unbounded FIFOs)");
         return CLI_EXIT_USAGE;
     }
     sm_run s;
