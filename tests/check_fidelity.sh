@@ -31,6 +31,37 @@ expect_rc() {
 expect_rc 2 "simulate --fifo 0 is a usage error" simulate scenarios/rx_chain.pace --fifo 0
 grep -q 'at least one token' "$TMP/err" && ok "--fifo 0 says why" || bad "--fifo 0 does not say why"
 
+# ---- an inconsistent rate is pointed at -------------------------------------------
+# A consistent decimate-and-restore loop (by hand, with c -> d at 4:1:
+# q = a 4, b 1, c 1, d 4, e 1; 4*1 = 1*4 on a -> b, 1*4 = 4*1 on c -> d)
+# with c -> d mistyped 3:1 instead of 4:1.  Around a -> b -> c -> d -> a the
+# rates ask a to fire (1/4)(1)(3)(1) = 3/4 times as often as itself.  Both
+# a -> b (1:4 -> 1:3) and c -> d (3:1 -> 4:1) could fix it alone; 4 is a
+# rate used elsewhere (a -> e), 3 only on c -> d: the error points there,
+# line 9, column 6 (where "c" starts).
+cat > "$TMP/chan.pace" <<'PACE'
+# channeliser loop, one rate mistyped
+node a cycles=1
+node b cycles=1
+node c cycles=1
+node d cycles=1
+node e cycles=1
+edge a -> b produce=1 consume=4
+edge b -> c
+edge c -> d produce=3 consume=1
+edge d -> a delay=4
+edge a -> e produce=1 consume=4
+PACE
+expect_rc 1 "inconsistent rates are an input error" check "$TMP/chan.pace"
+grep -q "chan.pace:9:6: error: inconsistent rates on the cycle" "$TMP/err" &&
+    ok "inconsistent rates: points at the changed edge (9:6)" ||
+    bad "inconsistent rates: not at the changed edge (9:6)"
+for part in "3/4 times" "a -> b 1:4 (line 7)" "b -> c 1:1 (line 8)" "c -> d 3:1 (line 9)" \
+            "d -> a 1:1 (line 10)"; do
+    grep -qF "$part" "$TMP/err" && ok "inconsistent rates: names '$part'" ||
+        bad "inconsistent rates: no '$part'"
+done
+
 # ---- version ------------------------------------------------------------------
 version=$(sed -n 's/^#define PM_VERSION "\(.*\)"/\1/p' include/pacemap/version.h)
 for opt in --version -V; do
