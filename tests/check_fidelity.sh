@@ -62,6 +62,33 @@ for part in "3/4 times" "a -> b 1:4 (line 7)" "b -> c 1:1 (line 8)" "c -> d 3:1 
         bad "inconsistent rates: no '$part'"
 done
 
+# ---- critical loops that differ in the middle print apart -------------------------
+# Ten stages in a ring with one delay, and a second path around stage_5 via
+# alt_5: two loops of 10 nodes x 10 cycles / 1 delay = 100 (by hand), equal
+# but for their sixth node.
+{
+    echo "# two ten-node loops that differ only in the middle"
+    i=0; chain=""
+    while [ $i -lt 10 ]; do
+        echo "node stage_$i cycles=10"; chain="$chain${chain:+ -> }stage_$i"; i=$((i + 1))
+    done
+    echo "node alt_5 cycles=10"
+    echo "edge $chain"
+    echo "edge stage_9 -> stage_0 delay=1"
+    echo "edge stage_4 -> alt_5 -> stage_6"
+} > "$TMP/two.pace"
+expect_rc 0 "bound on two loops differing in the middle" bound "$TMP/two.pace"
+sed -n '/^critical loops/,/^$/p' "$TMP/out" | grep 'cycles /' > "$TMP/loops"
+if [ "$(wc -l < "$TMP/loops")" -eq 2 ] && [ "$(sort -u "$TMP/loops" | wc -l)" -eq 2 ] &&
+    grep -q 'stage_5' "$TMP/loops" && grep -q 'alt_5' "$TMP/loops" &&
+    grep -q '100 cycles / 1 delay' "$TMP/loops"; then
+    ok "critical loops: two lines, told apart by stage_5 and alt_5"
+else
+    bad "critical loops: cannot tell the two loops apart"
+fi
+awk 'length($0) > 100 { exit 1 }' "$TMP/out" && ok "bound text within 100 columns" ||
+    bad "bound text wider than 100 columns"
+
 # ---- version ------------------------------------------------------------------
 version=$(sed -n 's/^#define PM_VERSION "\(.*\)"/\1/p' include/pacemap/version.h)
 for opt in --version -V; do

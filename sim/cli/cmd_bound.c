@@ -63,17 +63,74 @@ static const char *cb_fmt_loop(char *buf, size_t len, const pm_graph *g, const p
     return buf;
 }
 
+/* Nodes at the start (*pre) and at the end (*suf) that every listed
+ * critical loop shares, position by position; 0 and 0 for one loop. */
+static void cb_shared_ends(const pm_bound *b, uint32_t *pre, uint32_t *suf)
+{
+    *pre = *suf = 0;
+    if (b->ncritical < 2)
+        return;
+    const pm_loop *a = &b->critical[0];
+    *pre = *suf = a->len;
+    for (uint32_t i = 1; i < b->ncritical; i++) {
+        const pm_loop *l = &b->critical[i];
+        uint32_t k = 0, m = a->len < l->len ? a->len : l->len;
+        while (k < *pre && k < m && a->nodes[k] == l->nodes[k])
+            k++;
+        *pre = k;
+        for (k = 0; k < *suf && k < m && a->nodes[a->len - 1 - k] == l->nodes[l->len - 1 - k];)
+            k++;
+        *suf = k;
+    }
+}
+
+/* Loop l with its shared start and end folded to "[N shared]", so loops
+ * that differ in the middle stay apart; the plain form when it fits. */
+static const char *cb_fmt_loop_apart(char *buf, size_t len, const pm_graph *g,
+                                     const pm_loop *l, uint32_t pre, uint32_t suf)
+{
+    cb_fmt_loop(buf, len, g, l, len - 1);
+    if (strlen(buf) <= BOUND_LOOP_WIDTH || pre + suf >= l->len)
+        return cb_fmt_loop(buf, len, g, l, BOUND_LOOP_WIDTH);
+    /* nodes[0] shows, so a shared start folds nodes 1 .. pre-1 */
+    uint32_t fold_pre = pre > 1 ? pre - 1 : 0, first = pre > 1 ? pre : 1;
+    size_t at = (size_t)snprintf(buf, len, "%s", pm_graph_node_name(g, l->nodes[0]));
+    if (fold_pre)
+        at += (size_t)snprintf(buf + at, len - at, " -> [%u shared]", fold_pre);
+    uint32_t end = l->len - suf;
+    for (uint32_t i = first; i < end && at < len; i++) {
+        if (at + 40 > BOUND_LOOP_WIDTH && i + 1 < end) {
+            at += (size_t)snprintf(buf + at, len - at, " -> ... (%u)", end - i - 1);
+            i = end - 2;
+            continue;
+        }
+        at += (size_t)snprintf(buf + at, len - at, " -> %s", pm_graph_node_name(g, l->nodes[i]));
+    }
+    if (suf && at < len)
+        at += (size_t)snprintf(buf + at, len - at, " -> [%u shared]", suf);
+    if (at < len)
+        snprintf(buf + at, len - at, " -> %s", pm_graph_node_name(g, l->nodes[0]));
+    return buf;
+}
+
 static void cb_text_critical(const pm_graph *g, const pm_bound *b)
 {
-    char lb[256];
+    char lb[512];
+    uint32_t pre, suf;
+    bool folded = false;
+    cb_shared_ends(b, &pre, &suf);
     printf("\ncritical loops (%u%s):\n", b->ncritical,
            b->critical_truncated ? ", more exist" : "");
     for (uint32_t i = 0; i < b->ncritical; i++) {
         const pm_loop *l = &b->critical[i];
-        printf("  %-*s %lld cycles / %lld %s\n", BOUND_LOOP_WIDTH,
-               cb_fmt_loop(lb, sizeof lb, g, l, BOUND_LOOP_WIDTH), (long long)l->cycles,
+        cb_fmt_loop_apart(lb, sizeof lb, g, l, pre, suf);
+        folded = folded || strstr(lb, " shared]") != NULL;
+        printf("  %-*s %lld cycles / %lld %s\n", BOUND_LOOP_WIDTH, lb, (long long)l->cycles,
                (long long)l->delays, l->delays == 1 ? "delay" : "delays");
     }
+    if (folded)
+        printf("  [N shared]: N nodes every loop above has at that place (--json lists "
+               "them all)\n");
 }
 
 static void cb_text_parts(const pm_graph *g, const pm_bound *b)
