@@ -89,6 +89,18 @@ fi
 awk 'length($0) > 100 { exit 1 }' "$TMP/out" && ok "bound text within 100 columns" ||
     bad "bound text wider than 100 columns"
 
+# ---- bound says a multirate scenario was expanded -----------------------------------
+# rx_decimating: track fires once; dec2 consumes 2 per firing from chan
+# (chan 2), dec4 feeds chan 1:1 (dec4 2), mix -> dec4 consumes 4 (mix 8),
+# adc and nco feed mix 1:1 (8 each): 1 + 1 + 2 + 2 + 8 + 8 + 8 = 30
+# firings of 7 nodes (by hand).
+expect_rc 0 "bound on a multirate scenario" bound scenarios/rx_decimating.pace
+head -n 2 "$TMP/out" | grep -q '7 nodes -> 30 firings' && head -n 2 "$TMP/out" | grep -q 'expanded' &&
+    ok "bound says 7 nodes -> 30 firings, expanded" || bad "bound does not say it expanded"
+expect_rc 0 "bound on a single-rate scenario" bound scenarios/rx_chain.pace
+grep -q 'firings\|expanded' "$TMP/out" && bad "single rate: speaks of expansion" ||
+    ok "single rate: no word of expansion"
+
 # ---- version ------------------------------------------------------------------
 version=$(sed -n 's/^#define PM_VERSION "\(.*\)"/\1/p' include/pacemap/version.h)
 for opt in --version -V; do

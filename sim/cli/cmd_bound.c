@@ -236,12 +236,27 @@ static void cb_text_caution(void)
     }
 }
 
-static void cb_text(const char *file, const pm_graph *g, const pm_bound *b,
+/* The first line; a multirate scenario says it was expanded to firings,
+ * since the loops, counts and bound below are those of the firings. */
+static void cb_text_title(const char *file, const pm_plan *p, const pm_bound *b)
+{
+    const pm_graph *g = p->graph;
+    if (p->multirate)
+        printf("%s: %u nodes -> %u firings, %u edges, %u part%s with loops\n"
+               "multirate: expanded to one node per firing of an iteration; the loops "
+               "below are of firings\n\n", file, p->source->nnodes, g->nnodes, g->nedges,
+               b->nparts_total, b->nparts_total == 1 ? "" : "s");
+    else
+        printf("%s: %u nodes, %u edges, %u part%s with loops\n\n", file, g->nnodes,
+               g->nedges, b->nparts_total, b->nparts_total == 1 ? "" : "s");
+}
+
+static void cb_text(const char *file, const pm_plan *p, const pm_bound *b,
                        const pm_floors *f)
 {
     char rb[64];
-    printf("%s: %u nodes, %u edges, %u part%s with loops\n\n", file, g->nnodes, g->nedges,
-           b->nparts_total, b->nparts_total == 1 ? "" : "s");
+    const pm_graph *g = p->graph;
+    cb_text_title(file, p, b);
     if (!b->has_loop) {
         printf("iteration bound: none - the graph has no loop, so no loop bounds it;\n"
                "the floor comes from the cores alone (work / P, the largest node)\n");
@@ -408,10 +423,11 @@ int pm_cmd_bound(int argc, char **argv)
         cli_usage_error("bound: --loops must be at least 1");
         return CLI_EXIT_USAGE;
     }
-    pm_graph *g;
-    st = cli_load(file, a.procs_set, a.procs, &g);
+    pm_plan plan;
+    st = cli_load_scenario(file, a.procs_set, a.procs, &plan);
     if (st != CLI_EXIT_OK)
         return st;
+    const pm_graph *g = plan.graph;
     pm_bound b;
     pm_floors f;
     pm_diag d;
@@ -423,10 +439,10 @@ int pm_cmd_bound(int argc, char **argv)
     if (rc == PM_OK && a.json)
         cb_json(file, g, &b, &f);
     else if (rc == PM_OK)
-        cb_text(file, g, &b, &f);
+        cb_text(file, &plan, &b, &f);
     else
         st = cb_fail(g, rc, &d);
     pm_bound_free(&b);
-    pm_graph_destroy(g);
+    pm_plan_free(&plan);
     return st;
 }
