@@ -27,6 +27,9 @@ expect_rc() {
     if [ "$rc" -eq "$want" ]; then ok "$label (exit $rc)"; else bad "$label: exit $rc, want $want"; fi
 }
 
+# procs_opt FILE N: "-p N", or nothing for a scenario with core classes
+procs_opt() { grep -q '^procs.*:' "$1" || echo "-p $2"; }
+
 # ---- usage errors that say why ----------------------------------------------
 expect_rc 2 "simulate --fifo 0 is a usage error" simulate scenarios/rx_chain.pace --fifo 0
 grep -q 'at least one token' "$TMP/err" && ok "--fifo 0 says why" || bad "--fifo 0 does not say why"
@@ -101,6 +104,52 @@ expect_rc 0 "bound on a single-rate scenario" bound scenarios/rx_chain.pace
 grep -q 'firings\|expanded' "$TMP/out" && bad "single rate: speaks of expansion" ||
     ok "single rate: no word of expansion"
 
+# ---- pictures: own palette, text inside, a legend ----------------------------------
+# The colours used before the project's own palette, taken from the code it
+# replaced (two third-party palettes): none may come back, in the sources or
+# in any output.
+OLD_COLOURS="#c0392b #e67e22 #fdecea #fdf2e9 #9ecae1 #fdd0a2 #a1d99b #dadaeb #fcbba1 #d9d9d9"
+have_py=false
+/usr/bin/python3 -c 'import xml.etree.ElementTree' 2> /dev/null && have_py=true
+$have_py || echo "note: python3 not installed: SVG and palette checks skipped"
+if $have_py; then
+    /usr/bin/python3 tests/ref/svg_check.py palette sim/write/palette.c > "$TMP/err" 2>&1 &&
+        ok "palette: lightness steps (CIELAB L*)" || bad "palette: lightness rule broken"
+fi
+long="$TMP/a_scenario_file_with_a_rather_long_name_to_stretch_every_caption_of_it.pace"
+{ printf 'title "%s"\n' "$(printf 'A long title that goes on %.0s' 1 2 3 4 5 6)"
+  grep -v '^title' scenarios/rx_chain.pace; } > "$long"
+for f in scenarios/*.pace "$long"; do
+    n=$(basename "$f" .pace | cut -c1-20)
+    p=$(procs_opt "$f" 2)
+    sp=$(procs_opt "$f" 1..2)
+    # shellcheck disable=SC2086
+    "$PM" schedule "$f" $p --svg "$TMP/$n.sched.svg" > /dev/null 2>&1
+    # shellcheck disable=SC2086
+    "$PM" simulate "$f" $p -n 50 --svg "$TMP/$n.sim.svg" > /dev/null 2>&1
+    # shellcheck disable=SC2086
+    "$PM" sweep "$f" $sp -n 50 --svg "$TMP/$n.sweep.svg" > /dev/null 2>&1
+    "$PM" dot "$f" > "$TMP/$n.dot" 2> /dev/null
+    for o in "$TMP/$n".*.svg "$TMP/$n.dot"; do
+        [ -s "$o" ] || { bad "no output $(basename "$o")"; continue; }
+        hit=""
+        for c in $OLD_COLOURS; do grep -qi "$c" "$o" && hit="$hit $c"; done
+        [ -z "$hit" ] && ok "no old colour in $(basename "$o")" ||
+            bad "old colour$hit in $(basename "$o")"
+    done
+    if $have_py; then
+        /usr/bin/python3 tests/ref/svg_check.py fit "$TMP/$n".*.svg > "$TMP/err" 2>&1 &&
+            ok "every text inside the SVGs of $n" || bad "text outside an SVG of $n"
+    fi
+    for o in "$TMP/$n.sched.svg" "$TMP/$n.sim.svg"; do
+        grep -q 'fill by iteration' "$o" && ok "legend in $(basename "$o")" ||
+            bad "no legend in $(basename "$o")"
+    done
+done
+hit=""
+for c in $OLD_COLOURS; do grep -rqi "$c" sim sched include && hit="$hit $c"; done
+[ -z "$hit" ] && ok "no old colour in the sources" || bad "old colour$hit in the sources"
+
 # ---- version ------------------------------------------------------------------
 version=$(sed -n 's/^#define PM_VERSION "\(.*\)"/\1/p' include/pacemap/version.h)
 for opt in --version -V; do
@@ -124,10 +173,15 @@ no_glued() { ! grep -Eq '[0-9](us|ns|ms|MHz|kHz|GHz)\b|microseconds' "$1"; }
 
 for f in scenarios/*.pace; do
     n=$(basename "$f" .pace)
-    for c in "check" "bound" "bound -p 2" "schedule -p 2" "simulate -p 2 -n 50" \
-             "sweep -p 1..2 -n 50" "dot"; do
+    p=$(procs_opt "$f" 2)
+    sp=$(procs_opt "$f" 1..2)
+    for c in "check" "bound" "bound $p" "schedule $p" "simulate $p -n 50" \
+             "sweep $sp -n 50" "dot"; do
         # shellcheck disable=SC2086
-        "$PM" $c "$f" > "$TMP/o.txt" 2> /dev/null
+        if ! "$PM" $c "$f" > "$TMP/o.txt" 2> "$TMP/err"; then
+            bad "units: $c $n failed"
+            continue
+        fi
         if units_ok "$TMP/o.txt" && no_glued "$TMP/o.txt"; then
             ok "units: $c $n"
         else
