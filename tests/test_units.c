@@ -9,6 +9,8 @@
 #include <stddef.h>
 #include <stdint.h>
 #include <cmocka.h>
+#include <math.h>
+#include <stdlib.h>
 
 #include "pacemap/units.h"
 
@@ -53,12 +55,31 @@ static void test_units_cycles(void **state)
     assert_string_equal(pm_units_cycles(b, sizeof b, 5, 200000000), "25 ns");
 }
 
+/* Shortest round trip: 0.1 needs 1 digit (the %.17g form would be
+ * 0.10000000000000001); 1/3 needs 16 (Python's repr(1/3), which prints the
+ * shortest round-trip form, gives 0.3333333333333333); every result reads
+ * back exactly. */
+static void test_units_number(void **state)
+{
+    (void)state;
+    char b[PM_UNITS_LEN];
+    assert_string_equal(pm_units_number(b, sizeof b, 0.1), "0.1");
+    assert_string_equal(pm_units_number(b, sizeof b, 686.0), "686");
+    assert_string_equal(pm_units_number(b, sizeof b, 1.5e-9), "1.5e-09");
+    assert_string_equal(pm_units_number(b, sizeof b, 1.0 / 3.0), "0.3333333333333333");
+    const double samples[] = { 0.1, 1.0 / 3.0, 2.0 / 3.0, 1e300, 5e-324, 123456.789, -0.0 };
+    for (size_t i = 0; i < sizeof samples / sizeof samples[0]; i++)
+        assert_true(strtod(pm_units_number(b, sizeof b, samples[i]), NULL) == samples[i]);
+    assert_string_equal(pm_units_number(b, sizeof b, (double)NAN), "nan");
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_units_freq),
         cmocka_unit_test(test_units_time),
         cmocka_unit_test(test_units_cycles),
+        cmocka_unit_test(test_units_number),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -28,4 +28,10 @@ char *pm_units_time(char *buf, size_t len, double seconds);
  * cycles / hz.  Returns buf. */
 char *pm_units_cycles(char *buf, size_t len, double cycles, uint64_t hz);
 
+/* A finite double in its shortest decimal form that reads back to the same
+ * value (strtod), for CSV and other machine text: 0.1 is "0.1", not
+ * "0.10000000000000001".  Not finite: "nan", "inf" or "-inf".  Returns buf
+ * (PM_UNITS_LEN suffices). */
+char *pm_units_number(char *buf, size_t len, double v);
+
 #endif

@@ -6,6 +6,7 @@
 
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 /* Drop trailing zeros of a decimal fraction, and the point if bare. */
@@ -69,4 +70,19 @@ char *pm_units_time(char *buf, size_t len, double seconds)
 char *pm_units_cycles(char *buf, size_t len, double cycles, uint64_t hz)
 {
     return pm_units_time(buf, len, cycles / (double)hz);
+}
+
+char *pm_units_number(char *buf, size_t len, double v)
+{
+    if (!isfinite(v)) {
+        snprintf(buf, len, "%s", isnan(v) ? "nan" : v > 0 ? "inf" : "-inf");
+        return buf;
+    }
+    /* the fewest significant digits that survive the round trip; 17 always do */
+    for (int digits = 1; digits <= 17; digits++) {
+        snprintf(buf, len, "%.*g", digits, v);
+        if (strtod(buf, NULL) == v)
+            break;
+    }
+    return buf;
 }
