@@ -150,6 +150,40 @@ hit=""
 for c in $OLD_COLOURS; do grep -rqi "$c" sim sched include && hit="$hit $c"; done
 [ -z "$hit" ] && ok "no old colour in the sources" || bad "old colour$hit in the sources"
 
+# ---- --quiet on every command, the caution kept ----------------------------------------
+for c in check bound schedule simulate run sweep dot; do
+    "$PM" "$c" -h > "$TMP/out" 2>&1
+    grep -q -- '--quiet' "$TMP/out" && ok "$c -h lists --quiet" || bad "$c -h has no --quiet"
+done
+for c in "bound" "schedule -p 2" "simulate -p 2 -n 50" "sweep -p 1..2 -n 50" "run -p 2 -n 20"; do
+    name=${c%% *}
+    # shellcheck disable=SC2086
+    "$PM" $c scenarios/rx_chain.pace > "$TMP/loud" 2> /dev/null
+    # shellcheck disable=SC2086
+    "$PM" $c --quiet scenarios/rx_chain.pace > "$TMP/out" 2> "$TMP/err"
+    rc=$?
+    if [ "$name" = run ] && [ "$rc" -ne 0 ]; then
+        printf 'skip  run --quiet (run cannot start here: %s)\n' "$(head -n 1 "$TMP/err")"
+        continue
+    fi
+    [ "$rc" -eq 0 ] && ok "$name --quiet (exit 0)" || bad "$name --quiet: exit $rc"
+    n=$(grep -c '^Caution: ' "$TMP/out")
+    [ "$n" -eq 1 ] && [ "$(grep -A1 '^Caution: ' "$TMP/out" | wc -l)" -eq 1 ] &&
+        ok "$name --quiet: the caution in one line, last" || bad "$name --quiet: caution not one line"
+    grep '^Caution: ' "$TMP/out" | grep -q 'validate on target hardware' &&
+        ok "$name --quiet: the caution says validate on target hardware" ||
+        bad "$name --quiet: caution lost its point"
+    [ "$(wc -l < "$TMP/out")" -lt "$(wc -l < "$TMP/loud")" ] &&
+        ok "$name --quiet prints less" || bad "$name --quiet prints as much as without"
+    # shellcheck disable=SC2086
+    "$PM" $c --json scenarios/rx_chain.pace > "$TMP/out" 2> /dev/null
+    /usr/bin/python3 -c 'import json,sys; d=json.load(open(sys.argv[1])); sys.exit("caution" not in d or "validate" not in d["caution"])' "$TMP/out" 2> "$TMP/err" &&
+        ok "$name --json has the caution" || bad "$name --json has no caution"
+done
+"$PM" sweep -q -p 1..2 -n 50 scenarios/rx_chain.pace > "$TMP/out" 2> "$TMP/err"
+[ ! -s "$TMP/err" ] && grep -q '^Caution: ' "$TMP/out" &&
+    ok "sweep -q: no progress, one-line caution" || bad "sweep -q: progress or caution wrong"
+
 # ---- version ------------------------------------------------------------------
 version=$(sed -n 's/^#define PM_VERSION "\(.*\)"/\1/p' include/pacemap/version.h)
 for opt in --version -V; do

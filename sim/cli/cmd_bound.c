@@ -216,26 +216,6 @@ static void cb_text_budget(const pm_graph *g, const pm_floors *f)
            f->margin_us < 0 ? "-" : "", pm_units_time(t, sizeof t, fabs(f->margin_us) * 1e-6));
 }
 
-/* The caution, wrapped to 80 columns. */
-static void cb_text_caution(void)
-{
-    const char *s = cli_caution;
-    while (*s) {
-        size_t n = strlen(s);
-        if (n > 80) {
-            n = 80;
-            while (n > 0 && s[n] != ' ')
-                n--;
-            if (n == 0)
-                n = 80;
-        }
-        printf("%.*s\n", (int)n, s);
-        s += n;
-        while (*s == ' ')
-            s++;
-    }
-}
-
 /* The first line; a multirate scenario says it was expanded to firings,
  * since the loops, counts and bound below are those of the firings. */
 static void cb_text_title(const char *file, const pm_plan *p, const pm_bound *b)
@@ -278,7 +258,7 @@ static void cb_text(const char *file, const pm_plan *p, const pm_bound *b,
     if (f->has_budget)
         cb_text_budget(g, f);
     printf("\n");
-    cb_text_caution();
+    cli_print_caution(80);
 }
 
 static void cb_json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
@@ -389,6 +369,7 @@ static void cb_json(const char *file, const pm_graph *g, const pm_bound *b,
     cb_json_floors(&j, g, b, f);
     cb_json_parts(&j, g, b);
     cb_json_budget(&j, g, f);
+    cli_json_caution(&j);
     pm_json_object_end(&j);
     pm_json_finish(&j);
 }

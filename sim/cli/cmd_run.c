@@ -398,7 +398,10 @@ static void cr_text_results(const cr_state *s)
                ? "every thread pinned to its PU"
                : "NOT pinned (the system refused; times may include migrations)");
     printf("\n");
-    cr_print_wrapped(cli_caution, 100);
+    if (cli_quiet)
+        cli_print_caution(100);
+    else
+        cr_print_wrapped(cli_caution, 100);
 }
 
 static void cr_json_cores(pm_json *j, const cr_state *s)
@@ -457,6 +460,7 @@ static void cr_json(const cr_state *s)
     pm_json_key(&j, "outputs_match"); pm_json_bool(&j, s->outputs_match);
     pm_json_key(&j, "order_errors"); pm_json_uint(&j, r->order_errors);
     cr_json_cores(&j, s);
+    cli_json_caution(&j);
     pm_json_object_end(&j);
     pm_json_finish(&j);
 }

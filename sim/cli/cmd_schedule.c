@@ -165,6 +165,8 @@ static int sc_text(const sc_result *r)
     sc_text_slots(r);
     sc_text_transfers(r);
     putchar('\n');
+    if (cli_quiet) /* the chart illustrates the slots above */
+        return PM_OK;
     sc_chart c;
     int rc = sc_chart_make(r, &c);
     if (rc == PM_OK) {
@@ -379,7 +381,7 @@ int pm_cmd_schedule(int argc, char **argv)
     r.scn = &scn;
     st = sc_run(&a, &r);
     if (st == CLI_EXIT_OK && !a.json)
-        sc_print_wrapped(cli_caution);
+        cli_quiet ? cli_print_caution(100) : sc_print_wrapped(cli_caution);
     pm_sched_destroy(r.s);
     pm_map_destroy(r.m);
     free(r.loop);

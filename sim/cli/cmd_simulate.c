@@ -307,8 +307,9 @@ static void sm_text(const sm_run *s)
     sm_text_period(s);
     sm_text_cores(s);
     sm_text_edges(s);
-    sm_text_chain(s);
-    sm_print_wrapped(cli_caution);
+    if (!cli_quiet) /* an explanation, not a result */
+        sm_text_chain(s);
+    cli_quiet ? cli_print_caution(100) : sm_print_wrapped(cli_caution);
 }
 
 /* ---- JSON --------------------------------------------------------------- */

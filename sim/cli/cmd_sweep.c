@@ -400,7 +400,7 @@ static void sw_text(const sw_report *r, uint64_t iterations)
     sw_text_limits(r);
     sw_text_whatif(r);
     putchar('\n');
-    sw_print_wrapped("", cli_caution, 0);
+    cli_print_caution(100);
 }
 
 /* ---- progress ----------------------------------------------------------- */
