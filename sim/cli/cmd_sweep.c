@@ -542,7 +542,8 @@ int pm_cmd_sweep(int argc, char **argv)
          "F"},
         {"--csv", NULL, CLI_STRING, &a.csv, NULL, "write one row per core count", "F"},
         {"--json", NULL, CLI_FLAG, &a.json, NULL, "machine output on stdout", NULL},
-        {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL, "no progress line; results only, the caution in one line", NULL},
+        {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL,
+         "no progress line; results only, the caution in one line", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
     const cli_cmd cmd = {"sweep",
                          "FILE [-p A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
