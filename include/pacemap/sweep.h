@@ -7,7 +7,8 @@
  *
  * The limit of one point, in the trade's words (docs/sweep.md states the
  * rule; T is the achieved period, L the iteration bound, N the largest
- * node, W/P the total work spread over P cores):
+ * node, W/P the cores' work floor: the total work spread over P cores, or
+ * with core classes the fractional-assignment floor of pm_floors.cores):
  *   loop     T == L: a loop of the graph sets the period; no core count or
  *            mapping does better.  Evidence: the loop (nodes, cycles,
  *            delays) - the simulator's critical chain when that chain is a
@@ -22,15 +23,21 @@
  *            Multiprocessors: Scheduling and Synchronization", 2000): its
  *            nodes, cross-core transfers and core-order links.
  * Ties go to loop, then node, then cores (the floors that more cores cannot
- * move are named first), as pm_bound_floors picks its binding floor.
+ * move are named first), as pm_bound_floors picks its binding floor.  A
+ * period below the floors (only a run that never became steady can show
+ * one) is named after the floor that binds.
  *
- * What-ifs explain the saturation point (the smallest P from which the
- * period no longer improves): for a loop, the iteration bound recomputed
- * exactly (pm_bound_compute on a modified copy of the graph) with each node
- * of the loop made faster, and with one more delay on the loop; for a
- * mapping loop, the same map re-simulated with each node of the loop made
- * faster; for the largest node, the floors with it faster.  Plus the next
- * bottleneck behind the limit, with its value.
+ * What-ifs explain the saturation point (the smallest P whose period no
+ * later P in the range beats); when the limit there is `cores` and the
+ * range shows saturation, they explain the next P instead (the first core
+ * count that did not help).  For a loop: the iteration bound recomputed
+ * exactly (pm_bound_compute on a one-class copy of the graph, each node at
+ * its smallest cycles) with each node of the loop made faster, at most
+ * PM_SWEEP_MAX_WHATIF of them, and with one more delay on the loop; for a
+ * mapping loop that spans at least one iteration, the same map
+ * re-simulated with each node of the loop made faster; for the largest
+ * node, the lower bound with it faster; for cores, no node rows.  Plus
+ * the next bottleneck behind the limit, with its value.
  *
  * Ownership: a pm_sweep owns every array in it; free with pm_sweep_free()
  * (safe on a zeroed or already freed result).  Node and edge ids index the

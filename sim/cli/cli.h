@@ -93,7 +93,7 @@ void cli_json_loop(struct pm_json *j, const pm_graph *g, const struct pm_loop *l
 
 struct pm_json;
 
-/* The safety caution of docs/guide.md ("A caution"), one short paragraph
+/* The safety caution of docs/guide.md (section "A caution"), one short paragraph
  * for reports, and its one-line form for --quiet. */
 extern const char cli_caution[];
 extern const char cli_caution_line[];

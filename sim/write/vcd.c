@@ -4,8 +4,8 @@
  * The recorded firings become value changes: core variables and node wires
  * are set at a node's start and cleared at its end (a clear and a set at
  * the same time resolve to the set), io variables mark receive and send
- * phases, edge
- * variables add +1 at the producer's end and -1 at the consumer's begin.
+ * phases, edge variables add +1 at the producer's end and -1 at the
+ * consumer's begin.
  * Changes are sorted by (time, variable, kind) and only values that differ
  * from the last written one are emitted, so timestamps strictly increase;
  * times are kept in cycles and scaled to the $timescale unit on output.
