@@ -14,8 +14,8 @@
  */
 #include "pacemap/map.h"
 
-#include <ctype.h>
 #include <stdio.h>
+#include <sys/types.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -136,16 +136,19 @@ int pm_map_file_locate(const char *path, uint32_t core, const char *name, uint32
     FILE *f = fopen(path, "rb");
     if (!f)
         return PM_EIO;
-    char buf[4096];
+    char *buf = NULL;
+    size_t cap = 0;
+    ssize_t got;
     uint32_t at = 0;
     bool found = false;
-    while (!found && fgets(buf, sizeof buf, f)) {
-        size_t n = strlen(buf);
+    while (!found && (got = getline(&buf, &cap, f)) > 0) {
+        size_t n = (size_t)got;
         at++;
         while (n > 0 && (buf[n - 1] == '\n' || buf[n - 1] == '\r'))
             n--;
         found = md_line_lists(buf, buf + n, core, name, col);
     }
+    free(buf);
     fclose(f);
     if (found)
         *line = at;
