@@ -22,7 +22,10 @@ LDLIBS   += -lhwloc -lpthread -lm
 TEST_LDLIBS = -lcmocka -lfftw3f -lfftw3
 DEBIAN_PACKAGES = build-essential pkg-config libcmocka-dev libhwloc-dev hwloc \
            libboost-graph-dev glpk-utils python3 python3-networkx libfftw3-dev \
-           clang libclang-rt-dev graphviz python3-jsonschema
+           clang libclang-rt-dev graphviz python3-jsonschema groff-base man-db
+
+# The version lives in include/pacemap/version.h only.
+VERSION  := $(shell sed -n 's/^\#define PM_VERSION "\(.*\)"/\1/p' include/pacemap/version.h)
 
 # ---- sources ----------------------------------------------------------------
 # The library is every folder of sched/ and sim/ but the command line's.
@@ -110,19 +113,23 @@ demo: all
 
 install: all
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/lib \
-	    $(DESTDIR)$(PREFIX)/include/pacemap $(DESTDIR)$(PREFIX)/lib/pkgconfig
+	    $(DESTDIR)$(PREFIX)/include/pacemap $(DESTDIR)$(PREFIX)/lib/pkgconfig \
+	    $(DESTDIR)$(PREFIX)/share/man/man1
+	sed 's/@VERSION@/$(VERSION)/' man/pacemap.1 > $(DESTDIR)$(PREFIX)/share/man/man1/pacemap.1
+	chmod 644 $(DESTDIR)$(PREFIX)/share/man/man1/pacemap.1
 	install -m 755 $(BUILD)/pacemap $(DESTDIR)$(PREFIX)/bin/pacemap
 	install -m 644 $(BUILD)/libpacemap.a $(DESTDIR)$(PREFIX)/lib/libpacemap.a
 	install -m 644 include/pacemap/*.h $(DESTDIR)$(PREFIX)/include/pacemap/
 	printf '%s\n' 'prefix=$(PREFIX)' 'libdir=$${prefix}/lib' 'includedir=$${prefix}/include' '' \
 	    'Name: pacemap' \
 	    'Description: Iteration bounds, list schedules and self-timed simulation of DSP graphs on multicore' \
-	    'Version: 0.1.0' 'Libs: -L$${libdir} -lpacemap' 'Libs.private: -lhwloc -lpthread -lm' \
+	    'Version: $(VERSION)' 'Libs: -L$${libdir} -lpacemap' 'Libs.private: -lhwloc -lpthread -lm' \
 	    'Cflags: -I$${includedir}' > $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc
 
 uninstall:
 	rm -rf $(DESTDIR)$(PREFIX)/bin/pacemap $(DESTDIR)$(PREFIX)/lib/libpacemap.a \
-	    $(DESTDIR)$(PREFIX)/include/pacemap $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc
+	    $(DESTDIR)$(PREFIX)/include/pacemap $(DESTDIR)$(PREFIX)/lib/pkgconfig/pacemap.pc \
+	    $(DESTDIR)$(PREFIX)/share/man/man1/pacemap.1
 
 clean:
 	rm -rf build build-asan build-tsan build-fuzz

@@ -27,7 +27,7 @@ from fractions import Fraction
 
 import networkx as nx
 
-RED = "#c0392b"
+RED = "#982327"  # the critical loop's colour, pm_palette_critical
 
 
 def read_scenario(path):

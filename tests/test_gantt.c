@@ -94,10 +94,12 @@ static void test_svg(void **state)
     char *a = svg_of(&c, &rc), *b = svg_of(&c, &rc);
     assert_int_equal(rc, PM_OK);
     assert_string_equal(a, b); /* byte-for-byte repeatable */
-    assert_int_equal(count(a, "<rect x="), 3 + 5); /* lane backgrounds + boxes */
+    /* lane backgrounds + boxes + the legend's six iteration swatches */
+    assert_int_equal(count(a, "<rect x="), 3 + 5 + 6);
+    assert_non_null(strstr(a, "fill by iteration"));
     assert_int_equal(count(a, "class=\"xfer\""), 2);
     assert_non_null(strstr(a, "fir&lt;&amp;&gt;"));
-    assert_non_null(strstr(a, "microseconds"));
+    assert_non_null(strstr(a, ">us</text>")); /* the second axis, with a clock */
     assert_null(strstr(a, "fir<&>"));
     if (system("test -x /usr/bin/python3") == 0) {
         char path[] = "/tmp/pm_gantt_XXXXXX";

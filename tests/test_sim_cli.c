@@ -133,11 +133,23 @@ static void test_cli_deadlock(void **state)
     assert_int_equal(run("dead.pace --map dead.map --vcd d.vcd", &out), 1);
     free(out);
     char *err = slurp("stderr.txt");
-    assert_non_null(strstr(err, "error: deadlock in iteration 0"));
-    assert_non_null(strstr(err, "core 0 waits for a token of 'b' -> 'a' (core 1)"));
+    /* at the map file's line that lists a node of the loop, naming the loop */
+    assert_non_null(strstr(err, "dead.map:1:9: error: the map deadlocks"));
+    assert_non_null(strstr(err, "a -> b -> a"));
     free(err);
     char *vcd = slurp("d.vcd");
     assert_null(vcd); /* no output file on error */
+    /* one core running b before a, though a feeds b in the same round:
+     * the core order closes the loop a -> b -> a; b is at line 2, col 9 */
+    put("order.pace", "# invented for this test\nnode a cycles=1\nnode b cycles=1\n"
+                      "node c cycles=1\nedge a -> b\nedge b -> c\nedge c -> a delay=1\n");
+    put("order.map", "# b listed too early\ncore 0: b a c\n");
+    assert_int_equal(run("order.pace --map order.map", &out), 1);
+    free(out);
+    err = slurp("stderr.txt");
+    assert_non_null(strstr(err, "order.map:2:9: error: the map deadlocks"));
+    assert_non_null(strstr(err, "a -> b -> a (core 0 lists 'b' before 'a')"));
+    free(err);
 }
 
 static void test_cli_usage(void **state)

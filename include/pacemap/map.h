@@ -53,6 +53,21 @@ bool pm_map_has_lags(const pm_map *m);
  * edge's position for a lag problem, else none). */
 int pm_map_check(const pm_map *m, const pm_graph *g, pm_diag *diag);
 
+/* A loop of waits that carries no token, which stalls self-timed execution
+ * of single-rate map m of g for ever: data edges u -> v with
+ * delay + lag[v] - lag[u] = 0 and the order within a core's round.
+ * `loop` has room for g->nnodes ids; on a deadlock returns PM_EDEADLOCK and
+ * fills loop[0..*len) with the nodes in wait order (each waits for the next,
+ * the last for the first), else PM_OK with *len = 0.  m must fit g
+ * (pm_map_check).  PM_EINVAL, PM_ENOMEM.  O(V + E) (mapdead.c). */
+int pm_map_deadlock_loop(const pm_graph *g, const pm_map *m, uint32_t *loop, uint32_t *len);
+
+/* Where the `.map` file at path lists node `name` on core `core`: 1-based
+ * line and column of the name.  PM_EIO when the file cannot be read,
+ * PM_ENAME when no `core N:` line lists it (*line, *col then 0). */
+int pm_map_file_locate(const char *path, uint32_t core, const char *name, uint32_t *line,
+                       uint32_t *col);
+
 /* Read a `.map` file for graph g (docs/format.md); errors carry FILE:LINE:COL.
  * The result is checked with pm_map_check.  Capacity lines set m->cap (an
  * array of g's nedges; NULL without such lines): one line names a pair of

@@ -18,6 +18,7 @@
 #include "pacemap/sdf.h"
 #include "sdf_internal.h"
 
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -374,13 +375,108 @@ static bool sdf_cycle_product(const pm_graph *g, const sdf_forest *f, uint32_t e
     return sdf_mul128(n1 / g1, fv.den / g2, num) && sdf_mul128(d1 / g2, fv.num / g1, den);
 }
 
+/* The edges of the cycle e closes, in the order sdf_cycle_text walks them:
+ * e, up the tree from e's destination, down to e's source.  *out has room
+ * for depth[src] + depth[dst] + 1 edges. */
+static uint32_t sdf_cycle_edges(const pm_graph *g, const sdf_forest *f, uint32_t e,
+                                uint32_t *out)
+{
+    uint32_t x = g->edges[e].src, y = g->edges[e].dst, n = 0, ndown = 0;
+    uint32_t *down = out + f->depth[x] + f->depth[y] + 1; /* filled backwards */
+    out[n++] = e;
+    while (f->depth[x] > f->depth[y])
+        *--down = f->parent_edge[x], ndown++, x = sdf_parent(g, f, x);
+    while (f->depth[y] > f->depth[x])
+        out[n++] = f->parent_edge[y], y = sdf_parent(g, f, y);
+    while (x != y) {
+        *--down = f->parent_edge[x], ndown++, x = sdf_parent(g, f, x);
+        out[n++] = f->parent_edge[y], y = sdf_parent(g, f, y);
+    }
+    memmove(out + n, down, ndown * sizeof *out);
+    return n + ndown;
+}
+
+/* How often edge e's rates other than 1 occur among all rates of g: the
+ * rarer, the likelier that one of them is the one mistyped. */
+static uint64_t sdf_rate_commonness(const pm_graph *g, uint32_t e)
+{
+    int64_t p = g->edges[e].produce, c = g->edges[e].consume;
+    uint64_t count = 0;
+    for (uint32_t i = 0; i < g->nedges; i++) {
+        const pm_edge *x = &g->edges[i];
+        count += (uint64_t)((p != 1 && (x->produce == p || x->consume == p)) +
+                            (c != 1 && (x->produce == c || x->consume == c)));
+    }
+    return count;
+}
+
+/* Could changing one rate of edge e alone balance a cycle whose ratio is
+ * n/d?  Its produce/consume ratio must be scaled by d/n or n/d (the
+ * direction it is walked decides which; either is accepted). */
+static bool sdf_one_change_fixes(const pm_edge *pe, pm_u128 n, pm_u128 d)
+{
+    pm_u128 p = (pm_u128)pe->produce, c = (pm_u128)pe->consume;
+    return (p * d) % n == 0 || (c * n) % d == 0 || (c * d) % n == 0 || (p * n) % d == 0;
+}
+
+/* The edge of the cycle to point at: among those whose one rate could be
+ * changed to balance the cycle, a multirate edge before a 1:1 edge, then
+ * the rarest rates in the scenario, then the largest rate, then the first
+ * walked. */
+static uint32_t sdf_pick_culprit(const pm_graph *g, const uint32_t *cyc, uint32_t len,
+                                 pm_u128 n, pm_u128 d)
+{
+    uint32_t best = cyc[0];
+    uint64_t best_key[3] = { UINT64_MAX, UINT64_MAX, UINT64_MAX };
+    for (uint32_t i = 0; i < len; i++) {
+        const pm_edge *pe = &g->edges[cyc[i]];
+        if (!sdf_one_change_fixes(pe, n, d))
+            continue;
+        int64_t big = pe->produce > pe->consume ? pe->produce : pe->consume;
+        uint64_t key[3] = { pe->produce == 1 && pe->consume == 1,
+                            sdf_rate_commonness(g, cyc[i]), (uint64_t)(PM_MAX_VALUE - big) };
+        int k = 0;
+        while (k < 2 && key[k] == best_key[k])
+            k++;
+        if (key[k] < best_key[k]) {
+            best = cyc[i];
+            memcpy(best_key, key, sizeof key);
+        }
+    }
+    return best;
+}
+
+/* "; its edges: a -> b 2:1 (line 5), ..." */
+static void sdf_edges_text(const pm_graph *g, const uint32_t *cyc, uint32_t len, sdf_text *t)
+{
+    char part[96];
+    sdf_text_add(t, "; its edges:");
+    for (uint32_t i = 0; i < len; i++) {
+        const pm_edge *pe = &g->edges[cyc[i]];
+        sdf_text_add(t, i ? ", " : " ");
+        sdf_text_add(t, pm_graph_node_name(g, pe->src));
+        sdf_text_add(t, " -> ");
+        sdf_text_add(t, pm_graph_node_name(g, pe->dst));
+        snprintf(part, sizeof part, " %lld:%lld (line %u)", (long long)pe->produce,
+                 (long long)pe->consume, pe->line);
+        sdf_text_add(t, part);
+    }
+}
+
+/* The error names the cycle, its ratio and its edges with their rates, and
+ * points at the edge whose rates most likely went wrong. */
 static int sdf_report_inconsistent(const pm_graph *g, const sdf_forest *f, uint32_t e,
                                    pm_diag *diag)
 {
     sdf_text t = { .len = 0 };
-    int rc = sdf_cycle_text(g, f, e, &t);
-    if (rc != PM_OK)
+    uint32_t *cyc = malloc(((size_t)f->depth[g->edges[e].src] + f->depth[g->edges[e].dst] + 2) *
+                           sizeof *cyc);
+    int rc = cyc ? sdf_cycle_text(g, f, e, &t) : PM_ENOMEM;
+    if (rc != PM_OK) {
+        free(cyc);
         return rc;
+    }
+    uint32_t len = sdf_cycle_edges(g, f, e, cyc), at = e;
     pm_u128 n, d;
     if (sdf_cycle_product(g, f, e, &n, &d)) {
         const char *first = pm_graph_node_name(g, g->edges[e].src);
@@ -391,10 +487,13 @@ static int sdf_report_inconsistent(const pm_graph *g, const sdf_forest *f, uint3
         sdf_text_add(&t, "/");
         sdf_text_u128(&t, d);
         sdf_text_add(&t, " times as often as itself");
+        at = sdf_pick_culprit(g, cyc, len, n, d);
     } else {
         sdf_text_add(&t, ": no firing counts balance every edge on it");
     }
-    const pm_edge *pe = &g->edges[e];
+    sdf_edges_text(g, cyc, len, &t);
+    free(cyc);
+    const pm_edge *pe = &g->edges[at];
     pm_diag_set(diag, g->file, pe->line, pe->col, "inconsistent rates on the cycle %s",
                 t.buf);
     return PM_EINCONSISTENT;

@@ -22,6 +22,41 @@ const char cli_caution[] =
     "with hard real-time duties that can harm people, validate on the target "
     "hardware under your field's safety process and local regulations.";
 
+const char cli_caution_line[] =
+    "Caution: model results; validate on target hardware (field safety process, "
+    "local regulations).";
+
+bool cli_quiet;
+
+void cli_print_caution(int width)
+{
+    if (cli_quiet) {
+        puts(cli_caution_line);
+        return;
+    }
+    const char *s = cli_caution;
+    while (*s) {
+        int n = (int)strlen(s);
+        if (n > width) {
+            n = width;
+            while (n > 0 && s[n] != ' ')
+                n--;
+            if (n == 0)
+                n = width;
+        }
+        printf("%.*s\n", n, s);
+        s += n;
+        while (*s == ' ')
+            s++;
+    }
+}
+
+void cli_json_caution(pm_json *j)
+{
+    pm_json_key(j, "caution");
+    pm_json_string(j, cli_caution);
+}
+
 void cli_error(const pm_diag *d)
 {
     fprintf(stderr, "%s:%u:%u: error: %s\n", d->file[0] ? d->file : "pacemap",
@@ -55,6 +90,8 @@ int cli_exit_for(int err)
     return err == PM_EINVAL ? CLI_EXIT_USAGE : CLI_EXIT_INPUT;
 }
 
+static const cli_opt *cli_find(const cli_cmd *cmd, const char *arg);
+
 static void cli_help(const cli_cmd *cmd)
 {
     printf("usage: pacemap %s %s\n\n%s\n\noptions:\n", cmd->name, cmd->synopsis,
@@ -66,6 +103,8 @@ static void cli_help(const cli_cmd *cmd)
                  o->metavar ? o->metavar : "");
         printf("  %-26s %s\n", left, o->help);
     }
+    if (!cli_find(cmd, "--quiet"))
+        printf("  %-26s %s\n", "-q, --quiet", "print only the results, the caution in one line");
     printf("  %-26s %s\n", "-h, --help", "show this help");
 }
 
@@ -139,6 +178,10 @@ int cli_parse(const cli_cmd *cmd, int argc, char **argv, const char **file)
             continue;
         }
         const cli_opt *o = cli_find(cmd, a);
+        if (!o && (strcmp(a, "--quiet") == 0 || strcmp(a, "-q") == 0)) {
+            cli_quiet = true;
+            continue;
+        }
         if (!o) {
             cli_usage_error("%s: unknown option '%s' (see 'pacemap %s -h')", cmd->name,
                             a, cmd->name);
@@ -158,6 +201,8 @@ int cli_parse(const cli_cmd *cmd, int argc, char **argv, const char **file)
         }
         if (o->seen)
             *o->seen = true;
+        if (strcmp(o->name, "--quiet") == 0) /* a command's own --quiet means it too */
+            cli_quiet = true;
     }
     if (!*file) {
         cli_usage_error("%s: no scenario file given (usage: pacemap %s %s)", cmd->name,

@@ -91,9 +91,24 @@ struct pm_json;
 struct pm_loop;
 void cli_json_loop(struct pm_json *j, const pm_graph *g, const struct pm_loop *l);
 
-/* The safety caution of docs/guide.md ("A caution"), one short paragraph
- * for reports. */
+struct pm_json;
+
+/* The safety caution of docs/guide.md (section "A caution"), one short paragraph
+ * for reports, and its one-line form for --quiet. */
 extern const char cli_caution[];
+extern const char cli_caution_line[];
+
+/* --quiet (-q), which every command takes: print only the results (no
+ * charts, explanations or progress) and the caution in one line.  Set by
+ * cli_parse. */
+extern bool cli_quiet;
+
+/* Print the caution for a text report: wrapped to `width` columns, or as
+ * its one line under --quiet. */
+void cli_print_caution(int width);
+
+/* The caution as the key "caution" of a JSON report. */
+void cli_json_caution(struct pm_json *j);
 
 /* The plan options of --mapper NAME (NULL: the period-first mapper) and
  * --no-refine (the list scheduler's map as it is) into *po; CLI_EXIT_OK,

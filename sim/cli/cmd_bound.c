@@ -7,10 +7,12 @@
  * (sched/bound/bound.c, sched/bound/floors.c).  What it does not do: schedule.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include "pacemap/bound.h"
 #include "pacemap/json.h"
 
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -61,17 +63,74 @@ static const char *cb_fmt_loop(char *buf, size_t len, const pm_graph *g, const p
     return buf;
 }
 
+/* Nodes at the start (*pre) and at the end (*suf) that every listed
+ * critical loop shares, position by position; 0 and 0 for one loop. */
+static void cb_shared_ends(const pm_bound *b, uint32_t *pre, uint32_t *suf)
+{
+    *pre = *suf = 0;
+    if (b->ncritical < 2)
+        return;
+    const pm_loop *a = &b->critical[0];
+    *pre = *suf = a->len;
+    for (uint32_t i = 1; i < b->ncritical; i++) {
+        const pm_loop *l = &b->critical[i];
+        uint32_t k = 0, m = a->len < l->len ? a->len : l->len;
+        while (k < *pre && k < m && a->nodes[k] == l->nodes[k])
+            k++;
+        *pre = k;
+        for (k = 0; k < *suf && k < m && a->nodes[a->len - 1 - k] == l->nodes[l->len - 1 - k];)
+            k++;
+        *suf = k;
+    }
+}
+
+/* Loop l with its shared start and end folded to "[N shared]", so loops
+ * that differ in the middle stay apart; the plain form when it fits. */
+static const char *cb_fmt_loop_apart(char *buf, size_t len, const pm_graph *g,
+                                     const pm_loop *l, uint32_t pre, uint32_t suf)
+{
+    cb_fmt_loop(buf, len, g, l, len - 1);
+    if (strlen(buf) <= BOUND_LOOP_WIDTH || pre + suf >= l->len)
+        return cb_fmt_loop(buf, len, g, l, BOUND_LOOP_WIDTH);
+    /* nodes[0] shows, so a shared start folds nodes 1 .. pre-1 */
+    uint32_t fold_pre = pre > 1 ? pre - 1 : 0, first = pre > 1 ? pre : 1;
+    size_t at = (size_t)snprintf(buf, len, "%s", pm_graph_node_name(g, l->nodes[0]));
+    if (fold_pre)
+        at += (size_t)snprintf(buf + at, len - at, " -> [%u shared]", fold_pre);
+    uint32_t end = l->len - suf;
+    for (uint32_t i = first; i < end && at < len; i++) {
+        if (at + 40 > BOUND_LOOP_WIDTH && i + 1 < end) {
+            at += (size_t)snprintf(buf + at, len - at, " -> ... (%u)", end - i - 1);
+            i = end - 2;
+            continue;
+        }
+        at += (size_t)snprintf(buf + at, len - at, " -> %s", pm_graph_node_name(g, l->nodes[i]));
+    }
+    if (suf && at < len)
+        at += (size_t)snprintf(buf + at, len - at, " -> [%u shared]", suf);
+    if (at < len)
+        snprintf(buf + at, len - at, " -> %s", pm_graph_node_name(g, l->nodes[0]));
+    return buf;
+}
+
 static void cb_text_critical(const pm_graph *g, const pm_bound *b)
 {
-    char lb[256];
+    char lb[512];
+    uint32_t pre, suf;
+    bool folded = false;
+    cb_shared_ends(b, &pre, &suf);
     printf("\ncritical loops (%u%s):\n", b->ncritical,
            b->critical_truncated ? ", more exist" : "");
     for (uint32_t i = 0; i < b->ncritical; i++) {
         const pm_loop *l = &b->critical[i];
-        printf("  %-*s %lld cycles / %lld %s\n", BOUND_LOOP_WIDTH,
-               cb_fmt_loop(lb, sizeof lb, g, l, BOUND_LOOP_WIDTH), (long long)l->cycles,
+        cb_fmt_loop_apart(lb, sizeof lb, g, l, pre, suf);
+        folded = folded || strstr(lb, " shared]") != NULL;
+        printf("  %-*s %lld cycles / %lld %s\n", BOUND_LOOP_WIDTH, lb, (long long)l->cycles,
                (long long)l->delays, l->delays == 1 ? "delay" : "delays");
     }
+    if (folded)
+        printf("  [N shared]: N nodes every loop above has at that place (--json lists "
+               "them all)\n");
 }
 
 static void cb_text_parts(const pm_graph *g, const pm_bound *b)
@@ -145,54 +204,53 @@ static void cb_text_floors(const pm_graph *g, const pm_bound *b, const pm_floors
 
 static void cb_text_budget(const pm_graph *g, const pm_floors *f)
 {
-    char rb[64];
-    double clock = (double)g->platform.clock_hz;
-    printf("\nbudget at %.6g MHz and %.6g kHz: %s cycles per iteration (%.3f us)\n",
-           clock / 1e6, (double)g->platform.rate_hz / 1e3, cb_fmt_rat(rb, sizeof rb, f->budget),
-           pm_rat_to_double(f->budget) / clock * 1e6);
+    char rb[64], clk[PM_UNITS_LEN], rate[PM_UNITS_LEN], t[PM_UNITS_LEN];
+    uint64_t hz = g->platform.clock_hz;
+    printf("\nbudget at %s and %s: %s cycles per iteration (%s)\n",
+           pm_units_freq(clk, sizeof clk, hz), pm_units_freq(rate, sizeof rate, g->platform.rate_hz),
+           cb_fmt_rat(rb, sizeof rb, f->budget),
+           pm_units_cycles(t, sizeof t, pm_rat_to_double(f->budget), hz));
     if (f->has_loop)
         printf("  iteration bound: %s\n", f->loop_fits ? "fits" : "DOES NOT FIT");
-    printf("  lower bound:     %s, margin %s cycles (%.3f us)\n",
+    printf("  lower bound:     %s, margin %s cycles (%s%s)\n",
            f->lower_fits ? "fits" : "DOES NOT FIT", cb_fmt_rat(rb, sizeof rb, f->margin),
-           f->margin_us);
+           f->margin_us < 0 ? "-" : "", pm_units_time(t, sizeof t, fabs(f->margin_us) * 1e-6));
 }
 
-/* The caution, wrapped to 80 columns. */
-static void cb_text_caution(void)
+/* The first line; a multirate scenario says it was expanded to firings,
+ * since the loops, counts and bound below are those of the firings. */
+static void cb_text_title(const char *file, const pm_plan *p, const pm_bound *b)
 {
-    const char *s = cli_caution;
-    while (*s) {
-        size_t n = strlen(s);
-        if (n > 80) {
-            n = 80;
-            while (n > 0 && s[n] != ' ')
-                n--;
-            if (n == 0)
-                n = 80;
-        }
-        printf("%.*s\n", (int)n, s);
-        s += n;
-        while (*s == ' ')
-            s++;
-    }
+    const pm_graph *g = p->graph;
+    if (p->multirate)
+        printf("%s: %u nodes -> %u firings, %u edges, %u part%s with loops\n"
+               "multirate: expanded to one node per firing of an iteration; the loops "
+               "below are of firings\n\n", file, p->source->nnodes, g->nnodes, g->nedges,
+               b->nparts_total, b->nparts_total == 1 ? "" : "s");
+    else
+        printf("%s: %u nodes, %u edges, %u part%s with loops\n\n", file, g->nnodes,
+               g->nedges, b->nparts_total, b->nparts_total == 1 ? "" : "s");
 }
 
-static void cb_text(const char *file, const pm_graph *g, const pm_bound *b,
+static void cb_text(const char *file, const pm_plan *p, const pm_bound *b,
                        const pm_floors *f)
 {
     char rb[64];
-    printf("%s: %u nodes, %u edges, %u part%s with loops\n\n", file, g->nnodes, g->nedges,
-           b->nparts_total, b->nparts_total == 1 ? "" : "s");
+    const pm_graph *g = p->graph;
+    cb_text_title(file, p, b);
     if (!b->has_loop) {
         printf("iteration bound: none - the graph has no loop, so no loop bounds it;\n"
                "the floor comes from the cores alone (work / P, the largest node)\n");
     } else {
         printf("iteration bound: %s cycles per iteration", cb_fmt_rat(rb, sizeof rb,
                                                                    b->iteration_bound));
-        if (g->platform.clock_hz)
-            printf(" (%.4g us at %.6g MHz)", pm_rat_to_double(b->iteration_bound) /
-                                                 (double)g->platform.clock_hz * 1e6,
-                   (double)g->platform.clock_hz / 1e6);
+        if (g->platform.clock_hz) {
+            char t[PM_UNITS_LEN], clk[PM_UNITS_LEN];
+            printf(" (%s at %s)", pm_units_cycles(t, sizeof t,
+                                                  pm_rat_to_double(b->iteration_bound),
+                                                  g->platform.clock_hz),
+                   pm_units_freq(clk, sizeof clk, g->platform.clock_hz));
+        }
         printf("\n");
         cb_text_critical(g, b);
         cb_text_parts(g, b);
@@ -201,7 +259,7 @@ static void cb_text(const char *file, const pm_graph *g, const pm_bound *b,
     if (f->has_budget)
         cb_text_budget(g, f);
     printf("\n");
-    cb_text_caution();
+    cli_print_caution(80);
 }
 
 static void cb_json_parts(pm_json *j, const pm_graph *g, const pm_bound *b)
@@ -312,6 +370,7 @@ static void cb_json(const char *file, const pm_graph *g, const pm_bound *b,
     cb_json_floors(&j, g, b, f);
     cb_json_parts(&j, g, b);
     cb_json_budget(&j, g, f);
+    cli_json_caution(&j);
     pm_json_object_end(&j);
     pm_json_finish(&j);
 }
@@ -346,10 +405,11 @@ int pm_cmd_bound(int argc, char **argv)
         cli_usage_error("bound: --loops must be at least 1");
         return CLI_EXIT_USAGE;
     }
-    pm_graph *g;
-    st = cli_load(file, a.procs_set, a.procs, &g);
+    pm_plan plan;
+    st = cli_load_scenario(file, a.procs_set, a.procs, &plan);
     if (st != CLI_EXIT_OK)
         return st;
+    const pm_graph *g = plan.graph;
     pm_bound b;
     pm_floors f;
     pm_diag d;
@@ -361,10 +421,10 @@ int pm_cmd_bound(int argc, char **argv)
     if (rc == PM_OK && a.json)
         cb_json(file, g, &b, &f);
     else if (rc == PM_OK)
-        cb_text(file, g, &b, &f);
+        cb_text(file, &plan, &b, &f);
     else
         st = cb_fail(g, rc, &d);
     pm_bound_free(&b);
-    pm_graph_destroy(g);
+    pm_plan_free(&plan);
     return st;
 }

@@ -16,6 +16,7 @@
  * schedule anything.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include "pacemap/json.h"
 #include "pacemap/order.h"
@@ -141,16 +142,10 @@ static int check_analyse(const pm_graph *g, check_summary *sum)
 
 /* ---- human output ------------------------------------------------------ */
 
-/* "600 MHz": the largest unit that divides the frequency exactly. */
+/* "600 MHz", "44.1 kHz": the one style of every report (units.h). */
 static void check_format_hz(uint64_t hz, char *buf, size_t cap)
 {
-    static const char *const unit[] = { "Hz", "kHz", "MHz", "GHz" };
-    int u = 0;
-    while (u < 3 && hz >= 1000 && hz % 1000 == 0) {
-        hz /= 1000;
-        u++;
-    }
-    snprintf(buf, cap, "%" PRIu64 " %s", hz, unit[u]);
+    pm_units_freq(buf, cap, hz);
 }
 
 static void check_format_rat(pm_rat r, char *buf, size_t cap)

@@ -1,22 +1,26 @@
 /*
  * cmd_dot.c - the 'dot' command: the scenario's graph as Graphviz DOT text,
- * with the loops that set the iteration bound drawn in red.
+ * with the loops that set the iteration bound drawn dark red and thick.
  *
  * Nodes show their name, execution time (per class when the scenario gives
  * classes), pin and real-core work; edges show delays ("2D"), words per
  * token when not 1 ("4w") and multirate rates at their ends.  Every loop
- * that attains the iteration bound is drawn red and thick; the worst loop
- * of each other strongly connected part is drawn orange, so the next
- * bottleneck is visible too.  The graph label states the bound.
+ * that attains the iteration bound is drawn dark red and thick; the worst
+ * loop of each other strongly connected part is drawn blue and dashed, so
+ * the next bottleneck is visible too (colours: pacemap/palette.h, told
+ * apart by lightness and line style as well as hue).  The graph label
+ * states the bound and serves as the legend.
  *
  * It only writes text: laying the graph out is left to Graphviz.  A loop
- * without delay is an input error (exit 1), as for 'bound'; a multirate
- * graph is drawn without a bound until multirate analysis is available.
+ * without delay is an input error (exit 1), as for 'bound'.  A multirate
+ * graph is drawn with its own nodes and rates; the bound and the loops
+ * marked are those of its expansion, each firing drawn on its node.
  */
 #include "cli.h"
 
 #include "pacemap/bound.h"
 #include "pacemap/json.h"
+#include "pacemap/palette.h"
 #include "pacemap/rational.h"
 
 #include <inttypes.h>
@@ -24,9 +28,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define DOT_RED "#c0392b"
-#define DOT_ORANGE "#e67e22"
-#define DOT_MAX_OTHER_PARTS 8 /* orange loops drawn besides the critical ones */
+#define DOT_MAX_OTHER_PARTS 8 /* dashed loops drawn besides the critical ones */
 #define DOT_MAX_PATH 12        /* loop nodes named in the caption */
 
 enum dot_mark { DOT_PLAIN = 0, DOT_NEXT = 1, DOT_CRITICAL = 2 };
@@ -125,9 +127,11 @@ static void dot_node(FILE *f, const dot_view *v, uint32_t id)
     if (n->pin_core != PM_NONE || n->pin_class != PM_NONE)
         fputs(", peripheries=2", f);
     if (v->node_mark[id] == DOT_CRITICAL)
-        fputs(", color=\"" DOT_RED "\", penwidth=2.5, fillcolor=\"#fdecea\"", f);
+        fprintf(f, ", color=\"%s\", penwidth=2.5, fillcolor=\"%s\"", pm_palette_critical,
+                pm_palette_critical_fill);
     else if (v->node_mark[id] == DOT_NEXT)
-        fputs(", color=\"" DOT_ORANGE "\", penwidth=2, fillcolor=\"#fdf2e9\"", f);
+        fprintf(f, ", color=\"%s\", penwidth=2, style=\"rounded,filled,dashed\", "
+                "fillcolor=\"%s\"", pm_palette_near, pm_palette_near_fill);
     fputs("];\n", f);
 }
 
@@ -158,9 +162,11 @@ static void dot_edge(FILE *f, const dot_view *v, uint32_t id)
         fprintf(f, ", taillabel=\"%" PRId64 "\", headlabel=\"%" PRId64 "\"", e->produce,
                 e->consume);
     if (v->edge_mark[id] == DOT_CRITICAL)
-        fputs(", color=\"" DOT_RED "\", fontcolor=\"" DOT_RED "\", penwidth=3", f);
+        fprintf(f, ", color=\"%s\", fontcolor=\"%s\", penwidth=3", pm_palette_critical,
+                pm_palette_critical);
     else if (v->edge_mark[id] == DOT_NEXT)
-        fputs(", color=\"" DOT_ORANGE "\", fontcolor=\"" DOT_ORANGE "\", penwidth=2", f);
+        fprintf(f, ", color=\"%s\", fontcolor=\"%s\", penwidth=2, style=dashed",
+                pm_palette_near, pm_palette_near);
     fputs("];\n", f);
 }
 
@@ -202,7 +208,7 @@ static void dot_label_next(FILE *f, const dot_view *v)
         if (pm_rat_cmp(b->parts[i].bound, b->iteration_bound) == 0)
             continue;
         if (first)
-            fputs("\\nnext loops behind it (orange):", f);
+            fputs("\\nnext loops behind it (blue, dashed):", f);
         first = false;
         dot_loop_line(f, v->g, &b->parts[i].worst);
     }
@@ -225,7 +231,7 @@ static void dot_label_bound(FILE *f, const dot_view *v)
     }
     fputs("iteration bound ", f);
     dot_rat(f, b->iteration_bound);
-    fputs(" cycles per iteration (red)", f);
+    fputs(" cycles per iteration (dark red, thick)", f);
     for (uint32_t i = 0; i < b->ncritical; i++)
         dot_loop_line(f, v->g, &b->critical[i]);
     if (b->critical_truncated)
@@ -308,7 +314,7 @@ static int dot_print_json(const char *file, const dot_view *v)
  * printed; returns an exit status. */
 static int dot_bound(const pm_graph *g, pm_bound *b, bool *have, pm_diag *d)
 {
-    /* the critical loops and the worst loop of the parts drawn orange */
+    /* the critical loops and the worst loop of the parts drawn dashed */
     const pm_bound_opts opts = { .max_critical = 0, .max_parts = DOT_MAX_OTHER_PARTS + 1 };
     int rc = pm_bound_compute(g, &opts, b, d);
     *have = rc == PM_OK;
@@ -395,7 +401,7 @@ int pm_cmd_dot(int argc, char **argv)
     };
     const cli_cmd cmd = { "dot", "FILE [--json]",
                           "Write the graph as Graphviz DOT on standard output; loops that "
-                          "set the iteration bound are drawn red.\n"
+                          "set the iteration bound are drawn dark red and thick.\n"
                           "Example: pacemap dot FILE | dot -Tsvg -o graph.svg", opts };
     const char *file;
     int st = cli_parse(&cmd, argc, argv, &file);

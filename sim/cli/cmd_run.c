@@ -10,6 +10,7 @@
  * orders the steps and prints.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -426,8 +427,10 @@ static void cr_text_setup(const cr_state *s)
         printf("  core %u: processing unit %u %s\n", c, s->pus.pu[c], s->pus.why[c]);
     printf("spin calibration: %.3f busy-loop turns per ns; 1 node cycle = %.4g ns",
            s->cfg.turns_per_ns, s->cfg.ns_per_cycle);
-    if (p->clock_hz && !s->o.nspc)
-        printf(" (clock %.6g MHz)", (double)p->clock_hz / 1e6);
+    if (p->clock_hz && !s->o.nspc) {
+        char clk[PM_UNITS_LEN];
+        printf(" (clock %s)", pm_units_freq(clk, sizeof clk, p->clock_hz));
+    }
     printf("\n");
 }
 
@@ -571,7 +574,10 @@ static void cr_text_results(const cr_state *s)
                : "NOT pinned (the system refused; times may include migrations)");
     crp_text(&s->paced, r, s->cfg.ns_per_cycle);
     printf("\n");
-    cr_print_wrapped(cli_caution, 100);
+    if (cli_quiet)
+        cli_print_caution(100);
+    else
+        cr_print_wrapped(cli_caution, 100);
 }
 
 static void cr_json_cores(pm_json *j, const cr_state *s)
@@ -693,6 +699,7 @@ static void cr_json(const cr_state *s)
     cr_json_host(&j, s);
     cr_json_cores(&j, s);
     crp_json(&s->paced, r, &j);
+    cli_json_caution(&j);
     pm_json_object_end(&j);
     pm_json_finish(&j);
 }

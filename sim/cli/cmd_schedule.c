@@ -9,6 +9,7 @@
  * sched/, mapping in sim/search/.
  */
 #include "cli.h"
+#include "pacemap/units.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -116,9 +117,11 @@ static void sc_text_summary(const sc_result *r)
     printf("%s: %u nodes on %u cores, %s\n", r->file, r->g->nnodes, p->ncores,
            p->interconnect == PM_BUS ? "bus" : "point-to-point links");
     printf("makespan       %lld cycles", (long long)r->s->makespan);
-    if (p->clock_hz)
-        printf(" (%.4g us at %.6g MHz)", (double)r->s->makespan * 1e6 / (double)p->clock_hz,
-               (double)p->clock_hz / 1e6);
+    if (p->clock_hz) {
+        char t[PM_UNITS_LEN], clk[PM_UNITS_LEN];
+        printf(" (%s at %s)", pm_units_cycles(t, sizeof t, (double)r->s->makespan, p->clock_hz),
+               pm_units_freq(clk, sizeof clk, p->clock_hz));
+    }
     putchar('\n');
     if (r->nloop > 0) {
         printf("loop floor     %.6g cycles per iteration (%lld/%lld): loop", 
@@ -219,6 +222,8 @@ static int sc_text(const sc_result *r)
     sc_text_slots(r);
     sc_text_transfers(r);
     putchar('\n');
+    if (cli_quiet) /* the chart illustrates the slots above */
+        return PM_OK;
     sc_chart c;
     int rc = sc_chart_make(r, &c);
     if (rc == PM_OK) {
@@ -528,7 +533,7 @@ int pm_cmd_schedule(int argc, char **argv)
     r.scn = &scn;
     st = sc_run(&a, &r);
     if (st == CLI_EXIT_OK && !a.json)
-        sc_print_wrapped(cli_caution);
+        cli_quiet ? cli_print_caution(100) : sc_print_wrapped(cli_caution);
     pm_sched_destroy(r.s);
     if (r.pm != r.m)
         pm_map_destroy(r.pm);

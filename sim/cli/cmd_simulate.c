@@ -11,6 +11,7 @@
  */
 #include "cli.h"
 #include "cmd_simulate_paced.h"
+#include "pacemap/units.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -31,7 +32,7 @@
 
 typedef struct sm_args {
     uint32_t procs, iterations, fifo;
-    bool procs_set, json, no_refine, jitter_set, seed_set;
+    bool procs_set, json, no_refine, jitter_set, seed_set, fifo_set;
     const char *map, *vcd, *svg, *mapper;
     sp_args sp;      /* --paced and what goes with it */
 } sm_args;
@@ -185,8 +186,11 @@ static void sm_text_period(const sm_run *s)
     const pm_sim_result *r = &s->r;
     printf("period         %.6g cycles per iteration (%lld/%lld)", pm_rat_to_double(r->period),
            (long long)r->period.num, (long long)r->period.den);
-    if (s->g->platform.clock_hz && r->period.num)
-        printf(", %.6g us", pm_rat_to_double(r->period) * 1e6 / (double)s->g->platform.clock_hz);
+    if (s->g->platform.clock_hz && r->period.num) {
+        char t[PM_UNITS_LEN];
+        printf(", %s", pm_units_cycles(t, sizeof t, pm_rat_to_double(r->period),
+                                       s->g->platform.clock_hz));
+    }
     putchar('\n');
     if (r->steady)
         printf("               steady from iteration %llu, repeats every %u iteration%s\n",
@@ -317,8 +321,9 @@ static void sm_text(const sm_run *s)
         sp_text(&s->scn, s->m, &s->b, s->has_bound, &s->r, &s->sp);
     else
         sm_text_edges(s);
-    sm_text_chain(s);
-    sm_print_wrapped(cli_caution);
+    if (!cli_quiet) /* an explanation, not a result */
+        sm_text_chain(s);
+    cli_quiet ? cli_print_caution(100) : sm_print_wrapped(cli_caution);
 }
 
 /* ---- JSON --------------------------------------------------------------- */
@@ -523,7 +528,7 @@ int pm_cmd_simulate(int argc, char **argv)
         { "-n", "--iterations", CLI_U32, &a.iterations, NULL,
           "iterations to simulate (default 1000)", "ITER" },
         { "--map", NULL, CLI_STRING, &a.map, NULL, "run this map instead of scheduling", "F" },
-        { "--fifo", NULL, CLI_U32, &a.fifo, NULL,
+        { "--fifo", NULL, CLI_U32, &a.fifo, &a.fifo_set,
           "tokens each cross-core edge can buffer (default: unbounded)", "N" },
         { "--mapper", NULL, CLI_STRING, &a.mapper, NULL,
           "period (default: lowest period, lags) or list (the list scheduler)", "NAME" },
@@ -562,6 +567,11 @@ int pm_cmd_simulate(int argc, char **argv)
         return CLI_EXIT_USAGE;
     if (!a.sp.on && (a.jitter_set || a.seed_set || a.sp.fit)) {
         cli_usage_error("--jitter, --seed and --fit-buffers go with --paced");
+        return CLI_EXIT_USAGE;
+    }
+    if (a.fifo_set && a.fifo == 0) {
+        cli_usage_error("--fifo 0: a FIFO must hold at least one token "
+                        "(leave --fifo out for unbounded FIFOs)");
         return CLI_EXIT_USAGE;
     }
     sm_run s;

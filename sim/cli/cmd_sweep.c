@@ -427,7 +427,7 @@ static void sw_text(const sw_report *r, uint64_t iterations)
     sw_text_limits(r);
     sw_text_whatif(r);
     putchar('\n');
-    sw_print_wrapped("", cli_caution, 0);
+    cli_print_caution(100);
 }
 
 /* ---- progress ----------------------------------------------------------- */
@@ -517,7 +517,8 @@ int pm_cmd_sweep(int argc, char **argv)
          "F"},
         {"--csv", NULL, CLI_STRING, &a.csv, NULL, "write one row per core count", "F"},
         {"--json", NULL, CLI_FLAG, &a.json, NULL, "machine output on stdout", NULL},
-        {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL, "no progress line on stderr", NULL},
+        {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL,
+         "no progress line; results only, the caution in one line", NULL},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
     const cli_cmd cmd = {"sweep",
                          "FILE [-p [CLASS=]A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",

@@ -5,6 +5,7 @@
  * (pm_plot: period and floors, throughput, against the core count).
  */
 #include "cli.h"
+#include "pacemap/units.h"
 #include "cmd_sweep_internal.h"
 
 #include <math.h>
@@ -354,8 +355,9 @@ static double sw_thr_scale(const sw_report *r, sw_plot_data *d)
             best = clock / lb;
     }
     const char *unit = best >= 1e6 ? "million " : best >= 1e3 ? "thousand " : "";
-    snprintf(d->ylabel, sizeof d->ylabel, "%siterations per second at %.6g MHz", unit,
-             clock / 1e6);
+    char clk[PM_UNITS_LEN];
+    snprintf(d->ylabel, sizeof d->ylabel, "%siterations per second at %s", unit,
+             pm_units_freq(clk, sizeof clk, r->g->platform.clock_hz));
     return best >= 1e6 ? clock / 1e6 : best >= 1e3 ? clock / 1e3 : clock;
 }
 

@@ -3,6 +3,8 @@
  */
 #include "cli.h"
 
+#include "pacemap/version.h"
+
 #include <stdio.h>
 #include <string.h>
 
@@ -25,6 +27,7 @@ static const cli_entry commands[] = {
 static void main_usage(FILE *out)
 {
     fputs("usage: pacemap COMMAND FILE [options]   (pacemap COMMAND -h for details)\n\n"
+          "       pacemap --version\n\n"
           "commands:\n", out);
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
         fprintf(out, "  %-9s %s\n", commands[i].name, commands[i].summary);
@@ -38,6 +41,10 @@ int main(int argc, char **argv)
     }
     if (strcmp(argv[1], "-h") == 0 || strcmp(argv[1], "--help") == 0) {
         main_usage(stdout);
+        return CLI_EXIT_OK;
+    }
+    if (strcmp(argv[1], "-V") == 0 || strcmp(argv[1], "--version") == 0) {
+        printf("pacemap %s\n", PM_VERSION);
         return CLI_EXIT_OK;
     }
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)

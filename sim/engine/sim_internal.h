@@ -6,8 +6,14 @@
  * (sim_report.c).  Not public.
  *
  * Times are kept in sliding rings of W iterations (W a power of two):
- * x_ring[(k & mask) * n + v] is the begin time of firing (v,k).  W grows
- * only when cores drift more than W iterations apart (tokens piling up).
+ * xr[(k & mask) * n + v] (sim_x_at) is the begin time of firing (v,k), and
+ * beside it cr holds its cause, bg the bus grants, f1, lbr, lmin and lmax
+ * the per-iteration fingerprints and latency bounds.  W holds every
+ * iteration from the oldest a firing may still look back to (the deepest
+ * delay or FIFO, the cyclicity window, plus the largest lag) up to the
+ * newest begun; sim_ring_fit doubles it when the cores drift further apart
+ * (tokens piling up) and stops the run with PM_ELIMIT past the memory
+ * limit.
  *
  * Lags (map.h): cores run rounds; round r of v's core runs v's iteration
  * r - lag[v], none while that is negative.  Everything kept per iteration

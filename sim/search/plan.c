@@ -306,6 +306,71 @@ int pm_plan_period(const pm_plan *p, const pm_map *m, pm_plan_timing *out, pm_di
 
 /* ---- map files ---------------------------------------------------------- */
 
+/* Point diag at the `core N:` line of the map file that lists `name`
+ * (the message stays); left as it is when the file does not list it. */
+static void plan_point_at(const char *path, uint32_t core, const char *name, pm_diag *diag)
+{
+    uint32_t line, col;
+    if (diag && pm_map_file_locate(path, core, name, &line, &col) == PM_OK) {
+        char msg[sizeof diag->msg];
+        memcpy(msg, diag->msg, sizeof msg);
+        pm_diag_set(diag, path, line, col, "%s", msg);
+    }
+}
+
+/* The loop's entry to point at: a node listed right before the next node
+ * of the loop on its core (the order is what the user can change); len
+ * when the loop is made of data edges alone. */
+static uint32_t plan_loop_culprit(const pm_map *m, const uint32_t *loop, uint32_t len)
+{
+    for (uint32_t i = 0; i < len; i++) {
+        uint32_t v = loop[i], w = loop[(i + 1) % len], c = m->core_of[v];
+        for (uint32_t k = m->off[c]; k + 1 < m->off[c + 1]; k++)
+            if (m->order[k] == v && m->order[k + 1] == w)
+                return i;
+    }
+    return len;
+}
+
+/* A single-rate map that stalls: the loop of waits, at the map file's line. */
+static int plan_check_deadlock(const pm_graph *g, const pm_map *m, const char *path,
+                               pm_diag *diag)
+{
+    uint32_t *loop = malloc((g->nnodes + 1) * sizeof *loop), len = 0;
+    if (!loop)
+        return PM_ENOMEM;
+    int rc = pm_map_deadlock_loop(g, m, loop, &len);
+    if (rc == PM_EDEADLOCK) {
+        char text[400];
+        size_t at = 0;
+        for (uint32_t i = 0; i <= len && at < sizeof text - 80; i++)
+            at += (size_t)snprintf(text + at, sizeof text - at, "%s%s", i ? " -> " : "",
+                                   pm_graph_node_name(g, loop[i % len]));
+        uint32_t i = plan_loop_culprit(m, loop, len);
+        uint32_t v = loop[i % len], w = loop[(i + 1) % len];
+        char why[160] = "";
+        if (i < len)
+            snprintf(why, sizeof why, " (core %u lists '%s' before '%s')", m->core_of[v],
+                     pm_graph_node_name(g, v), pm_graph_node_name(g, w));
+        pm_diag_set(diag, path, 0, 0, "the map deadlocks: in one round each node must end "
+                    "before the next starts: %s%s%s", text,
+                    at >= sizeof text - 80 ? " ..." : "", why);
+        plan_point_at(path, m->core_of[v], pm_graph_node_name(g, v), diag);
+    }
+    free(loop);
+    return rc;
+}
+
+/* The multirate expansion names the core and node it stalls at. */
+static void plan_point_expand(const char *path, pm_diag *diag)
+{
+    const char *at = diag ? strstr(diag->msg, "core ") : NULL;
+    unsigned core;
+    char name[256];
+    if (at && sscanf(at, "core %u waits at '%255[^']'", &core, name) == 2)
+        plan_point_at(path, core, name, diag);
+}
+
 int pm_plan_map_read(const pm_plan *p, const char *path, pm_map **out, pm_diag *diag)
 {
     if (!out)
@@ -315,9 +380,13 @@ int pm_plan_map_read(const pm_plan *p, const char *path, pm_map **out, pm_diag *
         return PM_EINVAL;
     pm_map *m = NULL;
     int rc = pm_map_read_file(path, p->source, &m, diag);
+    if (rc == PM_OK && !p->multirate)
+        rc = plan_check_deadlock(p->source, m, path, diag);
     if (rc == PM_OK && p->multirate) {
         pm_map *xm = NULL;
         rc = pm_map_expand(p->source, p->rep, m, &xm, diag);
+        if (rc == PM_EDEADLOCK)
+            plan_point_expand(path, diag);
         pm_map_destroy(m);
         m = xm;
     }

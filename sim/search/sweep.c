@@ -1,10 +1,11 @@
 /*
  * sweep.c - the speedup sweep: for each core count of a range, map the
- * plan (pm_plan_map: the list schedule, one core per multirate node, the
- * refinement when asked) or take the caller's map, simulate, take the
- * floors and classify the limit; then the saturation point and, through
- * sweep_whatif.c, what would move it.  Multirate scenarios are swept on
- * their expansion, the plan's graph.
+ * plan (pm_plan_map: the list schedule, every firing of a multirate node
+ * on that node's core, the refinement when asked) or take the caller's
+ * map, simulate, take the floors and classify the limit (sweep_limit.c);
+ * then speedups, the saturation point and, through sweep_whatif.c, what
+ * would move it.  Multirate scenarios are swept on their expansion, the
+ * plan's graph; the plan's core count is restored before returning.
  *
  * What it does not do: print (the sweep command does) or choose a core
  * count's map itself (the plan module does).

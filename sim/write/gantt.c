@@ -6,6 +6,8 @@
  * the chart alone, so it is byte-for-byte repeatable.
  */
 #include "pacemap/gantt.h"
+#include "pacemap/palette.h"
+#include "svgtext.h"
 #include "pacemap/error.h"
 #include "pacemap/rational.h"
 
@@ -191,10 +193,9 @@ int pm_gantt_write_text(const pm_gantt *c, FILE *out, int width)
 
 /* ---- SVG ---------------------------------------------------------------- */
 
-enum { SV_W = 960, SV_LEFT = 110, SV_RIGHT = 30, SV_TOP = 40, SV_LANE = 28, SV_GAP = 8 };
+enum { SV_W = 960, SV_LEFT = 110, SV_RIGHT = 30, SV_TOP = 40, SV_LANE = 28, SV_GAP = 8,
+       SV_FONT = 11, SV_TITLE_FONT = 14, SV_CAUTION_FONT = 9, SV_LEGEND_H = 20 };
 
-static const char *const sv_fill[6] = {"#9ecae1", "#fdd0a2", "#a1d99b",
-                                       "#dadaeb", "#fcbba1", "#d9d9d9"};
 
 static void sv_text(FILE *out, const char *s, size_t max)
 {
@@ -226,7 +227,7 @@ static void sv_lanes(const pm_gantt *c, FILE *out)
         fprintf(out, "<rect x=\"%d\" y=\"%.2f\" width=\"%d\" height=\"%d\" fill=\"#f4f4f4\"/>\n",
                 SV_LEFT, y, SV_W - SV_LEFT - SV_RIGHT, SV_LANE);
         fprintf(out, "<text x=\"8\" y=\"%.2f\" class=\"lane\">", y + SV_LANE * 0.65);
-        sv_text(out, c->lane_names[i], 16);
+        sv_text(out, c->lane_names[i], svg_fit_chars(SV_LEFT - 12, SV_FONT, SVG_EM_REGULAR));
         fputs("</text>\n", out);
     }
 }
@@ -241,8 +242,8 @@ static void sv_boxes(const pm_gantt *c, FILE *out, int64_t span)
         fprintf(out, " [%lld, %lld)</title>", (long long)b->start, (long long)b->end);
         fprintf(out, "<rect x=\"%.2f\" y=\"%.2f\" width=\"%.2f\" height=\"%d\" fill=\"%s\" "
                 "stroke=\"#333\" stroke-width=\"0.6\"/>",
-                x0, y + 2, w, SV_LANE - 4, sv_fill[b->iteration % 6]);
-        size_t fit = w > 6 ? (size_t)((w - 4) / 6.5) : 0;
+                x0, y + 2, w, SV_LANE - 4, pm_palette_iteration[b->iteration % PM_PALETTE_NITER]);
+        size_t fit = svg_fit_chars(w - 4, SV_FONT, SVG_EM_REGULAR);
         if (fit > 0 && b->label) {
             fprintf(out, "<text x=\"%.2f\" y=\"%.2f\" class=\"box\">", x0 + 2, y + SV_LANE * 0.65);
             sv_text(out, b->label, fit);
@@ -269,6 +270,16 @@ static void sv_arrows(const pm_gantt *c, FILE *out, int64_t span)
     }
 }
 
+/* A tick label centred on x, moved in as far as needed to stay inside. */
+static void sv_tick(FILE *out, double x, double y, const char *num)
+{
+    double half = (double)strlen(num) * SV_FONT * SVG_EM_REGULAR / 2.0;
+    if (x + half > SV_W - 2)
+        x = SV_W - 2 - half;
+    fprintf(out, "<text x=\"%.2f\" y=\"%.2f\" class=\"tick\" text-anchor=\"middle\">%s"
+            "</text>", x, y, num);
+}
+
 static void sv_axis(const pm_gantt *c, FILE *out, int64_t span, double y)
 {
     fprintf(out, "<line x1=\"%d\" y1=\"%.2f\" x2=\"%d\" y2=\"%.2f\" stroke=\"#000\"/>\n",
@@ -278,29 +289,72 @@ static void sv_axis(const pm_gantt *c, FILE *out, int64_t span, double y)
         double x = sv_x(t, span);
         fprintf(out, "<line x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" y2=\"%.2f\" stroke=\"#000\"/>",
                 x, y, x, y + 4);
-        fprintf(out, "<text x=\"%.2f\" y=\"%.2f\" class=\"tick\">%lld</text>", x, y + 16,
-                (long long)t);
-        if (c->clock_hz)
-            fprintf(out, "<text x=\"%.2f\" y=\"%.2f\" class=\"tick\">%.4g</text>", x, y + 30,
-                    (double)t * 1e6 / (double)c->clock_hz);
+        char num[32];
+        snprintf(num, sizeof num, "%lld", (long long)t);
+        sv_tick(out, x, y + 16, num);
+        if (c->clock_hz) {
+            snprintf(num, sizeof num, "%.4g", (double)t * 1e6 / (double)c->clock_hz);
+            sv_tick(out, x, y + 30, num);
+        }
         fputc('\n', out);
         if (t > INT64_MAX - step)
             break;
     }
     fprintf(out, "<text x=\"8\" y=\"%.2f\" class=\"tick\">cycles</text>\n", y + 16);
     if (c->clock_hz)
-        fprintf(out, "<text x=\"8\" y=\"%.2f\" class=\"tick\">microseconds</text>\n", y + 30);
+        fprintf(out, "<text x=\"8\" y=\"%.2f\" class=\"tick\">us</text>\n", y + 30);
 }
-
-enum { SV_CAUTION_CHARS = 150 };
 
 static void sv_caution_line(FILE *out, const char *s, int n, int index, const void *ctx)
 {
     double y0 = *(const double *)ctx;
-    fprintf(out, "<text x=\"8\" y=\"%.2f\" font-size=\"9\">", y0 + 12.0 * index);
+    fprintf(out, "<text x=\"8\" y=\"%.2f\" font-size=\"%d\">", y0 + 12.0 * index,
+            SV_CAUTION_FONT);
     sv_text(out, s, (size_t)n);
     fputs("</text>\n", out);
 }
+
+static void sv_count_line(FILE *out, const char *s, int n, int index, const void *ctx)
+{
+    (void)out, (void)s, (void)n, (void)index, (void)ctx;
+}
+
+/* Characters of caution per line: what fits between the margins. */
+static int sv_caution_chars(void)
+{
+    return (int)svg_fit_chars(SV_W - 16, SV_CAUTION_FONT, SVG_EM_REGULAR);
+}
+
+/* The title, cut with "..." where it would leave the picture. */
+static void sv_title(FILE *out, const char *title)
+{
+    size_t fit = svg_fit_chars(SV_W - 16, SV_TITLE_FONT, SVG_EM_REGULAR);
+    fputs("<text x=\"8\" y=\"22\" class=\"title\">", out);
+    if (strlen(title) <= fit) {
+        sv_text(out, title, fit);
+    } else {
+        sv_text(out, title, fit - 3);
+        fputs("...", out);
+    }
+    fputs("</text>\n", out);
+}
+
+/* The legend: one swatch per iteration fill, and what an arrow is. */
+static void sv_legend(FILE *out, double y, bool arrows)
+{
+    double x = 8;
+    fprintf(out, "<text x=\"%.2f\" y=\"%.2f\">fill by iteration:</text>\n", x, y + 10);
+    x += 19 * SV_FONT * SVG_EM_REGULAR;
+    for (int i = 0; i < PM_PALETTE_NITER; i++) {
+        fprintf(out, "<rect x=\"%.2f\" y=\"%.2f\" width=\"14\" height=\"12\" fill=\"%s\" "
+                "stroke=\"#333\" stroke-width=\"0.6\"/><text x=\"%.2f\" y=\"%.2f\">%d</text>\n",
+                x, y, pm_palette_iteration[i], x + 18, y + 10, i);
+        x += 18 + 3 * SV_FONT * SVG_EM_REGULAR;
+    }
+    fprintf(out, "<text x=\"%.2f\" y=\"%.2f\">%s</text>\n", x, y + 10,
+            arrows ? "(then again)  arrow: a transfer between cores" : "(then again)");
+}
+
 
 /* Dashed vertical marks across the lanes (a paced run's releases), each
  * labelled with its index above the lanes; marks past the chart's span are
@@ -327,8 +381,10 @@ static int sv_write(const pm_gantt *c, const int64_t *marks, size_t nmarks, FILE
         return PM_EINVAL;
     int64_t span = gantt_span(c);
     double axis_y = sv_lane_y(c->nlanes) + 4;
-    int lines = c->caution ? (int)(strlen(c->caution) / (SV_CAUTION_CHARS - 20)) + 1 : 0;
-    double h = axis_y + (c->clock_hz ? 40 : 26) + 12 * lines + 14;
+    int lines = c->caution ? gantt_wrap(out, c->caution, sv_caution_chars(), sv_count_line, NULL)
+                           : 0;
+    double legend_y = axis_y + (c->clock_hz ? 40 : 26);
+    double h = legend_y + SV_LEGEND_H + 12 * lines + 14;
     fprintf(out, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n"
                  "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"%d\" "
                  "height=\"%.0f\" viewBox=\"0 0 %d %.0f\">\n", SV_W, h, SV_W, h);
@@ -337,19 +393,17 @@ static int sv_write(const pm_gantt *c, const int64_t *marks, size_t nmarks, FILE
           "<style>text{font-family:monospace;font-size:11px}.title{font-size:14px}"
           ".xfer{stroke:#b00;stroke-width:1.2}</style>\n"
           "<rect width=\"100%\" height=\"100%\" fill=\"#fff\"/>\n", out);
-    if (c->title) {
-        fputs("<text x=\"8\" y=\"22\" class=\"title\">", out);
-        sv_text(out, c->title, 200);
-        fputs("</text>\n", out);
-    }
+    if (c->title)
+        sv_title(out, c->title);
     sv_lanes(c, out);
     sv_boxes(c, out, span);
     sv_arrows(c, out, span);
     sv_marks(c, marks, nmarks, out, span);
     sv_axis(c, out, span, axis_y);
+    sv_legend(out, legend_y, c->narrows > 0);
     if (c->caution) {
-        double y0 = axis_y + (c->clock_hz ? 40 : 26) + 12;
-        gantt_wrap(out, c->caution, SV_CAUTION_CHARS, sv_caution_line, &y0);
+        double y0 = legend_y + SV_LEGEND_H + 12;
+        gantt_wrap(out, c->caution, sv_caution_chars(), sv_caution_line, &y0);
     }
     fputs("</svg>\n", out);
     return ferror(out) ? PM_EIO : PM_OK;

@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "pacemap/error.h"
+#include "svgtext.h"
 
 #define PL_W 920.0        /* document width */
 #define PL_ML 84.0        /* left margin: y tick labels and y label */
@@ -20,7 +21,6 @@
 #define PL_HEAD 70.0      /* title and subtitle */
 #define PL_LEGEND_X (PL_ML + PL_PW + 24.0)
 #define PL_FOOT_CHARS 120 /* footnote line length */
-#define PL_LABEL_MAX 40   /* characters of a legend label kept */
 
 static const char *const pl_colour[PM_PLOT_MAX_SERIES] = {
     "#000000", "#D55E00", "#0072B2", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#666666"};
@@ -51,11 +51,15 @@ static void pl_text_escaped(FILE *f, const char *s, size_t max)
     }
 }
 
+/* Text of at most max characters; a longer one is cut and ends in "...". */
 static void pl_text(FILE *f, double x, double y, const char *anchor, const char *extra,
                     const char *s, size_t max)
 {
     fprintf(f, "<text x=\"%.2f\" y=\"%.2f\" text-anchor=\"%s\"%s>", x, y, anchor, extra);
-    pl_text_escaped(f, s, max);
+    bool cut = s && max > 3 && strnlen(s, max + 1) > max;
+    pl_text_escaped(f, s, cut ? max - 3 : max);
+    if (cut)
+        fputs("...", f);
     fputs("</text>\n", f);
 }
 
@@ -154,11 +158,14 @@ static void pl_axes(FILE *f, const pl_frame *fr, const pm_plot *p, const pm_plot
                "stroke=\"#000000\"/>\n", fr->left, fr->top, fr->width, fr->height);
     pl_x_ticks(f, fr, p);
     pl_text(f, fr->left + fr->width / 2.0, fr->top + fr->height + 42.0, "middle", "",
-            p->xlabel, 80);
+            p->xlabel, svg_fit_chars(2 * (fr->left + fr->width / 2.0) - 8, 13, SVG_EM_REGULAR));
     char rot[96];
     double cx = fr->left - 58.0, cy = fr->top + fr->height / 2.0;
-    snprintf(rot, sizeof rot, " transform=\"rotate(-90 %.2f %.2f)\"", cx, cy);
-    pl_text(f, cx, cy, "middle", rot, pa->ylabel, 60);
+    snprintf(rot, sizeof rot, " font-size=\"12\" transform=\"rotate(-90 %.2f %.2f)\"", cx,
+             cy);
+    /* turned upright, the label may reach 30 px into the margins above and below */
+    pl_text(f, cx, cy, "middle", rot, pa->ylabel,
+            svg_fit_chars(fr->height + 60.0, 12, SVG_EM_REGULAR));
 }
 
 /* ---- series ------------------------------------------------------------- */
@@ -232,7 +239,8 @@ static void pl_legend(FILE *f, const pl_frame *fr, const pm_plot_panel *pa)
         fputs("/>\n", f);
         if (pa->series[k].markers)
             pl_marker(f, s, x + 18.0, y);
-        pl_text(f, x + 44.0, y + 4.0, "start", "", pa->series[k].label, PL_LABEL_MAX);
+        pl_text(f, x + 44.0, y + 4.0, "start", "", pa->series[k].label,
+                svg_fit_chars(PL_W - (x + 44.0) - 4.0, 13, SVG_EM_REGULAR));
     }
 }
 
@@ -289,9 +297,11 @@ static void pl_head(FILE *f, const pm_plot *p, double h)
     fprintf(f, "</title>\n<rect x=\"0\" y=\"0\" width=\"%.0f\" height=\"%.0f\" "
                "fill=\"#ffffff\"/>\n", PL_W, h);
     if (p->title)
-        pl_text(f, 16.0, 28.0, "start", " font-size=\"17\" font-weight=\"bold\"", p->title, 90);
+        pl_text(f, 16.0, 28.0, "start", " font-size=\"17\" font-weight=\"bold\"", p->title,
+                svg_fit_chars(PL_W - 32.0, 17, SVG_EM_BOLD));
     if (p->subtitle)
-        pl_text(f, 16.0, 50.0, "start", " fill=\"#444444\"", p->subtitle, 120);
+        pl_text(f, 16.0, 50.0, "start", " fill=\"#444444\"", p->subtitle,
+                svg_fit_chars(PL_W - 32.0, 13, SVG_EM_REGULAR));
 }
 
 int pm_plot_write_svg(const pm_plot *p, FILE *out)

@@ -1,15 +1,19 @@
 /*
  * vcd.c - Value Change Dump of a simulated run (vcd.h).
  *
- * The recorded firings become value changes: core variables are set at a
- * node's start and cleared at its end (a clear and a set at the same time
- * resolve to the set), io variables mark receive and send phases, edge
- * variables add +1 at the producer's end and -1 at the consumer's begin.
+ * The recorded firings become value changes: core variables and node wires
+ * are set at a node's start and cleared at its end (a clear and a set at
+ * the same time resolve to the set), io variables mark receive and send
+ * phases, edge variables add +1 at the producer's end and -1 at the
+ * consumer's begin.
  * Changes are sorted by (time, variable, kind) and only values that differ
- * from the last written one are emitted, so timestamps strictly increase.
+ * from the last written one are emitted, so timestamps strictly increase;
+ * times are kept in cycles and scaled to the $timescale unit on output.
  */
 #include "pacemap/vcd.h"
+#include "pacemap/units.h"
 
+#include <ctype.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -26,6 +30,9 @@ typedef struct vcd {
     uint32_t ncores, nx, nvars;
     uint32_t *xvar;   /* edge -> variable, or UINT32_MAX */
     uint32_t rel_var; /* paced runs: the `release` variable, else UINT32_MAX */
+    uint32_t wire0;   /* node v's 1-bit "running" wire is variable wire0 + v */
+    uint64_t tick_num, tick_den; /* time units per cycle, num/den */
+    const char *unit; /* "1 ns", "10 ps", ... */
 } vcd;
 
 static int vcd_add(vcd *v, int64_t time, uint32_t var, uint32_t kind, int64_t value)
@@ -62,11 +69,47 @@ static void vcd_id(uint32_t i, char *buf)
     buf[k] = 0;
 }
 
+/* The coarsest time unit of the standard (1, 10 or 100 s, ms, us, ns, ps,
+ * fs) in which one cycle of the clock is a whole number of units; when none
+ * is, 1 fs and times rounded to it.  Without a clock a cycle is one unit of
+ * 1 ns, as the file's comment says. */
+static void vcd_timescale(vcd *v, uint64_t clock_hz)
+{
+    static const char *const scaled[6][3] = {
+        { "100 s", "10 s", "1 s" },     { "100 ms", "10 ms", "1 ms" },
+        { "100 us", "10 us", "1 us" },  { "100 ns", "10 ns", "1 ns" },
+        { "100 ps", "10 ps", "1 ps" },  { "100 fs", "10 fs", "1 fs" } };
+    v->tick_num = 1, v->tick_den = 1, v->unit = "1 ns";
+    if (!clock_hz)
+        return;
+    uint64_t per_s = 1; /* units of 1 x 10^-3k s in a second */
+    for (int k = 0; k < 6; k++, per_s *= 1000)
+        for (int m = 0; m < 3; m++) {
+            static const uint64_t mult[] = { 100, 10, 1 };
+            pm_u128 unit_hz = (pm_u128)clock_hz * mult[m];
+            if (unit_hz <= per_s && per_s % (uint64_t)unit_hz == 0) {
+                v->tick_num = per_s / (uint64_t)unit_hz, v->unit = scaled[k][m];
+                return;
+            }
+        }
+    v->tick_num = per_s / 1000, v->tick_den = clock_hz, v->unit = "1 fs";
+}
+
+/* Cycle count t in time units, rounded to the nearest unit. */
+static long long vcd_time(const vcd *v, int64_t t)
+{
+    pm_u128 x = (pm_u128)(uint64_t)t * v->tick_num;
+    x = (x + v->tick_den / 2) / v->tick_den;
+    return x > (pm_u128)INT64_MAX ? INT64_MAX : (long long)x;
+}
+
 static int vcd_firing_changes(vcd *v, const pm_graph *g, const pm_sim_firing *f)
 {
     uint32_t core = f->core, io = v->ncores + f->core;
     int rc = vcd_add(v, f->start, core, 1, (int64_t)f->node + 1);
     rc = rc ? rc : vcd_add(v, f->end, core, 0, 0);
+    rc = rc ? rc : vcd_add(v, f->start, v->wire0 + f->node, 1, 1);
+    rc = rc ? rc : vcd_add(v, f->end, v->wire0 + f->node, 0, 0);
     if (!rc && f->start > f->begin)
         rc = vcd_add(v, f->begin, io, 1, 1), rc = rc ? rc : vcd_add(v, f->start, io, 0, 0);
     if (!rc && f->free > f->end)
@@ -105,36 +148,104 @@ static void vcd_release_header(const vcd *v, FILE *out)
     fprintf(out, "$var integer 32 %s release $end\n", id);
 }
 
-static void vcd_header(const vcd *v, const pm_graph *g, FILE *out)
+
+/* A reference name viewers accept as one identifier: characters other than
+ * letters, digits and '_' ('.' would read as a scope, '#' is not allowed)
+ * become '_'; the legend keeps the exact names. */
+static void vcd_ref(FILE *out, const char *name)
+{
+    for (const char *c = name; *c; c++)
+        fputc(isalnum((unsigned char)*c) || *c == '_' ? *c : '_', out);
+}
+
+static void vcd_legend_time(const vcd *v, const pm_graph *g, FILE *out)
+{
+    uint64_t hz = g->platform.clock_hz;
+    char f[PM_UNITS_LEN];
+    if (hz)
+        pm_units_freq(f, sizeof f, hz);
+    if (!hz)
+        fprintf(out, "  no clock given: one cycle is shown as %s\n", v->unit);
+    else if (v->tick_den == 1)
+        fprintf(out, "  clock %s: one cycle is %llu x %s\n", f,
+                (unsigned long long)v->tick_num, v->unit);
+    else
+        fprintf(out, "  clock %s: one cycle is %llu/%llu x %s, times rounded to %s\n",
+                f, (unsigned long long)v->tick_num,
+                (unsigned long long)v->tick_den, v->unit, v->unit);
+}
+
+static void vcd_legend(const vcd *v, const pm_graph *g, FILE *out)
+{
+    fprintf(out, "$comment\n");
+    vcd_legend_time(v, g, out);
+    fprintf(out, "  scope coreN: node = number of the running node (0 idle), io = 1 "
+                 "receiving,\n  2 sending, one wire per node of the core (1 while it runs)\n"
+                 "  scope links: SRC__DST = tokens buffered on a cross-core edge\n"
+                 "  node numbers, wires (and names where the wire differs):\n");
+    for (uint32_t n = 0; n < g->nnodes; n++) {
+        const char *name = pm_graph_node_name(g, n);
+        fprintf(out, "  %u ", n + 1);
+        vcd_ref(out, name);
+        bool same = true;
+        for (const char *c = name; *c; c++)
+            same = same && (isalnum((unsigned char)*c) || *c == '_');
+        fprintf(out, same ? "\n" : " (%s)\n", name);
+    }
+    fprintf(out, "$end\n");
+}
+
+static void vcd_core_scope(const vcd *v, const pm_graph *g, const pm_map *m, uint32_t c,
+                           FILE *out)
+{
+    char id[8];
+    fprintf(out, "$scope module core%u $end\n", c);
+    vcd_id(c, id);
+    fprintf(out, "$var integer 32 %s node $end\n", id);
+    vcd_id(v->ncores + c, id);
+    fprintf(out, "$var integer 32 %s io $end\n", id);
+    for (uint32_t n = 0; n < g->nnodes; n++)
+        if (m->core_of[n] == c) {
+            vcd_id(v->wire0 + n, id);
+            fprintf(out, "$var wire 1 %s ", id);
+            vcd_ref(out, pm_graph_node_name(g, n));
+            fprintf(out, " $end\n");
+        }
+    fprintf(out, "$upscope $end\n");
+}
+
+static void vcd_header(const vcd *v, const pm_graph *g, const pm_map *m, FILE *out)
 {
     char id[8];
     fprintf(out, "$version pacemap simulate $end\n");
-    fprintf(out, "$comment one time unit is one cycle; coreN = node number + 1 "
-                 "(0 idle), coreN_io = 1 receiving, 2 sending; SRC__DST = tokens "
-                 "buffered $end\n$comment legend:");
-    for (uint32_t n = 0; n < g->nnodes; n++)
-        fprintf(out, " %u=%s", n + 1, pm_graph_node_name(g, n));
-    fprintf(out, " $end\n$timescale 1 ns $end\n$scope module pacemap $end\n");
-    for (uint32_t c = 0; c < v->ncores; c++) {
-        vcd_id(c, id);
-        fprintf(out, "$var integer 32 %s core%u $end\n", id, c);
-        vcd_id(v->ncores + c, id);
-        fprintf(out, "$var integer 32 %s core%u_io $end\n", id, c);
-    }
+    vcd_legend(v, g, out);
+    fprintf(out, "$timescale %s $end\n$scope module pacemap $end\n", v->unit);
+    for (uint32_t c = 0; c < v->ncores; c++)
+        vcd_core_scope(v, g, m, c, out);
+    fprintf(out, "$scope module links $end\n");
     for (uint32_t e = 0; e < g->nedges; e++)
         if (v->xvar[e] != UINT32_MAX) {
             vcd_id(v->xvar[e], id);
-            fprintf(out, "$var integer 32 %s %s__%s $end\n", id,
-                    pm_graph_node_name(g, g->edges[e].src), pm_graph_node_name(g, g->edges[e].dst));
+            fprintf(out, "$var integer 32 %s ", id);
+            vcd_ref(out, pm_graph_node_name(g, g->edges[e].src));
+            fputs("__", out);
+            vcd_ref(out, pm_graph_node_name(g, g->edges[e].dst));
+            fprintf(out, " $end\n");
         }
+    fprintf(out, "$upscope $end\n");
     vcd_release_header(v, out);
     fprintf(out, "$upscope $end\n$enddefinitions $end\n");
 }
 
-static void vcd_value(FILE *out, int64_t value, uint32_t var)
+static void vcd_value(const vcd *v, FILE *out, int64_t value, uint32_t var)
 {
     char bits[72], id[8];
     int k = 0;
+    if (var >= v->wire0) { /* a 1-bit wire: scalar change */
+        vcd_id(var, id);
+        fprintf(out, "%c%s\n", value ? '1' : '0', id);
+        return;
+    }
     uint64_t u = (uint64_t)value & 0xffffffffu; /* 32-bit two's complement */
     do {
         bits[k++] = (char)('0' + (u & 1));
@@ -171,7 +282,7 @@ static int vcd_body(const vcd *v, int64_t *cur, FILE *out)
     memcpy(last, cur, v->nvars * sizeof *last);
     fprintf(out, "#0\n$dumpvars\n");
     for (uint32_t k = 0; k < v->nvars; k++)
-        vcd_value(out, cur[k], k);
+        vcd_value(v, out, cur[k], k);
     fprintf(out, "$end\n");
     while (i < v->n) {
         size_t j = vcd_apply(v, i, cur);
@@ -181,9 +292,9 @@ static int vcd_body(const vcd *v, int64_t *cur, FILE *out)
             if (cur[var] == last[var])
                 continue;
             if (!stamped)
-                fprintf(out, "#%lld\n", (long long)v->ch[k].time);
+                fprintf(out, "#%lld\n", vcd_time(v, v->ch[k].time));
             stamped = true;
-            vcd_value(out, cur[var], var);
+            vcd_value(v, out, cur[var], var);
             last[var] = cur[var];
         }
         i = j;
@@ -203,6 +314,9 @@ static int vcd_build(vcd *v, const pm_graph *g, const pm_map *m, const pm_sim_re
     for (uint32_t e = 0; e < g->nedges; e++)
         v->xvar[e] = m->core_of[g->edges[e].src] != m->core_of[g->edges[e].dst] ? v->nvars++
                                                                                  : UINT32_MAX;
+    v->wire0 = v->nvars;
+    v->nvars += g->nnodes;
+    vcd_timescale(v, g->platform.clock_hz);
     int rc = vcd_release_changes(v, r);
     if (rc)
         return rc;
@@ -226,7 +340,7 @@ int pm_vcd_write(const pm_graph *g, const pm_map *m, const pm_sim_result *r, FIL
     int64_t *init = NULL;
     int rc = vcd_build(&v, g, m, r, &init);
     if (!rc) {
-        vcd_header(&v, g, out);
+        vcd_header(&v, g, m, out);
         rc = vcd_body(&v, init, out);
         if (!rc && ferror(out))
             rc = PM_EIO;
