@@ -10,9 +10,11 @@
 #define PACEMAP_JSON_H
 
 #include <stdbool.h>
+#include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
 
+#include "pacemap/graph.h"
 #include "pacemap/rational.h"
 
 #define PM_JSON_MAX_DEPTH 32
@@ -41,5 +43,23 @@ void pm_json_null(pm_json *j);
 void pm_json_rat(pm_json *j, pm_rat r);
 /* Ends the document with a newline. */
 void pm_json_finish(pm_json *j);
+
+/* The node names of a graph, quoted and escaped once, side by side in one
+ * buffer: a document that names a million nodes (a schedule, its
+ * transfers) then writes each name as one copy, without escaping it again
+ * or reaching into the graph's node records.  Set up by
+ * pm_json_names_init (PM_OK, or PM_ENOMEM with *t zeroed), released by
+ * pm_json_names_free; it does not keep the graph. */
+typedef struct pm_json_names {
+    char *text;   /* every name as a JSON string, one after another */
+    size_t *off;  /* name v is text[off[v] .. off[v+1]) */
+    uint32_t n;
+} pm_json_names;
+
+int pm_json_names_init(pm_json_names *t, const pm_graph *g);
+void pm_json_names_free(pm_json_names *t);
+
+/* The name of node v (v < t->n) as a string value. */
+void pm_json_name(pm_json *j, const pm_json_names *t, uint32_t v);
 
 #endif

@@ -18,6 +18,7 @@ typedef struct pm_outfile {
     FILE *fp;        /* write here */
     char *path;      /* final path (owned) */
     char *tmp_path;  /* temporary path (owned) */
+    char *buf;       /* the stream's buffer (owned; NULL: the default one) */
 } pm_outfile;
 
 /* Open a temporary file for `path`.  PM_EIO with `diag` naming the path

@@ -407,32 +407,54 @@ uint32_t pm_graph_find_class(const pm_graph *g, const char *name, size_t len)
     return PM_NONE;
 }
 
-/* Counting sort of edge ids by `key` (src or dst) into off/list. */
-static int graph_build_csr(const pm_graph *g, bool by_src, uint32_t **off_out,
-                           uint32_t **list_out)
+static uint32_t *graph_alloc_zeroed(size_t n)
 {
-    uint32_t *off = graph_alloc_table(((size_t)g->nnodes + 1) * sizeof *off);
-    uint32_t *list = graph_alloc_table(((size_t)g->nedges + 1) * sizeof *list);
-    if (off)
-        memset(off, 0, ((size_t)g->nnodes + 1) * sizeof *off);
-    if (!off || !list) {
-        free(off);
-        free(list);
+    uint32_t *p = graph_alloc_table(n * sizeof *p);
+    if (p)
+        memset(p, 0, n * sizeof *p);
+    return p;
+}
+
+/* Prefix sums: off[v + 1] holds v's count on entry, v's first slot after. */
+static void graph_prefix(uint32_t *off, uint32_t n)
+{
+    for (uint32_t v = 0; v < n; v++)
+        off[v + 1] += off[v];
+}
+
+/* Counting sort of edge ids by source and by destination at once: each
+ * pass reads the edge records once for both lists (they are the largest
+ * array of a big graph, so reading them is what costs). */
+static int graph_build_csr(pm_graph *g)
+{
+    uint32_t n = g->nnodes, m = g->nedges;
+    uint32_t *oo = graph_alloc_zeroed((size_t)n + 1), *io = graph_alloc_zeroed((size_t)n + 1);
+    uint32_t *ol = graph_alloc_table(((size_t)m + 1) * sizeof *ol);
+    uint32_t *il = graph_alloc_table(((size_t)m + 1) * sizeof *il);
+    if (!oo || !io || !ol || !il) {
+        free(oo);
+        free(io);
+        free(ol);
+        free(il);
         return PM_ENOMEM;
     }
-    for (uint32_t e = 0; e < g->nedges; e++)
-        off[(by_src ? g->edges[e].src : g->edges[e].dst) + 1]++;
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        off[v + 1] += off[v];
-    for (uint32_t e = 0; e < g->nedges; e++) {
-        uint32_t v = by_src ? g->edges[e].src : g->edges[e].dst;
-        list[off[v]++] = e;
+    for (uint32_t e = 0; e < m; e++) {
+        oo[g->edges[e].src + 1]++;
+        io[g->edges[e].dst + 1]++;
     }
-    for (uint32_t v = g->nnodes; v > 0; v--)
-        off[v] = off[v - 1];
-    off[0] = 0;
-    *off_out = off;
-    *list_out = list;
+    graph_prefix(oo, n);
+    graph_prefix(io, n);
+    for (uint32_t e = 0; e < m; e++) {
+        ol[oo[g->edges[e].src]++] = e;
+        il[io[g->edges[e].dst]++] = e;
+    }
+    memmove(oo + 1, oo, (size_t)n * sizeof *oo); /* back to each first slot */
+    memmove(io + 1, io, (size_t)n * sizeof *io);
+    oo[0] = io[0] = 0;
+    g->out_off = oo;
+    g->out_edge = ol;
+    g->in_off = io;
+    g->in_edge = il;
     return PM_OK;
 }
 
@@ -440,9 +462,7 @@ int pm_graph_finalize(pm_graph *g)
 {
     if (g->finalized)
         return PM_OK;
-    int rc = graph_build_csr(g, true, &g->out_off, &g->out_edge);
-    if (rc == PM_OK)
-        rc = graph_build_csr(g, false, &g->in_off, &g->in_edge);
+    int rc = graph_build_csr(g);
     if (rc == PM_OK)
         g->finalized = true;
     return rc;

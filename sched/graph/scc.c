@@ -144,11 +144,35 @@ int scc_run(const scc_csr *csr, pm_scc *out)
     return rc;
 }
 
+/* The successors of every node in out-edge order, gathered in one pass:
+ * the search then reads 4 bytes per edge in order instead of a whole edge
+ * record at random.  NULL when memory is short (the caller falls back). */
+static uint32_t *scc_targets(const pm_graph *g)
+{
+    uint32_t m = g->out_off[g->nnodes];
+    uint32_t *t = malloc(((size_t)m + 1) * sizeof *t);
+    if (!t)
+        return NULL;
+    for (uint32_t i = 0; i < m; i++) {
+        if (i + 16 < m)
+            __builtin_prefetch(&g->edges[g->out_edge[i + 16]].dst);
+        t[i] = g->edges[g->out_edge[i]].dst;
+    }
+    return t;
+}
+
 int pm_scc_compute(const pm_graph *g, pm_scc_keep_fn keep, void *ctx, pm_scc *out)
 {
     scc_csr c = { .n = g->nnodes, .off = g->out_off, .list = g->out_edge, .g = g,
                   .keep = keep, .ctx = ctx };
-    return scc_run(&c, out);
+    uint32_t *t = keep ? NULL : scc_targets(g);
+    if (t) {
+        c.list = t;
+        c.g = NULL;
+    }
+    int rc = scc_run(&c, out);
+    free(t);
+    return rc;
 }
 
 bool pm_scc_has_cycle(const pm_graph *g, const pm_scc *s, uint32_t c,

@@ -561,6 +561,17 @@ static int sdf_solve(const pm_graph *g, const sdf_adj *a, sdf_forest *f, uint64_
     return rc;
 }
 
+/* When every edge consumes what it produces, every fraction of the forest
+ * is 1/1, every edge is consistent and each part's vector is all ones: the
+ * forest (random walks over a large graph) need not be built. */
+static bool sdf_rates_balanced(const pm_graph *g)
+{
+    for (uint32_t e = 0; e < g->nedges; e++)
+        if (g->edges[e].produce != g->edges[e].consume)
+            return false;
+    return true;
+}
+
 int pm_sdf_repetition(const pm_graph *g, uint64_t **rep, pm_diag *diag)
 {
     *rep = NULL;
@@ -572,6 +583,12 @@ int pm_sdf_repetition(const pm_graph *g, uint64_t **rep, pm_diag *diag)
     sdf_forest f;
     if (!r)
         return PM_ENOMEM;
+    if (sdf_rates_balanced(g)) {
+        for (uint32_t v = 0; v < g->nnodes; v++)
+            r[v] = 1;
+        *rep = r;
+        return PM_OK;
+    }
     rc = sdf_adj_build(g, &a);
     if (rc == PM_OK) {
         rc = sdf_forest_init(&f, g->nnodes);

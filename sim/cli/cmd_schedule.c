@@ -14,6 +14,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "pacemap/gantt.h"
 #include "pacemap/json.h"
@@ -239,14 +240,14 @@ static int sc_text(const sc_result *r)
 
 /* ---- JSON --------------------------------------------------------------- */
 
-static void sc_json_map(pm_json *j, const sc_result *r)
+static void sc_json_map(pm_json *j, const sc_result *r, const pm_json_names *nm)
 {
     pm_json_key(j, "map");
     pm_json_array_begin(j);
     for (uint32_t c = 0; c < r->m->ncores; c++) {
         pm_json_array_begin(j);
         for (uint32_t i = r->m->off[c]; i < r->m->off[c + 1]; i++)
-            pm_json_string(j, pm_graph_node_name(r->g, r->m->order[i]));
+            pm_json_name(j, nm, r->m->order[i]);
         pm_json_array_end(j);
     }
     pm_json_array_end(j);
@@ -255,7 +256,7 @@ static void sc_json_map(pm_json *j, const sc_result *r)
     for (uint32_t v = 0; v < r->s->nnodes; v++) {
         pm_json_object_begin(j);
         pm_json_key(j, "node");
-        pm_json_string(j, pm_graph_node_name(r->g, v));
+        pm_json_name(j, nm, v);
         pm_json_key(j, "core");
         pm_json_uint(j, r->s->slots[v].core);
         pm_json_key(j, "start");
@@ -267,13 +268,13 @@ static void sc_json_map(pm_json *j, const sc_result *r)
     pm_json_array_end(j);
 }
 
-static void sc_json_transfer(pm_json *j, const sc_result *r, const pm_transfer *t)
+static void sc_json_transfer(pm_json *j, const pm_json_names *nm, const pm_transfer *t)
 {
     pm_json_object_begin(j);
     pm_json_key(j, "from");
-    pm_json_string(j, pm_graph_node_name(r->g, t->src));
+    pm_json_name(j, nm, t->src);
     pm_json_key(j, "to");
-    pm_json_string(j, pm_graph_node_name(r->g, t->dst));
+    pm_json_name(j, nm, t->dst);
     pm_json_key(j, "from_core");
     pm_json_uint(j, t->from_core);
     pm_json_key(j, "to_core");
@@ -291,7 +292,7 @@ static void sc_json_transfer(pm_json *j, const sc_result *r, const pm_transfer *
     pm_json_object_end(j);
 }
 
-static void sc_json_extras(pm_json *j, const sc_result *r)
+static void sc_json_extras(pm_json *j, const sc_result *r, const pm_json_names *nm)
 {
     pm_json_key(j, "utilisation");
     pm_json_array_begin(j);
@@ -306,7 +307,7 @@ static void sc_json_extras(pm_json *j, const sc_result *r)
     pm_json_key(j, "transfers");
     pm_json_array_begin(j);
     for (size_t i = 0; i < r->s->ntransfers; i++)
-        sc_json_transfer(j, r, &r->s->transfers[i]);
+        sc_json_transfer(j, nm, &r->s->transfers[i]);
     pm_json_array_end(j);
     pm_json_key(j, "loop_floor");
     if (r->nloop > 0)
@@ -316,7 +317,7 @@ static void sc_json_extras(pm_json *j, const sc_result *r)
     pm_json_key(j, "loop_floor_nodes");
     pm_json_array_begin(j);
     for (uint32_t i = 0; i < r->nloop; i++)
-        pm_json_string(j, pm_graph_node_name(r->g, r->loop[i]));
+        pm_json_name(j, nm, r->loop[i]);
     pm_json_array_end(j);
 }
 
@@ -368,9 +369,12 @@ static void sc_json_lagged(pm_json *j, const sc_result *r)
     sc_json_pipelined(j, r);
 }
 
-static void sc_json(const sc_result *r, bool from_map)
+static int sc_json(const sc_result *r, bool from_map)
 {
     pm_json j;
+    pm_json_names nm;
+    if (pm_json_names_init(&nm, r->g) != PM_OK)
+        return PM_ENOMEM;
     pm_json_init(&j, stdout, 2);
     pm_json_object_begin(&j);
     if (r->pm == r->m) {
@@ -379,22 +383,25 @@ static void sc_json(const sc_result *r, bool from_map)
         pm_json_string(&j, cli_caution);
         pm_json_object_end(&j);
         pm_json_finish(&j);
-        return;
+        pm_json_names_free(&nm);
+        return PM_OK;
     }
     pm_json_key(&j, "procs");
     pm_json_uint(&j, r->s->ncores);
     pm_json_key(&j, "makespan");
     pm_json_int(&j, r->s->makespan);
-    sc_json_map(&j, r);
+    sc_json_map(&j, r, &nm);
     pm_json_key(&j, "source");
     pm_json_string(&j, from_map ? "map" : "list");
-    sc_json_extras(&j, r);
+    sc_json_extras(&j, r, &nm);
     if (r->pm)
         sc_json_pipelined(&j, r);
     pm_json_key(&j, "caution");
     pm_json_string(&j, cli_caution);
     pm_json_object_end(&j);
     pm_json_finish(&j);
+    pm_json_names_free(&nm);
+    return PM_OK;
 }
 
 /* The caution in lines of at most 96 columns. */
@@ -480,6 +487,16 @@ static int sc_compute(const sc_args *a, sc_result *r)
     return rc;
 }
 
+/* A schedule of a million nodes prints hundreds of megabytes: one large
+ * buffer instead of the stream's few kilobytes saves most of the write
+ * calls.  Nothing has been printed yet (errors go to stderr). */
+static void sc_buffer_stdout(void)
+{
+    static char buf[1 << 20];
+    if (!isatty(fileno(stdout)))
+        setvbuf(stdout, buf, _IOFBF, sizeof buf);
+}
+
 static int sc_run(const sc_args *a, sc_result *r)
 {
     int rc = sc_compute(a, r);
@@ -489,11 +506,10 @@ static int sc_run(const sc_args *a, sc_result *r)
         rc = cli_write_file(a->svg, sc_write_svg, r);
     if (rc != PM_OK)
         return cli_exit_for(rc);
-    if (a->json) {
-        sc_json(r, a->map != NULL);
-        return CLI_EXIT_OK;
-    }
-    rc = sc_text(r);
+    sc_buffer_stdout();
+    rc = a->json ? sc_json(r, a->map != NULL) : sc_text(r);
+    if (rc == PM_ENOMEM)
+        cli_usage_error("schedule: out of memory");
     if (rc != PM_OK)
         return cli_exit_for(rc);
     return CLI_EXIT_OK;
