@@ -28,7 +28,7 @@ void runner_pace_wait(runner_thread *th, uint32_t v, uint64_t k)
 {
     runner_ctx *x = th->x;
     int64_t at = x->t0 + runner_release_ns(x, v, k);
-    for (uint64_t spins = 0; runner_now() < at; spins++) {
+    for (uint64_t spins = 0; runner_clock(x->cfg) < at; spins++) {
         if (atomic_load_explicit(&x->stop, memory_order_relaxed))
             return;
         runner_wait_turn(x->cfg, spins);
@@ -44,7 +44,7 @@ static uint32_t runner_paced_samples(const runner_ctx *x, double *tmp, uint64_t 
     for (uint32_t k = x->cfg->warmup; k < x->total; k++) {
         int64_t rel = runner_release_ns(x, PM_NONE, k), last = INT64_MIN;
         for (uint32_t v = 0; v < n; v++) {
-            size_t at = (size_t)k * n + v;
+            size_t at = runner_rec(x, k, v);
             if (x->sink_slot[v] != PM_NONE && x->end[at] > last)
                 last = x->end[at];
             bool input = p->input ? p->input[v] : x->is_source[v];
