@@ -9,23 +9,7 @@
 #
 # Run from the project root (make test does); PM_BIN names the binary.
 PM=${PM_BIN:-build/pacemap}
-pass=0
-fail=0
-TMP=$(mktemp -d) || exit 1
-trap 'rm -rf "$TMP"' EXIT INT TERM
-
-ok() { pass=$((pass + 1)); printf 'ok    %s\n' "$1"; }
-bad() { fail=$((fail + 1)); printf 'FAIL  %s\n' "$1"; [ -f "$TMP/err" ] && sed 's/^/      /' "$TMP/err" | head -n 5; }
-
-# expect_rc WANT LABEL CMD...: run pacemap, keep stdout/stderr in $TMP/out, $TMP/err.
-expect_rc() {
-    want=$1
-    label=$2
-    shift 2
-    "$PM" "$@" > "$TMP/out" 2> "$TMP/err"
-    rc=$?
-    if [ "$rc" -eq "$want" ]; then ok "$label (exit $rc)"; else bad "$label: exit $rc, want $want"; fi
-}
+. tests/support/check_lib.sh
 
 # procs_opt FILE N: "-p N", or nothing for a scenario with core classes
 procs_opt() { grep -q '^procs.*:' "$1" || echo "-p $2"; }

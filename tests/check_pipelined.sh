@@ -14,22 +14,7 @@
 # Run from the project root (make test does); PM_BIN names the binary.
 PM=${PM_BIN:-build/pacemap}
 PY=/usr/bin/python3
-pass=0
-fail=0
-TMP=$(mktemp -d) || exit 1
-trap 'rm -rf "$TMP"' EXIT INT TERM
-
-ok() { pass=$((pass + 1)); printf 'ok    %s\n' "$1"; }
-bad() { fail=$((fail + 1)); printf 'FAIL  %s\n' "$1"; [ -f "$TMP/err" ] && sed 's/^/      /' "$TMP/err" | head -n 5; }
-
-expect_rc() {
-    want=$1
-    label=$2
-    shift 2
-    "$PM" "$@" > "$TMP/out" 2> "$TMP/err"
-    rc=$?
-    if [ "$rc" -eq "$want" ]; then ok "$label (exit $rc)"; else bad "$label: exit $rc, want $want"; fi
-}
+. tests/support/check_lib.sh
 
 # period FILE: the "num/den" of simulate's text output.
 period() {
