@@ -51,6 +51,13 @@ void cli_print_caution(int width)
     }
 }
 
+void cli_print_caution_block(void)
+{
+    if (!cli_quiet)
+        putchar('\n');
+    cli_print_caution(96);
+}
+
 void cli_json_caution(pm_json *j)
 {
     pm_json_key(j, "caution");

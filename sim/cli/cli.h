@@ -106,6 +106,9 @@ extern bool cli_quiet;
 /* Print the caution for a text report: wrapped to `width` columns, or as
  * its one line under --quiet. */
 void cli_print_caution(int width);
+/* The caution closing a text report: after a blank line, wrapped at 96
+ * columns (one line under --quiet, without the blank line). */
+void cli_print_caution_block(void);
 
 /* The caution as the key "caution" of a JSON report. */
 void cli_json_caution(struct pm_json *j);

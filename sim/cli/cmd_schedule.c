@@ -405,23 +405,6 @@ static int sc_json(const sc_result *r, bool from_map)
 }
 
 /* The caution in lines of at most 96 columns. */
-static void sc_print_wrapped(const char *s)
-{
-    putchar('\n');
-    while (*s) {
-        int n = (int)strlen(s);
-        if (n > 96)
-            for (n = 96; n > 0 && s[n] != ' '; n--)
-                ;
-        if (n == 0)
-            n = 96;
-        printf("%.*s\n", n, s);
-        s += n;
-        while (*s == ' ')
-            s++;
-    }
-}
-
 /* ---- the command -------------------------------------------------------- */
 
 /* The pipelined map's period and its scenario-node form. */
@@ -549,7 +532,7 @@ int pm_cmd_schedule(int argc, char **argv)
     r.scn = &scn;
     st = sc_run(&a, &r);
     if (st == CLI_EXIT_OK && !a.json)
-        cli_quiet ? cli_print_caution(100) : sc_print_wrapped(cli_caution);
+        cli_print_caution_block();
     pm_sched_destroy(r.s);
     if (r.pm != r.m)
         pm_map_destroy(r.pm);

@@ -286,23 +286,6 @@ static void sm_text_chain(const sm_run *s)
     }
 }
 
-static void sm_print_wrapped(const char *t)
-{
-    putchar('\n');
-    while (*t) {
-        int n = (int)strlen(t);
-        if (n > 96)
-            for (n = 96; n > 0 && t[n] != ' '; n--)
-                ;
-        if (n == 0)
-            n = 96;
-        printf("%.*s\n", n, t);
-        t += n;
-        while (*t == ' ')
-            t++;
-    }
-}
-
 static void sm_text(const sm_run *s)
 {
     const pm_platform *p = &s->g->platform;
@@ -323,7 +306,7 @@ static void sm_text(const sm_run *s)
         sm_text_edges(s);
     if (!cli_quiet) /* an explanation, not a result */
         sm_text_chain(s);
-    cli_quiet ? cli_print_caution(100) : sm_print_wrapped(cli_caution);
+    cli_print_caution_block();
 }
 
 /* ---- JSON --------------------------------------------------------------- */
