@@ -62,6 +62,21 @@ grep -q "^where the period goes" "$tmp/host.txt" || fail "no breakdown of the pe
 } > "$tmp/pasted.pace"
 "$PM_BIN" check "$tmp/pasted.pace" > /dev/null || fail "pasted host costs do not read back"
 awk 'length > 100 { exit 1 }' "$tmp/host.txt" || fail "report wider than 100 columns"
+# one unit style: every time a number and the unit that keeps it below 1000
+# (the regression: "278342 ns"); the columns stay aligned
+"$PY" - "$tmp/host.txt" <<'PYEOF' || fail "times not in the one unit style"
+import re, sys
+text = open(sys.argv[1]).read()
+times = re.findall(r"([0-9.]+) (ps|ns|us|ms|s)\b", text)
+assert times, "no times found"
+for num, unit in times:
+    assert float(num) < 1000 or unit == "s", num + " " + unit
+assert not re.search(r"[0-9]{4,}(\.[0-9]+)? ns", text), "large ns value"
+want = r"^(predicted|measured) period +[0-9.]+ (ps|ns|us|ms|s)  "
+assert len(re.findall(want, text, re.M)) == 2, "period lines"
+rows = [l for l in text.splitlines() if re.match(r"^[01] +[0-9.]+ [pnum]?s ", l)]
+assert len(rows) == 2 and len({len(r) for r in rows}) == 1, rows  # breakdown aligned
+PYEOF
 
 # --host-map maps with those costs and says how the scenario's map compares
 "$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 50 --oversubscribe --host-map --json \
