@@ -1,5 +1,5 @@
 #!/bin/sh
-# check_run.sh - `pacemap run` end to end: JSON keys of docs/schema.json, outputs
+# check_run.sh - `pacemap run` end to end: JSON against docs/schema.json, outputs
 # equal to the single-threaded run, a hand map, and the errors of the
 # issue (too few processing units names both counts, exit 1; usage, exit 2;
 # multirate scenarios run on their single-rate expansion).  Small N; timings are not checked.
@@ -35,6 +35,45 @@ for n in d["nodes"]:
     assert n["host_cycles"] >= 0
 PYEOF
 
+# every key run --json prints is in docs/schema.json: plain, --host-map and
+# --paced documents validate against it with no key left undescribed
+"$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 50 --oversubscribe --paced --json \
+    > "$tmp/paced.json" || fail "run --paced --json failed"
+"$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 50 --oversubscribe --host-map --json \
+    > "$tmp/hm.json" || fail "run --host-map failed"
+if "$PY" -c 'import jsonschema' 2> /dev/null; then
+    "$PY" - "$tmp/out.json" "$tmp/paced.json" "$tmp/hm.json" <<'PYEOF' || fail "schema"
+import json, sys, jsonschema
+defs = json.load(open("docs/schema.json"))["$defs"]
+schema = {"$ref": "#/$defs/run", "$defs": defs}
+jsonschema.Draft202012Validator.check_schema(schema)
+def undescribed(doc, sch, where):
+    """Keys of doc that sch does not list (following $ref and oneOf)."""
+    while "$ref" in sch:
+        sch = defs[sch["$ref"].split("/")[-1]]
+    if "oneOf" in sch:
+        sch = next((s for s in sch["oneOf"] if s.get("type") != "null"), {})
+    if isinstance(doc, dict):
+        props = sch.get("properties", {})
+        out = [where + "." + k for k in doc if k not in props]
+        for k, v in doc.items():
+            if k in props:
+                out += undescribed(v, props[k], where + "." + k)
+        return out
+    if isinstance(doc, list) and "items" in sch:
+        return [x for v in doc for x in undescribed(v, sch["items"], where + "[]")]
+    return []
+for f in sys.argv[1:]:
+    doc = json.load(open(f))
+    jsonschema.validate(doc, schema, cls=jsonschema.Draft202012Validator)
+    missing = undescribed(doc, defs["run"], "run")
+    assert not missing, "keys not in the schema: %s" % missing
+assert "paced" in json.load(open(sys.argv[2]))
+PYEOF
+else
+    echo "note: python3-jsonschema not installed: run's schema check skipped"
+fi
+
 # the regression of the fidelity issue: two map cores on one PU showed a
 # busy share of 136 %; now each core counts only the time its thread ran
 "$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 200 --cores 0 --oversubscribe > "$tmp/os.txt" \
@@ -62,10 +101,23 @@ grep -q "^where the period goes" "$tmp/host.txt" || fail "no breakdown of the pe
 } > "$tmp/pasted.pace"
 "$PM_BIN" check "$tmp/pasted.pace" > /dev/null || fail "pasted host costs do not read back"
 awk 'length > 100 { exit 1 }' "$tmp/host.txt" || fail "report wider than 100 columns"
+# one unit style: every time a number and the unit that keeps it below 1000
+# (the regression: "278342 ns"); the columns stay aligned
+"$PY" - "$tmp/host.txt" <<'PYEOF' || fail "times not in the one unit style"
+import re, sys
+text = open(sys.argv[1]).read()
+times = re.findall(r"([0-9.]+) (ps|ns|us|ms|s)\b", text)
+assert times, "no times found"
+for num, unit in times:
+    assert float(num) < 1000 or unit == "s", num + " " + unit
+assert not re.search(r"[0-9]{4,}(\.[0-9]+)? ns", text), "large ns value"
+want = r"^(predicted|measured) period +[0-9.]+ (ps|ns|us|ms|s)  "
+assert len(re.findall(want, text, re.M)) == 2, "period lines"
+rows = [l for l in text.splitlines() if re.match(r"^[01] +[0-9.]+ [pnum]?s ", l)]
+assert len(rows) == 2 and len({len(r) for r in rows}) == 1, rows  # breakdown aligned
+PYEOF
 
-# --host-map maps with those costs and says how the scenario's map compares
-"$PM_BIN" run scenarios/rx_chain.pace -p 2 -n 50 --oversubscribe --host-map --json \
-    > "$tmp/hm.json" || fail "run --host-map failed"
+# --host-map (run above) maps with those costs and says how the scenario's map compares
 "$PY" - "$tmp/hm.json" <<'PYEOF' || fail "bad --host-map JSON"
 import json, sys
 d = json.load(open(sys.argv[1]))

@@ -128,12 +128,17 @@ void pm_runner_result_free(pm_runner_result *r);
  * runs of pm_kernel_spin.  PM_EPLATFORM when the clock is unusable. ~20 ms. */
 int pm_runner_calibrate(double *turns_per_ns);
 
+/* Rounds of pm_runner_node_times: its result is the least round median. */
+#define PM_RUNNER_TIME_ROUNDS 5u
+
 /* Host time of one firing of each node alone on the calling thread (its
  * kernel on a test block; spin turns for the cycles of the class of its
- * core in m): median of `repeats` samples, each averaging enough firings
- * to last >= 5 µs, taken in rounds over all nodes (a passing load on the
- * host then touches every node alike).  node_ns has g->nnodes entries.  PM_ERANGE for a bad
- * work parameter, PM_ENOMEM. */
+ * core in m): the least of PM_RUNNER_TIME_ROUNDS medians, each over
+ * `repeats` samples; a sample averages enough firings to last >= 5 µs, and
+ * samples go round all nodes in turn (a passing load on the host then
+ * touches every node alike; other programs only add time, hence the least
+ * round).  node_ns has g->nnodes entries.  PM_ERANGE for a bad work
+ * parameter, PM_ENOMEM. */
 int pm_runner_node_times(const pm_graph *g, const pm_map *m, const pm_runner_config *cfg,
                       uint32_t repeats, double *node_ns);
 

@@ -26,6 +26,9 @@
 
 #include "cmd_run_paced.h"
 
+/* Timed samples per round of each node's time alone (pm_runner_node_times). */
+#define CR_TIME_SAMPLES 15u
+
 typedef struct cr_opts {
     uint32_t procs, iters, warmup, ring, block, watchdog;
     bool procs_set, iters_set, warmup_set, ring_set, block_set, watchdog_set;
@@ -286,7 +289,7 @@ static int cr_calibrate(cr_state *s)
     s->main_pinned = pm_topo_bind_thread(s->topo, s->pus.pu[0]) == PM_OK;
     s->node_ns = calloc(s->g->nnodes ? s->g->nnodes : 1, sizeof *s->node_ns);
     if (rc == PM_OK)
-        rc = s->node_ns ? pm_runner_node_times(s->g, s->m, &s->cfg, 15, s->node_ns) : PM_ENOMEM;
+        rc = s->node_ns ? pm_runner_node_times(s->g, s->m, &s->cfg, CR_TIME_SAMPLES, s->node_ns) : PM_ENOMEM;
     if (rc == PM_OK)
         rc = pm_runner_host_costs(&s->cfg, s->pus.pu[0],
                                   s->m->ncores > 1 ? s->pus.pu[1] : PM_NONE, 2000, &s->host);
@@ -412,6 +415,13 @@ static bool cr_all_pinned(const cr_state *s)
     return s->main_pinned && (s->m->ncores < 2 || s->handoff_pinned);
 }
 
+/* A time given in ns, in the report's one unit style ("2.235 us"); what
+ * rounding left below zero, or not finite, is written as 0. */
+static const char *cr_time(char buf[PM_UNITS_LEN], double ns)
+{
+    return pm_units_time(buf, PM_UNITS_LEN, isfinite(ns) && ns > 0 ? ns * 1e-9 : 0.0);
+}
+
 static void cr_text_setup(const cr_state *s)
 {
     const pm_platform *p = &s->g->platform;
@@ -425,8 +435,9 @@ static void cr_text_setup(const cr_state *s)
     printf("processing units: %s\n", s->pus.summary);
     for (uint32_t c = 0; c < s->pus.n; c++)
         printf("  core %u: processing unit %u %s\n", c, s->pus.pu[c], s->pus.why[c]);
-    printf("spin calibration: %.3f busy-loop turns per ns; 1 node cycle = %.4g ns",
-           s->cfg.turns_per_ns, s->cfg.ns_per_cycle);
+    char cyc[PM_UNITS_LEN];
+    printf("spin calibration: %.3f busy-loop turns per ns; 1 node cycle = %s",
+           s->cfg.turns_per_ns, cr_time(cyc, s->cfg.ns_per_cycle));
     if (p->clock_hz && !s->o.nspc) {
         char clk[PM_UNITS_LEN];
         printf(" (clock %s)", pm_units_freq(clk, sizeof clk, p->clock_hz));
@@ -434,21 +445,23 @@ static void cr_text_setup(const cr_state *s)
     printf("\n");
 }
 
-/* ns and cycles at the scenario's clock, as "123 ns = 49.2 cyc". */
+/* A cost as time and as cycles at the scenario's clock: "123 ns  49.2 cyc". */
 static void cr_cost(const cr_state *s, const char *what, pm_host_stat st)
 {
-    printf("  %-34s %8.1f ns %8.1f cyc   p99 %8.1f ns %8.1f cyc\n", what, st.median,
-           st.median / s->cfg.ns_per_cycle, st.p99, st.p99 / s->cfg.ns_per_cycle);
+    char med[PM_UNITS_LEN], p99[PM_UNITS_LEN];
+    printf("  %-36s %10s %8.1f cyc   p99 %10s %8.1f cyc\n", what, cr_time(med, st.median),
+           st.median / s->cfg.ns_per_cycle, cr_time(p99, st.p99), st.p99 / s->cfg.ns_per_cycle);
 }
 
 static void cr_text_host(const cr_state *s)
 {
     const pm_host_costs *h = &s->host;
-    printf("\nhost costs of the runner (median and p99; cycles at %.4g ns per cycle)\n",
-           s->cfg.ns_per_cycle);
+    char t[PM_UNITS_LEN];
+    printf("\nhost costs of the runner (median and p99; cycles at %s per cycle)\n",
+           cr_time(t, s->cfg.ns_per_cycle));
     cr_cost(s, "dispatch per firing", h->dispatch);
-    printf("  %-34s %8.1f ns %8.1f cyc\n", "source signal + sink hash, per iter.",
-           h->ends_ns, h->ends_ns / s->cfg.ns_per_cycle);
+    printf("  %-36s %10s %8.1f cyc\n", "source signal + sink hash, per iter.",
+           cr_time(t, h->ends_ns), h->ends_ns / s->cfg.ns_per_cycle);
     if (h->nsizes == 0)
         return;
     cr_cost(s, "handoff latency, both cores idle", h->latency_idle);
@@ -474,20 +487,21 @@ static void cr_text_host(const cr_state *s)
 static void cr_text_nodes(const cr_state *s)
 {
     printf("\n%-20s %4s  %-10s %9s %10s %10s %11s\n", "node", "core", "work", "cycles",
-           "ns alone", "ns in run", "host cycles");
+           "alone", "in run", "host cycles");
     for (uint32_t c = 0; c < s->m->ncores; c++)
         for (uint32_t i = s->m->off[c]; i < s->m->off[c + 1]; i++) {
             uint32_t v = s->m->order[i];
-            char wb[32];
+            char wb[32], alone[PM_UNITS_LEN], run[PM_UNITS_LEN];
             uint32_t cls = s->g->platform.core_class[c];
             double host = pm_runner_host_node_ns(s->g, &s->host, s->node_ns, v);
-            printf("%-20.20s %4u  %-10s %9lld %10.0f %10.0f %11.0f\n",
+            printf("%-20.20s %4u  %-10s %9lld %10s %10s %11.0f\n",
                    pm_graph_node_name(s->g, v), c, cr_work_text(&s->g->nodes[v], wb, sizeof wb),
-                   (long long)pm_graph_cycles_on(s->g, v, cls), s->node_ns[v],
-                   s->res.node_ns[v], host / s->cfg.ns_per_cycle);
+                   (long long)pm_graph_cycles_on(s->g, v, cls), cr_time(alone, s->node_ns[v]),
+                   cr_time(run, s->res.node_ns[v]), host / s->cfg.ns_per_cycle);
         }
-    printf("(alone: kernel, median of 15 timed samples on one PU; in run: kernel, median;\n"
-           " host cycles: alone + dispatch (+ source/sink share), what the model uses)\n");
+    printf("(alone: kernel on one PU, the least of %u round medians of %u timed samples;\n"
+           " in run: kernel, median; host cycles: alone + dispatch (+ source/sink share),\n"
+           " what the model uses)\n", PM_RUNNER_TIME_ROUNDS, CR_TIME_SAMPLES);
 }
 
 /* The host cycles as scenario lines to paste (single-rate scenarios). */
@@ -511,15 +525,18 @@ static void cr_text_paste(const cr_state *s)
 static void cr_text_breakdown(const cr_state *s)
 {
     const pm_runner_result *r = &s->res;
-    printf("\nwhere the period goes, ns per iteration (model: host costs; run: measured)\n");
+    printf("\nwhere the period goes, per iteration (model: host costs; run: measured)\n");
     printf("%-6s %10s %10s %10s %10s   %10s %10s %10s\n", "core", "work", "dispatch",
            "transfers", "waiting", "run work", "run wait", "run other");
     for (uint32_t c = 0; c < s->m->ncores; c++) {
         const pm_runner_share *m = &s->share[c];
         double per = r->period_ns_mean;
-        printf("%-6u %10.0f %10.0f %10.0f %10.0f   %10.0f %10.0f %10.0f\n", c, m->work,
-               m->dispatch, m->transfers, m->waiting, r->busy[c] * per, r->wait[c] * per,
-               (1.0 - r->busy[c] - r->wait[c]) * per);
+        char t[7][PM_UNITS_LEN];
+        printf("%-6u %10s %10s %10s %10s   %10s %10s %10s\n", c, cr_time(t[0], m->work),
+               cr_time(t[1], m->dispatch), cr_time(t[2], m->transfers),
+               cr_time(t[3], m->waiting), cr_time(t[4], r->busy[c] * per),
+               cr_time(t[5], r->wait[c] * per),
+               cr_time(t[6], (1.0 - r->busy[c] - r->wait[c]) * per));
     }
     printf("(run other: dispatch and ring operations; run columns are shares of the mean "
            "period)\n\n");
@@ -547,20 +564,21 @@ static void cr_print_wrapped(const char *text, size_t width)
 static void cr_text_results(const cr_state *s)
 {
     const pm_runner_result *r = &s->res;
+    char a[PM_UNITS_LEN], b[PM_UNITS_LEN], m[PM_UNITS_LEN];
     if (s->o.host_map)
-        printf("scenario's map     %12.0f ns  predicted with the host's costs\n",
-               s->scn_map_predicted);
-    printf("predicted period   %12.0f ns  (simulator: times alone + the runner's host costs)\n",
-           s->predicted);
-    printf("measured period    %12.0f ns  median; p99 %.0f ns, mean %.0f ns\n",
-           r->period_ns_median, r->period_ns_p99, r->period_ns_mean);
+        printf("scenario's map     %12s  predicted with the host's costs\n",
+               cr_time(a, s->scn_map_predicted));
+    printf("predicted period   %12s  (simulator: times alone + the runner's host costs)\n",
+           cr_time(a, s->predicted));
+    printf("measured period    %12s  median; p99 %s, mean %s\n", cr_time(a, r->period_ns_median),
+           cr_time(b, r->period_ns_p99), cr_time(m, r->period_ns_mean));
     printf("measured/predicted %12.3f\n", s->predicted > 0 ? r->period_ns_median / s->predicted
                                                          : 0.0);
-    printf("model, in-run times%12.0f ns  (the prediction again, kernel times of this run)\n",
-           s->predicted_in_run);
-    printf("latency            %12.0f ns  median; p99 %.0f ns (first source start to last "
-           "sink end)\n", r->latency_ns_median, r->latency_ns_p99);
-    printf("iterations         %12u     after %u warm-up\n", r->iterations, r->warmup);
+    printf("model, in-run times%12s  (the prediction again, kernel times of this run)\n",
+           cr_time(a, s->predicted_in_run));
+    printf("latency            %12s  median; p99 %s (first source start to last sink end)\n",
+           cr_time(a, r->latency_ns_median), cr_time(b, r->latency_ns_p99));
+    printf("iterations         %12u  after %u warm-up\n", r->iterations, r->warmup);
     printf("busy share (kernels)");
     for (uint32_t c = 0; c < r->ncores; c++)
         printf("%s core %u %.1f%%", c ? "," : "", c, 100.0 * r->busy[c]);
