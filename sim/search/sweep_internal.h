@@ -73,4 +73,10 @@ void sweep_own_point(pm_plan *p, const pm_sweep_opts *o, const pm_bound *b, swee
 int sweep_own_points(pm_plan *p, const pm_sweep_opts *o, const pm_bound *b, sweep_own *own,
                      uint32_t n);
 
+/* fn(ctx, i, diag) for i in 0..n-1, on up to `jobs` threads (the calling
+ * thread alone when jobs <= 1); each item must touch only its own part of
+ * ctx.  Returns the error of the smallest failing i, with its diag. */
+typedef int (*sweep_item_fn)(void *ctx, uint32_t i, pm_diag *diag);
+int sweep_for_each(uint32_t jobs, uint32_t n, sweep_item_fn fn, void *ctx, pm_diag *diag);
+
 #endif

@@ -197,3 +197,57 @@ int sweep_own_points(pm_plan *p, const pm_sweep_opts *o, const pm_bound *b, swee
     pthread_mutex_destroy(&pl.lock);
     return PM_OK;
 }
+
+/* ---- independent items (the what-ifs) -------------------------------------- */
+
+typedef struct sj_items {
+    sweep_item_fn fn;
+    void *ctx;
+    int *rc;
+    pm_diag *diag;
+    uint32_t n, next;
+    pthread_mutex_t lock;
+} sj_items;
+
+static void *sj_item_worker(void *arg)
+{
+    sj_items *it = arg;
+    for (;;) {
+        pthread_mutex_lock(&it->lock);
+        uint32_t i = it->next;
+        it->next += i < it->n;
+        pthread_mutex_unlock(&it->lock);
+        if (i >= it->n)
+            return NULL;
+        pm_diag_clear(&it->diag[i]);
+        it->rc[i] = it->fn(it->ctx, i, &it->diag[i]);
+    }
+}
+
+int sweep_for_each(uint32_t jobs, uint32_t n, sweep_item_fn fn, void *ctx, pm_diag *diag)
+{
+    sj_items it = {fn, ctx, calloc((size_t)n + 1, sizeof(int)),
+                   calloc((size_t)n + 1, sizeof(pm_diag)), n, 0, PTHREAD_MUTEX_INITIALIZER};
+    uint32_t want = jobs < n ? jobs : n;
+    pthread_t *t = want > 1 ? calloc(want, sizeof *t) : NULL;
+    int rc = it.rc && it.diag && (want <= 1 || t) ? PM_OK : PM_ENOMEM;
+    uint32_t started = 0;
+    while (rc == PM_OK && want > 1 && started < want &&
+           pthread_create(&t[started], NULL, sj_item_worker, &it) == 0)
+        started++;
+    if (rc == PM_OK && started == 0)
+        sj_item_worker(&it);
+    for (uint32_t k = 0; k < started; k++)
+        pthread_join(t[k], NULL);
+    for (uint32_t i = 0; rc == PM_OK && i < n; i++)
+        if (it.rc[i] != PM_OK) { /* the first in order, as one thread meets it */
+            rc = it.rc[i];
+            if (diag)
+                *diag = it.diag[i];
+        }
+    free(t);
+    free(it.rc);
+    free(it.diag);
+    pthread_mutex_destroy(&it.lock);
+    return rc;
+}
