@@ -6,7 +6,8 @@
 # 100 columns with the caution, no progress line when stderr is not a
 # terminal, a progress line on a pseudo-terminal (util-linux `script`,
 # skipped when absent), usage and input errors with their exit codes, and
-# no output file left behind on an error.
+# no output file left behind on an error; --jobs 1 and --jobs 4 print the
+# same bytes (text, CSV, JSON).
 bin="$PM_BIN"
 py=/usr/bin/python3
 dir=$(mktemp -d)
@@ -222,7 +223,10 @@ grep -q '^2,50,50/1,45,45/1,' "$dir/short.csv" || fail "csv shortest form: $(cat
 # ---- progress on a terminal -------------------------------------------------
 if command -v script > /dev/null 2>&1; then
     script -qec "$bin sweep $dir/rec.pace -n 50 > /dev/null" /dev/null > "$dir/tty" 2>&1
-    grep -q 'sweep: P = 5 done (5 of 5)' "$dir/tty" || fail "no progress line on a terminal"
+    # threads end points in any order: the last line counts them all
+    grep -q 'sweep: P = [1-5] done (5 of 5)' "$dir/tty" || fail "no progress line on a terminal"
+    script -qec "$bin sweep $dir/rec.pace -n 50 --jobs 1 > /dev/null" /dev/null > "$dir/tty" 2>&1
+    grep -q 'sweep: P = 5 done (5 of 5)' "$dir/tty" || fail "one thread: P = 5 not last"
     script -qec "$bin sweep $dir/rec.pace -n 50 --quiet > /dev/null" /dev/null > "$dir/tty" 2>&1
     grep -q 'sweep: P =' "$dir/tty" && fail "progress line despite --quiet"
 else
@@ -265,6 +269,47 @@ expect 1 "$bin" sweep "$dir/rec.pace" -n 50 --svg "$dir/no/such/dir/x.svg"
 [ -e "$dir/no/such/dir/x.svg" ] && fail "svg left behind"
 expect 2 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 2..3
 expect 1 "$bin" sweep "$dir/free.pace" --map "$dir/split.map" -p 1
+expect 2 "$bin" sweep "$dir/rec.pace" --jobs 0
+grep -q "jobs must be at least 1" "$dir/err" || fail "jobs 0: $(cat "$dir/err")"
+expect 2 "$bin" sweep "$dir/rec.pace" --jobs two
+expect 2 "$bin" sweep "$dir/rec.pace" --jobs -3
+expect 2 "$bin" sweep "$dir/rec.pace" --jobs
+
+# ---- --jobs: the same bytes on one thread and on four ----------------------------
+# The list scheduler's maps (--no-refine): the period-first mapper stops at
+# a wall-clock budget, so its maps may differ between any two runs.  The
+# demo scenarios, the ones above, and random graphs (Python's seeded
+# random, edges forward, some back with a delay, transfer costs).
+$py - "$dir" <<'PY' || fail "random graphs"
+import random, sys
+rng = random.Random(1616)
+for k in range(4):
+    n = rng.randint(5, 12)
+    lines = ["comm latency=%d send=%d recv=%d" % (rng.randint(0, 40), rng.randint(0, 5),
+                                                   rng.randint(0, 5))]
+    lines += ["node v%d cycles=%d" % (v, rng.randint(1, 30)) for v in range(n)]
+    for _ in range(n + rng.randint(0, n)):
+        a = rng.randint(0, n - 2)
+        b = rng.randint(a + 1, n - 1)
+        lines.append("edge v%d -> v%d delay=1" % (b, a) if rng.random() < 0.2
+                     else "edge v%d -> v%d" % (a, b))
+    open("%s/rand%d.pace" % (sys.argv[1], k), "w").write("\n".join(lines) + "\n")
+PY
+for f in scenarios/*.pace "$dir"/rec.pace "$dir"/rand*.pace; do
+    for j in 1 4; do
+        "$bin" sweep "$f" --no-refine -n 200 --jobs $j --csv "$dir/j$j.csv" \
+            > "$dir/j$j.txt" 2>&1 || fail "$f --jobs $j"
+        "$bin" sweep "$f" --no-refine -n 200 --jobs $j --json > "$dir/j$j.json" ||
+            fail "$f --jobs $j --json"
+    done
+    for ext in txt csv json; do
+        cmp -s "$dir/j1.$ext" "$dir/j4.$ext" || fail "$f: --jobs 1 and 4 differ ($ext)"
+    done
+done
+"$bin" sweep "$dir/classes.pace" -p host=1..3 -n 50 --jobs 3 > "$dir/j3.txt" &&
+    "$bin" sweep "$dir/classes.pace" -p host=1..3 -n 50 --jobs 1 | cmp -s - "$dir/j3.txt" ||
+    fail "classes: --jobs 1 and 3 differ"
+
 expect 0 "$bin" sweep -h
 "$bin" sweep -h | awk 'length($0) > 100 { bad = 1 } END { exit bad }' || fail "help over 100"
 exit 0

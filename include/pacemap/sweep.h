@@ -37,7 +37,10 @@
  * pm_sweep_free() (safe on a zeroed or already freed result).  Node and
  * edge ids index the plan's graph (for a multirate scenario its
  * expansion).  Not thread-safe on the plan: the sweep changes its cores
- * while it runs (and restores them).
+ * while it runs (and restores them).  With opts->jobs > 1 the points are
+ * computed on that many threads, each on its own copy of the scenario,
+ * and the rule above applied afterwards in core-count order, so the
+ * result is the one a single thread gets.
  */
 #ifndef PACEMAP_SWEEP_H
 #define PACEMAP_SWEEP_H
@@ -203,8 +206,16 @@ typedef struct pm_sweep_opts {
                                       of the plan's graph (a hand map) for the one
                                       point procs_from == procs_to == map->ncores
                                       (borrowed) */
-    pm_sweep_progress progress;    /* may be NULL */
+    pm_sweep_progress progress;    /* may be NULL; with jobs > 1 called from the
+                                      sweep's threads, one call at a time, as
+                                      points end (done counts them) */
     void *progress_ctx;
+    uint32_t jobs;                 /* threads computing points side by side; 0 or 1:
+                                      the calling thread only.  The result does not
+                                      depend on it (each thread maps on its own copy
+                                      of the scenario), except through the
+                                      period-first mapper's time budget, which is
+                                      wall-clock time */
 } pm_sweep_opts;
 
 /*

@@ -1,6 +1,6 @@
 /*
  * cmd_sweep.c - `pacemap sweep FILE [-p [CLASS=]A..B] [-n ITER] [--faster N]
- * [--map F] [--svg F] [--csv F] [--json] [--quiet]`: for each core count, schedule,
+ * [--map F] [--svg F] [--csv F] [--json] [--quiet] [--jobs N]`: for each core count, schedule,
  * simulate and name the limit (pm_sweep_run); print the table, the
  * saturation point, the evidence per core count and the what-ifs; write
  * the SVG and CSV files through pm_outfile.  A progress line goes to
@@ -11,11 +11,15 @@
  * classes is analysed at its own cores, or with -p CLASS=A..B at each
  * count of one class, the other classes as declared.
  * With --map F the one core count of the map is analysed (a hand map).
+ * Core counts are computed on --jobs threads, by default as many as the
+ * cores this process may run on; the output is the same for any count.
  */
+#define _GNU_SOURCE /* sched_getaffinity */
 #include "cli.h"
 #include "cmd_sweep_internal.h"
 
 #include <math.h>
+#include <sched.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -443,6 +447,18 @@ static void sw_progress(void *ctx, uint32_t procs, uint32_t done, uint32_t total
 
 /* ---- the command -------------------------------------------------------- */
 
+/* The cores this process may run on (its affinity mask, else the cores
+ * online): the default number of threads. */
+static uint32_t sw_usable_cores(void)
+{
+    cpu_set_t set;
+    CPU_ZERO(&set);
+    if (sched_getaffinity(0, sizeof set, &set) == 0 && CPU_COUNT(&set) > 0)
+        return (uint32_t)CPU_COUNT(&set);
+    long n = sysconf(_SC_NPROCESSORS_ONLN);
+    return n > 0 && n < PM_SWEEP_MAX_POINTS ? (uint32_t)n : 1;
+}
+
 /* --map: the scenario at -p N (or its own cores) and the map for it. */
 static int sw_load_map(const char *file, sw_args *a, pm_plan *s, pm_map **m)
 {
@@ -478,7 +494,8 @@ static int sw_run(pm_plan *scn, const char *file, const sw_args *a, const pm_map
     pm_sweep_opts o = {.procs_from = a->range[0], .procs_to = a->range[1],
                        .iterations = iterations, .faster = a->faster,
                        .refine = !a->no_refine, .map = m, .by_class = a->by_class,
-                       .vary_class = a->vary_class};
+                       .vary_class = a->vary_class,
+                       .jobs = a->jobs_set ? a->jobs : sw_usable_cores()};
     if (!a->quiet && isatty(STDERR_FILENO))
         o.progress = sw_progress;
     pm_sweep s;
@@ -519,6 +536,8 @@ int pm_cmd_sweep(int argc, char **argv)
         {"--json", NULL, CLI_FLAG, &a.json, NULL, "machine output on stdout", NULL},
         {"--quiet", "-q", CLI_FLAG, &a.quiet, NULL,
          "no progress line; results only, the caution in one line", NULL},
+        {"--jobs", NULL, CLI_U32, &a.jobs, &a.jobs_set,
+         "threads computing core counts (default: the usable cores); same output", "N"},
         {NULL, NULL, CLI_FLAG, NULL, NULL, NULL, NULL}};
     const cli_cmd cmd = {"sweep",
                          "FILE [-p [CLASS=]A..B] [-n ITER] [--map F] [--svg F] [--csv F] [--json]",
@@ -530,6 +549,10 @@ int pm_cmd_sweep(int argc, char **argv)
         return ex;
     if (a.iterations_set && a.iterations == 0) {
         cli_usage_error("sweep: -n must be at least 1");
+        return CLI_EXIT_USAGE;
+    }
+    if (a.jobs_set && a.jobs == 0) {
+        cli_usage_error("sweep: --jobs must be at least 1");
         return CLI_EXIT_USAGE;
     }
     if (a.procs && sw_parse_procs(&a) != CLI_EXIT_OK)

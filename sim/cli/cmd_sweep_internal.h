@@ -27,12 +27,13 @@ typedef struct sw_report {
 typedef struct sw_args {
     const char *procs;       /* -p as written */
     uint32_t range[2];
-    bool range_set, json, quiet, iterations_set, no_refine;
+    bool range_set, json, quiet, iterations_set, no_refine, jobs_set;
     const char *class_name;  /* -p CLASS=A..B: the class, class_len bytes */
     size_t class_len;
     bool by_class;
     uint32_t vary_class;
     uint32_t iterations, faster;
+    uint32_t jobs;           /* --jobs: threads */
     const char *svg, *csv, *map;
 } sw_args;
 

@@ -131,16 +131,36 @@ static int sweep_reuse(const sweep_ctx *x, pm_sweep_point *pt, pm_sim_result *r,
     return rc;
 }
 
-/* Floors, core facts and the limit of a simulated point. */
+/* The floors at these cores: they depend on the count only. */
+static int sweep_point_floors(const pm_graph *g, const pm_bound *b, pm_sweep_point *pt)
+{
+    pt->procs = g->platform.ncores;
+    int rc = pm_bound_floors(g, b, pt->procs, &pt->floors);
+    return rc == PM_OK ? sweep_search_floor(g, pt) : rc;
+}
+
+void sweep_own_point(pm_plan *p, const pm_sweep_opts *o, const pm_bound *b, sweep_own *w)
+{
+    pm_sweep_point *pt = w->pt;
+    pm_diag_clear(&w->diag);
+    memset(&w->r, 0, sizeof w->r);
+    int rc = sweep_set_count(p, o, pt->count, &w->diag);
+    if (rc == PM_OK)
+        rc = sweep_own_map(p, o, &pt->map, &w->diag);
+    if (rc == PM_OK)
+        rc = sweep_simulate(p->graph, o, pt->map, &w->r, &w->diag);
+    if (rc == PM_OK) {
+        pt->own_period = w->r.period;
+        pt->map_count = pt->count;
+        rc = sweep_point_floors(p->graph, b, pt);
+    }
+    w->rc = rc;
+}
+
+/* Core facts and the limit of a simulated point. */
 static int sweep_measure(const pm_graph *g, pm_sweep *s, pm_sweep_point *pt,
                          const pm_sim_result *r)
 {
-    pt->procs = g->platform.ncores;
-    int rc = pm_bound_floors(g, &s->bound, pt->procs, &pt->floors);
-    if (rc == PM_OK)
-        rc = sweep_search_floor(g, pt);
-    if (rc != PM_OK)
-        return rc;
     pt->period = r->period;
     pt->steady = r->steady;
     pt->latency = r->latency_steady;
@@ -149,31 +169,26 @@ static int sweep_measure(const pm_graph *g, pm_sweep *s, pm_sweep_point *pt,
     return sweep_limit_classify(g, pt->map, &s->bound, r, pt);
 }
 
-static int sweep_point(sweep_ctx *x, uint32_t i, pm_diag *diag)
+/* Point i after its own part: an earlier count's map when that did
+ * better, then what limits it.  In core-count order, on the caller's plan. */
+static int sweep_point(sweep_ctx *x, uint32_t i, sweep_own *w, pm_diag *diag)
 {
     pm_sweep_point *pt = &x->s->points[i];
-    pt->count = x->o->procs_from + i;
-    pm_sim_result r;
-    memset(&r, 0, sizeof r);
-    int rc = sweep_set_count(x->p, x->o, pt->count, diag);
+    int rc = w->rc;
+    if (rc != PM_OK && diag)
+        *diag = w->diag;
+    if (rc == PM_OK)
+        rc = sweep_set_count(x->p, x->o, pt->count, diag);
     const pm_graph *g = x->p->graph;
+    if (rc == PM_OK && x->best != PM_NONE &&
+        pm_rat_cmp(x->s->points[x->best].period, w->r.period) < 0)
+        rc = sweep_reuse(x, pt, &w->r, diag);
     if (rc == PM_OK)
-        rc = sweep_own_map(x->p, x->o, &pt->map, diag);
-    if (rc == PM_OK)
-        rc = sweep_simulate(g, x->o, pt->map, &r, diag);
-    if (rc == PM_OK) {
-        pt->own_period = r.period;
-        pt->map_count = pt->count;
-        if (x->best != PM_NONE && pm_rat_cmp(x->s->points[x->best].period, r.period) < 0)
-            rc = sweep_reuse(x, pt, &r, diag);
-    }
-    if (rc == PM_OK)
-        rc = sweep_measure(g, x->s, pt, &r);
+        rc = sweep_measure(g, x->s, pt, &w->r);
     if (rc != PM_OK)
         sweep_diag_procs(diag, g, x->o, pt->count);
     else if (x->best == PM_NONE || pm_rat_cmp(pt->period, x->s->points[x->best].period) < 0)
         x->best = i;
-    pm_sim_result_free(&r);
     return rc;
 }
 
@@ -249,21 +264,34 @@ static int sweep_check(const pm_graph *g, const pm_sweep_opts *o, pm_diag *diag)
     return sweep_check_classes(g, o, diag);
 }
 
+static int sweep_points_in_order(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s,
+                                 sweep_own *own, pm_diag *diag)
+{
+    sweep_ctx x = {p, o, s, PM_NONE};
+    int rc = PM_OK;
+    for (uint32_t i = 0; rc == PM_OK && i < s->npoints; i++)
+        rc = sweep_point(&x, i, &own[i], diag);
+    return rc;
+}
+
 static int sweep_points(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag *diag)
 {
     s->npoints = o->procs_to - o->procs_from + 1;
     s->points = calloc(s->npoints, sizeof *s->points);
-    if (!s->points)
-        return PM_ENOMEM;
-    sweep_ctx x = {p, o, s, PM_NONE};
-    for (uint32_t i = 0; i < s->npoints; i++) {
-        int rc = sweep_point(&x, i, diag);
-        if (rc != PM_OK)
-            return rc;
-        if (o->progress)
-            o->progress(o->progress_ctx, s->points[i].count, i + 1, s->npoints);
+    sweep_own *own = calloc(s->npoints, sizeof *own);
+    int rc = s->points && own ? PM_OK : PM_ENOMEM;
+    for (uint32_t i = 0; rc == PM_OK && i < s->npoints; i++) {
+        own[i].pt = &s->points[i];
+        own[i].pt->count = o->procs_from + i;
     }
-    return PM_OK;
+    if (rc == PM_OK)
+        rc = sweep_own_points(p, o, &s->bound, own, s->npoints);
+    if (rc == PM_OK)
+        rc = sweep_points_in_order(p, o, s, own, diag);
+    for (uint32_t i = 0; own && i < s->npoints; i++)
+        pm_sim_result_free(&own[i].r);
+    free(own);
+    return rc;
 }
 
 int pm_sweep_run(pm_plan *plan, const pm_sweep_opts *opts, pm_sweep *out, pm_diag *diag)

@@ -50,4 +50,33 @@ void sweep_whatif_free(pm_sweep_whatif *w);
 int sweep_floors_of(const pm_graph *c, uint32_t procs, pm_bound *b, pm_floors *f,
                     pm_diag *diag);
 
+/* A deep copy of g (finalized or not); *out is the caller's, NULL on error. */
+int sweep_graph_clone(const pm_graph *g, pm_graph **out);
+
+/* What one point computes alone, whatever the others find: its own map
+ * and simulation (pt->map, pt->own_period, r), its floors (pt->procs,
+ * pt->floors, pt->floor_searched).  rc and diag tell how it went. */
+typedef struct sweep_own {
+    pm_sweep_point *pt;   /* pt->count set by the caller */
+    int rc;
+    pm_diag diag;
+    pm_sim_result r;      /* the simulation of pt->map */
+} sweep_own;
+
+/* One point's own part (sweep.c), on plan p set to its cores. */
+void sweep_own_point(pm_plan *p, const pm_sweep_opts *o, const pm_bound *b, sweep_own *w);
+
+/* Every point's own part, on o->jobs threads (each on a copy of the
+ * plan's scenario) or, with o->jobs <= 1, on p in the calling thread.
+ * PM_ENOMEM when the threads' memory is not to be had; a point's own
+ * failure is in its rc. */
+int sweep_own_points(pm_plan *p, const pm_sweep_opts *o, const pm_bound *b, sweep_own *own,
+                     uint32_t n);
+
+/* fn(ctx, i, diag) for i in 0..n-1, on up to `jobs` threads (the calling
+ * thread alone when jobs <= 1); each item must touch only its own part of
+ * ctx.  Returns the error of the smallest failing i, with its diag. */
+typedef int (*sweep_item_fn)(void *ctx, uint32_t i, pm_diag *diag);
+int sweep_for_each(uint32_t jobs, uint32_t n, sweep_item_fn fn, void *ctx, pm_diag *diag);
+
 #endif

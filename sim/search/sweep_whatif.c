@@ -74,32 +74,64 @@ static int whatif_rows(pm_sweep_whatif *w, uint32_t n)
     return w->rows ? PM_OK : PM_ENOMEM;
 }
 
-/* Each listed node `faster` cycles faster in the copy; floors recomputed. */
-static int whatif_floor_rows(pm_graph *c, const pm_sweep_point *pt, pm_sweep_whatif *w,
-                             pm_diag *diag)
+/* What every row of one what-if shares, read-only while rows are made
+ * side by side: each row changes its own copy of the graph. */
+typedef struct whatif_job {
+    const pm_graph *g;        /* the plan's graph at the point's cores */
+    const pm_graph *c;        /* one class, smallest cycles (whatif_copy) */
+    const pm_sweep_opts *o;
+    const pm_sweep_point *pt;
+    pm_sweep_whatif *w;
+    const int64_t *t;         /* node times on their cores of the point's map */
+    pm_bound *b;              /* per delay row: the bound found */
+    pm_floors *f;             /* per delay row: the floors found */
+} whatif_job;
+
+/* Rows of the binding loop's nodes, at most PM_SWEEP_MAX_WHATIF. */
+static uint32_t whatif_nrows(const pm_sweep_limit *l)
 {
-    const pm_sweep_limit *l = &pt->limit;
-    uint32_t n = l->nnodes < PM_SWEEP_MAX_WHATIF ? l->nnodes : PM_SWEEP_MAX_WHATIF;
-    int rc = whatif_rows(w, n);
-    for (uint32_t i = 0; rc == PM_OK && i < n; i++) {
-        uint32_t v = l->nodes[i];
-        int64_t old = c->nodes[v].cycles;
-        pm_sweep_faster *row = &w->rows[w->nrows++];
-        *row = (pm_sweep_faster){v, old, whatif_less(old, w->faster), {0, 1}, {0, 1}, {0, 1}};
+    return l->nnodes < PM_SWEEP_MAX_WHATIF ? l->nnodes : PM_SWEEP_MAX_WHATIF;
+}
+
+/* Row i: node i of the loop `faster` cycles faster in a copy; floors
+ * recomputed. */
+static int whatif_floor_row(void *ctx, uint32_t i, pm_diag *diag)
+{
+    const whatif_job *j = ctx;
+    const pm_sweep_limit *l = &j->pt->limit;
+    pm_sweep_whatif *w = j->w;
+    uint32_t v = l->nodes[i];
+    int64_t old = j->c->nodes[v].cycles;
+    pm_sweep_faster *row = &w->rows[i];
+    *row = (pm_sweep_faster){v, old, whatif_less(old, w->faster), {0, 1}, {0, 1}, {0, 1}};
+    pm_graph *c = NULL;
+    pm_bound b;
+    pm_floors f;
+    memset(&b, 0, sizeof b);
+    int rc = sweep_graph_clone(j->c, &c);
+    if (rc == PM_OK) {
         c->nodes[v].cycles = row->new_cycles;
-        pm_bound b;
-        pm_floors f;
-        memset(&b, 0, sizeof b);
-        rc = sweep_floors_of(c, pt->procs, &b, &f, diag);
-        c->nodes[v].cycles = old;
-        if (rc == PM_OK) {
-            bool loop = w->kind == PM_LIMIT_LOOP;
-            row->after = loop ? (b.has_loop ? b.iteration_bound : pm_rat_int(0)) : f.lower_bound;
-            row->floor_after = f.lower_bound;
-            if (loop)
-                row->loop_alone = whatif_ratio(l->cycles - (old - row->new_cycles), l->delays);
-        }
-        pm_bound_free(&b);
+        rc = sweep_floors_of(c, j->pt->procs, &b, &f, diag);
+    }
+    if (rc == PM_OK) {
+        bool loop = w->kind == PM_LIMIT_LOOP;
+        row->after = loop ? (b.has_loop ? b.iteration_bound : pm_rat_int(0)) : f.lower_bound;
+        row->floor_after = f.lower_bound;
+        if (loop)
+            row->loop_alone = whatif_ratio(l->cycles - (old - row->new_cycles), l->delays);
+    }
+    pm_bound_free(&b);
+    pm_graph_destroy(c);
+    return rc;
+}
+
+static int whatif_floor_rows(whatif_job *j, pm_diag *diag)
+{
+    uint32_t n = whatif_nrows(&j->pt->limit);
+    int rc = whatif_rows(j->w, n);
+    if (rc == PM_OK) {
+        j->w->nrows = n;
+        rc = sweep_for_each(j->o->jobs, n, whatif_floor_row, j, diag);
     }
     return rc;
 }
@@ -115,7 +147,7 @@ static int64_t *whatif_times(const pm_graph *g, const pm_map *m)
 
 /* One mapping row: the same map re-simulated with node v `cut` cycles
  * faster; the floors with it as much faster. */
-static int whatif_resim(pm_graph *g, pm_graph *c, const pm_sweep_opts *o, const pm_map *m,
+static int whatif_resim(const pm_graph *g, pm_graph *c, const pm_sweep_opts *o, const pm_map *m,
                         int64_t *t, const pm_sweep_point *pt, pm_sweep_faster *row,
                         pm_diag *diag)
 {
@@ -143,26 +175,43 @@ static int whatif_resim(pm_graph *g, pm_graph *c, const pm_sweep_opts *o, const 
     return rc;
 }
 
-static int whatif_map_rows(pm_plan *p, pm_graph *c, const pm_sweep_opts *o,
-                           const pm_sweep_point *pt, pm_sweep_whatif *w, pm_diag *diag)
+/* Row i: the point's map re-simulated with node i of the loop faster. */
+static int whatif_map_row(void *ctx, uint32_t i, pm_diag *diag)
 {
-    pm_graph *g = p->graph;
-    const pm_sweep_limit *l = &pt->limit;
-    const pm_map *m = pt->map;
-    /* the point's own cores: the map is simulated on them again */
-    int rc = sweep_set_count(p, o, pt->count, diag);
-    int64_t *t = rc == PM_OK ? whatif_times(g, m) : NULL;
-    uint32_t n = l->nnodes < PM_SWEEP_MAX_WHATIF ? l->nnodes : PM_SWEEP_MAX_WHATIF;
-    if (rc == PM_OK)
-        rc = t ? whatif_rows(w, n) : PM_ENOMEM;
-    for (uint32_t i = 0; rc == PM_OK && i < n; i++) {
-        uint32_t v = l->nodes[i];
-        int64_t cut = t[v] < w->faster ? t[v] : w->faster;
-        pm_sweep_faster *row = &w->rows[w->nrows++];
-        *row = (pm_sweep_faster){v, t[v], t[v] - cut, whatif_ratio(l->cycles - cut, l->delays),
-                                 {0, 1}, {0, 1}};
-        rc = whatif_resim(g, c, o, m, t, pt, row, diag);
+    const whatif_job *j = ctx;
+    const pm_sweep_limit *l = &j->pt->limit;
+    uint32_t v = l->nodes[i], n = j->g->nnodes;
+    int64_t cut = j->t[v] < j->w->faster ? j->t[v] : j->w->faster;
+    pm_sweep_faster *row = &j->w->rows[i];
+    *row = (pm_sweep_faster){v, j->t[v], j->t[v] - cut, whatif_ratio(l->cycles - cut, l->delays),
+                             {0, 1}, {0, 1}};
+    int64_t *t = malloc(((size_t)n + 1) * sizeof *t);
+    pm_graph *c = NULL;
+    int rc = t ? sweep_graph_clone(j->c, &c) : PM_ENOMEM;
+    if (rc == PM_OK) {
+        memcpy(t, j->t, n * sizeof *t);
+        rc = whatif_resim(j->g, c, j->o, j->pt->map, t, j->pt, row, diag);
     }
+    pm_graph_destroy(c);
+    free(t);
+    return rc;
+}
+
+static int whatif_map_rows(pm_plan *p, whatif_job *j, pm_diag *diag)
+{
+    /* the point's own cores: the map is simulated on them again */
+    int rc = sweep_set_count(p, j->o, j->pt->count, diag);
+    int64_t *t = rc == PM_OK ? whatif_times(p->graph, j->pt->map) : NULL;
+    uint32_t n = whatif_nrows(&j->pt->limit);
+    if (rc == PM_OK)
+        rc = t ? whatif_rows(j->w, n) : PM_ENOMEM;
+    if (rc == PM_OK) {
+        j->w->nrows = n;
+        j->g = p->graph;
+        j->t = t;
+        rc = sweep_for_each(j->o->jobs, n, whatif_map_row, j, diag);
+    }
+    j->t = NULL;
     free(t);
     return rc;
 }
@@ -179,41 +228,57 @@ static int whatif_keep_nodes(uint32_t **dst, uint32_t *n, const uint32_t *src, u
     return PM_OK;
 }
 
-/* The bound with one more delay on edge e of the copy. */
-static int whatif_delay_on(pm_graph *c, uint32_t e, uint32_t procs, pm_bound *b,
-                           pm_floors *f, pm_diag *diag)
+/* Row i: the bound with one more delay on loop edge i, in a copy. */
+static int whatif_delay_row(void *ctx, uint32_t i, pm_diag *diag)
 {
-    c->edges[e].delay++;
-    int rc = sweep_floors_of(c, procs, b, f, diag);
-    c->edges[e].delay--;
+    const whatif_job *j = ctx;
+    pm_graph *c = NULL;
+    int rc = sweep_graph_clone(j->c, &c);
+    if (rc == PM_OK) {
+        c->edges[j->pt->limit.edges[i]].delay++;
+        rc = sweep_floors_of(c, j->pt->procs, &j->b[i], &j->f[i], diag);
+    }
+    pm_graph_destroy(c);
     return rc;
 }
 
-/* One more delay on the loop edge where it lowers the bound most (the
- * first such edge on ties). */
-static int whatif_delay(pm_graph *c, const pm_sweep_point *pt, pm_sweep_whatif *w,
-                        pm_diag *diag)
+/* Keep the edge whose delay lowers the bound most (the first on ties). */
+static int whatif_delay_pick(const whatif_job *j, uint32_t n)
 {
-    const pm_sweep_limit *l = &pt->limit;
-    uint32_t n = l->nedges < WHATIF_MAX_EDGES ? l->nedges : WHATIF_MAX_EDGES;
+    pm_sweep_whatif *w = j->w;
     int rc = PM_OK;
     for (uint32_t i = 0; rc == PM_OK && i < n; i++) {
-        pm_bound b;
-        pm_floors f;
-        memset(&b, 0, sizeof b);
-        rc = whatif_delay_on(c, l->edges[i], pt->procs, &b, &f, diag);
-        if (rc == PM_OK && (!w->has_delay || pm_rat_cmp(b.iteration_bound, w->delay_bound) < 0)) {
-            w->has_delay = true;
-            w->delay_edge = l->edges[i];
-            w->delay_bound = b.iteration_bound;
-            w->delay_floor = f.lower_bound;
-            if (b.ncritical > 0)
-                rc = whatif_keep_nodes(&w->delay_next, &w->ndelay_next, b.critical[0].nodes,
-                                       b.critical[0].len);
-        }
-        pm_bound_free(&b);
+        const pm_bound *b = &j->b[i];
+        if (w->has_delay && pm_rat_cmp(b->iteration_bound, w->delay_bound) >= 0)
+            continue;
+        w->has_delay = true;
+        w->delay_edge = j->pt->limit.edges[i];
+        w->delay_bound = b->iteration_bound;
+        w->delay_floor = j->f[i].lower_bound;
+        if (b->ncritical > 0)
+            rc = whatif_keep_nodes(&w->delay_next, &w->ndelay_next, b->critical[0].nodes,
+                                   b->critical[0].len);
     }
-    w->delay_loop_alone = whatif_ratio(l->cycles, l->delays + 1);
+    return rc;
+}
+
+/* One more delay on the loop edge where it lowers the bound most. */
+static int whatif_delay(whatif_job *j, pm_diag *diag)
+{
+    const pm_sweep_limit *l = &j->pt->limit;
+    uint32_t n = l->nedges < WHATIF_MAX_EDGES ? l->nedges : WHATIF_MAX_EDGES;
+    j->b = calloc((size_t)n + 1, sizeof *j->b);
+    j->f = calloc((size_t)n + 1, sizeof *j->f);
+    int rc = j->b && j->f ? PM_OK : PM_ENOMEM;
+    if (rc == PM_OK)
+        rc = sweep_for_each(j->o->jobs, n, whatif_delay_row, j, diag);
+    if (rc == PM_OK)
+        rc = whatif_delay_pick(j, n);
+    for (uint32_t i = 0; j->b && i < n; i++)
+        pm_bound_free(&j->b[i]);
+    free(j->b), j->b = NULL;
+    free(j->f), j->f = NULL;
+    j->w->delay_loop_alone = whatif_ratio(l->cycles, l->delays + 1);
     return rc;
 }
 
@@ -343,12 +408,13 @@ int sweep_whatif_run(pm_plan *p, const pm_sweep_opts *o, pm_sweep *s, pm_diag *d
     bool through_map = w->kind == PM_LIMIT_MAPPING ||
                        (w->kind == PM_LIMIT_LOOP && pt->limit.nhops > 0);
     w->same_map = through_map && pt->limit.delays > 0;
+    whatif_job j = {p->graph, c, o, pt, w, NULL, NULL, NULL};
     if (w->same_map)
-        rc = whatif_map_rows(p, c, o, pt, w, diag);
+        rc = whatif_map_rows(p, &j, diag);
     else if (w->kind == PM_LIMIT_LOOP || w->kind == PM_LIMIT_NODE)
-        rc = whatif_floor_rows(c, pt, w, diag);
+        rc = whatif_floor_rows(&j, diag);
     if (rc == PM_OK && w->kind == PM_LIMIT_LOOP)
-        rc = whatif_delay(c, pt, w, diag);
+        rc = whatif_delay(&j, diag);
     if (rc == PM_OK)
         rc = whatif_next(c, &s->bound, pt, w);
     pm_graph_destroy(c);
