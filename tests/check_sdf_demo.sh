@@ -4,7 +4,8 @@
 # single-rate expansion against an independent computation:
 #   - the repetition vector balances every edge and is the smallest one;
 #   - the expansion, redone token by token in Python, has the same firings
-#     and the same edges (delays, words);
+#     and the same edges (delays, words), with one block per producer firing
+#     (the default transfers);
 #   - the iteration bound of the expansion, found by enumerating its simple
 #     cycles with networkx (networkx.simple_cycles), is the 12250 cycles the
 #     header states, and the total work is 16960.
@@ -17,7 +18,7 @@ fi
 out=$(mktemp)
 trap 'rm -f "$out"' EXIT
 "$helper" scenarios/rx_decimating.pace > "$out" || exit 1
-/usr/bin/python3 - "$out" <<'PY'
+/usr/bin/python3 - "$out" scenarios/rx_decimating.pace <<'PY'
 import sys
 from fractions import Fraction
 from math import gcd
@@ -48,14 +49,29 @@ assert reduce(gcd, rep.values()) == 1
 def name(v, i): return v if rep[v] == 1 else "%s#%d" % (v, i)
 want_nodes = {name(v, i): nodes[v] for v in nodes for i in range(rep[v])}
 want_edges = {}
-for u, v, p, c, d, w in edges:
+def add(k, words): want_edges[k] = want_edges.get(k, 0) + words
+def per_token(u, v, p, c, d, w):
     for t in range(rep[u] * p):
         firing = (t - d) // p if t >= d else -1 - (d - 1 - t) // p
         it = 0
         while firing < 0:
             firing += rep[u]; it -= 1
-        k = (name(u, firing), name(v, t // c), -it)
-        want_edges[k] = want_edges.get(k, 0) + w
+        add((name(u, firing), name(v, t // c), -it), w)
+# block transfers (the default): firing I of u (iteration 0) makes tokens
+# I*p+d .. I*p+d+p-1, read by global consumer firings J = t // c; the block
+# goes whole (p*w words) to its first reader J0, each later reader J follows
+# reader J-1 with no words (one delay when J starts a new iteration)
+def block(u, v, p, c, d, w):
+    for i in range(rep[u]):
+        readers = sorted({t // c for t in range(i * p + d, i * p + d + p)})
+        j0 = readers[0]
+        add((name(u, i), name(v, j0 % rep[v]), j0 // rep[v]), p * w)
+        for j in readers[1:]:
+            add((name(v, (j - 1) % rep[v]), name(v, j % rep[v]),
+                 j // rep[v] - (j - 1) // rep[v]), 0)
+per_token_mode = "transfer=token" in open(sys.argv[2]).read()
+for u, v, p, c, d, w in edges:
+    (per_token if per_token_mode or u == v else block)(u, v, p, c, d, w)
 assert xnodes == want_nodes, "expanded nodes differ"
 assert xedges == want_edges, "expanded edges differ"
 

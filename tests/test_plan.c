@@ -32,9 +32,13 @@
  * the third after them: a's firings split 2 + 1 between the cores.  The
  * rule sends a to the core that ran two of them (2 * (4 + 1) = 10 against
  * 5).  z's firings take 0 cycles; the +1 per firing makes the core that
- * ran more of them win, and a 1 + 1 split goes to core 0. */
+ * ran more of them win, and a 1 + 1 split goes to core 0.  The rule is
+ * about firings that can run side by side, so the scenario asks for
+ * per-token transfers: with the default block transfers the firings of a
+ * read one block of src in turn (a#0 -> a#1 -> a#2) and never split. */
 static const char multirate[] =
     "procs 2\n"
+    "comm transfer=token\n"
     "node src cycles=1\n"
     "node a cycles=4\n"
     "node z cycles=0\n"

@@ -297,14 +297,15 @@ static const pm_edge *find_edge(const pm_graph *x, const char *src, const char *
 }
 
 /* docs/multirate.md's example, worked by hand: a -> b produce=2 consume=3
- * delay=1, q = (3, 2).  Tokens 0..5: 0 is initial (made by a#2 one
- * iteration earlier), 1-2 by a#0, 3-4 by a#1, 5 by a#2; b#0 takes 0-2, b#1
- * takes 3-5. */
+ * delay=1, q = (3, 2), per-token transfers.  Tokens 0..5: 0 is initial
+ * (made by a#2 one iteration earlier), 1-2 by a#0, 3-4 by a#1, 5 by a#2;
+ * b#0 takes 0-2, b#1 takes 3-5. */
 static void test_expand_worked_example(void **state)
 {
     (void)state;
     static const spec_edge es[] = { { 0, 1, 2, 3, 1 } };
     pm_graph *g = build(2, ABC, es, 1);
+    g->platform.block_transfers = false; /* what the tokens above assume */
     pm_graph *x;
     uint64_t *rep;
     uint32_t *origin;
@@ -325,6 +326,40 @@ static void test_expand_worked_example(void **state)
     assert_int_equal(origin[2], 0);
     assert_int_equal(origin[4], 1);
     assert_true(x->finalized);
+    free(rep);
+    free(origin);
+    pm_graph_destroy(x);
+    pm_graph_destroy(g);
+}
+
+/* The same example with block transfers (the scenario default), by hand:
+ * a#0's block (tokens 1-2) and a#1's (3-4) each go whole to one reader;
+ * a#2's block is token 5 and token 0 of the next iteration, first read by
+ * b#1, so it goes whole (2 words) to b#1, and b#0 of the next iteration
+ * follows b#1 with one delay and no words.  4 edges, as with tokens. */
+static void test_expand_worked_example_block(void **state)
+{
+    (void)state;
+    static const spec_edge es[] = { { 0, 1, 2, 3, 1 } };
+    pm_graph *g = build(2, ABC, es, 1);
+    g->platform.block_transfers = true;
+    pm_graph *x;
+    uint64_t *rep;
+    uint32_t *origin;
+    pm_diag d;
+    assert_int_equal(pm_sdf_single_rate(g, &x, &rep, &origin, &d), PM_OK);
+    assert_int_equal(x->nnodes, 5);
+    assert_int_equal(x->nedges, 4);
+    const pm_edge *e = find_edge(x, "b#1", "b#0", 1);
+    assert_non_null(e);
+    assert_int_equal(e->words, 0);
+    assert_non_null(e = find_edge(x, "a#0", "b#0", 0));
+    assert_int_equal(e->words, 2);
+    assert_non_null(e = find_edge(x, "a#1", "b#1", 0));
+    assert_int_equal(e->words, 2);
+    assert_non_null(e = find_edge(x, "a#2", "b#1", 0));
+    assert_int_equal(e->words, 2);
+    assert_null(find_edge(x, "a#2", "b#0", 1));
     free(rep);
     free(origin);
     pm_graph_destroy(x);
@@ -860,6 +895,7 @@ int main(void)
         cmocka_unit_test(test_overflow_is_reported),
         cmocka_unit_test(test_size_guards),
         cmocka_unit_test(test_expand_worked_example),
+        cmocka_unit_test(test_expand_worked_example_block),
         cmocka_unit_test(test_expand_self_loop_is_a_chain),
         cmocka_unit_test(test_random_balance_and_minimality),
         cmocka_unit_test(test_single_rate_expands_to_itself),

@@ -80,10 +80,11 @@ typedef struct pm_platform {
     uint64_t rate_hz;      /* 0 = not given; iteration rate the application needs */
     int64_t word_bytes;    /* bytes a word of edge data takes (comm word-bytes=);
                               0 = not given (4) */
-    bool block_transfers;  /* comm transfer=block: a multirate producer firing sends
-                              its tokens as one transfer (docs/multirate.md); false
-                              (transfer=token, the default for now): one transfer per
-                              consumer firing it feeds */
+    bool block_transfers;  /* comm transfer=block (the reader's default): a multirate
+                              producer firing sends its tokens as one transfer
+                              (docs/multirate.md); false (transfer=token, and graphs
+                              built by pm_graph_create): one transfer per consumer
+                              firing it feeds */
     char *title;           /* NULL = not given; owned */
 } pm_platform;
 

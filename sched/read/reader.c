@@ -31,6 +31,8 @@ static int reader_init(reader_state *st, const char *name, const reader_limits *
     st->file = name ? name : "";
     st->lim = *lim;
     st->g = pm_graph_create(st->file);
+    if (st->g) /* one DMA-like transfer per producer firing unless `comm transfer=token` */
+        st->g->platform.block_transfers = true;
     /* a full batch plus one more line of the longest chain */
     size_t refs = READER_BATCH + READER_MAX_CHAIN;
     st->ref_text = malloc(refs * sizeof *st->ref_text);
