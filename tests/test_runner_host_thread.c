@@ -131,6 +131,30 @@ static void test_calibration_block_between_sizes(void **state)
     assert_int_equal(pm_runner_host_costs(&c, 0, 0, 9, &h), PM_EINVAL);
 }
 
+/* Regression: the calibration once ran its own graphs under the caller's
+ * pace, so `run --paced` read the pace's per-node arrays past their end and
+ * timed the pacing instead of the runner.  A pace of one node whose
+ * interval (100000 ns) dwarfs the chain's 2 n STEP must change nothing. */
+static void test_calibration_ignores_pace(void **state)
+{
+    (void)state;
+    static const uint32_t one[1] = {1}, zero[1] = {0};
+    static const bool yes[1] = {true};
+    pm_sim_pace pace = {.interval = {100000, 1}, .count = one, .phase = zero,
+                        .input = yes, .sink = yes};
+    pm_runner_config c;
+    pm_runner_config_default(&c);
+    c.clock = fake_clock;
+    c.block = 64;
+    c.watchdog_ms = 20000;
+    c.ns_per_cycle = 1.0;
+    c.pace = &pace;
+    pm_host_costs h;
+    assert_int_equal(pm_runner_host_costs(&c, 0, PM_NONE, 20, &h), PM_OK);
+    assert_true(h.dispatch.median == 2.0 * STEP);
+    assert_true(h.ends_ns == 0.0);
+}
+
 static pm_host_costs given_costs(void)
 {
     pm_host_costs h;
@@ -263,6 +287,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_calibration_synthetic_host),
         cmocka_unit_test(test_calibration_block_between_sizes),
+        cmocka_unit_test(test_calibration_ignores_pace),
         cmocka_unit_test(test_predict_with_host_costs),
         cmocka_unit_test(test_shared_pu_busy_at_most_whole),
         cmocka_unit_test(test_fan_out_one_slot_rings),

@@ -28,7 +28,7 @@
 
 typedef struct wave {
     int nvars;
-    char id[MAXV][8], name[MAXV][32], type[MAXV][16];
+    char id[MAXV][8], name[MAXV][48], type[MAXV][16];
     int width[MAXV];
     int nch;
     long long t[MAXC];

@@ -333,9 +333,11 @@ int pm_runner_host_costs(const pm_runner_config *cfg, uint32_t pu_a, uint32_t pu
     if (rounds < 10 || cfg->block < 1 || cfg->block > PM_KERNEL_MAX_BLOCK)
         return PM_EINVAL;
     out->pinned = cfg->topo != NULL;
-    int rc = host_dispatch(cfg, pu_a, rounds, out);
+    pm_runner_config own = *cfg;
+    own.pace = NULL; /* the calibration graphs are the runner's own: never paced */
+    int rc = host_dispatch(&own, pu_a, rounds, out);
     if (rc == PM_OK && pu_b != PM_NONE)
-        rc = host_transfers(cfg, pu_a, pu_b, rounds, out);
+        rc = host_transfers(&own, pu_a, pu_b, rounds, out);
     if (cfg->topo)
         (void)pm_topo_bind_thread(cfg->topo, pu_a); /* the caller goes on from pu_a */
     return rc;
