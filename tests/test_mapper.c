@@ -9,15 +9,8 @@
  * self-timed period is the smallest busiest-core occupancy (mapper.h):
  * every core's round is a cycle of the IPC graph with one delay (so the
  * period is at least each core's occupancy), and lags taken from a
- * periodic schedule of that period reach it.  The program:
- *   min T  s.t.  sum_c x[v,c] = 1                      (each node once)
- *                s[e,c] >= x[u,c] - x[v,c]  (edge e = u -> v leaves c)
- *                r[e,c] >= x[v,c] - x[u,c]  (edge e enters c)
- *                T >= sum_v t(v) x[v,c] + send sum_e s[e,c] + recv sum_e r[e,c]
- *                x[v,c] = 0 for c > v  (identical cores: relabelling)
- *                P T >= sum_v t(v)    (implied; it only helps the solver)
- * x binary, s and r in [0, 1]; minimising T pushes s and r down to the
- * cut indicators wherever they bind.
+ * periodic schedule of that period reach it.  The program is
+ * tk_write_occupancy_lp's (tests/support/testkit.h gives it).
  *
  * Checks: (a) on 44 random graphs (those glpsol settles within its
  * time limit of 2 s, at least 40, are compared) of 10-25 nodes, 2-4 cores
@@ -48,61 +41,11 @@
 #include "sched_testlib.h"
 #include "support/testkit.h"
 
-static void write_program(FILE *f, const pm_graph *g)
-{
-    uint32_t n = g->nnodes, P = g->platform.ncores;
-    const pm_comm *cm = &g->platform.comm;
-    fprintf(f, "Minimize\n obj: T\nSubject To\n");
-    for (uint32_t v = 0; v < n; v++) {
-        fprintf(f, " one%u:", v);
-        for (uint32_t c = 0; c < P; c++)
-            fprintf(f, " + x%u_%u", v, c);
-        fprintf(f, " = 1\n");
-    }
-    for (uint32_t e = 0; e < g->nedges; e++)
-        for (uint32_t c = 0; c < P; c++) {
-            uint32_t u = g->edges[e].src, v = g->edges[e].dst;
-            fprintf(f, " so%u_%u: s%u_%u - x%u_%u + x%u_%u >= 0\n", e, c, e, c, u, c, v, c);
-            fprintf(f, " ri%u_%u: r%u_%u - x%u_%u + x%u_%u >= 0\n", e, c, e, c, v, c, u, c);
-        }
-    for (uint32_t c = 0; c < P; c++) {
-        fprintf(f, " core%u: T", c);
-        for (uint32_t v = 0; v < n; v++)
-            fprintf(f, " - %lld x%u_%u", (long long)g->nodes[v].cycles, v, c);
-        for (uint32_t e = 0; e < g->nedges; e++)
-            fprintf(f, " - %lld s%u_%u - %lld r%u_%u", (long long)cm->send, e, c,
-                    (long long)cm->recv, e, c);
-        fprintf(f, " >= 0\n");
-    }
-    /* a valid cut that helps the solver: the cores share at least the work */
-    long long work = 0;
-    for (uint32_t v = 0; v < n; v++)
-        work += g->nodes[v].cycles;
-    fprintf(f, " work: %u T >= %lld\n", P, work);
-    for (uint32_t v = 0; v < n; v++)
-        for (uint32_t c = v + 1; c < P; c++)
-            fprintf(f, " sym%u_%u: x%u_%u = 0\n", v, c, v, c);
-    fprintf(f, "Bounds\n");
-    for (uint32_t e = 0; e < g->nedges; e++)
-        for (uint32_t c = 0; c < P; c++)
-            fprintf(f, " 0 <= s%u_%u <= 1\n 0 <= r%u_%u <= 1\n", e, c, e, c);
-    fprintf(f, "Binary\n");
-    for (uint32_t v = 0; v < n; v++)
-        for (uint32_t c = 0; c < P; c++)
-            fprintf(f, " x%u_%u\n", v, c);
-    fprintf(f, "End\n");
-}
-
-static void write_program_ctx(FILE *f, const void *g)
-{
-    write_program(f, g);
-}
-
 /* glpsol's optimum, or -1 when it does not prove one in its time limit. */
 static long long glpk_optimum(const pm_graph *g)
 {
     double opt;
-    return tk_glpsol(write_program_ctx, g, 2, &opt) ? (long long)opt : -1;
+    return tk_glpsol(tk_write_occupancy_lp, g, 2, &opt) ? (long long)opt : -1;
 }
 
 /* A random graph without loops: edges from lower to higher ids, some with

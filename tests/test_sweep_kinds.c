@@ -302,55 +302,6 @@ static void test_never_grows(void **state)
 
 /* ---- the map floor against GLPK --------------------------------------------- */
 
-/* The smallest busiest-core occupancy over all maps of g on its identical
- * cores, as a 0/1 programme for GLPK's glpsol (Debian package glpk-utils):
- *   min T  s.t.  sum_c x[v,c] = 1;  s[e,c] >= x[u,c] - x[v,c] (e = u -> v
- *   leaves c);  r[e,c] >= x[v,c] - x[u,c] (e enters c);
- *   T >= sum_v t(v) x[v,c] + send sum_e s[e,c] + recv sum_e r[e,c];
- *   x[v,c] = 0 for c > v (cores are interchangeable).
- * Self-loops never cross cores and are left out. */
-static void write_occupancy(FILE *f, const void *ctx)
-{
-    const pm_graph *g = ctx;
-    uint32_t n = g->nnodes, P = g->platform.ncores;
-    const pm_comm *cm = &g->platform.comm;
-    fprintf(f, "Minimize\n obj: T\nSubject To\n");
-    for (uint32_t v = 0; v < n; v++) {
-        fprintf(f, " one%u:", v);
-        for (uint32_t c = 0; c < P; c++)
-            fprintf(f, " + x%u_%u", v, c);
-        fprintf(f, " = 1\n");
-    }
-    for (uint32_t e = 0; e < g->nedges; e++)
-        for (uint32_t c = 0; c < P && g->edges[e].src != g->edges[e].dst; c++) {
-            uint32_t u = g->edges[e].src, v = g->edges[e].dst;
-            fprintf(f, " so%u_%u: s%u_%u - x%u_%u + x%u_%u >= 0\n", e, c, e, c, u, c, v, c);
-            fprintf(f, " ri%u_%u: r%u_%u - x%u_%u + x%u_%u >= 0\n", e, c, e, c, v, c, u, c);
-        }
-    for (uint32_t c = 0; c < P; c++) {
-        fprintf(f, " core%u: T", c);
-        for (uint32_t v = 0; v < n; v++)
-            fprintf(f, " - %lld x%u_%u", (long long)g->nodes[v].cycles, v, c);
-        for (uint32_t e = 0; e < g->nedges; e++)
-            if (g->edges[e].src != g->edges[e].dst)
-                fprintf(f, " - %lld s%u_%u - %lld r%u_%u", (long long)cm->send, e, c,
-                        (long long)cm->recv, e, c);
-        fprintf(f, " >= 0\n");
-    }
-    for (uint32_t v = 0; v < n; v++)
-        for (uint32_t c = v + 1; c < P; c++)
-            fprintf(f, " sym%u_%u: x%u_%u = 0\n", v, c, v, c);
-    fprintf(f, "Bounds\n");
-    for (uint32_t e = 0; e < g->nedges; e++)
-        for (uint32_t c = 0; c < P && g->edges[e].src != g->edges[e].dst; c++)
-            fprintf(f, " 0 <= s%u_%u <= 1\n 0 <= r%u_%u <= 1\n", e, c, e, c);
-    fprintf(f, "Binary\n");
-    for (uint32_t v = 0; v < n; v++)
-        for (uint32_t c = 0; c < P; c++)
-            fprintf(f, " x%u_%u\n", v, c);
-    fprintf(f, "End\n");
-}
-
 /* On 30 small random graphs without loops at P = 2 and 3, where the best
  * period of any map (lags allowed) is the best busiest-core occupancy
  * (include/pacemap/mapper.h gives the argument), which glpsol proves:
@@ -375,7 +326,7 @@ static void test_map_floor_against_glpk(void **state)
             assert_int_equal(pm_plan_set_procs(&(pm_plan){.graph = g, .source = g}, p->procs,
                                                NULL), PM_OK);
             double opt;
-            assert_true(tk_glpsol(write_occupancy, g, 10, &opt));
+            assert_true(tk_glpsol(tk_write_occupancy_lp, g, 10, &opt));
             assert_true(pm_rat_to_double(p->floors.map_floor) <= opt + 1e-6);
             assert_true(pm_rat_cmp(p->floors.map_floor, p->period) <= 0 || !p->steady);
             if (p->floor_searched) {

@@ -118,3 +118,60 @@ bool tk_glpsol(void (*write)(FILE *f, const void *ctx), const void *ctx, unsigne
     remove(lp);
     return optimal && have;
 }
+
+static bool tk_crosses(const pm_edge *e)
+{
+    return e->src != e->dst;
+}
+
+static void tk_write_occupancy_rows(FILE *f, const pm_graph *g)
+{
+    uint32_t n = g->nnodes, P = g->platform.ncores;
+    const pm_comm *cm = &g->platform.comm;
+    for (uint32_t v = 0; v < n; v++) {
+        fprintf(f, " one%u:", v);
+        for (uint32_t c = 0; c < P; c++)
+            fprintf(f, " + x%u_%u", v, c);
+        fprintf(f, " = 1\n");
+    }
+    for (uint32_t e = 0; e < g->nedges; e++)
+        for (uint32_t c = 0; c < P && tk_crosses(&g->edges[e]); c++) {
+            uint32_t u = g->edges[e].src, v = g->edges[e].dst;
+            fprintf(f, " so%u_%u: s%u_%u - x%u_%u + x%u_%u >= 0\n", e, c, e, c, u, c, v, c);
+            fprintf(f, " ri%u_%u: r%u_%u - x%u_%u + x%u_%u >= 0\n", e, c, e, c, v, c, u, c);
+        }
+    long long work = 0;
+    for (uint32_t c = 0; c < P; c++) {
+        fprintf(f, " core%u: T", c);
+        for (uint32_t v = 0; v < n; v++)
+            fprintf(f, " - %lld x%u_%u", (long long)g->nodes[v].cycles, v, c);
+        for (uint32_t e = 0; e < g->nedges; e++)
+            if (tk_crosses(&g->edges[e]))
+                fprintf(f, " - %lld s%u_%u - %lld r%u_%u", (long long)cm->send, e, c,
+                        (long long)cm->recv, e, c);
+        fprintf(f, " >= 0\n");
+    }
+    for (uint32_t v = 0; v < n; v++)
+        work += g->nodes[v].cycles;
+    fprintf(f, " work: %u T >= %lld\n", P, work);
+    for (uint32_t v = 0; v < n; v++)
+        for (uint32_t c = v + 1; c < P; c++)
+            fprintf(f, " sym%u_%u: x%u_%u = 0\n", v, c, v, c);
+}
+
+void tk_write_occupancy_lp(FILE *f, const void *ctx)
+{
+    const pm_graph *g = ctx;
+    uint32_t n = g->nnodes, P = g->platform.ncores;
+    fprintf(f, "Minimize\n obj: T\nSubject To\n");
+    tk_write_occupancy_rows(f, g);
+    fprintf(f, "Bounds\n");
+    for (uint32_t e = 0; e < g->nedges; e++)
+        for (uint32_t c = 0; c < P && tk_crosses(&g->edges[e]); c++)
+            fprintf(f, " 0 <= s%u_%u <= 1\n 0 <= r%u_%u <= 1\n", e, c, e, c);
+    fprintf(f, "Binary\n");
+    for (uint32_t v = 0; v < n; v++)
+        for (uint32_t c = 0; c < P; c++)
+            fprintf(f, " x%u_%u\n", v, c);
+    fprintf(f, "End\n");
+}

@@ -10,6 +10,7 @@
 #include <stdint.h>
 #include <stdio.h>
 
+#include "pacemap/graph.h"
 #include "pacemap/map.h"
 
 /* The one random generator of the tests and the bench helpers: the next
@@ -35,6 +36,21 @@ pm_map *tk_random_map(uint64_t *state, uint32_t n, uint32_t procs, uint32_t shuf
  * is OPTIMAL or INTEGER OPTIMAL (not NON-OPTIMAL, not a time-out). */
 bool tk_glpsol(void (*write)(FILE *f, const void *ctx), const void *ctx, unsigned tmlim,
                double *opt);
+
+/* For tk_glpsol (ctx: a const pm_graph *): the smallest busiest-core
+ * occupancy over all maps of a graph on its identical cores, as a 0/1
+ * program in CPLEX LP form.  For a graph without loops, with point-to-point
+ * links and lags allowed, that is the best self-timed period (mapper.h).
+ *   min T  s.t.  sum_c x[v,c] = 1                      (each node once)
+ *                s[e,c] >= x[u,c] - x[v,c]  (edge e = u -> v leaves c)
+ *                r[e,c] >= x[v,c] - x[u,c]  (edge e enters c)
+ *                T >= sum_v t(v) x[v,c] + send sum_e s[e,c] + recv sum_e r[e,c]
+ *                x[v,c] = 0 for c > v  (identical cores: relabelling)
+ *                P T >= sum_v t(v)    (implied; it only helps the solver)
+ * x binary, s and r in [0, 1]; minimising T pushes s and r down to the cut
+ * indicators wherever they bind.  Self-loops never cross cores and are
+ * left out. */
+void tk_write_occupancy_lp(FILE *f, const void *ctx);
 
 /* $PM_HELPERS, or build/tests/helpers. */
 const char *tk_helper_dir(void);
