@@ -54,30 +54,6 @@ typedef struct tcase {
     int rc;
 } tcase;
 
-static pm_graph *random_graph(uint32_t n, uint32_t procs)
-{
-    pm_graph *g = pm_graph_create("random");
-    assert_non_null(g);
-    assert_int_equal(pm_graph_set_cores(g, 1, NULL, &procs), PM_OK);
-    for (uint32_t v = 0; v < n; v++) {
-        char name[16];
-        snprintf(name, sizeof name, "n%u", v);
-        assert_int_equal(pm_graph_add_node(g, name, strlen(name), rnd(15), NULL), PM_OK);
-    }
-    g->platform.comm = (pm_comm){ rnd(8), rnd(3), rnd(3), rnd(3) };
-    uint32_t ne = rnd(2 * n + 1);
-    for (uint32_t i = 0; i < ne; i++) {
-        uint32_t u = rnd(n), v = rnd(n);
-        pm_edge e = pm_graph_edge_default(u, v);
-        e.words = 1 + rnd(4);
-        /* forward edges may carry no delay; others need one (no zero-delay loop) */
-        e.delay = u < v ? (rnd(3) == 0 ? 1 + rnd(2) : 0) : 1 + rnd(3);
-        assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
-    }
-    assert_int_equal(pm_graph_finalize(g), PM_OK);
-    return g;
-}
-
 static pm_map *random_map(uint32_t n, uint32_t procs)
 {
     return tk_random_map(&rng_state, n, procs, 4);
@@ -168,7 +144,7 @@ static void run_cases(tcase *cs, int *ok_cases)
     for (int i = 0; i < CASES; i++) {
         uint32_t n = 1 + rnd(MAXN), procs = 1 + rnd(4);
         tcase *tc = &cs[i];
-        tc->g = random_graph(n, procs);
+        tc->g = tk_random_sim_graph(&rng_state, n, procs);
         tc->m = random_map(n, procs);
         tc->fifo = rnd(3) == 0 ? 1 + rnd(3) : 0;
         pm_sim_opts o = { .iterations = 1500, .fifo_cap = tc->fifo };

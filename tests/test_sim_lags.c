@@ -40,47 +40,6 @@ static uint32_t rnd(uint32_t n)
     return tk_rand(&rng_state, n);
 }
 
-static pm_graph *random_graph(uint32_t n, uint32_t procs)
-{
-    pm_graph *g = pm_graph_create("random");
-    assert_non_null(g);
-    assert_int_equal(pm_graph_set_cores(g, 1, NULL, &procs), PM_OK);
-    for (uint32_t v = 0; v < n; v++) {
-        char name[16];
-        snprintf(name, sizeof name, "n%u", v);
-        assert_int_equal(pm_graph_add_node(g, name, strlen(name), rnd(15), NULL), PM_OK);
-    }
-    g->platform.comm = (pm_comm){ rnd(8), rnd(3), rnd(3), rnd(3) };
-    uint32_t ne = rnd(2 * n + 1);
-    for (uint32_t i = 0; i < ne; i++) {
-        uint32_t u = rnd(n), v = rnd(n);
-        pm_edge e = pm_graph_edge_default(u, v);
-        e.words = 1 + rnd(4);
-        e.delay = u < v ? (rnd(3) == 0 ? 1 + rnd(2) : 0) : 1 + rnd(3);
-        assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
-    }
-    assert_int_equal(pm_graph_finalize(g), PM_OK);
-    return g;
-}
-
-/* Random lags 0..3, then raised until every edge keeps d + lag[v] -
- * lag[u] >= 0 (every loop has a delay, so this settles). */
-static void random_lags(const pm_graph *g, pm_map *m)
-{
-    for (uint32_t v = 0; v < g->nnodes; v++)
-        m->lag[v] = rnd(4);
-    for (bool again = true; again;) {
-        again = false;
-        for (uint32_t e = 0; e < g->nedges; e++) {
-            const pm_edge *ed = &g->edges[e];
-            if (ed->delay + m->lag[ed->dst] < m->lag[ed->src]) {
-                m->lag[ed->dst] = m->lag[ed->src] - (uint32_t)ed->delay;
-                again = true;
-            }
-        }
-    }
-}
-
 static int64_t retimed(const pm_map *m, const pm_edge *ed)
 {
     return ed->delay + (int64_t)m->lag[ed->dst] - (int64_t)m->lag[ed->src];
@@ -163,9 +122,11 @@ static void run_cases(tcase *cs, int *lagged)
     for (int i = 0; i < CASES; i++) {
         uint32_t n = 1 + rnd(MAXN), procs = 1 + rnd(4);
         tcase *tc = &cs[i];
-        tc->g = random_graph(n, procs);
+        tc->g = tk_random_sim_graph(&rng_state, n, procs);
         tc->m = tk_random_map(&rng_state, n, procs, 4);
-        random_lags(tc->g, tc->m);
+        for (uint32_t v = 0; v < n; v++) /* lags 0..3, raised until valid */
+            tc->m->lag[v] = rnd(4);
+        tk_raise_lags(tc->g, tc->m);
         *lagged += pm_map_has_lags(tc->m);
         tc->fifo = rnd(3) == 0 ? 1 + rnd(3) : 0;
         pm_sim_opts o = { .iterations = 1500, .fifo_cap = tc->fifo };

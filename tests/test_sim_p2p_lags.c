@@ -92,16 +92,7 @@ static pm_map *mk_lagged_map(const pm_graph *g, uint32_t procs)
     assert_int_equal(pm_map_create(procs, g->nnodes, ptr, counts, &m), PM_OK);
     for (uint32_t v = 0; v < g->nnodes; v++)
         m->lag[v] = rnd(4);
-    for (bool again = true; again;) {
-        again = false;
-        for (uint32_t e = 0; e < g->nedges; e++) {
-            const pm_edge *ed = &g->edges[e];
-            if (ed->delay + m->lag[ed->dst] < m->lag[ed->src]) {
-                m->lag[ed->dst] = m->lag[ed->src] - (uint32_t)ed->delay;
-                again = true;
-            }
-        }
-    }
+    tk_raise_lags(g, m);
     return m;
 }
 

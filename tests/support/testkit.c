@@ -175,3 +175,45 @@ void tk_write_occupancy_lp(FILE *f, const void *ctx)
             fprintf(f, " x%u_%u\n", v, c);
     fprintf(f, "End\n");
 }
+
+pm_graph *tk_random_sim_graph(uint64_t *state, uint32_t n, uint32_t procs)
+{
+    pm_graph *g = pm_graph_create("random");
+    assert_non_null(g);
+    assert_int_equal(pm_graph_set_cores(g, 1, NULL, &procs), PM_OK);
+    for (uint32_t v = 0; v < n; v++) {
+        char name[16];
+        snprintf(name, sizeof name, "n%u", v);
+        assert_int_equal(pm_graph_add_node(g, name, strlen(name), tk_rand(state, 15), NULL),
+                         PM_OK);
+    }
+    /* drawn one by one: initialiser order is unspecified in C */
+    uint32_t latency = tk_rand(state, 8), per_word = tk_rand(state, 3);
+    uint32_t send = tk_rand(state, 3), recv = tk_rand(state, 3);
+    g->platform.comm = (pm_comm){ latency, per_word, send, recv };
+    uint32_t ne = tk_rand(state, 2 * n + 1);
+    for (uint32_t i = 0; i < ne; i++) {
+        uint32_t u = tk_rand(state, n), v = tk_rand(state, n);
+        pm_edge e = pm_graph_edge_default(u, v);
+        e.words = 1 + tk_rand(state, 4);
+        e.delay = u < v ? (tk_rand(state, 3) == 0 ? 1 + tk_rand(state, 2) : 0)
+                        : 1 + tk_rand(state, 3);
+        assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);
+    }
+    assert_int_equal(pm_graph_finalize(g), PM_OK);
+    return g;
+}
+
+void tk_raise_lags(const pm_graph *g, pm_map *m)
+{
+    for (bool again = true; again;) {
+        again = false;
+        for (uint32_t e = 0; e < g->nedges; e++) {
+            const pm_edge *ed = &g->edges[e];
+            if (ed->delay + m->lag[ed->dst] < m->lag[ed->src]) {
+                m->lag[ed->dst] = m->lag[ed->src] - (uint32_t)ed->delay;
+                again = true;
+            }
+        }
+    }
+}

@@ -30,6 +30,16 @@ static inline uint32_t tk_rand(uint64_t *state, uint32_t n)
  * random shuffle, which may deadlock.  Asserts on failure. */
 pm_map *tk_random_map(uint64_t *state, uint32_t n, uint32_t procs, uint32_t shuffle_one_in);
 
+/* n nodes of 0..14 cycles on `procs` identical cores, random costs
+ * (latency 0..7, per word, send, receive 0..2) and up to 2n random edges of
+ * 1..4 words: forward edges (lower to higher id) carry 0..2 delays, the
+ * others 1..3, so every loop has a delay.  Asserts on failure. */
+pm_graph *tk_random_sim_graph(uint64_t *state, uint32_t n, uint32_t procs);
+
+/* Raise lags until every edge keeps delay + lag[dst] - lag[src] >= 0 (it
+ * settles when every loop has a delay). */
+void tk_raise_lags(const pm_graph *g, pm_map *m);
+
 /* GLPK's glpsol as an outside reference: write(f, ctx) writes a model in
  * CPLEX LP form to a temporary file, glpsol solves it (tmlim seconds, 0 =
  * no limit) and *opt gets the objective.  True only when glpsol's status
