@@ -201,15 +201,9 @@ static pm_edge balanced_edge(const uint32_t *q, uint32_t u, uint32_t v)
  * self-loops close loops). */
 static pm_graph *random_sdf(uint32_t n, uint32_t procs, const uint32_t *q)
 {
-    pm_graph *g = pm_graph_create("random");
-    assert_non_null(g);
-    assert_int_equal(pm_graph_set_cores(g, 1, NULL, &procs), PM_OK);
-    for (uint32_t v = 0; v < n; v++) {
-        char name[16];
-        snprintf(name, sizeof name, "n%u", v);
-        assert_int_equal(pm_graph_add_node(g, name, strlen(name), rnd(16), NULL), PM_OK);
-    }
-    g->platform.comm = (pm_comm){ rnd(8), rnd(3), 0, 0 };
+    pm_graph *g = tk_random_nodes(&rng_state, n, procs, 16);
+    uint32_t latency = rnd(8), per_word = rnd(3);
+    g->platform.comm = (pm_comm){ latency, per_word, 0, 0 };
     for (uint32_t v = 1; v < n; v++) {
         pm_edge e = balanced_edge(q, rnd(v), v);
         assert_int_equal(pm_graph_add_edge(g, &e, NULL), PM_OK);

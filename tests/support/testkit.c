@@ -176,7 +176,7 @@ void tk_write_occupancy_lp(FILE *f, const void *ctx)
     fprintf(f, "End\n");
 }
 
-pm_graph *tk_random_sim_graph(uint64_t *state, uint32_t n, uint32_t procs)
+pm_graph *tk_random_nodes(uint64_t *state, uint32_t n, uint32_t procs, uint32_t cycles_below)
 {
     pm_graph *g = pm_graph_create("random");
     assert_non_null(g);
@@ -184,9 +184,15 @@ pm_graph *tk_random_sim_graph(uint64_t *state, uint32_t n, uint32_t procs)
     for (uint32_t v = 0; v < n; v++) {
         char name[16];
         snprintf(name, sizeof name, "n%u", v);
-        assert_int_equal(pm_graph_add_node(g, name, strlen(name), tk_rand(state, 15), NULL),
-                         PM_OK);
+        uint32_t cycles = tk_rand(state, cycles_below);
+        assert_int_equal(pm_graph_add_node(g, name, strlen(name), cycles, NULL), PM_OK);
     }
+    return g;
+}
+
+pm_graph *tk_random_sim_graph(uint64_t *state, uint32_t n, uint32_t procs)
+{
+    pm_graph *g = tk_random_nodes(state, n, procs, 15);
     /* drawn one by one: initialiser order is unspecified in C */
     uint32_t latency = tk_rand(state, 8), per_word = tk_rand(state, 3);
     uint32_t send = tk_rand(state, 3), recv = tk_rand(state, 3);

@@ -30,6 +30,10 @@ static inline uint32_t tk_rand(uint64_t *state, uint32_t n)
  * random shuffle, which may deadlock.  Asserts on failure. */
 pm_map *tk_random_map(uint64_t *state, uint32_t n, uint32_t procs, uint32_t shuffle_one_in);
 
+/* A graph "random" on `procs` identical cores, not finalised, with nodes
+ * n0..n<n-1> of 0..cycles_below-1 cycles each.  Asserts on failure. */
+pm_graph *tk_random_nodes(uint64_t *state, uint32_t n, uint32_t procs, uint32_t cycles_below);
+
 /* n nodes of 0..14 cycles on `procs` identical cores, random costs
  * (latency 0..7, per word, send, receive 0..2) and up to 2n random edges of
  * 1..4 words: forward edges (lower to higher id) carry 0..2 delays, the
